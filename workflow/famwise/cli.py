@@ -1,0 +1,261 @@
+"""The ``famwise`` command: check, run, demo, init, bench.
+
+Exit status: 0 on success, 2 on a user error (one clear message, no
+traceback; ``--debug`` shows it), 1 on an internal error.
+"""
+
+import argparse
+import os
+import signal
+import subprocess
+import sys
+import time
+import traceback
+from importlib import resources
+from pathlib import Path
+
+from famwise import __version__
+from famwise.errors import UserError
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = _parser()
+    args, extra = parser.parse_known_args(argv)
+    if extra and args.command != "run":
+        parser.error(f"unrecognized arguments: {' '.join(extra)}")
+    args.snakemake_args = [a for a in extra if a != "--"]
+    try:
+        return args.handler(args) or 0
+    except UserError as error:
+        if args.debug:
+            traceback.print_exc()
+        print(f"famwise: error: {error}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("famwise: interrupted", file=sys.stderr)
+        return 130
+    except Exception:
+        traceback.print_exc()
+        print("famwise: internal error (the traceback above helps us fix it)", file=sys.stderr)
+        return 1
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="famwise", description="Corrected group statistics for EEG time-frequency data from one study spec.")
+    parser.add_argument("--version", action="version", version=f"famwise {__version__}")
+    parser.add_argument("--debug", action="store_true", help="show tracebacks of user errors")
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    check = commands.add_parser("check", help="validate a spec and show what would run and why")
+    check.add_argument("spec", type=Path)
+    check.set_defaults(handler=command_check)
+
+    run = commands.add_parser("run", help="run a study (only what changed reruns); extra arguments after -- go to Snakemake")
+    run.add_argument("spec", type=Path)
+    run.add_argument("--cores", type=int, default=os.cpu_count() or 1, help="cores to use (default: all)")
+    run.add_argument("--profile", type=Path, help="Snakemake profile folder, e.g. configs/profiles/slurm")
+    run.set_defaults(handler=command_run)
+
+    demo = commands.add_parser("demo", help="write the example study's data and run it")
+    demo.add_argument("folder", type=Path, nargs="?", default=Path("famwise-demo"))
+    demo.add_argument("--cores", type=int, default=os.cpu_count() or 1)
+    demo.set_defaults(handler=command_demo)
+
+    init = commands.add_parser("init", help="write a commented starter spec from the data found in a folder")
+    init.add_argument("data", type=Path)
+    init.add_argument("--out", type=Path, help="spec file to write (default: study.yaml beside the data folder)")
+    init.set_defaults(handler=command_init)
+
+    bench = commands.add_parser("bench", help="time famwise's kernels against the naive reference implementations")
+    bench.add_argument("--quick", action="store_true", help="smaller sizes (under 2 minutes)")
+    bench.add_argument("--json", type=Path, help="also write the table as JSON")
+    bench.set_defaults(handler=command_bench)
+    return parser
+
+
+# ---- check ----------------------------------------------------------------------
+
+
+def command_check(args) -> int:
+    from famwise.plan import Plan
+    from famwise.summary import describe_plan
+
+    plan = Plan.from_spec(args.spec)
+    print(describe_plan(plan))
+    print()
+    print("What would run and why:")
+    code, lines = _snakemake(plan, ["--dry-run", "--cores", "1"], capture=True)
+    if code != 0:
+        raise UserError(_job_error(plan, 0.0) or "Snakemake could not plan the run:\n" + "\n".join(lines[-15:]))
+    print("\n".join(_dry_run_summary(lines)))
+    return 0
+
+
+def _dry_run_summary(lines: list[str]) -> list[str]:
+    """Job counts per rule and the reasons, from Snakemake's dry-run output."""
+    counts, reasons, rule = {}, {}, None
+    for line in lines:
+        text = line.strip()
+        if text.startswith("rule ") and text.endswith(":"):
+            rule = text[5:-1]
+            counts[rule] = counts.get(rule, 0) + 1
+        elif text.startswith("localrule ") and text.endswith(":"):
+            rule = text[10:-1]
+            counts[rule] = counts.get(rule, 0) + 1
+        elif text.startswith("reason:") and rule:
+            reasons.setdefault(rule, set()).add(text[7:].strip().split(";")[0])
+    if not counts or set(counts) == {"all"}:
+        return ["  nothing: every result is up to date"]
+    out = []
+    for rule, count in counts.items():
+        if rule == "all":
+            continue
+        why = "; ".join(sorted(reasons.get(rule, [])))[:160]
+        out.append(f"  {count:4d} x {rule:<16} {why}")
+    return out
+
+
+# ---- run --------------------------------------------------------------------------
+
+
+def command_run(args) -> int:
+    from famwise.plan import Plan
+
+    plan = Plan.from_spec(args.spec)
+    options = ["--cores", str(args.cores)]
+    if args.profile:
+        if not args.profile.is_dir():
+            raise UserError(f"--profile {args.profile}: no such profile folder")
+        options += ["--profile", str(args.profile.resolve())]
+    started = time.time()
+    print(f"famwise {__version__}: {plan.study.name}: {len(plan.subjects)} subjects, "
+          f"{len(plan.study.contrasts)} contrast(s), {len(plan.study.inference.corrections)} correction(s) -> {plan.loaded.output}")
+    code, _ = _snakemake(plan, options + args.snakemake_args, capture=False)
+    if code == 0:
+        print(f"famwise: done in {time.time() - started:.1f} s; report: {plan.loaded.output / 'report' / 'index.html'}")
+        return 0
+    message = _job_error(plan, started)
+    if message:
+        raise UserError(message)
+    print(f"famwise: the run failed; see the logs under {plan.loaded.output / 'logs'}", file=sys.stderr)
+    return 1
+
+
+def workflow_entry() -> Path:
+    """The packaged workflow entry (``rules/main.smk``)."""
+    return Path(str(resources.files("famwise.rules") / "main.smk"))
+
+
+def _snakemake(plan, options: list[str], *, capture: bool) -> tuple[int, list[str]]:
+    """Run Snakemake in a subprocess; Ctrl-C reaches it as SIGINT and we wait for it."""
+    output = plan.loaded.output
+    output.mkdir(parents=True, exist_ok=True)
+    _clear_stale_lock(output)
+    command = [
+        sys.executable, "-m", "snakemake", "--snakefile", str(workflow_entry()), "--directory", str(output),
+        "--config", f"spec={plan.loaded.path}", "--rerun-incomplete", "--nocolor", *options,
+    ]
+    pidfile = output / ".famwise-run.pid"
+    pidfile.write_text(str(os.getpid()))
+    lines: list[str] = []
+    process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True, bufsize=1)
+    try:
+        while True:
+            try:
+                for line in process.stdout:
+                    lines.append(line.rstrip("\n"))
+                    if not capture:
+                        _show(line)
+                process.wait()
+                break
+            except KeyboardInterrupt:
+                process.send_signal(signal.SIGINT)
+                print("famwise: stopping (waiting for Snakemake to clean up) ...", file=sys.stderr)
+    finally:
+        pidfile.unlink(missing_ok=True)
+    return process.returncode, lines
+
+
+_QUIET_PREFIXES = ("Building DAG", "Using shell", "Provided cores", "Rules claiming", "Select jobs", "Execute ",
+                   "Job stats", "job ", "total ", "---", "host:", "Assuming", "Complete log", "Nothing to be done",
+                   "Multi", "Conda", "Singularity", "This was a dry-run", "Provided resources", "Resources before")
+
+
+def _show(line: str) -> None:
+    """Pass on Snakemake's progress lines and job starts, quietly."""
+    text = line.strip()
+    if not text or text.startswith(_QUIET_PREFIXES) or text[0].isdigit() and "\t" in text:
+        return
+    if text.startswith(("rule ", "localrule ")):
+        print(f"  - {text.split()[1].rstrip(':')}", flush=True)
+    elif "steps (" in text and "done" in text:
+        print(f"    {text}", flush=True)
+    elif text.startswith(("Error", "MissingInput", "WorkflowError", "Exiting", "Removing output")):
+        print(f"    {text}", flush=True)
+
+
+def _clear_stale_lock(output: Path) -> None:
+    """Remove Snakemake's lock when no live famwise run holds it (e.g. after a killed run)."""
+    locks = output / ".snakemake" / "locks"
+    if not locks.is_dir() or not any(locks.iterdir()):
+        return
+    pidfile = output / ".famwise-run.pid"
+    if pidfile.exists():
+        try:
+            pid = int(pidfile.read_text())
+            os.kill(pid, 0)
+            if pid != os.getpid():
+                raise UserError(f"another famwise run (process {pid}) is using {output}; wait for it or stop it")
+        except (ValueError, ProcessLookupError, PermissionError):
+            pass
+    for lock in locks.iterdir():
+        lock.unlink()
+    print(f"famwise: cleared a stale lock left in {output} by an interrupted run", file=sys.stderr)
+
+
+def _job_error(plan, since: float) -> str | None:
+    """The first ``famwise: error:`` line written by a job since ``since``."""
+    logs = plan.loaded.output / "logs"
+    found = []
+    for log in logs.rglob("*.log") if logs.is_dir() else []:
+        if log.stat().st_mtime < since - 1:
+            continue
+        for line in log.read_text(errors="replace").splitlines():
+            if line.startswith("famwise: error: "):
+                found.append((log.stat().st_mtime, line[len("famwise: error: "):]))
+                break
+    return min(found)[1] if found else None
+
+
+# ---- demo / init --------------------------------------------------------------------
+
+
+def command_demo(args) -> int:
+    from famwise.demo import write_demo
+
+    spec = write_demo(args.folder)
+    print(f"famwise: wrote the example study's data to {args.folder}; running {spec}")
+    run_args = argparse.Namespace(spec=spec, cores=args.cores, profile=None, snakemake_args=[], debug=args.debug)
+    return command_run(run_args)
+
+
+def command_init(args) -> int:
+    from famwise.starter import write_starter_spec
+
+    out = args.out or args.data.resolve().parent / "study.yaml"
+    write_starter_spec(args.data, out)
+    print(f"famwise: wrote {out}; edit it, then: famwise check {out}")
+    return 0
+
+
+# ---- bench ---------------------------------------------------------------------------
+
+
+def command_bench(args) -> int:
+    from famwise.benchmarks.run import run_benchmarks
+
+    return run_benchmarks(quick=args.quick, json_path=args.json)
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,1 @@
+"""Corrections for multiple comparisons."""

@@ -1,0 +1,149 @@
+"""Correction stage: observed statistics and merged null shards -> one correction's result.
+
+With ``family: all-contrasts`` every contrast's points form one family: the
+p-value procedures count the points of all contrasts, and the max-statistic,
+cluster and TFCE nulls take the largest value over contrasts per permutation
+(all contrasts share the permutation table).
+"""
+
+import json
+from pathlib import Path
+
+import numpy as np
+
+from famwise.collectors import merge_shard_arrays
+from famwise.correct import clusters, maxstat, pvalues, tfce
+from famwise.correct.result import CorrectionResult
+from famwise.errors import UserError
+from famwise.io import save_npz
+
+
+def _load(path: Path) -> dict[str, np.ndarray]:
+    with np.load(path, allow_pickle=False) as archive:
+        return {key: archive[key] for key in archive.files}
+
+
+def _contrast_of(path: Path) -> str:
+    return path.parts[path.parts.index("contrasts") + 1]
+
+
+def _merged_nulls(files: list[Path]) -> tuple[dict[str, np.ndarray], int]:
+    shards = [_load(f) for f in sorted(files, key=lambda p: int(p.stem.split("-")[1]))]
+    n_rows = int(shards[0]["n_rows.total"])
+    collected = [{k: v for k, v in s.items() if k not in ("rows", "n_rows.total")} for s in shards]
+    merged = merge_shard_arrays(collected)
+    return merged, n_rows
+
+
+def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tuple[CorrectionResult, tuple]:
+    """Run one correction for one contrast.
+
+    Parameters
+    ----------
+    inputs : list of path
+        ``contrasts/<c>/observed.npz`` and null shards of this contrast (of
+        every contrast for ``all-contrasts``), and ``channels/graph.npz`` for
+        cluster and TFCE corrections.
+    contrast : str
+        The contrast whose result is returned.
+    settings : dict
+        The correction's settings (see ``famwise.plan.Plan.correction_settings``).
+
+    Returns
+    -------
+    result : CorrectionResult
+    shape : tuple
+        (n_channels, n_freqs, n_times) of the contrast's points.
+    """
+    correction = settings["correction"]
+    method = correction["method"]
+    alpha = settings["alpha"]
+    observed, shards, graph = {}, {}, None
+    for path in inputs:
+        if path.name == "observed.npz":
+            observed[_contrast_of(path)] = _load(path)
+        elif path.name == "graph.npz":
+            graph = _load(path)
+        else:
+            shards.setdefault(_contrast_of(path), []).append(path)
+    names = [c for c in settings["contrasts"] if c in observed]
+    nulls = {name: _merged_nulls(files) for name, files in shards.items()}
+    if len({n for _, n in nulls.values()}) > 1:
+        raise UserError("inference.family: all-contrasts needs contrasts that share one permutation table (same test design and subjects)")
+    mine = observed[contrast]
+    shape = mine["stat"].shape
+    tail = str(mine["tail"])
+    key = correction["label"]
+
+    if method in pvalues.METHODS:
+        level = correction.get("level") or alpha
+        if correction["pvalues"] == "permutation":
+            ps = [nulls[c][0]["exceed.count"] / nulls[c][1] for c in names]
+        else:
+            ps = [observed[c]["p"].reshape(-1) for c in names]
+        sizes = [p.size for p in ps]
+        joint = pvalues.adjust(np.concatenate(ps), method=method, alpha=level)
+        result = _slice(joint, sizes, names.index(contrast))
+    elif method == "max-stat":
+        n_rows = nulls[contrast][1]
+        max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
+        stat = mine["stat"].reshape(-1)
+        if correction["step_down"]:
+            if len(names) > 1:
+                raise UserError("inference.family: step-down max-statistic over all contrasts is not available yet; use step_down: false or family: per-contrast")
+            result = maxstat.step_down(stat, nulls[contrast][0][f"{key}.count"], n_rows, tail=tail, alpha=alpha, max_null=max_null)
+        else:
+            result = maxstat.single_step(stat, max_null, tail=tail, alpha=alpha)
+    elif method in ("cluster", "tfce"):
+        max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
+        if graph is None:
+            indptr, indices = np.zeros(shape[0] + 1, np.int32), np.zeros(0, np.int32)
+        else:
+            indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
+        dims = tuple(correction["dims"])
+        if method == "cluster":
+            from famwise.nulls import cluster_threshold
+
+            result = clusters.cluster_inference(
+                mine["stat"], max_null, threshold=cluster_threshold(settings["forming"], mine), indptr=indptr, indices=indices,
+                dims=dims, cluster_stat=correction["cluster_stat"], min_neighbor_channels=correction["min_neighbor_channels"],
+                tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
+            )
+        else:
+            result = tfce.tfce_inference(
+                mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction["E"], H=correction["H"],
+                step=correction["step"], tail=tail, alpha=alpha,
+            )
+    else:
+        raise ValueError(f"unknown correction method {method!r}")
+    return result, shape
+
+
+def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionResult:
+    """This contrast's part of a correction applied to the concatenated points of several."""
+    start = sum(sizes[:index])
+    stop = start + sizes[index]
+    return CorrectionResult(
+        method=joint.method, p_corrected=joint.p_corrected[start:stop], mask=joint.mask[start:stop],
+        threshold=joint.threshold, threshold_kind=joint.threshold_kind, settings=joint.settings,
+    )
+
+
+def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings: dict) -> None:
+    """Write ``result.npz`` (and ``clusters.tsv`` + sidecar for cluster methods) atomically."""
+    arrays = {
+        "p_corrected": np.asarray(result.p_corrected, dtype=np.float64).reshape(shape),
+        "mask": np.asarray(result.mask, dtype=bool).reshape(shape),
+        "threshold": np.array(np.nan if result.threshold is None else result.threshold, dtype=np.float64),
+        "threshold_kind": result.threshold_kind,
+        "method": settings["correction"]["method"],
+        "settings": json.dumps(settings | {"result": result.settings}, default=float),
+        "n_significant": np.array(result.n_significant),
+    }
+    if result.null is not None:
+        arrays["null"] = np.asarray(result.null, dtype=np.float64)
+    for name, values in result.maps.items():
+        arrays[name] = np.asarray(values).reshape(shape)
+    if settings["correction"]["method"] == "cluster":
+        clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters)
+    save_npz(path, **arrays)

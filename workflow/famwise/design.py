@@ -1,0 +1,201 @@
+"""Contrasts: per-subject time-frequency maps -> the data one group test needs.
+
+The analysis restriction (channels, frequency band, time window) is applied
+here, so points outside it are neither tested nor counted in any family.
+"""
+
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+
+from famwise.errors import UserError
+from famwise.io import save_npz
+from famwise.spec.models import did_you_mean
+from famwise.timefreq import TimeFreqMaps, load_timefreq
+
+
+@dataclass(frozen=True)
+class ContrastData:
+    """The subject-level data of one contrast, restricted to the analysis region.
+
+    Attributes
+    ----------
+    x : ndarray, float32
+        (n_subjects, n_points) for one-sample, paired (differences A-B),
+        two-sample and correlation; (n_subjects, n_conditions, n_points) for
+        repeated measures. Points flatten (n_channels, n_freqs, n_times).
+    test : str
+        The spec's test name.
+    subjects : tuple of str
+    channels : tuple of str
+    freqs : ndarray, Hz
+    times : ndarray, s
+    groups : ndarray of int (n_subjects,) or None
+        0 for the first group, 1 for the second (two-sample).
+    covariate : ndarray of float (n_subjects,) or None
+        Per-subject covariate (correlation).
+    """
+
+    x: np.ndarray
+    test: str
+    subjects: tuple[str, ...]
+    channels: tuple[str, ...]
+    freqs: np.ndarray
+    times: np.ndarray
+    groups: np.ndarray | None = None
+    covariate: np.ndarray | None = None
+
+    @property
+    def shape(self) -> tuple[int, int, int]:
+        """(n_channels, n_freqs, n_times) of the tested points."""
+        return (len(self.channels), len(self.freqs), len(self.times))
+
+    def save(self, path: Path) -> None:
+        """Write ``contrasts/<c>/subjects.npz`` atomically."""
+        extra = {}
+        if self.groups is not None:
+            extra["groups"] = self.groups
+        if self.covariate is not None:
+            extra["covariate"] = self.covariate
+        save_npz(
+            path, x=self.x, test=self.test, subjects=np.array(self.subjects), channels=np.array(self.channels),
+            freqs=self.freqs, times=self.times, **extra,
+        )
+
+
+def load_contrast(path: Path) -> ContrastData:
+    """Read a file written by :meth:`ContrastData.save`."""
+    with np.load(path, allow_pickle=False) as archive:
+        return ContrastData(
+            x=archive["x"],
+            test=str(archive["test"]),
+            subjects=tuple(str(s) for s in archive["subjects"]),
+            channels=tuple(str(c) for c in archive["channels"]),
+            freqs=archive["freqs"],
+            times=archive["times"],
+            groups=archive["groups"] if "groups" in archive.files else None,
+            covariate=archive["covariate"] if "covariate" in archive.files else None,
+        )
+
+
+def build_contrast(
+    files: list[Path],
+    *,
+    subjects: list[str],
+    test: str,
+    conditions: list[str],
+    analysis: dict,
+    groups: list[int] | None = None,
+    covariate: list[float] | None = None,
+) -> ContrastData:
+    """Stack the subjects' maps for one contrast, restricted to the analysis region.
+
+    Parameters
+    ----------
+    files : list of path
+        ``tf/sub-<id>.npz`` of each subject, in the order of ``subjects``.
+    subjects : list of str
+    test : str
+        one-sample, paired, two-sample, repeated-measures or correlation.
+    conditions : list of str
+        The contrast's conditions (paired: first minus second).
+    analysis : dict
+        The spec's ``analysis`` section (time_ms, freq_hz, channels).
+    groups, covariate : list, optional
+        Group index (0/1) or covariate value of each subject.
+    """
+    maps = [load_timefreq(Path(f)) for f in files]
+    _check_consistent(maps, subjects)
+    first = maps[0]
+    channel_index = _channel_index(first.channels, analysis.get("channels"))
+    freq_index = _freq_index(first.freqs, analysis.get("freq_hz"))
+    time_index = _time_index(first.times, first.valid[freq_index], first.freqs[freq_index], analysis.get("time_ms"))
+    region = np.ix_(channel_index, freq_index, time_index)
+
+    def condition_values(tf: TimeFreqMaps, subject: str, name: str) -> np.ndarray:
+        if name not in tf.conditions:
+            raise UserError(f"subject {subject}: condition '{name}' has no maps (found: {', '.join(tf.conditions)})")
+        return tf.values[tf.conditions.index(name)][region].reshape(-1)
+
+    stacks = [np.stack([condition_values(tf, s, c) for c in conditions]) for tf, s in zip(maps, subjects)]
+    data = np.stack(stacks).astype(np.float64)  # (n, k, P)
+    if test == "paired":
+        x = data[:, 0] - data[:, 1]
+    elif test == "repeated-measures":
+        x = data
+    else:
+        x = data[:, 0]
+    return ContrastData(
+        x=np.ascontiguousarray(x, dtype=np.float32),
+        test=test,
+        subjects=tuple(subjects),
+        channels=tuple(first.channels[i] for i in channel_index),
+        freqs=first.freqs[freq_index],
+        times=first.times[time_index],
+        groups=None if groups is None else np.asarray(groups, dtype=np.int64),
+        covariate=None if covariate is None else np.asarray(covariate, dtype=np.float64),
+    )
+
+
+def _check_consistent(maps: list[TimeFreqMaps], subjects: list[str]) -> None:
+    first, reference = maps[0], subjects[0]
+    for tf, subject in zip(maps[1:], subjects[1:]):
+        if tf.channels != first.channels:
+            extra = sorted(set(tf.channels) - set(first.channels))
+            missing = sorted(set(first.channels) - set(tf.channels))
+            detail = f"extra: {', '.join(extra) or 'none'}; missing: {', '.join(missing) or 'none'}" if extra or missing else "same names in a different order"
+            raise UserError(f"subject {subject}: channels differ from subject {reference} ({detail})")
+        if tf.freqs.shape != first.freqs.shape or not np.allclose(tf.freqs, first.freqs):
+            raise UserError(f"subject {subject}: frequencies differ from subject {reference}")
+        if tf.times.shape != first.times.shape or not np.allclose(tf.times, first.times):
+            raise UserError(
+                f"subject {subject}: time grid differs from subject {reference} "
+                f"({tf.times[0]:.3f} to {tf.times[-1]:.3f} s in {tf.times.size} steps vs "
+                f"{first.times[0]:.3f} to {first.times[-1]:.3f} s in {first.times.size}; check sampling rates and epoch windows)"
+            )
+        if tf.measure != first.measure:
+            raise UserError(f"subject {subject}: measure '{tf.measure}' differs from subject {reference} ('{first.measure}')")
+
+
+def _channel_index(channels: tuple[str, ...], wanted: list[str] | None) -> np.ndarray:
+    if not wanted:
+        return np.arange(len(channels))
+    lookup = {c.lower(): i for i, c in enumerate(channels)}
+    index = []
+    for name in wanted:
+        if name.lower() not in lookup:
+            raise UserError(f"analysis.channels: unknown channel '{name}'{did_you_mean(name, channels)} (the data have {len(channels)} channels: {', '.join(channels[:12])}{', ...' if len(channels) > 12 else ''})")
+        index.append(lookup[name.lower()])
+    return np.array(index)
+
+
+def _freq_index(freqs: np.ndarray, band: list[float] | None) -> np.ndarray:
+    if band is None:
+        return np.arange(freqs.size)
+    index = np.flatnonzero((freqs >= band[0] - 1e-9) & (freqs <= band[1] + 1e-9))
+    if index.size == 0:
+        raise UserError(f"analysis.freq_hz: no decomposed frequency lies in [{band[0]}, {band[1]}] Hz (frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)")
+    return index
+
+
+def _time_index(times: np.ndarray, valid: np.ndarray, freqs: np.ndarray, window_ms: list[float] | None) -> np.ndarray:
+    """Time points of the analysis window; every cell must be free of edge effects."""
+    usable = valid.all(axis=0)
+    if not usable.any():
+        raise UserError(f"analysis: no time point is free of edge effects at {freqs.min():.3g} Hz; use longer epochs or shorter wavelets")
+    first, last = np.flatnonzero(usable)[[0, -1]]
+    fits = f"[{times[first] * 1e3:.0f}, {times[last] * 1e3:.0f}] ms"
+    if window_ms is None:
+        return np.arange(first, last + 1)
+    inside = (times >= window_ms[0] / 1e3 - 1e-9) & (times <= window_ms[1] / 1e3 + 1e-9)
+    index = np.flatnonzero(inside)
+    if index.size == 0:
+        raise UserError(f"analysis.time_ms: no time point lies in [{window_ms[0]}, {window_ms[1]}] ms (maps cover {times[0] * 1e3:.0f} to {times[-1] * 1e3:.0f} ms)")
+    if not usable[index].all():
+        worst = freqs[np.argmin(valid[:, index].sum(axis=1))]
+        raise UserError(
+            f"analysis.time_ms: [{window_ms[0]}, {window_ms[1]}] ms reaches into the edge-affected cells "
+            f"(cone of influence) at {worst:.3g} Hz; the widest window that fits is {fits}"
+        )
+    return index

@@ -1,0 +1,172 @@
+"""Reading subject inputs and writing results atomically.
+
+Epochs NPZ (``subjects.source: epochs``): keys ``data`` float (n_epochs,
+n_channels, n_times) in volts, ``sfreq`` (Hz), ``tmin`` (s), ``channels``
+(str, n_channels), ``conditions`` (str, n_epochs: the event label of each
+epoch), optional ``bad`` bool (n_epochs).
+"""
+
+import json
+import os
+import re
+import tempfile
+from collections.abc import Sequence
+from pathlib import Path
+
+import numpy as np
+
+from famwise.epochs import Epochs
+from famwise.errors import UserError
+
+
+def atomic_path(path: Path):
+    """A context manager yielding a temporary path beside ``path``; renamed onto it on success."""
+    return _AtomicPath(Path(path))
+
+
+class _AtomicPath:
+    def __init__(self, path: Path):
+        self.path = path
+
+    def __enter__(self) -> Path:
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        handle, name = tempfile.mkstemp(prefix=f".{self.path.name}.", suffix=self.path.suffix or ".tmp", dir=self.path.parent)
+        os.close(handle)
+        self.temporary = Path(name)
+        return self.temporary
+
+    def __exit__(self, kind, value, traceback):
+        if kind is None:
+            os.replace(self.temporary, self.path)
+        else:
+            self.temporary.unlink(missing_ok=True)
+        return False
+
+
+def save_npz(path: Path, **arrays) -> None:
+    """Write an uncompressed NPZ atomically (no partial file after a failure)."""
+    with atomic_path(path) as temporary:
+        with open(temporary, "wb") as handle:
+            np.savez(handle, **arrays)
+
+
+def write_text(path: Path, text: str) -> None:
+    """Write a text file atomically."""
+    with atomic_path(path) as temporary:
+        temporary.write_text(text, encoding="utf-8")
+
+
+def write_json(path: Path, value) -> None:
+    """Write JSON atomically (indented, keys in given order)."""
+    write_text(path, json.dumps(value, indent=2) + "\n")
+
+
+def save_epochs(
+    path: str | Path,
+    data: np.ndarray,
+    *,
+    sfreq: float,
+    tmin: float,
+    channels: Sequence[str],
+    conditions: Sequence[str],
+    bad: np.ndarray | None = None,
+) -> None:
+    """Write one subject's epochs in famwise's epochs NPZ format.
+
+    Parameters
+    ----------
+    path : path
+        Output file, e.g. ``data/sub-01.npz``.
+    data : ndarray, shape (n_epochs, n_channels, n_times)
+        Samples in volts.
+    sfreq : float
+        Sampling rate in Hz.
+    tmin : float
+        Time of the first sample relative to the event, in s.
+    channels : sequence of str, length n_channels
+        Channel names.
+    conditions : sequence of str, length n_epochs
+        Event label of each epoch.
+    bad : ndarray of bool, shape (n_epochs,), optional
+        Epochs to leave out.
+    """
+    data = np.asarray(data)
+    channels = [str(c) for c in channels]
+    conditions = [str(c) for c in conditions]
+    if data.ndim != 3:
+        raise ValueError(f"data must have shape (n_epochs, n_channels, n_times), got {data.shape}")
+    if len(channels) != data.shape[1]:
+        raise ValueError(f"{len(channels)} channel names for {data.shape[1]} channels")
+    if len(conditions) != data.shape[0]:
+        raise ValueError(f"{len(conditions)} condition labels for {data.shape[0]} epochs")
+    if sfreq <= 0:
+        raise ValueError(f"sfreq must be positive, got {sfreq}")
+    arrays = dict(data=data, sfreq=float(sfreq), tmin=float(tmin), channels=np.array(channels), conditions=np.array(conditions))
+    if bad is not None:
+        bad = np.asarray(bad, dtype=bool)
+        if bad.shape != (data.shape[0],):
+            raise ValueError(f"bad must have shape ({data.shape[0]},), got {bad.shape}")
+        arrays["bad"] = bad
+    save_npz(Path(path), **arrays)
+
+
+def load_epochs(path: Path, *, subject: str) -> Epochs:
+    """Read an epochs NPZ, checking every key, shape and value.
+
+    Raises
+    ------
+    UserError
+        Naming the subject and the file for a missing file, missing key,
+        wrong shape or non-finite samples.
+    """
+    path = Path(path)
+    where = f"subject {subject} ({path})"
+    if not path.is_file():
+        raise UserError(f"{where}: epochs file not found")
+    try:
+        archive = np.load(path, allow_pickle=False)
+    except (OSError, ValueError) as error:
+        raise UserError(f"{where}: not a readable NPZ file ({error})") from None
+    with archive:
+        missing = [key for key in ("data", "sfreq", "tmin", "channels", "conditions") if key not in archive.files]
+        if missing:
+            raise UserError(f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sfreq, tmin, channels, conditions)")
+        data = archive["data"]
+        sfreq = float(archive["sfreq"])
+        tmin = float(archive["tmin"])
+        channels = tuple(str(c) for c in archive["channels"])
+        labels = np.array([str(c) for c in archive["conditions"]])
+        bad = archive["bad"].astype(bool) if "bad" in archive.files else None
+    if data.ndim != 3:
+        raise UserError(f"{where}: data must have shape (n_epochs, n_channels, n_times), got {data.shape}")
+    if len(channels) != data.shape[1]:
+        raise UserError(f"{where}: {len(channels)} channel names for {data.shape[1]} channels in data")
+    if labels.shape != (data.shape[0],):
+        raise UserError(f"{where}: {labels.size} condition labels for {data.shape[0]} epochs")
+    if not sfreq > 0:
+        raise UserError(f"{where}: sfreq must be positive, got {sfreq}")
+    finite = np.isfinite(data)
+    if not finite.all():
+        epoch, channel, _ = np.argwhere(~finite)[0]
+        raise UserError(f"{where}: NaN or inf samples (first in epoch {epoch}, channel {channels[channel]})")
+    if bad is not None:
+        data, labels = data[~bad], labels[~bad]
+    return Epochs(data=data.astype(np.float64, copy=False), sfreq=sfreq, tmin=tmin, channels=channels, labels=labels)
+
+
+def subject_file(folder: Path, pattern: str, subject: str) -> Path:
+    """The input file of one subject from a spec pattern such as ``data/sub-{subject}.npz``."""
+    return (folder / pattern.replace("{subject}", subject)).resolve()
+
+
+def discover_pattern(folder: Path, pattern: str) -> list[str]:
+    """Subject ids whose files match a ``{subject}`` pattern, sorted."""
+    before, _, after = pattern.partition("{subject}")
+    glob = before + "*" + after
+    regex = re.compile(re.escape(before) + r"([A-Za-z0-9]+)" + re.escape(after) + "$")
+    found = []
+    for candidate in sorted(folder.glob(glob)):
+        match = regex.search(candidate.relative_to(folder).as_posix())
+        if match:
+            found.append(match.group(1))
+    return found

@@ -1,0 +1,234 @@
+"""One entry per Snakemake rule: ``python -m famwise.jobs <stage> ...``.
+
+Each stage reads the rule's inputs, calls the package, and writes its outputs
+atomically. Settings arrive as JSON text from the rule's params: only the spec
+sections the stage depends on. A user error ends the job with one line
+``famwise: error: ...`` on stderr (the job's log) and exit status 2.
+"""
+
+import argparse
+import json
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+from famwise import bids
+from famwise.design import build_contrast, load_contrast
+from famwise.errors import UserError
+from famwise.io import load_epochs, save_npz, subject_file, write_json, write_text
+from famwise.nulls import null_shard, permutation_info
+from famwise.stats import compute
+from famwise.timefreq import decompose, frequency_grid, load_timefreq
+
+
+def _say(message: str) -> None:
+    print(f"[{time.strftime('%H:%M:%S')}] {message}", file=sys.stderr, flush=True)
+
+
+def run_decompose(args, settings: dict) -> None:
+    """Subject input -> ``tf/sub-<id>.npz`` and ``tf/sub-<id>.json``."""
+    subject, out = args.subject, Path(args.out)
+    source = settings["source"]
+    labels = {label: name for name, group in settings["conditions"].items() for label in group}
+    rejected = {}
+    if source == "timefreq":
+        maps = load_timefreq(subject_file(Path("/"), settings["path"], subject))
+    else:
+        if source == "epochs":
+            epochs = load_epochs(subject_file(Path("/"), settings["path"], subject), subject=subject)
+        else:
+            ep = settings["epochs"]
+            epochs = bids.read_subject(
+                Path(settings["path"]), subject, task=settings["task"], window_ms=tuple(ep["window_ms"]),
+                reject_peak_to_peak_uv=ep["reject_peak_to_peak_uv"], reference=ep["reference"], labels=set(labels),
+            )
+        for label, count in epochs.rejected.items():
+            if label in labels:
+                rejected[labels[label]] = rejected.get(labels[label], 0) + int(count)
+        tf = settings["timefreq"]
+        grid = tf["freqs_hz"]
+        baseline = tf["baseline"]
+        _say(f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf['method']} {tf['measure']}")
+        maps = decompose(
+            epochs, subject=subject, conditions=settings["conditions"],
+            freqs_hz=frequency_grid(grid["start_hz"], grid["stop_hz"], grid["count"], grid["spacing"]),
+            method=tf["method"], cycles=_pair(tf["cycles"]), fwhm_ms=_pair(tf["fwhm_ms"]),
+            window_ms=tf["window_ms"], time_bandwidth=tf["time_bandwidth"], measure=tf["measure"],
+            time_step_ms=tf["time_step_ms"], average=tf["average"], trim=tf["trim"],
+            baseline_mode=baseline["mode"], baseline_window_ms=_pair(baseline["window_ms"]),
+            baseline_pooled=baseline["pooled"], baseline_single_trial=baseline["single_trial"],
+            min_epochs=settings["min_epochs"], progress=_say,
+        )
+    missing = [c for c in settings["conditions"] if c not in maps.conditions]
+    if missing:
+        raise UserError(f"subject {subject}: no maps for condition(s) {', '.join(missing)} (found: {', '.join(maps.conditions)})")
+    info = {
+        "subject": subject,
+        "n_trials": {c: int(n) for c, n in zip(maps.conditions, maps.n_trials)},
+        "rejected": {c: rejected.get(c, 0) for c in maps.conditions},
+    }
+    maps.save(out)
+    write_json(out.with_suffix(".json"), info)
+    _say(f"subject {subject}: wrote {out}")
+
+
+def _pair(value):
+    return tuple(value) if isinstance(value, list) else value
+
+
+def run_subjects_table(args, settings: dict) -> None:
+    """Per-subject JSON sidecars -> ``subjects.tsv`` (included and excluded subjects)."""
+    info = {}
+    for path in args.inputs:
+        record = json.loads(Path(path).read_text())
+        info[record["subject"]] = record
+    conditions = settings["conditions"]
+    header = ["subject", "status", "reason", "group"] + [f"n_{c}" for c in conditions] + [f"rejected_{c}" for c in conditions]
+    lines = ["\t".join(header)]
+    for subject in settings["found"]:
+        reason = settings["exclude"].get(subject, "")
+        record = info.get(subject)
+        counts = [str(record["n_trials"].get(c, 0)) if record else "n/a" for c in conditions]
+        rejected = [str(record["rejected"].get(c, 0)) if record else "n/a" for c in conditions]
+        status = "excluded" if reason else "included"
+        lines.append("\t".join([subject, status, reason.replace("\t", " "), settings["groups"].get(subject, "n/a"), *counts, *rejected]))
+    write_text(Path(args.out), "\n".join(lines) + "\n")
+
+
+def run_channel_graph(args, settings: dict) -> None:
+    """Channel names of the data + positions -> ``channels/graph.npz``."""
+    from famwise import montage
+
+    channels = list(load_timefreq(Path(args.maps)).channels)
+    wanted = settings["analysis_channels"]
+    if wanted:
+        lookup = {c.lower(): c for c in channels}
+        channels = [lookup.get(name.lower(), name) for name in wanted]
+    spec = settings["channels"]
+    source = spec["positions"]
+    if source.startswith("standard-"):
+        positions = montage.standard_positions(source.removeprefix("standard-"))
+    elif source == "bids":
+        subject = Path(args.maps).stem.removeprefix("sub-")
+        path = bids.electrodes_file(Path(settings["bids_root"]), subject, task=settings["task"])
+        if path is None:
+            raise UserError(f"channels.positions: 'bids' but subject {subject} has no _electrodes.tsv")
+        positions = montage.read_positions(path)
+    else:
+        positions = montage.read_positions(Path(source))
+    positions = montage.match_channels(positions, channels)
+    neighbors = spec["neighbors"]
+    graph = montage.neighbor_graph(
+        positions, method=neighbors["method"], max_distance_mm=neighbors["max_distance_mm"],
+        edges_file=Path(neighbors["edges_file"]) if neighbors["edges_file"] else None,
+    )
+    _say(montage.graph_summary(graph))
+    montage.save_graph(Path(args.out), graph, positions)
+
+
+def run_contrast_data(args, settings: dict) -> None:
+    """Subjects' maps -> ``contrasts/<c>/subjects.npz``."""
+    contrast = settings["contrast"]
+    data = build_contrast(
+        [Path(p) for p in args.inputs], subjects=settings["subjects"], test=contrast["test"],
+        conditions=contrast["conditions"], analysis=settings["analysis"],
+        groups=settings.get("groups"), covariate=settings.get("covariate"),
+    )
+    _say(f"contrast {contrast['name']}: {len(data.subjects)} subjects x {np.prod(data.shape)} points {data.shape}")
+    data.save(Path(args.out))
+
+
+def run_observed(args, settings: dict) -> None:
+    """Contrast data -> ``contrasts/<c>/observed.npz``."""
+    data = load_contrast(Path(args.subjects))
+    result = compute(
+        data.x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
+        statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"], tail=settings["tail"],
+    )
+    shape = data.shape
+    save_npz(
+        Path(args.out), stat=result.stat.reshape(shape), p=result.p.reshape(shape), df=np.asarray(result.df),
+        effect=result.effect.reshape(shape), effect_size=result.effect_size.reshape(shape),
+        channels=np.array(data.channels), freqs=data.freqs, times=data.times, test=data.test,
+        statistic=result.statistic, n=result.n, tail=result.effective_tail,
+    )
+
+
+def run_null_shard(args, settings: dict) -> None:
+    """Contrast data + observed -> ``contrasts/<c>/nulls/shard-<k>.npz``."""
+    arrays = null_shard(
+        Path(args.subjects), Path(args.observed), Path(args.graph) if args.graph.strip() else None,
+        shard=args.shard, settings=settings, progress=_say,
+    )
+    save_npz(Path(args.out), **arrays)
+
+
+def run_null_info(args, settings: dict) -> None:
+    """Contrast data -> ``contrasts/<c>/nulls/info.json`` (size of the permutation table)."""
+    write_json(Path(args.out), permutation_info(Path(args.subjects), settings=settings))
+
+
+def run_correct(args, settings: dict) -> None:
+    """Observed (+ null shards) -> ``contrasts/<c>/<correction>/result.npz`` (+ clusters.tsv)."""
+    from famwise.correct.apply import apply_correction, save_result
+
+    result, shape = apply_correction([Path(p) for p in args.inputs], contrast=args.contrast, settings=settings)
+    save_result(Path(args.out), result, shape=shape, settings=settings)
+    _say(f"{settings['correction']['label']}: {result.n_significant} significant points")
+
+
+def run_report(args, settings: dict) -> None:
+    """Every result -> ``report/`` (index.html, figures, methods.md, provenance.json)."""
+    from famwise.plan import Plan
+    from famwise.report import build_report
+
+    spec_path = Path(settings["spec"])
+    write_json(Path("study.json"), settings["study"])
+    plan = Plan.from_spec(spec_path)
+    inputs = [Path(f) for subject in plan.subjects for f in plan.input_files(subject)]
+    build_report(Path("."), spec_text=spec_path.read_text(encoding="utf-8"), spec_path=spec_path, input_files=inputs)
+
+
+STAGES = {
+    "decompose": run_decompose,
+    "subjects-table": run_subjects_table,
+    "channel-graph": run_channel_graph,
+    "contrast-data": run_contrast_data,
+    "observed": run_observed,
+    "null-shard": run_null_shard,
+    "null-info": run_null_info,
+    "correct": run_correct,
+    "report": run_report,
+}
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="python -m famwise.jobs", description=__doc__)
+    parser.add_argument("stage", choices=sorted(STAGES))
+    parser.add_argument("--settings", required=True, help="the stage's settings as JSON")
+    parser.add_argument("--out", help="output file")
+    parser.add_argument("--subject")
+    parser.add_argument("--contrast")
+    parser.add_argument("--maps")
+    parser.add_argument("--subjects")
+    parser.add_argument("--observed")
+    parser.add_argument("--graph", default="")
+    parser.add_argument("--shard", type=int)
+    parser.add_argument("inputs", nargs="*")
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        STAGES[args.stage](args, json.loads(args.settings))
+    except UserError as error:
+        print(f"famwise: error: {error}", file=sys.stderr, flush=True)
+        return 2
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

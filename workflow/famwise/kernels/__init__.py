@@ -1,0 +1,1 @@
+"""numba kernels: connected components, TFCE. Kept apart from the API."""

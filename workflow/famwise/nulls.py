@@ -1,0 +1,121 @@
+"""Null stage: one shard of the permutation table through every correction's collector.
+
+The permutation table comes from the seed and the contrast's design; shard
+``k`` takes its row range, so the merged null is bit-identical whatever the
+number of shards.
+"""
+
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+
+from famwise.correct.clusters import ClusterCollector
+from famwise.correct.maxstat import MaxStatCollector, StepDownCollector
+from famwise.correct.tfce import TFCECollector
+from famwise.design import ContrastData, load_contrast
+from famwise.resample import ExceedanceCollector, make_table, run_shard, shard_bounds, smallest_attainable_p
+from famwise.stats import forming_threshold
+
+
+def table_for(data: ContrastData, *, settings: dict):
+    """The study's permutation table for one contrast."""
+    n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
+    return make_table(
+        data.test, n_subjects=len(data.subjects), n_permutations=settings["permutations"], seed=settings["seed"],
+        groups=data.groups, n_conditions=n_conditions,
+    )
+
+
+def permutation_info(subjects_file: Path, *, settings: dict) -> dict:
+    """Size and kind of a contrast's permutation table (for the report)."""
+    data = load_contrast(subjects_file)
+    table = table_for(data, settings=settings)
+    return {
+        "n_rows": int(table.n_rows),
+        "exact": bool(table.exact),
+        "scheme": table.scheme,
+        "permutations": settings["permutations"],
+        "smallest_p": float(smallest_attainable_p(table, tail=settings["tail"])),
+    }
+
+
+def load_graph_arrays(path: Path | None, n_channels: int) -> tuple[np.ndarray, np.ndarray]:
+    """CSR neighbor arrays of the channel graph (no edges when there is no graph)."""
+    if path is None:
+        return np.zeros(n_channels + 1, dtype=np.int32), np.zeros(0, dtype=np.int32)
+    with np.load(path, allow_pickle=False) as archive:
+        return archive["indptr"].astype(np.int32), archive["indices"].astype(np.int32)
+
+
+def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: tuple) -> list:
+    """One collector per entry of the null settings' ``collectors`` list."""
+    stat = observed["stat"].reshape(-1)
+    tail = str(observed["tail"])
+    indptr, indices = graph
+    collectors = []
+    for spec in specs:
+        kind, key = spec["kind"], spec["key"]
+        if kind == "exceed":
+            collectors.append(ExceedanceCollector(stat, tail=tail, key=key))
+        elif kind == "maxstat":
+            collectors.append(MaxStatCollector(tail=tail, key=key))
+        elif kind == "stepdown":
+            collectors.append(MaxStatCollector(tail=tail, key=key))
+            collectors.append(StepDownCollector(stat, tail=tail, key=key))
+        elif kind == "cluster":
+            collectors.append(
+                ClusterCollector(
+                    threshold=cluster_threshold(spec, observed), shape=shape, indptr=indptr, indices=indices,
+                    dims=tuple(spec["dims"]), cluster_stat=spec["cluster_stat"],
+                    min_neighbor_channels=spec["min_neighbor_channels"], tail=tail, key=key,
+                )
+            )
+        elif kind == "tfce":
+            collectors.append(
+                TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=tuple(spec["dims"]), E=spec["E"], H=spec["H"], step=spec["step"], tail=tail, key=key)
+            )
+        else:
+            raise ValueError(f"unknown collector kind {kind!r}")
+    return collectors
+
+
+def cluster_threshold(spec: dict, observed: dict) -> float:
+    """Cluster-forming statistic threshold: given directly, or from forming_p."""
+    if spec.get("forming_stat") is not None:
+        return float(spec["forming_stat"])
+    return float(forming_threshold(spec["forming_p"], test=str(observed["test"]), df=observed["df"], tail=str(observed["tail"])))
+
+
+def null_shard(
+    subjects_file: Path,
+    observed_file: Path,
+    graph_file: Path | None,
+    *,
+    shard: int,
+    settings: dict,
+    progress: Callable[[str], None] | None = None,
+) -> dict[str, np.ndarray]:
+    """Run shard ``shard`` of the contrast's permutation table.
+
+    Returns the collectors' arrays plus ``rows`` (start, stop) and ``n_rows``.
+    """
+    data = load_contrast(subjects_file)
+    with np.load(observed_file, allow_pickle=False) as archive:
+        observed = {key: archive[key] for key in archive.files}
+    table = table_for(data, settings=settings)
+    start, stop = shard_bounds(table.n_rows, settings["shards"], shard)
+    graph = load_graph_arrays(graph_file, len(data.channels))
+    collectors = make_collectors(settings["collectors"], observed=observed, shape=data.shape, graph=graph)
+    if progress:
+        kind = "exact enumeration" if table.exact else "Monte Carlo"
+        progress(f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points")
+    arrays = run_shard(
+        data.x, table.rows[start:stop], collectors=collectors, test=data.test, groups=data.groups, covariate=data.covariate,
+        statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"],
+    )
+    arrays["rows"] = np.array([start, stop])
+    arrays["n_rows.total"] = np.array(table.n_rows)
+    if progress:
+        progress(f"shard {shard}: done")
+    return arrays

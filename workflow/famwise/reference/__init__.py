@@ -1,0 +1,1 @@
+"""Slow, obviously correct implementations: the oracle for tests and the baseline for `famwise bench`."""

@@ -1,0 +1,126 @@
+"""``famwise init``: a commented starter spec from the data found in a folder."""
+
+import os
+from collections import Counter
+from pathlib import Path
+
+import numpy as np
+
+from famwise import bids
+from famwise.errors import UserError
+from famwise.io import discover_pattern, write_text
+
+
+def write_starter_spec(data: Path, out: Path) -> None:
+    """Look at ``data`` (a BIDS-EEG folder or a folder of epochs NPZ files) and write ``out``."""
+    data = Path(data).resolve()
+    out = Path(out).resolve()
+    if not data.is_dir():
+        raise UserError(f"{data}: no such folder")
+    if out.exists():
+        raise UserError(f"{out} exists already; remove it or choose another file with --out")
+    relative = Path(os.path.relpath(data, out.parent)).as_posix()
+    if relative.startswith(".."):
+        raise UserError(f"{out}: the spec must sit in the data folder or above it (paths in a spec stay inside its folder)")
+    subjects = bids.discover_subjects(data)
+    if subjects:
+        source, path, task, labels = "bids", relative, _bids_task(data, subjects[0]), _bids_labels(data, subjects)
+    else:
+        pattern = _epochs_pattern(data)
+        subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
+        source, path, task, labels = "epochs", f"{relative}/{pattern}", None, _epochs_labels(out.parent, f"{relative}/{pattern}", subjects)
+    write_text(out, _starter_text(source, path, task, subjects, labels, name=data.name))
+
+
+def _bids_task(root: Path, subject: str) -> str | None:
+    for events in sorted((root / f"sub-{subject}" / "eeg").glob("*_events.tsv")):
+        for part in events.name.split("_"):
+            if part.startswith("task-"):
+                return part[5:]
+    return None
+
+
+def _bids_labels(root: Path, subjects: list[str]) -> Counter:
+    labels = Counter()
+    for subject in subjects:
+        for events in (root / f"sub-{subject}" / "eeg").glob("*_events.tsv"):
+            lines = events.read_text(encoding="utf-8").splitlines()
+            header = lines[0].split("\t")
+            if "trial_type" in header:
+                column = header.index("trial_type")
+                labels.update(line.split("\t")[column] for line in lines[1:] if line.strip())
+    return labels
+
+
+def _epochs_pattern(data: Path) -> str:
+    files = sorted(p.name for p in data.glob("*.npz"))
+    if not files:
+        raise UserError(f"{data}: found neither a BIDS-EEG folder (sub-*/eeg) nor epochs files (*.npz)")
+    stem = files[0]
+    if stem.startswith("sub-"):
+        return "sub-{subject}.npz"
+    raise UserError(f"{data}: epochs files must be named sub-<id>.npz (found {stem})")
+
+
+def _epochs_labels(folder: Path, pattern: str, subjects: list[str]) -> Counter:
+    labels = Counter()
+    for subject in subjects:
+        with np.load(folder / pattern.replace("{subject}", subject), allow_pickle=False) as archive:
+            if "conditions" in archive.files:
+                labels.update(str(c) for c in archive["conditions"])
+    return labels
+
+
+def _starter_text(source, path, task, subjects, labels: Counter, *, name: str) -> str:
+    conditions = "\n".join(f"  {label}: [{label}]      # {count} epochs over all subjects" for label, count in sorted(labels.items())) or "  condition-a: [label-a]"
+    first = sorted(labels)[:2] if len(labels) >= 2 else ["condition-a", "condition-b"]
+    task_line = f"  task: {task}\n" if task else ""
+    return f"""# famwise study spec, written by `famwise init` from {len(subjects)} subject(s) found.
+# Check it with `famwise check <this file>`, run it with `famwise run <this file>`.
+# Every key is described in the README's spec reference.
+version: 1
+name: {name}
+output: results          # folder for every result, relative to this file
+seed: 1                  # the permutation table comes from this seed
+
+subjects:
+  source: {source}
+  path: {path}
+{task_line}  # ids: [...]           # omit to use every subject found: {', '.join(subjects[:10])}{' ...' if len(subjects) > 10 else ''}
+  exclude: {{}}           # id: reason
+  min_epochs: 10
+
+conditions:              # condition name -> event labels pooled into it
+{conditions}
+
+epochs:
+  window_ms: [-500, 1500]
+
+timefreq:
+  method: morlet
+  freqs_hz: {{start_hz: 4, stop_hz: 40, count: 20, spacing: log}}
+  cycles: [3, 10]
+  baseline: {{mode: db, window_ms: [-400, -100]}}
+
+analysis:                # choose the region before looking at the data
+  time_ms: null          # null: the widest window free of edge effects
+  freq_hz: null
+
+channels:
+  positions: standard-10-10
+  neighbors: {{method: delaunay}}
+
+contrasts:
+  - name: {first[0]}-vs-{first[1]}
+    test: paired
+    conditions: [{first[0]}, {first[1]}]
+
+inference:
+  alpha: 0.05
+  permutations: 1000
+  corrections:
+    - method: holm
+    - method: fdr-bh
+    - method: cluster
+      forming_p: 0.01
+"""

@@ -1,0 +1,84 @@
+"""A plain-text description of a planned run, for ``famwise check``."""
+
+import warnings
+
+from famwise.plan import Plan
+
+
+def describe_plan(plan: Plan) -> str:
+    """What the spec asks for: subjects, contrasts, resampling, corrections, channel graph."""
+    s = plan.study
+    i = s.inference
+    lines = [f"Study '{s.name}' ({plan.loaded.path.name}) is valid.", ""]
+    excluded = s.subjects.exclude
+    lines.append(f"Subjects: {len(plan.subjects)} analysed ({s.subjects.source} input)" + (f", {len(excluded)} excluded:" if excluded else ""))
+    for subject, reason in excluded.items():
+        lines.append(f"  - {subject}: {reason}")
+    if plan.groups:
+        counts = {}
+        for group in plan.groups.values():
+            counts[group] = counts.get(group, 0) + 1
+        lines.append("Groups: " + ", ".join(f"{g} ({n})" for g, n in sorted(counts.items())))
+    lines.append("Conditions: " + "; ".join(f"{name} <- {', '.join(labels)}" for name, labels in s.conditions.items()))
+    if s.subjects.source != "timefreq":
+        tf = s.timefreq
+        grid = tf.freqs_hz
+        lines.append(
+            f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.start_hz:g}-{grid.stop_hz:g} Hz ({grid.spacing}), "
+            f"baseline {tf.baseline.mode}" + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
+        )
+    a = s.analysis
+    lines.append(
+        "Analysis region: time " + (f"{list(a.time_ms)} ms" if a.time_ms else "widest window free of edge effects")
+        + ", frequency " + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
+        + ", channels " + (", ".join(a.channels) if a.channels else "all")
+    )
+    lines.append("Contrasts:")
+    for contrast in s.contrasts:
+        detail = " vs ".join(contrast.conditions)
+        if contrast.groups:
+            detail += f" ({contrast.groups[0]} minus {contrast.groups[1]})"
+        if contrast.covariate:
+            detail += f" with covariate {contrast.covariate}"
+        lines.append(f"  - {contrast.name}: {contrast.test}, {detail}")
+    lines.append(
+        f"Inference: {i.statistic} statistic, {i.tail}, alpha {i.alpha:g}, family {i.family}"
+        + (f"; {i.permutations} permutations in {i.shards} shard(s), seed {s.seed}" if i.needs_null else "")
+    )
+    lines.append("Corrections:")
+    for c in i.corrections:
+        settings = c.model_dump(exclude={"name", "method"}, exclude_none=True)
+        lines.append(f"  - {c.label}: {c.method}" + (f" ({', '.join(f'{k}={v}' for k, v in settings.items())})" if settings else ""))
+    if plan.needs_graph:
+        lines.append("")
+        lines.append(_graph_summary(plan))
+    return "\n".join(lines)
+
+
+def _graph_summary(plan: Plan) -> str:
+    """The neighbor graph of the first subject's channels, when it can be built before decomposition."""
+    from famwise.montage import graph_summary, match_channels, neighbor_graph, read_positions, standard_positions
+
+    channels = plan.first_subject_channels()
+    if channels is None:
+        return "Channel graph: built from the first subject's channels when the run starts."
+    s = plan.study.channels
+    if plan.study.analysis.channels:
+        channels = list(plan.study.analysis.channels)
+    if s.positions.startswith("standard-"):
+        positions = standard_positions(s.positions.removeprefix("standard-"))
+    elif s.positions == "bids":
+        return "Channel graph: from each subject's _electrodes.tsv when the run starts."
+    else:
+        positions = read_positions(plan.loaded.resolve(s.positions))
+    n = s.neighbors
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        graph = neighbor_graph(
+            match_channels(positions, channels), method=n.method, max_distance_mm=n.max_distance_mm,
+            edges_file=plan.loaded.resolve(n.edges_file) if n.edges_file else None,
+        )
+    text = "Channel graph:\n" + "\n".join("  " + line for line in graph_summary(graph).splitlines())
+    for warning in caught:
+        text += f"\n  warning: {warning.message}"
+    return text

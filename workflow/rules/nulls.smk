@@ -1,0 +1,32 @@
+# Permutation stage: one job per shard of the permutation table.
+
+
+rule null_shard:
+    input:
+        subjects="contrasts/{contrast}/subjects.npz",
+        observed="contrasts/{contrast}/observed.npz",
+        graph=graph_files,
+    output:
+        "contrasts/{contrast}/nulls/shard-{shard}.npz",
+    log:
+        "logs/null_shard/{contrast}-{shard}.log",
+    params:
+        settings=PLAN.null_settings(),
+    threads: 1
+    shell:
+        "{JOB} null-shard --settings {params.settings:q} --shard {wildcards.shard} "
+        "--subjects {input.subjects} --observed {input.observed} --graph '{input.graph}' "
+        "--out {output} > {log} 2>&1"
+
+
+rule null_info:
+    input:
+        "contrasts/{contrast}/subjects.npz",
+    output:
+        "contrasts/{contrast}/nulls/info.json",
+    log:
+        "logs/null_info/{contrast}.log",
+    params:
+        settings=PLAN.null_settings(),
+    shell:
+        "{JOB} null-info --settings {params.settings:q} --subjects {input} --out {output} > {log} 2>&1"

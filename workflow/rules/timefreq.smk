@@ -1,0 +1,43 @@
+# Per-subject stage: subject input -> condition-wise time-frequency maps.
+
+
+rule decompose:
+    input:
+        subject_input_files,
+    output:
+        maps="tf/sub-{subject}.npz",
+        info="tf/sub-{subject}.json",
+    log:
+        "logs/decompose/{subject}.log",
+    params:
+        settings=PLAN.decompose_settings(),
+    shell:
+        "{JOB} decompose --subject {wildcards.subject} --settings {params.settings:q} "
+        "--out {output.maps} > {log} 2>&1"
+
+
+rule subjects_table:
+    input:
+        expand("tf/sub-{subject}.json", subject=PLAN.subjects),
+    output:
+        "subjects.tsv",
+    log:
+        "logs/subjects_table/all.log",
+    params:
+        settings=PLAN.subjects_table_settings(),
+    shell:
+        "{JOB} subjects-table --settings {params.settings:q} --out {output} {input} > {log} 2>&1"
+
+
+rule channel_graph:
+    input:
+        first_subject_map,
+        PLAN.graph_inputs(),
+    output:
+        "channels/graph.npz",
+    log:
+        "logs/channel_graph/all.log",
+    params:
+        settings=PLAN.graph_settings(),
+    shell:
+        "{JOB} channel-graph --settings {params.settings:q} --maps {input[0]} --out {output} > {log} 2>&1"
