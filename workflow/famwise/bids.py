@@ -1,0 +1,385 @@
+"""BIDS-EEG input and output: EDF/BDF recordings with their events, channels and participants.
+
+Reading: the recording ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>_eeg.edf|.bdf``
+(read with edfio), ``_channels.tsv`` (EEG channels not marked bad are kept),
+``_events.tsv`` (``onset`` in s and ``trial_type``) and ``participants.tsv``.
+Epochs are cut around each event with the epoch window; each epoch has its
+mean removed per channel (EDF/BDF recordings often carry large DC offsets),
+then an optional average reference and peak-to-peak rejection apply.
+
+Writing (used by ``famwise demo`` and the tests): EDF or BDF in microvolts,
+events, channels, sidecar JSON, optional electrodes, participants and
+dataset_description.json.
+"""
+
+import csv
+import json
+import warnings
+from collections.abc import Sequence
+from pathlib import Path
+
+import edfio
+import numpy as np
+
+from famwise.epochs import Epochs
+from famwise.errors import FamwiseWarning, UserError
+
+_UNITS_TO_VOLTS = {"v": 1.0, "mv": 1e-3, "uv": 1e-6, "µv": 1e-6, "μv": 1e-6, "nv": 1e-9}
+BIDS_VERSION = "1.9.0"
+
+
+def discover_subjects(root: Path) -> list[str]:
+    """Subject ids (without ``sub-``) of the ``sub-*`` folders under ``root``, sorted."""
+    root = Path(root)
+    if not root.is_dir():
+        raise UserError(f"BIDS folder {root} does not exist")
+    return sorted(p.name[4:] for p in root.glob("sub-*") if p.is_dir())
+
+
+def read_participants(root: Path) -> dict[str, dict[str, str]]:
+    """The rows of ``participants.tsv``, keyed by subject id without ``sub-``.
+
+    Returns an empty dict when the file is absent (it is optional in BIDS).
+    """
+    path = Path(root) / "participants.tsv"
+    if not path.is_file():
+        return {}
+    rows = _read_tsv(path)
+    if rows and "participant_id" not in rows[0]:
+        raise UserError(f"{path} must have a 'participant_id' column, found {list(rows[0])}")
+    return {_strip_sub(row["participant_id"]): {k: v for k, v in row.items()
+                                                 if k != "participant_id"} for row in rows}
+
+
+def electrodes_file(root: Path, subject: str, *, task: str | None = None) -> Path | None:
+    """The subject's ``_electrodes.tsv``, preferring one named with ``task``; None if absent."""
+    sub_dir = Path(root) / f"sub-{subject}"
+    found = sorted(sub_dir.glob(f"eeg/sub-{subject}*_electrodes.tsv")) + sorted(
+        sub_dir.glob(f"ses-*/eeg/sub-{subject}*_electrodes.tsv"))
+    if task is not None:
+        named = [p for p in found if f"_task-{task}_" in p.name]
+        found = named or found
+    return found[0] if found else None
+
+
+def read_channel_names(root: Path, subject: str, *, task: str | None = None) -> list[str]:
+    """Names of the channels `read_subject` keeps (EEG, not bad), read from the headers only.
+
+    Raises
+    ------
+    UserError
+        As `read_subject` for a missing or unreadable recording or channels file.
+    """
+    recording = _find_recording(Path(root), subject, task)
+    stem = recording.name.rsplit("_eeg.", 1)[0]
+    table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
+    edf = _open_recording(recording, subject)
+    return [signal.label for signal in _kept_signals(edf, table, recording, subject)]
+
+
+def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float],
+                 reject_peak_to_peak_uv: float | None, reference: str,
+                 labels: set[str] | None = None) -> Epochs:
+    """Epochs of one subject from a BIDS-EEG folder.
+
+    Parameters
+    ----------
+    root : Path
+        The BIDS folder.
+    subject : str
+        Subject id without ``sub-``.
+    task : str or None
+        Task label; None when the subject has a single recording.
+    window_ms : (float, float)
+        Epoch window around each event onset in ms, e.g. (-500, 1500); both
+        ends are rounded to the nearest sample and included.
+    reject_peak_to_peak_uv : float or None
+        Reject epochs where any channel's peak-to-peak amplitude exceeds this (µV).
+    reference : {"average", "none"}
+        Re-reference to the average of the kept channels, or keep the recorded reference.
+    labels : set of str, optional
+        Keep events whose ``trial_type`` is in this set (all events if None).
+
+    Returns
+    -------
+    Epochs
+        ``data`` (n_epochs, n_channels, n_samples) in volts; ``rejected`` maps
+        every kept label to its number of rejected epochs.
+
+    Raises
+    ------
+    UserError
+        Naming the subject and file: no recording, unreadable recording,
+        missing events file or ``trial_type`` column, none of the wanted
+        labels, NaN/inf samples, an epoch window beyond the recording,
+        every epoch rejected.
+    """
+    if reference not in ("average", "none"):
+        raise UserError(f"subject {subject}: reference must be 'average' or 'none', "
+                        f"got {reference!r}")
+    start_ms, stop_ms = window_ms
+    if not start_ms < stop_ms:
+        raise UserError(f"subject {subject}: epoch window must run forward, got {start_ms:g} to "
+                        f"{stop_ms:g} ms")
+    recording = _find_recording(Path(root), subject, task)
+    stem = recording.name.rsplit("_eeg.", 1)[0]
+    events = _read_events(recording.parent / f"{stem}_events.tsv", subject, labels)
+    table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
+    edf = _open_recording(recording, subject)
+    signals = _kept_signals(edf, table, recording, subject)
+    sfreq = signals[0].sampling_frequency
+    n_total = int(round(edf.duration * sfreq))
+
+    first_offset = int(round(start_ms * sfreq / 1000.0))
+    n_samples = int(round(stop_ms * sfreq / 1000.0)) - first_offset + 1
+    starts = []
+    for onset, _ in events:
+        first = int(round(onset * sfreq)) + first_offset
+        if first < 0 or first + n_samples > n_total:
+            raise UserError(f"subject {subject}: the epoch window {start_ms:g} to {stop_ms:g} ms "
+                            f"around the event at onset {onset:g} s runs beyond the recording "
+                            f"(0 to {n_total / sfreq:g} s) in {recording}")
+        starts.append(first)
+    window = np.asarray(starts)[:, None] + np.arange(n_samples)[None, :]
+
+    data = np.empty((len(starts), len(signals), n_samples))
+    for ch, signal in enumerate(signals):
+        samples = signal.data * _unit_factor(signal, table, subject)
+        bad = ~np.isfinite(samples)
+        if bad.any():
+            first_bad = np.flatnonzero(bad)[0] / sfreq
+            raise UserError(f"subject {subject}: channel {signal.label} holds NaN or infinite "
+                            f"samples (first at {first_bad:g} s) in {recording}")
+        data[:, ch, :] = samples[window]
+    data -= data.mean(axis=-1, keepdims=True)
+    if reference == "average":
+        data -= data.mean(axis=1, keepdims=True)
+
+    names = np.array([label for _, label in events])
+    keep = np.ones(len(events), dtype=bool)
+    if reject_peak_to_peak_uv is not None:
+        peak_to_peak = np.ptp(data, axis=-1).max(axis=-1)
+        keep = peak_to_peak <= reject_peak_to_peak_uv * 1e-6
+        if not keep.any():
+            raise UserError(f"subject {subject}: all {keep.size} epochs exceed the peak-to-peak "
+                            f"limit of {reject_peak_to_peak_uv:g} µV in {recording}")
+    rejected = {str(lab): int(np.sum(~keep & (names == lab))) for lab in np.unique(names)}
+    return Epochs(data=data[keep], sfreq=float(sfreq), tmin=first_offset / sfreq,
+                  channels=tuple(s.label for s in signals), labels=names[keep],
+                  rejected=rejected)
+
+
+def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
+                  channels: list[str], events: list[tuple[float, float, str]], task: str,
+                  bad_channels: Sequence[str] = (),
+                  electrodes: dict[str, tuple[float, float, float]] | None = None,
+                  fmt: str = "edf") -> None:
+    """Write one subject's continuous recording as BIDS-EEG.
+
+    Parameters
+    ----------
+    root : Path
+        The BIDS folder (created if needed).
+    subject : str
+        Subject id without ``sub-``.
+    data : ndarray, shape (n_channels, n_samples)
+        Samples in volts. Stored in µV with 16-bit (EDF) or 24-bit (BDF)
+        resolution over each channel's range; the recording is padded with
+        its last sample to a whole number of 1-s data records.
+    sfreq : float
+        Sampling rate in Hz.
+    channels : list of str
+        Channel names (at most 16 characters).
+    events : list of (onset s, duration s, trial_type)
+    task : str
+        Task label.
+    bad_channels : sequence of str
+        Channels written with status "bad" in ``_channels.tsv``.
+    electrodes : dict of str to (x, y, z), optional
+        Electrode positions in mm, written to ``_electrodes.tsv`` with a
+        ``_coordsystem.json``.
+    fmt : {"edf", "bdf"}
+    """
+    data = np.asarray(data, dtype=float)
+    if data.ndim != 2 or data.shape[0] != len(channels):
+        raise UserError(f"subject {subject}: data must have shape (n_channels={len(channels)}, "
+                        f"n_samples), got {data.shape}")
+    if fmt not in ("edf", "bdf"):
+        raise UserError(f"subject {subject}: format must be 'edf' or 'bdf', got {fmt!r}")
+    folder = Path(root) / f"sub-{subject}" / "eeg"
+    folder.mkdir(parents=True, exist_ok=True)
+    stem = folder / f"sub-{subject}_task-{task}"
+
+    signal_class, file_class = ((edfio.EdfSignal, edfio.Edf) if fmt == "edf"
+                                else (edfio.BdfSignal, edfio.Bdf))
+    record = int(round(sfreq)) if float(sfreq).is_integer() else data.shape[1]
+    padded = np.pad(data, ((0, 0), (0, -data.shape[1] % record)), mode="edge") * 1e6
+    try:
+        signals = [signal_class(row, sfreq, label=name, physical_dimension="uV")
+                   for row, name in zip(padded, channels)]
+        file_class(signals).write(Path(f"{stem}_eeg.{fmt}"))
+    except ValueError as exc:
+        raise UserError(f"subject {subject}: cannot write {stem}_eeg.{fmt}: {exc}") from None
+
+    _write_tsv(Path(f"{stem}_events.tsv"), ["onset", "duration", "trial_type", "sample"],
+               [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))]
+                for on, dur, label in events])
+    _write_tsv(Path(f"{stem}_channels.tsv"), ["name", "type", "units", "status"],
+               [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"]
+                for name in channels])
+    Path(f"{stem}_eeg.json").write_text(json.dumps({
+        "TaskName": task, "SamplingFrequency": sfreq, "EEGReference": "n/a",
+        "PowerLineFrequency": "n/a", "SoftwareFilters": "n/a",
+        "EEGChannelCount": len(channels)}, indent=2) + "\n")
+    if electrodes is not None:
+        base = folder / f"sub-{subject}"
+        _write_tsv(Path(f"{base}_electrodes.tsv"), ["name", "x", "y", "z"],
+                   [[name, *(f"{v:.4f}" for v in xyz)] for name, xyz in electrodes.items()])
+        Path(f"{base}_coordsystem.json").write_text(json.dumps({
+            "EEGCoordinateSystem": "Other", "EEGCoordinateUnits": "mm",
+            "EEGCoordinateSystemDescription": "head-centred, x right, y front, z up"},
+            indent=2) + "\n")
+
+
+def write_participants(root: Path, rows: list[dict[str, str]]) -> None:
+    """Write ``participants.tsv`` (and ``dataset_description.json`` if absent).
+
+    Parameters
+    ----------
+    root : Path
+        The BIDS folder (created if needed).
+    rows : list of dict
+        One per subject; ``participant_id`` (with or without ``sub-``) is
+        required, other columns are free (missing values become "n/a").
+    """
+    root = Path(root)
+    root.mkdir(parents=True, exist_ok=True)
+    columns = ["participant_id"]
+    for row in rows:
+        if "participant_id" not in row:
+            raise UserError(f"every participants row needs a 'participant_id', got {row}")
+        columns += [key for key in row if key not in columns]
+    lines = [[f"sub-{_strip_sub(str(row['participant_id']))}"]
+             + [str(row.get(key, "n/a")) for key in columns[1:]] for row in rows]
+    _write_tsv(root / "participants.tsv", columns, lines)
+    description = root / "dataset_description.json"
+    if not description.exists():
+        description.write_text(json.dumps({"Name": root.name, "BIDSVersion": BIDS_VERSION,
+                                           "DatasetType": "raw"}, indent=2) + "\n")
+
+
+def _strip_sub(value: str) -> str:
+    return value[4:] if value.startswith("sub-") else value
+
+
+def _read_tsv(path: Path) -> list[dict[str, str]]:
+    with path.open(newline="", encoding="utf-8") as stream:
+        return [dict(row) for row in csv.DictReader(stream, delimiter="\t")]
+
+
+def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
+    with path.open("w", newline="", encoding="utf-8") as stream:
+        writer = csv.writer(stream, delimiter="\t", lineterminator="\n")
+        writer.writerow(header)
+        writer.writerows(rows)
+
+
+def _find_recording(root: Path, subject: str, task: str | None) -> Path:
+    """The one EDF/BDF recording of the subject (and task)."""
+    sub_dir = root / f"sub-{subject}"
+    found = [p for pattern in ("eeg/*_eeg.edf", "eeg/*_eeg.bdf", "ses-*/eeg/*_eeg.edf",
+                               "ses-*/eeg/*_eeg.bdf") for p in sorted(sub_dir.glob(pattern))]
+    if task is not None:
+        found = [p for p in found if f"_task-{task}_" in p.name]
+    where = f" for task {task!r}" if task is not None else ""
+    if not found:
+        raise UserError(f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf or "
+                        f".bdf){where} in {sub_dir / 'eeg'}")
+    if len(found) > 1:
+        raise UserError(f"subject {subject}: several EEG recordings{where}, set the task to "
+                        f"choose one: {[p.name for p in found]}")
+    return found[0]
+
+
+def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tuple[float, str]]:
+    """(onset s, trial_type) of the wanted events, in file order."""
+    if not path.is_file():
+        raise UserError(f"subject {subject}: events file {path} is missing")
+    rows = _read_tsv(path)
+    columns = list(rows[0]) if rows else []
+    for column in ("onset", "trial_type"):
+        if column not in columns:
+            raise UserError(f"subject {subject}: events file {path} has no {column!r} column; "
+                            f"found {columns}")
+    events = []
+    for line, row in enumerate(rows, start=2):
+        label = row["trial_type"]
+        if label == "n/a" or (labels is not None and label not in labels):
+            continue
+        try:
+            events.append((float(row["onset"]), label))
+        except ValueError:
+            raise UserError(f"subject {subject}: events file {path}, line {line}: onset "
+                            f"{row['onset']!r} is not a number") from None
+    if not events:
+        found = sorted({row["trial_type"] for row in rows})
+        raise UserError(f"subject {subject}: events file {path} has none of the trial_type "
+                        f"values {sorted(labels) if labels else 'wanted'}; found {found}")
+    return events
+
+
+def _read_channels(path: Path, subject: str) -> dict[str, dict[str, str]] | None:
+    """Rows of ``_channels.tsv`` by name; None when the file is absent (keep all signals)."""
+    if not path.is_file():
+        return None
+    rows = _read_tsv(path)
+    if rows and not {"name", "type"} <= set(rows[0]):
+        raise UserError(f"subject {subject}: channels file {path} needs 'name' and 'type' "
+                        f"columns, found {list(rows[0])}")
+    return {row["name"]: row for row in rows}
+
+
+def _open_recording(path: Path, subject: str):
+    try:
+        if path.suffix.lower() == ".bdf":
+            return edfio.read_bdf(path)
+        return edfio.read_edf(path)
+    except Exception as exc:
+        raise UserError(f"subject {subject}: cannot read the recording {path}: {exc}") from None
+
+
+def _kept_signals(edf, table, recording: Path, subject: str) -> list:
+    """EEG signals not marked bad in ``_channels.tsv`` (all signals without one)."""
+    by_label = {s.label: s for s in edf.signals}
+    if table is None:
+        kept = list(edf.signals)
+    else:
+        names = [name for name, row in table.items() if row["type"].upper() == "EEG"
+                 and row.get("status", "good").lower() != "bad"]
+        missing = [name for name in names if name not in by_label]
+        if missing:
+            raise UserError(f"subject {subject}: channels {missing} of the channels file are not "
+                            f"in {recording}, which holds {list(by_label)}")
+        kept = [by_label[name] for name in names]
+    if not kept:
+        raise UserError(f"subject {subject}: no good EEG channel in {recording}")
+    rates = {s.sampling_frequency for s in kept}
+    if len(rates) > 1:
+        raise UserError(f"subject {subject}: the EEG channels of {recording} have different "
+                        f"sampling rates {sorted(rates)} Hz")
+    return kept
+
+
+def _unit_factor(signal, table, subject: str) -> float:
+    """Volts per stored unit, from ``_channels.tsv`` units or else the EDF header."""
+    unit = ""
+    if table is not None and signal.label in table:
+        unit = table[signal.label].get("units", "") or ""
+    if unit in ("", "n/a"):
+        unit = signal.physical_dimension
+    factor = _UNITS_TO_VOLTS.get(unit.strip().lower())
+    if factor is None:
+        warnings.warn(f"subject {subject}: unit {unit!r} of channel {signal.label} is not one of "
+                      "V, mV, uV, nV; assuming microvolts", FamwiseWarning, stacklevel=3)
+        return 1e-6
+    return factor
