@@ -84,35 +84,32 @@ def command_check(args) -> int:
     print(describe_plan(plan))
     print()
     print("What would run and why:")
-    code, lines = _snakemake(plan, ["--dry-run", "--cores", "1"], capture=True)
-    if code != 0:
-        raise UserError(_job_error(plan, 0.0) or "Snakemake could not plan the run:\n" + "\n".join(lines[-15:]))
-    print("\n".join(_dry_run_summary(lines)))
+    jobs = planned_jobs(plan)
+    if not jobs:
+        print("  nothing: every result is up to date")
+    for rule, (count, reasons) in jobs.items():
+        print(f"  {count:4d} x {rule:<17} {'; '.join(sorted(reasons))[:150]}")
     return 0
 
 
-def _dry_run_summary(lines: list[str]) -> list[str]:
-    """Job counts per rule and the reasons, from Snakemake's dry-run output."""
-    counts, reasons, rule = {}, {}, None
+def planned_jobs(plan) -> dict[str, tuple[int, set[str]]]:
+    """Jobs Snakemake would run now: rule -> (count, reasons), from a dry run."""
+    code, lines = _snakemake(plan, ["--dry-run", "--cores", "1"], capture=True)
+    if code != 0:
+        raise UserError(_job_error(plan, 0.0) or "Snakemake could not plan the run:\n" + "\n".join(lines[-15:]))
+    jobs: dict[str, tuple[int, set[str]]] = {}
+    rule = None
     for line in lines:
         text = line.strip()
-        if text.startswith("rule ") and text.endswith(":"):
-            rule = text[5:-1]
-            counts[rule] = counts.get(rule, 0) + 1
-        elif text.startswith("localrule ") and text.endswith(":"):
-            rule = text[10:-1]
-            counts[rule] = counts.get(rule, 0) + 1
-        elif text.startswith("reason:") and rule:
-            reasons.setdefault(rule, set()).add(text[7:].strip().split(";")[0])
-    if not counts or set(counts) == {"all"}:
-        return ["  nothing: every result is up to date"]
-    out = []
-    for rule, count in counts.items():
-        if rule == "all":
-            continue
-        why = "; ".join(sorted(reasons.get(rule, [])))[:160]
-        out.append(f"  {count:4d} x {rule:<16} {why}")
-    return out
+        for prefix in ("rule ", "localrule "):
+            if text.startswith(prefix) and text.endswith(":"):
+                rule = text[len(prefix):-1]
+                count, reasons = jobs.get(rule, (0, set()))
+                jobs[rule] = (count + 1, reasons)
+        if text.startswith("reason:") and rule:
+            jobs[rule][1].add(text[7:].strip().split(";")[0])
+    jobs.pop("all", None)
+    return jobs
 
 
 # ---- run --------------------------------------------------------------------------

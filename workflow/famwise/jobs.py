@@ -14,13 +14,11 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import bids
-from famwise.design import build_contrast, load_contrast
 from famwise.errors import UserError
-from famwise.io import load_epochs, save_npz, subject_file, write_json, write_text
-from famwise.nulls import null_shard, permutation_info
-from famwise.stats import compute
-from famwise.timefreq import decompose, frequency_grid, load_timefreq
+from famwise.io import save_npz, write_json, write_text
+
+# Each stage imports what it needs inside its function: a job is a fresh process,
+# and the numba and scipy.stats imports of other stages would cost it seconds.
 
 
 def _say(message: str) -> None:
@@ -29,6 +27,10 @@ def _say(message: str) -> None:
 
 def run_decompose(args, settings: dict) -> None:
     """Subject input -> ``tf/sub-<id>.npz`` and ``tf/sub-<id>.json``."""
+    from famwise import bids
+    from famwise.io import load_epochs, subject_file
+    from famwise.timefreq import decompose, frequency_grid, load_timefreq
+
     subject, out = args.subject, Path(args.out)
     source = settings["source"]
     labels = {label: name for name, group in settings["conditions"].items() for label in group}
@@ -99,7 +101,8 @@ def run_subjects_table(args, settings: dict) -> None:
 
 def run_channel_graph(args, settings: dict) -> None:
     """Channel names of the data + positions -> ``channels/graph.npz``."""
-    from famwise import montage
+    from famwise import bids, montage
+    from famwise.timefreq import load_timefreq
 
     channels = list(load_timefreq(Path(args.maps)).channels)
     wanted = settings["analysis_channels"]
@@ -130,6 +133,8 @@ def run_channel_graph(args, settings: dict) -> None:
 
 def run_contrast_data(args, settings: dict) -> None:
     """Subjects' maps -> ``contrasts/<c>/subjects.npz``."""
+    from famwise.design import build_contrast
+
     contrast = settings["contrast"]
     data = build_contrast(
         [Path(p) for p in args.inputs], subjects=settings["subjects"], test=contrast["test"],
@@ -142,6 +147,9 @@ def run_contrast_data(args, settings: dict) -> None:
 
 def run_observed(args, settings: dict) -> None:
     """Contrast data -> ``contrasts/<c>/observed.npz``."""
+    from famwise.design import load_contrast
+    from famwise.stats import compute
+
     data = load_contrast(Path(args.subjects))
     result = compute(
         data.x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
@@ -158,6 +166,8 @@ def run_observed(args, settings: dict) -> None:
 
 def run_null_shard(args, settings: dict) -> None:
     """Contrast data + observed -> ``contrasts/<c>/nulls/shard-<k>.npz``."""
+    from famwise.nulls import null_shard
+
     arrays = null_shard(
         Path(args.subjects), Path(args.observed), Path(args.graph) if args.graph.strip() else None,
         shard=args.shard, settings=settings, progress=_say,
@@ -167,6 +177,8 @@ def run_null_shard(args, settings: dict) -> None:
 
 def run_null_info(args, settings: dict) -> None:
     """Contrast data -> ``contrasts/<c>/nulls/info.json`` (size of the permutation table)."""
+    from famwise.nulls import permutation_info
+
     write_json(Path(args.out), permutation_info(Path(args.subjects), settings=settings))
 
 
@@ -221,7 +233,7 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def main(argv: list[str] | None = None) -> int:
-    args = _parser().parse_args(argv)
+    args = _parser().parse_intermixed_args(argv)
     try:
         STAGES[args.stage](args, json.loads(args.settings))
     except UserError as error:

@@ -10,12 +10,10 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise.correct.clusters import ClusterCollector
+from famwise.correct.forming import cluster_threshold
 from famwise.correct.maxstat import MaxStatCollector, StepDownCollector
-from famwise.correct.tfce import TFCECollector
 from famwise.design import ContrastData, load_contrast
 from famwise.resample import ExceedanceCollector, make_table, run_shard, shard_bounds, smallest_attainable_p
-from famwise.stats import forming_threshold
 
 
 def table_for(data: ContrastData, *, settings: dict):
@@ -64,6 +62,8 @@ def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: t
             collectors.append(MaxStatCollector(tail=tail, key=key))
             collectors.append(StepDownCollector(stat, tail=tail, key=key))
         elif kind == "cluster":
+            from famwise.correct.clusters import ClusterCollector  # numba kernels: imported only when used
+
             collectors.append(
                 ClusterCollector(
                     threshold=cluster_threshold(spec, observed), shape=shape, indptr=indptr, indices=indices,
@@ -72,19 +72,14 @@ def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: t
                 )
             )
         elif kind == "tfce":
+            from famwise.correct.tfce import TFCECollector
+
             collectors.append(
                 TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=tuple(spec["dims"]), E=spec["E"], H=spec["H"], step=spec["step"], tail=tail, key=key)
             )
         else:
             raise ValueError(f"unknown collector kind {kind!r}")
     return collectors
-
-
-def cluster_threshold(spec: dict, observed: dict) -> float:
-    """Cluster-forming statistic threshold: given directly, or from forming_p."""
-    if spec.get("forming_stat") is not None:
-        return float(spec["forming_stat"])
-    return float(forming_threshold(spec["forming_p"], test=str(observed["test"]), df=observed["df"], tail=str(observed["tail"])))
 
 
 def null_shard(

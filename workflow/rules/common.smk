@@ -38,3 +38,35 @@ def correction_settings(wildcards):
 
 def graph_files(wildcards):
     return ["channels/graph.npz"] if PLAN.needs_graph else []
+
+
+def null_info_files(wildcards):
+    if not PLAN.study.inference.needs_null:
+        return []
+    return [f"contrasts/{c.name}/nulls/info.json" for c in PLAN.study.contrasts]
+
+
+# Settings are passed through functions: Snakemake would otherwise read the braces
+# of the JSON text as wildcards.
+def decompose_settings(wildcards):
+    return PLAN.decompose_settings()
+
+
+def subjects_table_settings(wildcards):
+    return PLAN.subjects_table_settings()
+
+
+def graph_settings(wildcards):
+    return PLAN.graph_settings()
+
+
+def observed_settings(wildcards):
+    return PLAN.observed_settings()
+
+
+def null_settings(wildcards):
+    return PLAN.null_settings()
+
+
+def report_settings(wildcards):
+    return PLAN.report_settings()

@@ -22,6 +22,6 @@ rule observed:
     log:
         "logs/observed/{contrast}.log",
     params:
-        settings=PLAN.observed_settings(),
+        settings=observed_settings,
     shell:
         "{JOB} observed --settings {params.settings:q} --subjects {input} --out {output} > {log} 2>&1"

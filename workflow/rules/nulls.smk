@@ -11,7 +11,7 @@ rule null_shard:
     log:
         "logs/null_shard/{contrast}-{shard}.log",
     params:
-        settings=PLAN.null_settings(),
+        settings=null_settings,
     threads: 1
     shell:
         "{JOB} null-shard --settings {params.settings:q} --shard {wildcards.shard} "
@@ -27,6 +27,6 @@ rule null_info:
     log:
         "logs/null_info/{contrast}.log",
     params:
-        settings=PLAN.null_settings(),
+        settings=null_settings,
     shell:
         "{JOB} null-info --settings {params.settings:q} --subjects {input} --out {output} > {log} 2>&1"

@@ -6,7 +6,7 @@ rule report:
         "subjects.tsv",
         graph_files,
         PLAN.result_files(),
-        expand("contrasts/{contrast}/nulls/info.json", contrast=[c.name for c in PLAN.study.contrasts]) if PLAN.study.inference.needs_null else [],
+        null_info_files,
     output:
         "report/index.html",
         "report/methods.md",
@@ -14,6 +14,6 @@ rule report:
     log:
         "logs/report/all.log",
     params:
-        settings=PLAN.report_settings(),
+        settings=report_settings,
     shell:
         "{JOB} report --settings {params.settings:q} > {log} 2>&1"

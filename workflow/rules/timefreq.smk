@@ -10,7 +10,7 @@ rule decompose:
     log:
         "logs/decompose/{subject}.log",
     params:
-        settings=PLAN.decompose_settings(),
+        settings=decompose_settings,
     shell:
         "{JOB} decompose --subject {wildcards.subject} --settings {params.settings:q} "
         "--out {output.maps} > {log} 2>&1"
@@ -24,7 +24,7 @@ rule subjects_table:
     log:
         "logs/subjects_table/all.log",
     params:
-        settings=PLAN.subjects_table_settings(),
+        settings=subjects_table_settings,
     shell:
         "{JOB} subjects-table --settings {params.settings:q} --out {output} {input} > {log} 2>&1"
 
@@ -38,6 +38,6 @@ rule channel_graph:
     log:
         "logs/channel_graph/all.log",
     params:
-        settings=PLAN.graph_settings(),
+        settings=graph_settings,
     shell:
         "{JOB} channel-graph --settings {params.settings:q} --maps {input[0]} --out {output} > {log} 2>&1"

@@ -12,7 +12,7 @@ from pathlib import Path
 import numpy as np
 
 from famwise.collectors import merge_shard_arrays
-from famwise.correct import clusters, maxstat, pvalues, tfce
+from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.io import save_npz
@@ -102,7 +102,8 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
             indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
         dims = tuple(correction["dims"])
         if method == "cluster":
-            from famwise.nulls import cluster_threshold
+            from famwise.correct import clusters  # numba kernels: imported only when used
+            from famwise.correct.forming import cluster_threshold
 
             result = clusters.cluster_inference(
                 mine["stat"], max_null, threshold=cluster_threshold(settings["forming"], mine), indptr=indptr, indices=indices,
@@ -110,6 +111,8 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
                 tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
             )
         else:
+            from famwise.correct import tfce
+
             result = tfce.tfce_inference(
                 mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction["E"], H=correction["H"],
                 step=correction["step"], tail=tail, alpha=alpha,
@@ -145,5 +148,7 @@ def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings:
     for name, values in result.maps.items():
         arrays[name] = np.asarray(values).reshape(shape)
     if settings["correction"]["method"] == "cluster":
+        from famwise.correct import clusters
+
         clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters)
     save_npz(path, **arrays)

@@ -217,6 +217,15 @@ class Timefreq(SpecModel):
             for key in ("cycles", "fwhm_ms"):
                 if getattr(self, key) is not None:
                     raise LocatedError((key,), "only used with method 'morlet'")
+        if self.measure == "itpc":
+            if self.method != "morlet":
+                raise LocatedError(("measure",), "'itpc' needs method 'morlet' (phase from a single wavelet)")
+            if self.baseline.mode != "none":
+                raise LocatedError(("baseline", "mode"), "'itpc' is a consistency in [0, 1]; use baseline mode 'none'")
+            if self.average != "mean":
+                raise LocatedError(("average",), "'itpc' averages unit phase vectors; use average 'mean'")
+        if self.baseline.pooled and self.baseline.single_trial:
+            raise LocatedError(("baseline", "single_trial"), "a pooled baseline cannot also be applied trial by trial; choose one")
         return self
 
     def morlet_width(self) -> dict:

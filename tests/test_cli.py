@@ -1,0 +1,138 @@
+"""The command line: bad input ends in one clear line and exit status 2, with no partial results."""
+
+import subprocess
+import sys
+
+import numpy as np
+import pytest
+
+import famwise.io
+from famwise.cli import main
+
+from conftest import write_tiny_study, write_tiny_subject
+
+
+def famwise_cli(*args, cwd=None) -> subprocess.CompletedProcess:
+    return subprocess.run([sys.executable, "-m", "famwise.cli", *map(str, args)], capture_output=True, text=True, cwd=cwd)
+
+
+def _assert_one_line_error(result, *fragments):
+    assert result.returncode == 2, result.stdout + result.stderr
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("famwise: error: "), result.stderr
+    assert "Traceback" not in result.stderr + result.stdout
+    for fragment in fragments:
+        assert fragment in lines[0]
+
+
+def _result_files(folder):
+    return sorted(p for p in (folder / "results").rglob("*") if p.is_file() and "logs" not in p.parts and ".snakemake" not in p.parts)
+
+
+def test_unknown_spec_key(tmp_path):
+    spec = write_tiny_study(tmp_path)
+    spec.write_text(spec.read_text().replace("seed: 7", "sed: 7"))
+    _assert_one_line_error(famwise_cli("check", spec), "study.yaml:3 sed: unknown key 'sed' (did you mean 'seed'?)")
+
+
+def test_wrong_type(tmp_path):
+    spec = write_tiny_study(tmp_path)
+    spec.write_text(spec.read_text().replace("alpha: 0.05", "alpha: lots"))
+    _assert_one_line_error(famwise_cli("run", spec), "inference.alpha")
+    assert not (tmp_path / "results").exists()
+
+
+def test_contrast_naming_a_missing_condition(tmp_path):
+    spec = write_tiny_study(tmp_path)
+    spec.write_text(spec.read_text().replace("conditions: [high, low]", "conditions: [high, lo]"))
+    _assert_one_line_error(famwise_cli("check", spec), "contrasts[0].conditions: unknown condition 'lo' (known: high, low)")
+
+
+def test_subject_file_missing(tmp_path):
+    spec = write_tiny_study(tmp_path)
+    spec.write_text(spec.read_text().replace("  min_epochs: 5", "  min_epochs: 5\n  ids: ['01', '02', '09']"))
+    _assert_one_line_error(famwise_cli("run", spec), "subject 09: file not found")
+
+
+def test_subject_id_not_plain(tmp_path):
+    spec = write_tiny_study(tmp_path)
+    spec.write_text(spec.read_text().replace("  min_epochs: 5", "  min_epochs: 5\n  ids: ['01', 'sub 2']"))
+    _assert_one_line_error(famwise_cli("check", spec), "subjects.ids: subject id 'sub 2' is not a plain identifier")
+
+
+def test_channels_differ_between_subjects(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4)
+    write_tiny_subject(tmp_path / "data" / "sub-03.npz", np.random.default_rng(3), channels=["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "POz"])
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 03: channels differ from subject 01", "extra: POz", "missing: Oz")
+    assert not [p for p in _result_files(tmp_path) if "contrasts" in p.parts]
+
+
+def test_sampling_rates_differ(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4)
+    write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sfreq=125.0)
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02: time grid differs from subject 01")
+
+
+def test_nan_in_data(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4)
+    path = tmp_path / "data" / "sub-02.npz"
+    with np.load(path) as archive:
+        arrays = {k: archive[k] for k in archive.files}
+    arrays["data"][3, 1, 10] = np.nan
+    famwise.io.save_epochs(path, arrays["data"], sfreq=float(arrays["sfreq"]), tmin=float(arrays["tmin"]),
+                           channels=list(arrays["channels"]), conditions=list(arrays["conditions"]))
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02", "NaN or inf")
+    assert not (tmp_path / "results" / "tf" / "sub-02.npz").exists()
+
+
+def test_too_few_epochs(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4)
+    spec.write_text(spec.read_text().replace("min_epochs: 5", "min_epochs: 30"))
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 0", "30")
+
+
+def test_baseline_outside_epoch(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4)
+    spec.write_text(spec.read_text().replace("window_ms: [-400, -200]", "window_ms: [-900, -200]"))
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "baseline")
+
+
+def test_analysis_window_in_cone_of_influence(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4)
+    spec.write_text(spec.read_text().replace("channels:\n", "analysis:\n  time_ms: [-600, 900]\nchannels:\n", 1))
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "analysis.time_ms: [-600.0, 900.0] ms reaches into", "widest window that fits is")
+
+
+def test_too_few_permutations_warns(tmp_path):
+    spec = write_tiny_study(tmp_path, n_subjects=4, permutations=8)
+    result = famwise_cli("check", spec)
+    assert result.returncode == 0, result.stderr
+
+
+def test_debug_shows_traceback(tmp_path):
+    spec = write_tiny_study(tmp_path)
+    spec.write_text(spec.read_text().replace("seed: 7", "sed: 7"))
+    result = famwise_cli("--debug", "check", spec)
+    assert result.returncode == 2 and "Traceback" in result.stderr
+
+
+def test_check_prints_plan(tiny_study):
+    result = famwise_cli("check", tiny_study)
+    assert result.returncode == 0, result.stderr
+    assert "Subjects: 6 analysed" in result.stdout
+    assert "decompose" in result.stdout and "Missing output files" in result.stdout
+
+
+def test_init_writes_a_valid_starter_spec(tmp_path):
+    write_tiny_study(tmp_path)
+    (tmp_path / "study.yaml").unlink()
+    assert main(["init", str(tmp_path / "data"), "--out", str(tmp_path / "study.yaml")]) == 0
+    text = (tmp_path / "study.yaml").read_text()
+    assert "high: [high]" in text and "low: [low]" in text
+    result = famwise_cli("check", tmp_path / "study.yaml")
+    assert result.returncode == 0, result.stderr
+
+
+@pytest.mark.parametrize("argv", [["run", "missing.yaml"], ["check", "missing.yaml"]])
+def test_missing_spec(tmp_path, argv):
+    _assert_one_line_error(famwise_cli(*argv, cwd=tmp_path), "spec file not found")
