@@ -1,0 +1,82 @@
+"""The study report: HTML page, figures, methods paragraph and provenance.
+
+The report only renders: it reads the result files of a run (layout in
+DESIGN.md, "Data contracts") and never recomputes statistics.
+"""
+
+from datetime import datetime, timezone
+from pathlib import Path
+
+from famwise.report.html import anchor, markdown, page
+from famwise.report.methods import methods_from_run, methods_text
+from famwise.report.provenance import write_provenance
+from famwise.report.results import read_run
+from famwise.report.sections import (FigureWriter, contrast_section, graph_section,
+                                     provenance_section, study_section, subjects_section)
+from famwise.report.style import write_atomic
+
+__all__ = ["build_report", "methods_text", "write_provenance"]
+
+
+def _now() -> str:
+    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+
+
+def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_files: list[Path],
+                 started: str | None = None) -> Path:
+    """Write the study report of a finished run.
+
+    Writes ``report/index.html`` (self-contained), ``report/figures/*.png``
+    and ``*.svg`` (stable names ``<contrast>__<correction>__map`` and so
+    on), ``report/methods.md`` and ``report/provenance.json``, each
+    atomically. Figures of an earlier report that this run no longer makes
+    are removed.
+
+    Parameters
+    ----------
+    output_dir : Path
+        The run's output folder (holds ``study.json``, ``subjects.tsv``,
+        ``channels/`` and ``contrasts/``).
+    spec_text : str
+        The spec file's text, shown in the report and kept in the provenance.
+    spec_path : Path
+        The spec file; input paths are recorded relative to its folder.
+    input_files : list of Path
+        The subject input files, hashed into the provenance.
+    started : str, optional
+        When the run started (ISO 8601); defaults to now.
+
+    Returns
+    -------
+    Path
+        The path of ``report/index.html``.
+    """
+    output_dir = Path(output_dir)
+    started = started or _now()
+    run = read_run(output_dir)
+    folder = output_dir / "report"
+    write = FigureWriter(folder / "figures")
+    body = [study_section(run, spec_text), subjects_section(run), graph_section(run, write)]
+    body += [contrast_section(run, contrast, write) for contrast in run.contrasts]
+    methods = methods_from_run(run)
+    write_atomic(folder / "methods.md", methods.encode("utf-8"))
+    record = write_provenance(folder / "provenance.json", spec_text=spec_text, study=run.study,
+                              input_files=list(input_files), started=started, finished=_now(),
+                              root=Path(spec_path).parent, output_dir=output_dir)
+    paragraph = markdown(methods.removeprefix("## Methods\n"))
+    body += [f'<h2 id="methods">Methods</h2><div class="methods">{paragraph}</div>',
+             provenance_section(record)]
+    nav = [("study", "Study"), ("subjects", "Subjects"), ("channels", "Channel graph")]
+    nav += [(anchor("contrast", c.name), f"Contrast {c.name}") for c in run.contrasts]
+    nav += [("methods", "Methods"), ("provenance", "Provenance")]
+    title = f"famwise report: {run.study.get('name', output_dir.name)}"
+    subtitle = (f"{len(run.contrasts)} contrasts, "
+                f"{len((run.study.get('inference') or {}).get('corrections', []))} corrections; "
+                f"spec fingerprint {record['spec_fingerprint'][:12]}; finished {record['finished']}")
+    index = folder / "index.html"
+    write_atomic(index, page(title=title, subtitle=subtitle, nav=nav, body="".join(body)).encode("utf-8"))
+    kept = set(write.stems)
+    for old in (folder / "figures").glob("*"):
+        if old.suffix in {".png", ".svg"} and old.stem not in kept:
+            old.unlink()
+    return index

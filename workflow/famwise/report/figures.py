@@ -1,0 +1,256 @@
+"""Report figures: time-frequency maps, null histograms, cluster views, channel graph.
+
+Every function draws from stored results only and returns a matplotlib
+figure; :func:`famwise.report.style.save_figure` writes it.
+"""
+
+import matplotlib.pyplot as plt
+import numpy as np
+
+from famwise.montage import ChannelGraph, Positions, plot_graph
+from famwise.report.results import Contrast, Correction
+from famwise.report.scalp import topography
+from famwise.report.style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
+
+_FINE = 4
+
+
+def stat_label(contrast: Contrast) -> str:
+    """Axis label of the contrast's statistic."""
+    if contrast.test == "repeated-measures" or contrast.statistic.upper() == "F":
+        return "F"
+    return "Yuen trimmed t" if contrast.statistic == "yuen" else "t"
+
+
+def effect_unit(study: dict) -> str:
+    """Unit of the effect map, from the measure and the baseline of the spec."""
+    tf = study.get("timefreq", {}) or {}
+    measure = str(tf.get("measure", "power"))
+    mode = str((tf.get("baseline") or {}).get("mode", "none")).lower()
+    if measure.lower() not in {"power", "induced"}:
+        return f"{measure} difference"
+    units = {"db": "dB", "decibel": "dB", "percent": "%", "percentage": "%", "zscore": "z",
+             "z": "z", "ratio": "ratio", "logratio": "log10 ratio", "log_ratio": "log10 ratio"}
+    return units.get(mode, "power, input units²")
+
+
+def _time_extent(times_ms: np.ndarray) -> tuple[float, float]:
+    step = float(np.median(np.diff(times_ms))) if len(times_ms) > 1 else 1.0
+    return float(times_ms[0]) - step / 2, float(times_ms[-1]) + step / 2
+
+
+def _freq_axis(ax, freqs: np.ndarray) -> None:
+    ticks = np.unique(np.linspace(0, len(freqs) - 1, min(len(freqs), 6)).round().astype(int))
+    ax.set_yticks(ticks)
+    ax.set_yticklabels([f"{freqs[i]:.3g}" for i in ticks])
+    ax.set_ylabel("frequency (Hz)")
+
+
+def outline(ax, mask: np.ndarray, times_ms: np.ndarray, *, color: str = ACCENT,
+            lw: float = 1.1) -> None:
+    """Outline the cells of a boolean (F, T) mask on a time-frequency image."""
+    if not np.any(mask):
+        return
+    fine = np.pad(np.repeat(np.repeat(mask.astype(float), _FINE, 0), _FINE, 1), 1)
+    t0, t1 = _time_extent(times_ms)
+    dx = (t1 - t0) / (mask.shape[1] * _FINE)
+    xs = t0 + (np.arange(fine.shape[1]) - 0.5) * dx
+    ys = -0.5 + (np.arange(fine.shape[0]) - 0.5) / _FINE
+    ax.contour(xs, ys, fine, levels=[0.5], colors=color, linewidths=lw)
+
+
+def tf_image(ax, image: np.ndarray, freqs: np.ndarray, times_ms: np.ndarray, *,
+             limit: float, cmap=DIVERGING, vmin: float | None = None, fade: np.ndarray | None = None):
+    """Draw an (F, T) image with time in ms and frequency in Hz; returns the image."""
+    t0, t1 = _time_extent(times_ms)
+    extent = (t0, t1, -0.5, len(freqs) - 0.5)
+    shown = ax.imshow(image, origin="lower", aspect="auto", extent=extent, cmap=cmap,
+                      vmin=-limit if vmin is None else vmin, vmax=limit)
+    if fade is not None and np.any(fade):
+        veil = np.zeros(image.shape + (4,))
+        veil[..., :3] = 1.0
+        veil[..., 3] = np.where(fade, 0.6, 0.0)
+        ax.imshow(veil, origin="lower", aspect="auto", extent=extent)
+    if times_ms[0] < 0 < times_ms[-1]:
+        ax.axvline(0, color=MUTED, lw=0.6, ls=":")
+    ax.set_xlabel("time (ms)")
+    _freq_axis(ax, freqs)
+    return shown
+
+
+def peak_channel(contrast: Contrast) -> int:
+    """Index of the channel holding the largest |statistic|."""
+    stat = np.where(np.isfinite(contrast.stat), np.abs(contrast.stat), -np.inf)
+    return int(np.unravel_index(np.argmax(stat), stat.shape)[0])
+
+
+def map_figure(contrast: Contrast, mask: np.ndarray, *, count_limit: int, title: str,
+               subtitle: str):
+    """A correction's (or the uncorrected) significant points on one contrast.
+
+    Top: the statistic at the peak channel, points not significant there
+    faded, significant ones outlined. Bottom: how many channels are
+    significant at each time-frequency point.
+
+    Parameters
+    ----------
+    contrast : Contrast
+    mask : ndarray of bool, shape (C, F, T)
+    count_limit : int
+        Top of the channel-count colour scale (shared by the panels of a
+        contrast; larger counts show in the top colour).
+    title, subtitle : str
+    """
+    times_ms = contrast.times * 1000.0
+    channel = peak_channel(contrast)
+    limit = symmetric_limit(contrast.stat)
+    figure, (top, bottom) = plt.subplots(2, 1, figsize=(3.5, 4.9), sharex=True,
+                                         layout="constrained")
+    figure.suptitle(f"{title}\n{subtitle}", x=0.02, ha="left", fontsize=9)
+    image = tf_image(top, contrast.stat[channel], contrast.freqs, times_ms, limit=limit,
+                     fade=~mask[channel])
+    outline(top, mask[channel], times_ms)
+    top.set_title(f"{stat_label(contrast)} at {contrast.channels[channel]} (peak channel)",
+                  fontsize=8, fontweight="normal")
+    top.set_xlabel("")
+    figure.colorbar(image, ax=top, label=stat_label(contrast), shrink=0.9)
+    counts = mask.sum(axis=0)
+    shown = tf_image(bottom, counts, contrast.freqs, times_ms, limit=count_limit,
+                     cmap=SEQUENTIAL, vmin=0)
+    bottom.set_title("significant channels per point", fontsize=8, fontweight="normal")
+    figure.colorbar(shown, ax=bottom, label="channels (count)", shrink=0.9,
+                    extend="max" if counts.max() > count_limit else "neither")
+    return figure
+
+
+def null_axis_label(correction: Correction, contrast: Contrast) -> str:
+    """What one value of a correction's permutation null is, with its unit."""
+    label = stat_label(contrast)
+    if correction.threshold_kind == "cluster":
+        if correction.settings.get("cluster_stat", "mass") == "size":
+            return "largest cluster size per permutation (points)"
+        return f"largest cluster mass per permutation (sum of |{label}|)"
+    if correction.threshold_kind == "tfce":
+        return "largest |TFCE| per permutation (TFCE units)"
+    return f"largest |{label}| per permutation ({label} units)"
+
+
+def observed_maxima(correction: Correction, contrast: Contrast) -> dict[str, float]:
+    """The observed largest positive and negative values the null is compared with."""
+    if correction.threshold_kind == "cluster":
+        values = {"+": [], "-": []}
+        for row in correction.clusters:
+            sign = "-" if str(row.get("sign", "+")).strip().lower() in {"-", "negative", "-1"} else "+"
+            values[sign].append(abs(float(row["statistic"])))
+        return {sign: max(found) for sign, found in values.items() if found}
+    source = correction.tfce if correction.threshold_kind == "tfce" else contrast.stat
+    if source is None:
+        return {}
+    finite = source[np.isfinite(source)]
+    result = {}
+    if np.any(finite > 0):
+        result["+"] = float(finite.max())
+    if np.any(finite < 0):
+        result["-"] = float(-finite.min())
+    return result
+
+
+def null_figure(correction: Correction, contrast: Contrast):
+    """Histogram of a permutation null with the observed maxima and the critical value."""
+    figure, ax = plt.subplots(figsize=(4.6, 2.6), layout="constrained")
+    null = correction.null[np.isfinite(correction.null)]
+    ax.hist(null, bins=min(60, max(10, len(null) // 20)), color="#b9c3d6", edgecolor="#7d8aa3",
+            lw=0.4)
+    ax.set_xlabel(null_axis_label(correction, contrast))
+    ax.set_ylabel("permutations (count)")
+    if np.isfinite(correction.threshold) and correction.threshold_kind != "p":
+        ax.axvline(correction.threshold, color=ACCENT, lw=1.2, ls="--",
+                   label=f"critical value {correction.threshold:.4g}")
+    styles = {"+": ("#b2182b", "-"), "-": ("#2a4d9b", "-.")}
+    for sign, value in observed_maxima(correction, contrast).items():
+        color, line = styles[sign]
+        word = "positive" if sign == "+" else "negative"
+        ax.axvline(value, color=color, lw=1.4, ls=line, label=f"observed largest {word} {value:.4g}")
+    ax.legend(frameon=False, fontsize=7, loc="upper right")
+    ax.set_title(f"{correction.name}: permutation null ({len(null)} rows)")
+    return figure
+
+
+def cluster_points(correction: Correction, contrast: Contrast, row: dict) -> np.ndarray:
+    """Boolean (C, F, T) map of the points of one cluster of the table."""
+    ident = int(row["id"])
+    sign = -1 if str(row.get("sign", "+")).strip().lower() in {"-", "negative", "-1"} else 1
+    if correction.cluster_id is not None:
+        for candidate in (ident, sign * abs(ident)):
+            found = correction.cluster_id == candidate
+            if np.any(found):
+                return found
+    names = set(str(row["channels"]).split(","))
+    in_channels = np.array([c in names for c in contrast.channels])[:, None, None]
+    times_ms = contrast.times * 1000.0
+    in_time = ((times_ms >= float(row["time_start_ms"]) - 1e-6)
+               & (times_ms <= float(row["time_end_ms"]) + 1e-6))[None, None, :]
+    in_freq = ((contrast.freqs >= float(row["freq_low_hz"]) - 1e-6)
+               & (contrast.freqs <= float(row["freq_high_hz"]) + 1e-6))[None, :, None]
+    return correction.mask & in_channels & in_time & in_freq & (np.sign(contrast.stat) == sign)
+
+
+def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: np.ndarray,
+                   *, unit: str):
+    """Three views of one cluster: TF image, scalp map at its peak, time course.
+
+    Parameters
+    ----------
+    contrast, correction : the cluster's contrast and correction
+    row : dict
+        The cluster's row of ``clusters.tsv``.
+    flat : ndarray of float, shape (C, 2)
+        Projected channel positions (see :func:`famwise.report.scalp.project`).
+    unit : str
+        Unit of the effect map.
+    """
+    points = cluster_points(correction, contrast, row)
+    names = [c for c in str(row["channels"]).split(",") if c]
+    members = np.array([c in set(names) for c in contrast.channels])
+    if not members.any():
+        members = points.any(axis=(1, 2))
+    times_ms = contrast.times * 1000.0
+    figure, (tf_ax, scalp_ax, course_ax) = plt.subplots(
+        1, 3, figsize=(11.5, 3.0), layout="constrained", width_ratios=[1.25, 1.0, 1.1])
+    figure.suptitle(f"{contrast.name} · {correction.name} · cluster {row['id']} "
+                    f"(p = {float(row['p']):.4g}, {int(row['n_points'])} points, "
+                    f"{members.sum()} channels)", x=0.01, ha="left", fontsize=9, fontweight="bold")
+    mean_effect = contrast.effect[members].mean(axis=0)
+    limit = symmetric_limit(mean_effect)
+    image = tf_image(tf_ax, mean_effect, contrast.freqs, times_ms, limit=limit)
+    outline(tf_ax, points.any(axis=0), times_ms)
+    tf_ax.set_title("effect averaged over the cluster's channels", fontsize=8, fontweight="normal")
+    figure.colorbar(image, ax=tf_ax, label=f"effect ({unit})", shrink=0.9)
+    f_index = int(np.argmin(np.abs(contrast.freqs - float(row["peak_freq_hz"]))))
+    t_index = int(np.argmin(np.abs(times_ms - float(row["peak_time_ms"]))))
+    scalp = contrast.effect[:, f_index, t_index]
+    shown = topography(scalp_ax, scalp, flat, limit=symmetric_limit(scalp), marked=members)
+    scalp_ax.set_title(f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, "
+                       f"{times_ms[t_index]:.0f} ms\n(circles: cluster channels)",
+                       fontsize=8, fontweight="normal")
+    figure.colorbar(shown, ax=scalp_ax, label=f"effect ({unit})", shrink=0.8)
+    rows_in = points.any(axis=(0, 2))
+    course = contrast.effect[members][:, rows_in].mean(axis=(0, 1))
+    course_ax.axhline(0, color=MUTED, lw=0.6)
+    course_ax.axvspan(float(row["time_start_ms"]), float(row["time_end_ms"]), color="#e8e2d0",
+                      lw=0)
+    course_ax.plot(times_ms, course, color=ACCENT, lw=1.3)
+    band = contrast.freqs[rows_in]
+    course_ax.set_title(f"time course, {band.min():.3g}-{band.max():.3g} Hz, cluster channels\n"
+                        "(shaded: the cluster's time span)", fontsize=8, fontweight="normal")
+    course_ax.set_xlabel("time (ms)")
+    course_ax.set_ylabel(f"effect ({unit})")
+    return figure
+
+
+def graph_figure(graph: ChannelGraph, positions: Positions):
+    """The channel neighbor graph seen from above the head."""
+    figure, ax = plt.subplots(figsize=(4.4, 4.4), layout="constrained")
+    plot_graph(graph, positions, ax)
+    ax.set_title(f"{len(graph.channels)} channels, {graph.n_edges} neighbor pairs ({graph.method})")
+    return figure
