@@ -1,0 +1,13 @@
+"""The step-down benchmark runs at its quick size and checks famwise against the reference itself."""
+
+from famwise.benchmarks import BenchRow
+from famwise.benchmarks.stepdown import bench_stepdown
+
+
+def test_quick_step_down_bench():
+    row = bench_stepdown(quick=True)  # raises if famwise and the reference disagree on the same maps
+    assert isinstance(row, BenchRow)
+    assert row.size == "24 subjects x 28,800 points x 200 sign flips"
+    assert row.famwise_s > 0 and row.reference_s > 0 and row.target == ">= 10x"
+    assert row.met == (row.ratio >= 10)
+    assert "identical adjusted p" in row.note and "significant points" in row.note
