@@ -69,8 +69,8 @@ def test_channels_differ_between_subjects(tmp_path):
 
 def test_sampling_rates_differ(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4)
-    write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sfreq=125.0)
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02: time grid differs from subject 01")
+    write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sfreq=200.0)
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz)")
 
 
 def test_nan_in_data(tmp_path):

@@ -155,6 +155,7 @@ def _snakemake(plan, options: list[str], *, capture: bool) -> tuple[int, list[st
     pidfile = output / ".famwise-run.pid"
     pidfile.write_text(str(os.getpid()))
     lines: list[str] = []
+    show = _Progress()
     process = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.STDOUT, text=True, bufsize=1)
     try:
         while True:
@@ -162,7 +163,7 @@ def _snakemake(plan, options: list[str], *, capture: bool) -> tuple[int, list[st
                 for line in process.stdout:
                     lines.append(line.rstrip("\n"))
                     if not capture:
-                        _show(line)
+                        show(line)
                 process.wait()
                 break
             except KeyboardInterrupt:
@@ -173,22 +174,31 @@ def _snakemake(plan, options: list[str], *, capture: bool) -> tuple[int, list[st
     return process.returncode, lines
 
 
-_QUIET_PREFIXES = ("Building DAG", "Using shell", "Provided cores", "Rules claiming", "Select jobs", "Execute ",
-                   "Job stats", "job ", "total ", "---", "host:", "Assuming", "Complete log", "Nothing to be done",
-                   "Multi", "Conda", "Singularity", "This was a dry-run", "Provided resources", "Resources before")
+class _Progress:
+    """Turns Snakemake's output into short progress lines: each job as it starts, and the step count."""
 
+    def __init__(self):
+        self.pending = None
 
-def _show(line: str) -> None:
-    """Pass on Snakemake's progress lines and job starts, quietly."""
-    text = line.strip()
-    if not text or text.startswith(_QUIET_PREFIXES) or text[0].isdigit() and "\t" in text:
-        return
-    if text.startswith(("rule ", "localrule ")):
-        print(f"  - {text.split()[1].rstrip(':')}", flush=True)
-    elif "steps (" in text and "done" in text:
-        print(f"    {text}", flush=True)
-    elif text.startswith(("Error", "MissingInput", "WorkflowError", "Exiting", "Removing output")):
-        print(f"    {text}", flush=True)
+    def __call__(self, line: str) -> None:
+        text = line.strip()
+        if text.startswith(("rule ", "localrule ")) and text.endswith(":"):
+            self._flush()
+            self.pending = text.split()[1].rstrip(":")
+        elif text.startswith("wildcards:") and self.pending:
+            print(f"  - {self.pending} ({text[10:].strip()})", flush=True)
+            self.pending = None
+        elif "steps (" in text and text.endswith("done"):
+            self._flush()
+            print(f"    {text}", flush=True)
+        elif text.startswith(("Error in rule", "MissingInputException", "WorkflowError", "Exiting because")):
+            self._flush()
+            print(f"    {text}", flush=True)
+
+    def _flush(self) -> None:
+        if self.pending and self.pending != "all":
+            print(f"  - {self.pending}", flush=True)
+        self.pending = None
 
 
 def _clear_stale_lock(output: Path) -> None:

@@ -10,7 +10,7 @@ from pathlib import Path
 import numpy as np
 
 from famwise.errors import UserError
-from famwise.io import save_npz
+from famwise.atomic import save_npz
 from famwise.spec.models import did_you_mean
 from famwise.timefreq import TimeFreqMaps, load_timefreq
 
@@ -83,6 +83,7 @@ def build_contrast(
     files: list[Path],
     *,
     subjects: list[str],
+    sampling_rates: list[float | None] | None = None,
     test: str,
     conditions: list[str],
     analysis: dict,
@@ -96,6 +97,8 @@ def build_contrast(
     files : list of path
         ``tf/sub-<id>.npz`` of each subject, in the order of ``subjects``.
     subjects : list of str
+    sampling_rates : list of float or None, optional
+        Sampling rate (Hz) each subject's maps were computed from; must agree.
     test : str
         one-sample, paired, two-sample, repeated-measures or correlation.
     conditions : list of str
@@ -105,6 +108,7 @@ def build_contrast(
     groups, covariate : list, optional
         Group index (0/1) or covariate value of each subject.
     """
+    _check_rates(sampling_rates or [], subjects)
     maps = [load_timefreq(Path(f)) for f in files]
     _check_consistent(maps, subjects)
     first = maps[0]
@@ -136,6 +140,13 @@ def build_contrast(
         groups=None if groups is None else np.asarray(groups, dtype=np.int64),
         covariate=None if covariate is None else np.asarray(covariate, dtype=np.float64),
     )
+
+
+def _check_rates(rates: list[float | None], subjects: list[str]) -> None:
+    known = [(rate, subject) for rate, subject in zip(rates, subjects) if rate is not None]
+    for rate, subject in known[1:]:
+        if abs(rate - known[0][0]) > 1e-9:
+            raise UserError(f"subject {subject}: sampling rate {rate:g} Hz differs from subject {known[0][1]} ({known[0][0]:g} Hz); resample the recordings to one rate")
 
 
 def _check_consistent(maps: list[TimeFreqMaps], subjects: list[str]) -> None:

@@ -6,59 +6,15 @@ n_channels, n_times) in volts, ``sfreq`` (Hz), ``tmin`` (s), ``channels``
 epoch), optional ``bad`` bool (n_epochs).
 """
 
-import json
-import os
 import re
-import tempfile
 from collections.abc import Sequence
 from pathlib import Path
 
 import numpy as np
 
+from famwise.atomic import save_npz
 from famwise.epochs import Epochs
 from famwise.errors import UserError
-
-
-def atomic_path(path: Path):
-    """A context manager yielding a temporary path beside ``path``; renamed onto it on success."""
-    return _AtomicPath(Path(path))
-
-
-class _AtomicPath:
-    def __init__(self, path: Path):
-        self.path = path
-
-    def __enter__(self) -> Path:
-        self.path.parent.mkdir(parents=True, exist_ok=True)
-        handle, name = tempfile.mkstemp(prefix=f".{self.path.name}.", suffix=self.path.suffix or ".tmp", dir=self.path.parent)
-        os.close(handle)
-        self.temporary = Path(name)
-        return self.temporary
-
-    def __exit__(self, kind, value, traceback):
-        if kind is None:
-            os.replace(self.temporary, self.path)
-        else:
-            self.temporary.unlink(missing_ok=True)
-        return False
-
-
-def save_npz(path: Path, **arrays) -> None:
-    """Write an uncompressed NPZ atomically (no partial file after a failure)."""
-    with atomic_path(path) as temporary:
-        with open(temporary, "wb") as handle:
-            np.savez(handle, **arrays)
-
-
-def write_text(path: Path, text: str) -> None:
-    """Write a text file atomically."""
-    with atomic_path(path) as temporary:
-        temporary.write_text(text, encoding="utf-8")
-
-
-def write_json(path: Path, value) -> None:
-    """Write JSON atomically (indented, keys in given order)."""
-    write_text(path, json.dumps(value, indent=2) + "\n")
 
 
 def save_epochs(

@@ -8,14 +8,20 @@ sections the stage depends on. A user error ends the job with one line
 
 import argparse
 import json
+import os
 import sys
 import time
 from pathlib import Path
 
-import numpy as np
+# Every rule runs single-threaded (Snakemake runs jobs side by side); a multi-threaded
+# BLAS in each of them would only fight for the same cores. Set before numpy loads.
+for _variable in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS"):
+    os.environ.setdefault(_variable, "1")
 
-from famwise.errors import UserError
-from famwise.io import save_npz, write_json, write_text
+import numpy as np  # noqa: E402
+
+from famwise.errors import UserError  # noqa: E402
+from famwise.atomic import save_npz, write_json, write_text  # noqa: E402
 
 # Each stage imports what it needs inside its function: a job is a fresh process,
 # and the numba and scipy.stats imports of other stages would cost it seconds.
@@ -34,7 +40,7 @@ def run_decompose(args, settings: dict) -> None:
     subject, out = args.subject, Path(args.out)
     source = settings["source"]
     labels = {label: name for name, group in settings["conditions"].items() for label in group}
-    rejected = {}
+    rejected, sfreq = {}, None
     if source == "timefreq":
         maps = load_timefreq(subject_file(Path("/"), settings["path"], subject))
     else:
@@ -46,6 +52,7 @@ def run_decompose(args, settings: dict) -> None:
                 Path(settings["path"]), subject, task=settings["task"], window_ms=tuple(ep["window_ms"]),
                 reject_peak_to_peak_uv=ep["reject_peak_to_peak_uv"], reference=ep["reference"], labels=set(labels),
             )
+        sfreq = epochs.sfreq
         for label, count in epochs.rejected.items():
             if label in labels:
                 rejected[labels[label]] = rejected.get(labels[label], 0) + int(count)
@@ -68,6 +75,7 @@ def run_decompose(args, settings: dict) -> None:
         raise UserError(f"subject {subject}: no maps for condition(s) {', '.join(missing)} (found: {', '.join(maps.conditions)})")
     info = {
         "subject": subject,
+        "sfreq": sfreq,
         "n_trials": {c: int(n) for c, n in zip(maps.conditions, maps.n_trials)},
         "rejected": {c: rejected.get(c, 0) for c in maps.conditions},
     }
@@ -136,8 +144,10 @@ def run_contrast_data(args, settings: dict) -> None:
     from famwise.design import build_contrast
 
     contrast = settings["contrast"]
+    files = [Path(p) for p in args.inputs]
+    rates = [json.loads(f.with_suffix(".json").read_text()).get("sfreq") for f in files]
     data = build_contrast(
-        [Path(p) for p in args.inputs], subjects=settings["subjects"], test=contrast["test"],
+        files, sampling_rates=rates, subjects=settings["subjects"], test=contrast["test"],
         conditions=contrast["conditions"], analysis=settings["analysis"],
         groups=settings.get("groups"), covariate=settings.get("covariate"),
     )
@@ -148,6 +158,7 @@ def run_contrast_data(args, settings: dict) -> None:
 def run_observed(args, settings: dict) -> None:
     """Contrast data -> ``contrasts/<c>/observed.npz``."""
     from famwise.design import load_contrast
+    from famwise.nulls import identity_statistic
     from famwise.stats import compute
 
     data = load_contrast(Path(args.subjects))
@@ -155,9 +166,12 @@ def run_observed(args, settings: dict) -> None:
         data.x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
         statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"], tail=settings["tail"],
     )
+    # The stored map is the permutation engine's identity row (equal to result.stat up to
+    # float32 rounding), so that every correction compares the null with the same bits.
+    stat = identity_statistic(data, settings=settings)
     shape = data.shape
     save_npz(
-        Path(args.out), stat=result.stat.reshape(shape), p=result.p.reshape(shape), df=np.asarray(result.df),
+        Path(args.out), stat=stat.reshape(shape), p=result.p.reshape(shape), df=np.asarray(result.df),
         effect=result.effect.reshape(shape), effect_size=result.effect_size.reshape(shape),
         channels=np.array(data.channels), freqs=data.freqs, times=data.times, test=data.test,
         statistic=result.statistic, n=result.n, tail=result.effective_tail,

@@ -13,7 +13,7 @@ import numpy as np
 from famwise.correct.forming import cluster_threshold
 from famwise.correct.maxstat import MaxStatCollector, StepDownCollector
 from famwise.design import ContrastData, load_contrast
-from famwise.resample import ExceedanceCollector, make_table, run_shard, shard_bounds, smallest_attainable_p
+from famwise.resample import ExceedanceCollector, iter_null_blocks, make_table, run_shard, shard_bounds, smallest_attainable_p
 
 
 def table_for(data: ContrastData, *, settings: dict):
@@ -23,6 +23,23 @@ def table_for(data: ContrastData, *, settings: dict):
         data.test, n_subjects=len(data.subjects), n_permutations=settings["permutations"], seed=settings["seed"],
         groups=data.groups, n_conditions=n_conditions,
     )
+
+
+def identity_statistic(data: ContrastData, *, settings: dict) -> np.ndarray:
+    """The observed statistic computed by the permutation engine (row 0, the identity).
+
+    The corrections compare every permutation with this map, so it must be the
+    same bits the null's identity row gets, whatever the block or shard.
+    """
+    n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
+    identity = make_table(data.test, n_subjects=len(data.subjects), n_permutations=1, seed=0, groups=data.groups, n_conditions=n_conditions).rows[:1]
+    block = next(
+        iter_null_blocks(
+            data.x, identity, test=data.test, groups=data.groups, covariate=data.covariate,
+            statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"],
+        )
+    )
+    return np.asarray(block[0], dtype=np.float64)
 
 
 def permutation_info(subjects_file: Path, *, settings: dict) -> dict:

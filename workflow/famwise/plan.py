@@ -5,7 +5,6 @@ settings hold only the spec sections that stage depends on, as plain JSON
 text, so that Snakemake's params trigger reruns exactly what changed.
 """
 
-import csv
 import json
 from dataclasses import dataclass
 from functools import cached_property
@@ -311,8 +310,3 @@ class Plan:
         """Every file ``rule all`` asks for."""
         return ["report/index.html", "subjects.tsv", *self.result_files()]
 
-
-def read_tsv(path: Path) -> list[dict[str, str]]:
-    """Rows of a TSV file with a header."""
-    with open(path, newline="", encoding="utf-8") as handle:
-        return list(csv.DictReader(handle, delimiter="\t"))

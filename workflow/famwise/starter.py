@@ -8,7 +8,8 @@ import numpy as np
 
 from famwise import bids
 from famwise.errors import UserError
-from famwise.io import discover_pattern, write_text
+from famwise.atomic import write_text
+from famwise.io import discover_pattern
 
 
 def write_starter_spec(data: Path, out: Path) -> None:

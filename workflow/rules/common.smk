@@ -24,6 +24,10 @@ def contrast_map_files(wildcards):
     return PLAN.contrast_inputs(wildcards.contrast)
 
 
+def contrast_info_files(wildcards):
+    return [f.replace(".npz", ".json") for f in PLAN.contrast_inputs(wildcards.contrast)]
+
+
 def contrast_settings(wildcards):
     return PLAN.contrast_settings(wildcards.contrast)
 
@@ -70,3 +74,60 @@ def null_settings(wildcards):
 
 def report_settings(wildcards):
     return PLAN.report_settings()
+
+
+# Scheduler resources (memory in MB, runtime in minutes) estimated from the study's
+# sizes by famwise.resources; a retried job asks for more memory and time.
+import famwise.resources as sizing
+
+
+def decompose_mem_mb(wildcards, attempt):
+    return sizing.decompose_mem_mb(PLAN, wildcards.subject) * attempt
+
+
+def decompose_runtime(wildcards, attempt):
+    return sizing.decompose_runtime_min(PLAN, wildcards.subject) * attempt
+
+
+def small_job_mem_mb(wildcards, attempt):
+    return sizing.small_mem_mb(PLAN) * attempt
+
+
+def small_job_runtime(wildcards, attempt):
+    return sizing.small_runtime_min(PLAN) * attempt
+
+
+def contrast_data_mem_mb(wildcards, attempt):
+    return sizing.contrast_data_mem_mb(PLAN) * attempt
+
+
+def observed_mem_mb(wildcards, attempt):
+    return sizing.observed_mem_mb(PLAN) * attempt
+
+
+def group_job_runtime(wildcards, attempt):
+    return sizing.group_runtime_min(PLAN) * attempt
+
+
+def null_shard_mem_mb(wildcards, attempt):
+    return sizing.null_shard_mem_mb(PLAN) * attempt
+
+
+def null_shard_runtime(wildcards, attempt):
+    return sizing.null_shard_runtime_min(PLAN) * attempt
+
+
+def correct_mem_mb(wildcards, attempt):
+    return sizing.correct_mem_mb(PLAN, wildcards.correction) * attempt
+
+
+def correct_runtime(wildcards, attempt):
+    return sizing.correct_runtime_min(PLAN, wildcards.correction) * attempt
+
+
+def report_mem_mb(wildcards, attempt):
+    return sizing.report_mem_mb(PLAN) * attempt
+
+
+def report_runtime(wildcards, attempt):
+    return sizing.report_runtime_min(PLAN) * attempt

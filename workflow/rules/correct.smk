@@ -12,6 +12,9 @@ rule correct_points:
         settings=correction_settings,
     wildcard_constraints:
         correction=_alternatives([c.label for c in PLAN.study.inference.corrections if c.method != "cluster"]),
+    resources:
+        mem_mb=correct_mem_mb,
+        runtime=correct_runtime,
     shell:
         "{JOB} correct --settings {params.settings:q} --contrast {wildcards.contrast} "
         "--out {output} {input} > {log} 2>&1"
@@ -29,6 +32,9 @@ rule correct_clusters:
         settings=correction_settings,
     wildcard_constraints:
         correction=_alternatives(PLAN.cluster_labels()),
+    resources:
+        mem_mb=correct_mem_mb,
+        runtime=correct_runtime,
     shell:
         "{JOB} correct --settings {params.settings:q} --contrast {wildcards.contrast} "
         "--out {output.result} {input} > {log} 2>&1"

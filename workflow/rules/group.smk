@@ -3,15 +3,19 @@
 
 rule contrast_data:
     input:
-        contrast_map_files,
+        maps=contrast_map_files,
+        info=contrast_info_files,
     output:
         "contrasts/{contrast}/subjects.npz",
     log:
         "logs/contrast_data/{contrast}.log",
     params:
         settings=contrast_settings,
+    resources:
+        mem_mb=contrast_data_mem_mb,
+        runtime=group_job_runtime,
     shell:
-        "{JOB} contrast-data --settings {params.settings:q} --out {output} {input} > {log} 2>&1"
+        "{JOB} contrast-data --settings {params.settings:q} --out {output} {input.maps} > {log} 2>&1"
 
 
 rule observed:
@@ -23,5 +27,8 @@ rule observed:
         "logs/observed/{contrast}.log",
     params:
         settings=observed_settings,
+    resources:
+        mem_mb=observed_mem_mb,
+        runtime=group_job_runtime,
     shell:
         "{JOB} observed --settings {params.settings:q} --subjects {input} --out {output} > {log} 2>&1"

@@ -13,6 +13,9 @@ rule null_shard:
     params:
         settings=null_settings,
     threads: 1
+    resources:
+        mem_mb=null_shard_mem_mb,
+        runtime=null_shard_runtime,
     shell:
         "{JOB} null-shard --settings {params.settings:q} --shard {wildcards.shard} "
         "--subjects {input.subjects} --observed {input.observed} --graph '{input.graph}' "
@@ -28,5 +31,8 @@ rule null_info:
         "logs/null_info/{contrast}.log",
     params:
         settings=null_settings,
+    resources:
+        mem_mb=observed_mem_mb,
+        runtime=group_job_runtime,
     shell:
         "{JOB} null-info --settings {params.settings:q} --subjects {input} --out {output} > {log} 2>&1"

@@ -15,5 +15,8 @@ rule report:
         "logs/report/all.log",
     params:
         settings=report_settings,
+    resources:
+        mem_mb=report_mem_mb,
+        runtime=report_runtime,
     shell:
         "{JOB} report --settings {params.settings:q} > {log} 2>&1"

@@ -11,6 +11,9 @@ rule decompose:
         "logs/decompose/{subject}.log",
     params:
         settings=decompose_settings,
+    resources:
+        mem_mb=decompose_mem_mb,
+        runtime=decompose_runtime,
     shell:
         "{JOB} decompose --subject {wildcards.subject} --settings {params.settings:q} "
         "--out {output.maps} > {log} 2>&1"
@@ -25,6 +28,9 @@ rule subjects_table:
         "logs/subjects_table/all.log",
     params:
         settings=subjects_table_settings,
+    resources:
+        mem_mb=small_job_mem_mb,
+        runtime=small_job_runtime,
     shell:
         "{JOB} subjects-table --settings {params.settings:q} --out {output} {input} > {log} 2>&1"
 
@@ -39,5 +45,8 @@ rule channel_graph:
         "logs/channel_graph/all.log",
     params:
         settings=graph_settings,
+    resources:
+        mem_mb=small_job_mem_mb,
+        runtime=small_job_runtime,
     shell:
         "{JOB} channel-graph --settings {params.settings:q} --maps {input[0]} --out {output} > {log} 2>&1"

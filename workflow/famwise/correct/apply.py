@@ -15,7 +15,7 @@ from famwise.collectors import merge_shard_arrays
 from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
-from famwise.io import save_npz
+from famwise.atomic import save_npz
 
 
 def _load(path: Path) -> dict[str, np.ndarray]:

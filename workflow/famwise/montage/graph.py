@@ -1,7 +1,5 @@
 """Channel neighbor graphs: triangulation, distance threshold or an edge list."""
 
-import os
-import tempfile
 import warnings
 from dataclasses import dataclass
 from itertools import combinations
@@ -11,6 +9,7 @@ import numpy as np
 from scipy.spatial import Delaunay
 from scipy.spatial.distance import cdist
 
+from famwise.atomic import save_npz
 from famwise.errors import FamwiseWarning, UserError
 from famwise.montage.positions import (
     SYSTEMS,
@@ -336,17 +335,9 @@ def save_graph(path, graph: ChannelGraph, positions: Positions) -> None:
     if positions.names != graph.channels:
         raise ValueError("positions must list exactly the graph's channels, in the same order")
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    fd, temp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(fd, "wb") as handle:
-            np.savez(handle, format=np.str_(FILE_FORMAT), channels=np.array(graph.channels, dtype=str),
-                     indptr=graph.indptr, indices=graph.indices, method=np.str_(graph.method),
-                     xyz_mm=positions.xyz, source=np.str_(positions.source))
-        os.replace(temp, path)
-    except BaseException:
-        Path(temp).unlink(missing_ok=True)
-        raise
+    save_npz(path, format=np.str_(FILE_FORMAT), channels=np.array(graph.channels, dtype=str),
+             indptr=graph.indptr, indices=graph.indices, method=np.str_(graph.method),
+             xyz_mm=positions.xyz, source=np.str_(positions.source))
 
 
 def load_graph(path) -> tuple[ChannelGraph, Positions]:

@@ -7,8 +7,6 @@ lightest colour. The sequential map (for counts) is a single lightness ramp.
 """
 
 import io
-import os
-import tempfile
 from contextlib import contextmanager
 from pathlib import Path
 
@@ -19,6 +17,8 @@ matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 from matplotlib.colors import ListedColormap  # noqa: E402
+
+from famwise.atomic import write_bytes  # noqa: E402
 
 _WHITE_D65 = np.array([0.95047, 1.0, 1.08883])
 _XYZ_TO_RGB = np.array([[3.2404542, -1.5371385, -0.4985314],
@@ -116,20 +116,8 @@ def symmetric_limit(values: np.ndarray) -> float:
 
 
 def write_atomic(path: Path, data: bytes) -> None:
-    """Write bytes to ``path`` through a temporary file in the same folder."""
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    handle, temporary = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".tmp")
-    try:
-        with os.fdopen(handle, "wb") as stream:
-            stream.write(data)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(temporary, 0o666 & ~umask)
-        os.replace(temporary, path)
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise
+    """Write bytes to ``path`` atomically."""
+    write_bytes(path, data)
 
 
 def save_figure(figure, folder: Path, stem: str) -> bytes:

@@ -52,7 +52,7 @@ def _default(field) -> str:
 
 
 def _table(model: type[BaseModel], prefix: str, out: list[str], nested: list) -> None:
-    out.append(f"| key | type | default | description |")
+    out.append("| key | type | default | description |")
     out.append("|---|---|---|---|")
     for name, field in model.model_fields.items():
         annotation = field.annotation

@@ -1,12 +1,11 @@
 """Condition-wise time-frequency maps of one subject and their file."""
 
-import os
-import tempfile
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
+from famwise.atomic import save_npz
 from famwise.errors import UserError
 
 _KEYS = ("values", "conditions", "channels", "freqs", "times", "measure", "baseline", "n_trials")
@@ -57,25 +56,18 @@ class TimeFreqMaps:
             Target file; its folder must exist.
         """
         path = Path(path)
-        handle, tmp = tempfile.mkstemp(dir=path.parent, prefix=f".{path.name}.", suffix=".npz")
-        try:
-            with os.fdopen(handle, "wb") as stream:
-                np.savez(
-                    stream,
-                    values=np.asarray(self.values, dtype=np.float32),
-                    conditions=np.array(self.conditions, dtype=str),
-                    channels=np.array(self.channels, dtype=str),
-                    freqs=np.asarray(self.freqs, dtype=float),
-                    times=np.asarray(self.times, dtype=float),
-                    measure=np.array(self.measure),
-                    baseline=np.array(self.baseline),
-                    n_trials=np.asarray(self.n_trials, dtype=np.int64),
-                    valid=np.asarray(self.valid, dtype=bool),
-                )
-            os.replace(tmp, path)
-        except BaseException:
-            Path(tmp).unlink(missing_ok=True)
-            raise
+        save_npz(
+            path,
+            values=np.asarray(self.values, dtype=np.float32),
+            conditions=np.array(self.conditions, dtype=str),
+            channels=np.array(self.channels, dtype=str),
+            freqs=np.asarray(self.freqs, dtype=float),
+            times=np.asarray(self.times, dtype=float),
+            measure=np.array(self.measure),
+            baseline=np.array(self.baseline),
+            n_trials=np.asarray(self.n_trials, dtype=np.int64),
+            valid=np.asarray(self.valid, dtype=bool),
+        )
 
     def valid_span_ms(self, fmin_hz: float, fmax_hz: float) -> tuple[float, float] | None:
         """The widest time window (ms) valid at every frequency in [fmin_hz, fmax_hz].
