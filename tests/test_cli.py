@@ -104,9 +104,11 @@ def test_analysis_window_in_cone_of_influence(tmp_path):
 
 
 def test_too_few_permutations_warns(tmp_path):
-    spec = write_tiny_study(tmp_path, n_subjects=4, permutations=8)
+    spec = write_tiny_study(tmp_path, n_subjects=4, permutations=100)
     result = famwise_cli("check", spec)
     assert result.returncode == 0, result.stderr
+    # 4 subjects: 16 sign flips, two-sided smallest p = 2/16 (CHECK_VALUES CV-09, common practice)
+    assert "famwise: warning: contrast high-vs-low: the smallest attainable permutation p is 0.125 (16 all sign-flip rows" in result.stderr
 
 
 def test_debug_shows_traceback(tmp_path):

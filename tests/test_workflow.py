@@ -109,3 +109,43 @@ def test_reruns_only_what_changed(tmp_path):
         "decompose": 6, "subjects_table": 1, "contrast_data": 1, "observed": 1, "null_shard": 2, "null_info": 1,
         "correct_points": 3, "report": 1,
     }
+
+
+def test_all_contrasts_family_equals_brute_force(tmp_path):
+    """family: all-contrasts ranks both contrasts' points jointly (Westfall & Young 1993 successive maxima),
+    checked against the brute-force step-down over the concatenated permutation maps (famwise.reference.stepdown)
+    and Holm over the concatenated parametric p (statsmodels.stats.multitest.multipletests)."""
+    from famwise.design import load_contrast
+    from famwise.reference.stepdown import step_down_reference
+    from famwise.resample import iter_null_blocks, make_table
+
+    spec = write_tiny_study(tmp_path, n_subjects=6, corrections="- method: holm\n- method: max-stat\n  step_down: true\n")
+    text = spec.read_text().replace("  shards: 2\n", "  shards: 2\n  family: all-contrasts\n")
+    text = text.replace("inference:", "  - name: high-only\n    test: one-sample\n    conditions: [high]\ninference:")
+    spec.write_text(text)
+    assert _jobs(spec)["family_stepdown_shard"] == 2
+    _run(spec)
+    out = tmp_path / "results" / "contrasts"
+    names = ["high-vs-low", "high-only"]
+    datas = [load_contrast(out / n / "subjects.npz") for n in names]
+    table = make_table("paired", n_subjects=6, n_permutations=63, seed=7)
+    maps = np.concatenate([np.concatenate(list(iter_null_blocks(d.x, table.rows, test=d.test)), axis=0) for d in datas], axis=1)
+    observed = np.concatenate([np.load(out / n / "observed.npz")["stat"].reshape(-1) for n in names])
+    expected = step_down_reference(maps, observed, tail="two-sided")
+    found = np.concatenate([np.load(out / n / "max-stat" / "result.npz")["p_corrected"].reshape(-1) for n in names])
+    np.testing.assert_allclose(found, expected, rtol=1e-12)
+    p = np.concatenate([np.load(out / n / "observed.npz")["p"].reshape(-1) for n in names])
+    holm = np.concatenate([np.load(out / n / "holm" / "result.npz")["p_corrected"].reshape(-1) for n in names])
+    np.testing.assert_allclose(holm, multipletests(p, method="holm")[1], rtol=1e-9)
+
+
+def test_all_contrasts_needs_a_shared_table(tmp_path):
+    from famwise.errors import UserError
+
+    spec = write_tiny_study(tmp_path, n_subjects=6)
+    text = spec.read_text().replace("  shards: 2\n", "  shards: 2\n  family: all-contrasts\n")
+    text = text.replace("  min_epochs: 5\n", "  min_epochs: 5\n  groups: {'01': a, '02': a, '03': a, '04': b, '05': b, '06': b}\n")
+    text = text.replace("inference:", "  - name: groups\n    test: two-sample\n    conditions: [high]\n    groups: [a, b]\ninference:")
+    spec.write_text(text)
+    with pytest.raises(UserError, match="contrasts 'high-vs-low' \\(sign-flip, 6 subjects\\) and 'groups' \\(label, 6 subjects\\) cannot share them"):
+        Plan.from_spec(spec)

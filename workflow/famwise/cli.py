@@ -82,6 +82,7 @@ def command_check(args) -> int:
 
     plan = Plan.from_spec(args.spec)
     print(describe_plan(plan))
+    _warn(plan.attainability_warnings())
     print()
     print("What would run and why:")
     jobs = planned_jobs(plan)
@@ -90,6 +91,11 @@ def command_check(args) -> int:
     for rule, (count, reasons) in jobs.items():
         print(f"  {count:4d} x {rule:<17} {'; '.join(sorted(reasons))[:150]}")
     return 0
+
+
+def _warn(messages: list[str]) -> None:
+    for message in messages:
+        print(f"famwise: warning: {message}", file=sys.stderr)
 
 
 def planned_jobs(plan) -> dict[str, tuple[int, set[str]]]:
@@ -119,6 +125,7 @@ def command_run(args) -> int:
     from famwise.plan import Plan
 
     plan = Plan.from_spec(args.spec)
+    _warn(plan.attainability_warnings())
     options = ["--cores", str(args.cores)]
     if args.profile:
         if not args.profile.is_dir():

@@ -189,6 +189,17 @@ def run_null_shard(args, settings: dict) -> None:
     save_npz(Path(args.out), **arrays)
 
 
+def run_family_stepdown_shard(args, settings: dict) -> None:
+    """Every contrast's data + observed -> ``family/<correction>/shard-<k>.npz`` (joint step-down)."""
+    from famwise.nulls import family_stepdown_shard
+
+    arrays = family_stepdown_shard(
+        [Path(p) for p in args.subjects.split()], [Path(p) for p in args.observed.split()],
+        shard=args.shard, settings=settings, key=args.key, progress=_say,
+    )
+    save_npz(Path(args.out), **arrays)
+
+
 def run_null_info(args, settings: dict) -> None:
     """Contrast data -> ``contrasts/<c>/nulls/info.json`` (size of the permutation table)."""
     from famwise.nulls import permutation_info
@@ -225,6 +236,7 @@ STAGES = {
     "observed": run_observed,
     "null-shard": run_null_shard,
     "null-info": run_null_info,
+    "family-stepdown-shard": run_family_stepdown_shard,
     "correct": run_correct,
     "report": run_report,
 }
@@ -242,6 +254,7 @@ def _parser() -> argparse.ArgumentParser:
     parser.add_argument("--observed")
     parser.add_argument("--graph", default="")
     parser.add_argument("--shard", type=int)
+    parser.add_argument("--key", help="correction name (joint step-down shards)")
     parser.add_argument("inputs", nargs="*")
     return parser
 

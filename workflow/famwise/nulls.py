@@ -131,3 +131,44 @@ def null_shard(
     if progress:
         progress(f"shard {shard}: done")
     return arrays
+
+
+def family_stepdown_shard(
+    subjects_files: list[Path],
+    observed_files: list[Path],
+    *,
+    shard: int,
+    settings: dict,
+    key: str,
+    progress: Callable[[str], None] | None = None,
+) -> dict[str, np.ndarray]:
+    """Shard ``shard`` of a step-down max-statistic ranked over every contrast together.
+
+    The contrasts share the permutation table; each block's maps of all
+    contrasts are concatenated along the point axis (in the order given) and
+    fed to one step-down collector, whose counts therefore rank all points of
+    the family jointly.
+    """
+    datas = [load_contrast(path) for path in subjects_files]
+    observed = []
+    for path in observed_files:
+        with np.load(path, allow_pickle=False) as archive:
+            observed.append((archive["stat"].reshape(-1), str(archive["tail"])))
+    table = table_for(datas[0], settings=settings)
+    start, stop = shard_bounds(table.n_rows, settings["shards"], shard)
+    collector = StepDownCollector(np.concatenate([stat for stat, _ in observed]), tail=observed[0][1], key=key)
+    streams = [
+        iter_null_blocks(
+            data.x, table.rows[start:stop], test=data.test, groups=data.groups, covariate=data.covariate,
+            statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"],
+        )
+        for data in datas
+    ]
+    if progress:
+        progress(f"family shard {shard}: rows {start}..{stop} of {table.n_rows}, {len(datas)} contrasts ranked jointly")
+    for blocks in zip(*streams):
+        collector.update(np.concatenate(blocks, axis=1))
+    arrays = collector.arrays()
+    arrays["rows"] = np.array([start, stop])
+    arrays["n_rows.total"] = np.array(table.n_rows)
+    return arrays

@@ -10,6 +10,8 @@ from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
 
+import numpy as np
+
 from famwise import bids
 from famwise.errors import UserError
 from famwise.io import discover_pattern, subject_file
@@ -133,16 +135,59 @@ class Plan:
                         )
             if contrast.test == "correlation":
                 self.covariate(contrast.covariate)
+        if self.study.inference.family == "all-contrasts":
+            self._check_shared_table()
+
+    def _check_shared_table(self) -> None:
+        """``family: all-contrasts`` needs one permutation table for every contrast."""
+        scheme = {"one-sample": "sign-flip", "paired": "sign-flip", "two-sample": "label", "repeated-measures": "within-subject", "correlation": "covariate"}
+        first = None
+        for contrast in self.study.contrasts:
+            settings = json.loads(self.contrast_settings(contrast.name))
+            design = (scheme[contrast.test], tuple(settings["subjects"]), tuple(settings.get("groups") or ()), len(contrast.conditions) if contrast.test == "repeated-measures" else 0)
+            if first is None:
+                first = (contrast.name, design)
+            elif design != first[1]:
+                raise UserError(
+                    f"{self.loaded.path.name} inference.family: 'all-contrasts' applies the same permutations to every contrast, "
+                    f"but contrasts '{first[0]}' ({first[1][0]}, {len(first[1][1])} subjects) and '{contrast.name}' "
+                    f"({design[0]}, {len(design[1])} subjects) cannot share them; use family: per-contrast"
+                )
 
     def first_subject_channels(self) -> list[str] | None:
         """Channel names of the first analysed subject, read without decomposing (None if unknown)."""
-        import numpy as np
-
         subject = self.subjects[0]
         if self.study.subjects.source == "bids":
             return bids.read_channel_names(self.loaded.resolve(self.study.subjects.path), subject, task=self.study.subjects.task)
         with np.load(self.input_files(subject)[0], allow_pickle=False) as archive:
             return [str(c) for c in archive["channels"]] if "channels" in archive.files else None
+
+    def attainability_warnings(self) -> list[str]:
+        """One line per contrast whose permutation table cannot reach alpha (naming the smallest p)."""
+        from famwise.resample import make_table, smallest_attainable_p
+
+        inference = self.study.inference
+        if not inference.needs_null:
+            return []
+        warnings = []
+        for contrast in self.study.contrasts:
+            settings = json.loads(self.contrast_settings(contrast.name))
+            n_conditions = len(contrast.conditions) if contrast.test == "repeated-measures" else None
+            groups = settings.get("groups")
+            table = make_table(
+                contrast.test, n_subjects=len(settings["subjects"]), n_permutations=inference.permutations,
+                seed=self.study.seed, groups=None if groups is None else np.asarray(groups), n_conditions=n_conditions,
+            )
+            tail = "greater" if contrast.test == "repeated-measures" else inference.tail
+            smallest = smallest_attainable_p(table, tail=tail)
+            if smallest > inference.alpha:
+                kind = "all" if table.exact else "random"
+                warnings.append(
+                    f"contrast {contrast.name}: the smallest attainable permutation p is {smallest:.4g} "
+                    f"({table.n_rows} {kind} {table.scheme} rows for {len(settings['subjects'])} subjects), above alpha "
+                    f"{inference.alpha:g}: no permutation-based correction can declare anything; add subjects or permutations"
+                )
+        return warnings
 
     # ---- stage settings (plain JSON text for Snakemake params) ---------------
 
@@ -294,7 +339,24 @@ class Plan:
                 files.extend(self.shard_files(name))
         if c.method in ("cluster", "tfce"):
             files.append("channels/graph.npz")
+        if self.study.inference.family == "all-contrasts" and c.method == "max-stat" and c.step_down and len(contrasts) > 1:
+            files.extend(self.family_shard_files(label))
         return files
+
+    def family_shard_files(self, label: str) -> list[str]:
+        """Joint step-down shards of a family over every contrast."""
+        return [f"family/{label}/shard-{k}.npz" for k in range(self.study.inference.shards)]
+
+    def family_shard_inputs(self) -> dict[str, list[str]]:
+        """Every contrast's data and observed map, in spec order (the order points are ranked in)."""
+        names = [c.name for c in self.study.contrasts]
+        return {
+            "subjects": [f"contrasts/{n}/subjects.npz" for n in names],
+            "observed": [f"contrasts/{n}/observed.npz" for n in names],
+        }
+
+    def stepdown_labels(self) -> list[str]:
+        return [c.label for c in self.study.inference.corrections if c.method == "max-stat" and c.step_down]
 
     def result_files(self) -> list[str]:
         files = []

@@ -39,8 +39,7 @@ rule calibrate_chunk:
 
 rule calibrate_table:
     input:
-        subjects="contrasts/{contrast}/subjects.npz",
-        chunks=calibration_chunk_files,
+        calibration_chunk_files,
     output:
         table="calibration/{contrast}.tsv",
         sidecar="calibration/{contrast}.json",
@@ -51,5 +50,4 @@ rule calibrate_table:
     params:
         settings=calibration_settings,
     shell:
-        "{CALIBRATE} table --settings {params.settings:q} --subjects {input.subjects} "
-        "--out {output.table} {input.chunks} > {log} 2>&1"
+        "{CALIBRATE} table --settings {params.settings:q} --out {output.table} {input} > {log} 2>&1"

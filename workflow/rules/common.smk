@@ -131,3 +131,7 @@ def report_mem_mb(wildcards, attempt):
 
 def report_runtime(wildcards, attempt):
     return sizing.report_runtime_min(PLAN) * attempt
+
+
+def family_shard_inputs(wildcards):
+    return PLAN.family_shard_inputs()

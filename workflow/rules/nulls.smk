@@ -36,3 +36,20 @@ rule null_info:
         runtime=group_job_runtime,
     shell:
         "{JOB} null-info --settings {params.settings:q} --subjects {input} --out {output} > {log} 2>&1"
+
+
+rule family_stepdown_shard:
+    input:
+        unpack(family_shard_inputs),
+    output:
+        "family/{correction}/shard-{shard}.npz",
+    log:
+        "logs/family_stepdown_shard/{correction}-{shard}.log",
+    params:
+        settings=null_settings,
+    threads: 1
+    wildcard_constraints:
+        correction=_alternatives(PLAN.stepdown_labels()),
+    shell:
+        "{JOB} family-stepdown-shard --settings {params.settings:q} --shard {wildcards.shard} "
+        "--key {wildcards.correction} --subjects '{input.subjects}' --observed '{input.observed}' --out {output} > {log} 2>&1"

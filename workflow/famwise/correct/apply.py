@@ -58,12 +58,14 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
     correction = settings["correction"]
     method = correction["method"]
     alpha = settings["alpha"]
-    observed, shards, graph = {}, {}, None
+    observed, shards, graph, family_shards = {}, {}, None, []
     for path in inputs:
         if path.name == "observed.npz":
             observed[_contrast_of(path)] = _load(path)
         elif path.name == "graph.npz":
             graph = _load(path)
+        elif path.parts[0] == "family":
+            family_shards.append(path)
         else:
             shards.setdefault(_contrast_of(path), []).append(path)
     names = [c for c in settings["contrasts"] if c in observed]
@@ -88,9 +90,14 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
         n_rows = nulls[contrast][1]
         max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
         stat = mine["stat"].reshape(-1)
-        if correction["step_down"]:
-            if len(names) > 1:
-                raise UserError("inference.family: step-down max-statistic over all contrasts is not available yet; use step_down: false or family: per-contrast")
+        if correction["step_down"] and len(names) > 1:
+            family, family_rows = _merged_nulls(family_shards)
+            results = maxstat.step_down_family(
+                [observed[c]["stat"].reshape(-1) for c in names], family[f"{key}.count"], family_rows,
+                tail=tail, alpha=alpha, max_null=max_null,
+            )
+            result = results[names.index(contrast)]
+        elif correction["step_down"]:
             result = maxstat.step_down(stat, nulls[contrast][0][f"{key}.count"], n_rows, tail=tail, alpha=alpha, max_null=max_null)
         else:
             result = maxstat.single_step(stat, max_null, tail=tail, alpha=alpha)
