@@ -130,7 +130,7 @@ def test_init_writes_a_valid_starter_spec(tmp_path):
     (tmp_path / "study.yaml").unlink()
     assert main(["init", str(tmp_path / "data"), "--out", str(tmp_path / "study.yaml")]) == 0
     text = (tmp_path / "study.yaml").read_text()
-    assert "high: [high]" in text and "low: [low]" in text
+    assert 'high: ["high"]' in text and 'low: ["low"]' in text
     result = famwise_cli("check", tmp_path / "study.yaml")
     assert result.returncode == 0, result.stderr
 

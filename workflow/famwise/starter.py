@@ -1,6 +1,8 @@
 """``famwise init``: a commented starter spec from the data found in a folder."""
 
+import json
 import os
+import re
 from collections import Counter
 from pathlib import Path
 
@@ -72,9 +74,16 @@ def _epochs_labels(folder: Path, pattern: str, subjects: list[str]) -> Counter:
     return labels
 
 
+def _condition_name(label: str) -> str:
+    """A spec condition name for an event label (letters, digits, '-', '_', '.')."""
+    return re.sub(r"[^A-Za-z0-9_.-]+", "-", label).strip("-._") or "condition"
+
+
 def _starter_text(source, path, task, subjects, labels: Counter, *, name: str) -> str:
-    conditions = "\n".join(f"  {label}: [{label}]      # {count} epochs over all subjects" for label, count in sorted(labels.items())) or "  condition-a: [label-a]"
-    first = sorted(labels)[:2] if len(labels) >= 2 else ["condition-a", "condition-b"]
+    conditions = "\n".join(
+        f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects" for label, count in sorted(labels.items())
+    ) or "  condition-a: [label-a]"
+    first = [_condition_name(label) for label in sorted(labels)[:2]] if len(labels) >= 2 else ["condition-a", "condition-b"]
     task_line = f"  task: {task}\n" if task else ""
     return f"""# famwise study spec, written by `famwise init` from {len(subjects)} subject(s) found.
 # Check it with `famwise check <this file>`, run it with `famwise run <this file>`.
