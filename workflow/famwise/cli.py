@@ -70,6 +70,10 @@ def _parser() -> argparse.ArgumentParser:
     bench.add_argument("--quick", action="store_true", help="smaller sizes (under 2 minutes)")
     bench.add_argument("--json", type=Path, help="also write the table as JSON")
     bench.set_defaults(handler=command_bench)
+
+    from famwise.calibrate_command import add_parser as add_calibrate_parser
+
+    add_calibrate_parser(commands)
     return parser
 
 

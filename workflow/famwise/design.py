@@ -12,7 +12,6 @@ import numpy as np
 from famwise.errors import UserError
 from famwise.atomic import save_npz
 from famwise.spec.models import did_you_mean
-from famwise.timefreq import TimeFreqMaps, load_timefreq
 
 
 @dataclass(frozen=True)
@@ -108,6 +107,8 @@ def build_contrast(
     groups, covariate : list, optional
         Group index (0/1) or covariate value of each subject.
     """
+    from famwise.timefreq import load_timefreq  # numba-backed package: only the contrast stage needs it
+
     _check_rates(sampling_rates or [], subjects)
     maps = [load_timefreq(Path(f)) for f in files]
     _check_consistent(maps, subjects)
@@ -117,7 +118,7 @@ def build_contrast(
     time_index = _time_index(first.times, first.valid[freq_index], first.freqs[freq_index], analysis.get("time_ms"))
     region = np.ix_(channel_index, freq_index, time_index)
 
-    def condition_values(tf: TimeFreqMaps, subject: str, name: str) -> np.ndarray:
+    def condition_values(tf, subject: str, name: str) -> np.ndarray:
         if name not in tf.conditions:
             raise UserError(f"subject {subject}: condition '{name}' has no maps (found: {', '.join(tf.conditions)})")
         return tf.values[tf.conditions.index(name)][region].reshape(-1)
@@ -149,7 +150,7 @@ def _check_rates(rates: list[float | None], subjects: list[str]) -> None:
             raise UserError(f"subject {subject}: sampling rate {rate:g} Hz differs from subject {known[0][1]} ({known[0][0]:g} Hz); resample the recordings to one rate")
 
 
-def _check_consistent(maps: list[TimeFreqMaps], subjects: list[str]) -> None:
+def _check_consistent(maps: list, subjects: list[str]) -> None:
     first, reference = maps[0], subjects[0]
     for tf, subject in zip(maps[1:], subjects[1:]):
         if tf.channels != first.channels:

@@ -16,6 +16,7 @@ include: "group.smk"
 include: "nulls.smk"
 include: "correct.smk"
 include: "report.smk"
+include: "calibrate.smk"
 
 
 rule all:

@@ -14,6 +14,7 @@ from famwise.report.results import read_run
 from famwise.report.sections import (FigureWriter, contrast_section, graph_section,
                                      provenance_section, study_section, subjects_section)
 from famwise.report.style import write_atomic
+from famwise.calibrate.table import calibration_section_html
 
 __all__ = ["build_report", "methods_text", "write_provenance"]
 
@@ -58,6 +59,9 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     write = FigureWriter(folder / "figures")
     body = [study_section(run, spec_text), subjects_section(run), graph_section(run, write)]
     body += [contrast_section(run, contrast, write) for contrast in run.contrasts]
+    calibration = calibration_section_html(output_dir)
+    if calibration:
+        body.append(calibration)
     methods = methods_from_run(run)
     write_atomic(folder / "methods.md", methods.encode("utf-8"))
     record = write_provenance(folder / "provenance.json", spec_text=spec_text, study=run.study,
@@ -68,6 +72,8 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
              provenance_section(record)]
     nav = [("study", "Study"), ("subjects", "Subjects"), ("channels", "Channel graph")]
     nav += [(anchor("contrast", c.name), f"Contrast {c.name}") for c in run.contrasts]
+    if calibration:
+        nav.append(("calibration", "Calibration"))
     nav += [("methods", "Methods"), ("provenance", "Provenance")]
     title = f"famwise report: {run.study.get('name', output_dir.name)}"
     subtitle = (f"{len(run.contrasts)} contrasts, "

@@ -1,0 +1,20 @@
+"""``famwise calibrate``: the error rates of the study's corrections on its own data.
+
+For each contrast, N null datasets are made from the subjects' own maps, every
+configured correction is applied to each with the study's settings, and the
+share of datasets with any detection is the empirical family-wise error rate.
+The datasets are computed in chunks, one file each
+(``<output>/calibration/<contrast>/chunk-<k>.npz``), so an interrupted run
+resumes without recomputing finished chunks; the result does not depend on
+the number of chunks.
+
+Modules: `famwise.calibrate.settings` (the settings, light enough for the
+Snakefile), `famwise.calibrate.datasets` (null datasets and chunks),
+`famwise.calibrate.table` (table, figure, report section); ``python -m
+famwise.calibrate`` is the job entry of the calibration rules.
+"""
+
+from famwise.calibrate.settings import UNCORRECTED, calibration_settings
+from famwise.calibrate.table import CalibrationRow, calibration_section_html, fwer_interval, summarize
+
+__all__ = ["UNCORRECTED", "CalibrationRow", "calibration_section_html", "calibration_settings", "fwer_interval", "summarize"]

@@ -1,0 +1,177 @@
+"""Null datasets made from the subjects' own maps, and one chunk of the calibration.
+
+A null dataset keeps every subject's map whole, so the real spatial, spectral
+and temporal smoothness stays, and breaks only the link the contrast tests:
+
+- one-sample, paired: each subject's map (or difference map) times a random
+  sign;
+- two-sample, correlation: the subjects' maps are reassigned to the group
+  labels (covariate values) in a random order;
+- repeated measures: each subject's condition maps are reassigned to the
+  conditions in a random order, within that subject.
+
+Dataset ``i`` of a contrast always draws from its own random stream, seeded
+by ``SeedSequence([seed, 0xCA11, crc32(contrast), i])``, apart from the
+study's permutation table, so the outcome of a dataset does not depend on the
+number of chunks it was computed in. Each dataset then goes through the
+study's own pipeline: the statistic, the null collectors over the study's
+permutation table (possibly with fewer permutations), and every configured
+correction through `famwise.correct.apply.apply_correction`. A dataset counts
+as a detection for a correction when any point is significant.
+
+Because a resampled dataset is itself a member of the resampling group, the
+permutation table of the study applies to it unchanged (for sign flips,
+s * x permuted by the table's flips is again a sign-flipped copy of x), and
+the permutation corrections control the family-wise error exactly under this
+randomization; the parametric ones are tested against the data's own
+distribution.
+
+References
+----------
+Nichols TE, Holmes AP (2002). Nonparametric permutation tests for functional
+neuroimaging. Hum Brain Mapp 15:1-25.
+"""
+
+import json
+import tempfile
+import zlib
+from collections.abc import Callable
+from dataclasses import replace
+from pathlib import Path
+
+import numpy as np
+
+from famwise.atomic import save_npz
+from famwise.calibrate.settings import UNCORRECTED
+from famwise.correct.apply import apply_correction
+from famwise.design import ContrastData, load_contrast
+from famwise.nulls import identity_statistic, load_graph_arrays, make_collectors, table_for
+from famwise.resample import run_shard, shard_bounds
+from famwise.stats import compute
+
+STREAM = 0xCA11
+"""Tag of the calibration's random streams (apart from the permutation table's)."""
+
+
+def dataset_rng(seed: int, contrast: str, index: int) -> np.random.Generator:
+    """The random stream of null dataset ``index`` of a contrast (independent of chunking)."""
+    return np.random.default_rng(np.random.SeedSequence([int(seed), STREAM, zlib.crc32(contrast.encode()), int(index)]))
+
+
+def null_dataset(data: ContrastData, rng: np.random.Generator) -> np.ndarray:
+    """One null dataset from the subjects' own maps.
+
+    Parameters
+    ----------
+    data : ContrastData
+        ``x`` of shape (n, P) or, for repeated measures, (n, k, P).
+    rng : numpy.random.Generator
+
+    Returns
+    -------
+    ndarray, same shape and dtype as ``data.x``
+        Sign-flipped maps (one-sample, paired), maps in a random subject
+        order against fixed labels or covariate values (two-sample,
+        correlation), or condition maps in a random order within each
+        subject (repeated measures).
+    """
+    x = data.x
+    n = x.shape[0]
+    if data.test in ("one-sample", "paired"):
+        signs = (1 - 2 * rng.integers(0, 2, size=n)).astype(x.dtype)
+        return signs.reshape((n,) + (1,) * (x.ndim - 1)) * x
+    if data.test == "repeated-measures":
+        order = rng.permuted(np.broadcast_to(np.arange(x.shape[1]), (n, x.shape[1])), axis=1)
+        return np.take_along_axis(x, order[:, :, None], axis=1)
+    return x[rng.permutation(n)]
+
+
+def calibration_chunk(
+    subjects_file: Path,
+    graph_file: Path | None,
+    *,
+    chunk: int,
+    settings: dict,
+    progress: Callable[[str], None] | None = None,
+) -> dict[str, np.ndarray]:
+    """Run the null datasets of chunk ``chunk`` through every correction.
+
+    Parameters
+    ----------
+    subjects_file : path
+        ``contrasts/<c>/subjects.npz``.
+    graph_file : path or None
+        ``channels/graph.npz`` when a cluster or TFCE correction links channels.
+    chunk : int
+        Chunk index; it holds datasets [k m, (k + 1) m) with
+        m = ceil(datasets / chunks).
+    settings : dict
+        From :func:`calibration_settings`.
+    progress : callable, optional
+        Called with a line of text after each dataset.
+
+    Returns
+    -------
+    dict of str to ndarray
+        ``datasets`` int64 (d,) dataset indices; ``labels`` str (c,) the
+        corrections, ``"uncorrected"`` first; ``n_significant`` int64 (d, c)
+        significant points per dataset and correction; ``detected`` bool
+        (d, c); ``table_rows`` rows of the permutation table each dataset
+        was tested with (identity included; 0 without one); ``settings`` the
+        settings as JSON text.
+    """
+    data = load_contrast(Path(subjects_file))
+    start, stop = shard_bounds(settings["datasets"], settings["chunks"], chunk)
+    labels = [UNCORRECTED] + [c["correction"]["label"] for c in settings["corrections"]]
+    table = table_for(data, settings=settings) if settings["collectors"] else None
+    graph = load_graph_arrays(graph_file, len(data.channels))
+    counts = np.zeros((stop - start, len(labels)), dtype=np.int64)
+    name = settings["contrast"]
+    with tempfile.TemporaryDirectory(prefix="famwise-calibrate-") as scratch:
+        folder = Path(scratch) / "contrasts" / name
+        for row, index in enumerate(range(start, stop)):
+            x = null_dataset(data, dataset_rng(settings["seed"], name, index))
+            counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings)
+            if progress:
+                progress(f"calibration {name}: chunk {chunk}: {row + 1}/{stop - start} datasets")
+    return {
+        "datasets": np.arange(start, stop, dtype=np.int64),
+        "labels": np.array(labels),
+        "n_significant": counts,
+        "detected": counts > 0,
+        "table_rows": np.array(0 if table is None else table.n_rows),
+        "settings": np.array(json.dumps(settings, sort_keys=True)),
+    }
+
+
+def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: dict) -> list[int]:
+    """Significant points of one null dataset: uncorrected, then each correction."""
+    statistic = {key: settings[key] for key in ("statistic", "trim", "equal_var")}
+    result = compute(x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
+                     tail=settings["tail"], **statistic)
+    shape = data.shape
+    # As in the observed stage: the stored map is the permutation engine's identity row.
+    stat = identity_statistic(replace(data, x=x), settings=settings)
+    observed = {
+        "stat": stat.reshape(shape), "p": result.p.reshape(shape), "df": np.asarray(result.df),
+        "channels": np.array(data.channels), "freqs": data.freqs, "times": data.times, "test": data.test,
+        "statistic": result.statistic, "n": result.n, "tail": result.effective_tail,
+    }
+    inputs = [folder / "observed.npz"]
+    save_npz(inputs[0], **observed)
+    if table is not None:
+        collectors = make_collectors(settings["collectors"], observed=observed, shape=shape, graph=graph)
+        arrays = run_shard(x, table.rows, collectors=collectors, test=data.test, groups=data.groups,
+                           covariate=data.covariate, **statistic)
+        arrays["rows"] = np.array([0, table.n_rows])
+        arrays["n_rows.total"] = np.array(table.n_rows)
+        inputs.append(folder / "nulls" / "shard-0.npz")
+        save_npz(inputs[1], **arrays)
+    counts = [int(np.count_nonzero(result.p <= settings["alpha"]))]
+    for correction in settings["corrections"]:
+        files = list(inputs)
+        if correction["correction"]["method"] in ("cluster", "tfce") and graph_file is not None:
+            files.append(Path(graph_file))
+        outcome, _ = apply_correction(files, contrast=settings["contrast"], settings=correction)
+        counts.append(outcome.n_significant)
+    return counts
