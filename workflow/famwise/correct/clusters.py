@@ -1,0 +1,367 @@
+"""Cluster-based permutation inference over channels x frequencies x times.
+
+Points (channel, frequency, time) whose statistic passes the cluster-forming
+threshold are grouped into clusters on the product neighborhood: (c, f, t)
+touches (c, f +- 1, t), (c, f, t +- 1) and (c', f, t) for every neighbor c' of
+c in the channel graph; a dimension left out of ``dims`` is not linked.
+Positive (stat > threshold) and negative (stat < -threshold) points form
+separate clusters. The cluster statistic is the mass (sum of |stat|) or the
+size (number of points). The null is the largest cluster statistic of each
+permutation over both signs, and a cluster's p is the share of permutations
+(identity included) whose largest cluster statistic reaches it.
+
+``min_neighbor_channels``: a supra-threshold point joins a cluster only if at
+least that many of its neighbor channels are supra-threshold with the same
+sign at the same frequency and time (counted on the raw supra-threshold map,
+once, and whatever ``dims`` says). 0 keeps every supra-threshold point.
+
+References
+----------
+Maris E, Oostenveld R (2007). Nonparametric statistical testing of EEG- and
+MEG-data. J Neurosci Methods 164(1):177-190.
+Bullmore ET et al. (1999). Global, voxel, and cluster tests, by theory and
+permutation, for a difference between two groups of structural MR images of
+the brain. IEEE Trans Med Imaging 18(1):32-42.
+"""
+
+import json
+import math
+import os
+import tempfile
+
+import numba
+import numpy as np
+
+from famwise.correct.result import CorrectionResult
+from famwise.errors import UserError
+from famwise.kernels.components import _cluster_max_block, _cluster_roots
+
+DIMS = ("channel", "freq", "time")
+TAILS = {"two-sided": 0, "greater": 1, "less": 2}
+CLUSTER_STATS = ("mass", "size")
+# Ties within this relative tolerance count as reaching the observed value, so
+# rounding differences between the observed map and a permuted copy of it
+# (e.g. the all-flipped row of an exact enumeration) never split a tie.
+TIE_RTOL = 1e-9
+
+CLUSTER_COLUMNS = (
+    "id", "sign", "statistic", "p", "n_points", "channels", "time_start_ms", "time_end_ms",
+    "freq_low_hz", "freq_high_hz", "peak_stat", "peak_channel", "peak_freq_hz", "peak_time_ms",
+)
+CLUSTER_SIDECAR = {
+    "id": {"Description": "Cluster number as in the cluster_id map: positive clusters 1, 2, ..., "
+                          "negative clusters -1, -2, ..., each numbered by descending statistic."},
+    "sign": {"Description": "Sign of the statistic in the cluster.",
+             "Levels": {"positive": "stat > +threshold", "negative": "stat < -threshold"}},
+    "statistic": {"Description": "Cluster statistic: mass (sum of |stat| over the cluster's points) or size "
+                                 "(number of points), as in the settings."},
+    "p": {"Description": "Permutation p-value: share of permutations (identity included) whose largest "
+                         "cluster statistic is at least this cluster's."},
+    "n_points": {"Description": "Number of (channel, frequency, time) points in the cluster."},
+    "channels": {"Description": "Comma-separated names of the channels the cluster covers, in montage order."},
+    "time_start_ms": {"Description": "Earliest time point of the cluster.", "Units": "ms"},
+    "time_end_ms": {"Description": "Latest time point of the cluster.", "Units": "ms"},
+    "freq_low_hz": {"Description": "Lowest frequency of the cluster.", "Units": "Hz"},
+    "freq_high_hz": {"Description": "Highest frequency of the cluster.", "Units": "Hz"},
+    "peak_stat": {"Description": "Statistic of largest magnitude in the cluster (signed)."},
+    "peak_channel": {"Description": "Channel of the peak."},
+    "peak_freq_hz": {"Description": "Frequency of the peak.", "Units": "Hz"},
+    "peak_time_ms": {"Description": "Time of the peak.", "Units": "ms"},
+}
+
+
+def check_graph(shape, indptr, indices):
+    """Validate the grid shape and channel graph; return (shape, indptr, indices) as kernel inputs."""
+    if len(shape) != 3 or any(int(n) < 1 for n in shape):
+        raise UserError(f"the map shape must be (n_channels, n_freqs, n_times) with positive sizes, got {shape}")
+    n_ch = int(shape[0])
+    indptr = np.ascontiguousarray(indptr, dtype=np.int32)
+    indices = np.ascontiguousarray(indices, dtype=np.int32)
+    if indptr.shape != (n_ch + 1,) or indptr[0] != 0 or indptr[-1] != len(indices) or np.any(np.diff(indptr) < 0):
+        raise UserError(f"the channel neighbor graph must be CSR arrays for {n_ch} channels "
+                        f"(indptr of length {n_ch + 1}, from 0 to len(indices)), got indptr of length {len(indptr)}")
+    if len(indices) and (indices.min() < 0 or indices.max() >= n_ch):
+        raise UserError(f"the channel neighbor graph names channel index {int(indices.max())} "
+                        f"but there are {n_ch} channels")
+    rows = np.repeat(np.arange(n_ch), np.diff(indptr))
+    if np.any(rows == indices):
+        raise UserError(f"the channel neighbor graph has a self loop at channel {int(rows[rows == indices][0])}")
+    edges = set(zip(rows.tolist(), indices.tolist()))
+    missing = next(((a, b) for a, b in edges if (b, a) not in edges), None)
+    if missing is not None:
+        raise UserError(f"the channel neighbor graph is not symmetric: {missing[0]} -> {missing[1]} "
+                        f"has no reverse edge")
+    return tuple(int(n) for n in shape), indptr, indices
+
+
+def check_dims(dims):
+    """Validate ``dims``; return (link_channel, link_freq, link_time)."""
+    dims = tuple(dims)
+    if not dims or len(set(dims)) != len(dims) or not set(dims) <= set(DIMS):
+        raise UserError(f"cluster dims must be distinct names from {list(DIMS)}, got {list(dims)}")
+    return "channel" in dims, "freq" in dims, "time" in dims
+
+
+def check_tail(tail):
+    """Validate ``tail``; return its kernel code."""
+    if tail not in TAILS:
+        raise UserError(f"tail must be one of {list(TAILS)}, got {tail!r}")
+    return TAILS[tail]
+
+
+def check_alpha(alpha):
+    """Validate the family-wise level."""
+    if not 0.0 < alpha < 1.0:
+        raise UserError(f"alpha must be between 0 and 1, got {alpha}")
+
+
+def count_at_least(null, values):
+    """p of each value: (1 + #{null[1:] >= value, within TIE_RTOL}) / len(null).
+
+    Row 0 of the null is the identity, i.e. the observed data itself, so it
+    always counts.
+    """
+    rest = np.sort(np.asarray(null, dtype=np.float64)[1:])
+    values = np.asarray(values, dtype=np.float64)
+    below = np.searchsorted(rest, values - TIE_RTOL * np.abs(values), side="left")
+    return (1 + rest.size - below) / (rest.size + 1)
+
+
+def critical_value(null, alpha):
+    """Largest null value a statistic must exceed to reach p <= alpha."""
+    ordered = np.sort(np.asarray(null, dtype=np.float64))[::-1]
+    return float(ordered[min(int(math.floor(alpha * len(ordered) + 1e-9)), len(ordered) - 1)])
+
+
+def _check_cluster_settings(threshold, cluster_stat, min_neighbor_channels):
+    if not (math.isfinite(threshold) and threshold >= 0):
+        raise UserError(f"the cluster-forming threshold must be a finite statistic value >= 0, got {threshold}")
+    if cluster_stat not in CLUSTER_STATS:
+        raise UserError(f"cluster_stat must be one of {list(CLUSTER_STATS)}, got {cluster_stat!r}")
+    if int(min_neighbor_channels) != min_neighbor_channels or min_neighbor_channels < 0:
+        raise UserError(f"min_neighbor_channels must be a whole number >= 0, got {min_neighbor_channels}")
+
+
+class ClusterCollector:
+    """Null collector: the largest cluster statistic of every table row.
+
+    Parameters
+    ----------
+    threshold : float
+        Cluster-forming threshold as a statistic value (>= 0); see the module
+        docstring for how tails use it.
+    shape : tuple of int
+        (n_channels, n_freqs, n_times).
+    indptr, indices : ndarray of int
+        Channel neighbor graph (CSR, symmetric, no self loops).
+    dims : tuple of str
+        Dimensions clustering connects over, from ("channel", "freq", "time").
+    cluster_stat : {"mass", "size"}
+    min_neighbor_channels : int
+    tail : {"two-sided", "greater", "less"}
+    key : str
+        Prefix of the stored arrays.
+
+    Notes
+    -----
+    ``arrays()`` gives ``{"<key>.max": float64 (n_rows,)}`` in row order; each
+    row's value depends on that row alone, so any block split gives the same
+    array.
+    """
+
+    def __init__(self, *, threshold, shape, indptr, indices, dims=DIMS, cluster_stat="mass",
+                 min_neighbor_channels=0, tail="two-sided", key="cluster"):
+        _check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+        self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
+        self._links = check_dims(dims)
+        self._tail_code = check_tail(tail)
+        self._threshold = float(threshold)
+        self._use_mass = cluster_stat == "mass"
+        self._min_neighbors = int(min_neighbor_channels)
+        self._key = key
+        self._parts = []
+        self._workspace = None
+
+    def update(self, stats):
+        """Take the statistic maps (n_rows_in_block, n_points) of consecutive table rows."""
+        stats = np.ascontiguousarray(stats, dtype=np.float64)
+        n_pts = math.prod(self._shape)
+        if stats.ndim != 2 or stats.shape[1] != n_pts:
+            raise ValueError(f"expected a block of shape (rows, {n_pts}), got {stats.shape}")
+        out = np.empty(stats.shape[0])
+        if stats.shape[0]:
+            n_chunks = min(stats.shape[0], numba.get_num_threads())
+            if self._workspace is None or len(self._workspace[0]) < n_chunks:  # reused by every block
+                self._workspace = (np.empty((n_chunks, 2, n_pts), np.int8), np.empty((n_chunks, 2, n_pts), np.int32),
+                                   np.empty((n_chunks, n_pts), np.float64))
+            _cluster_max_block(stats, self._threshold, self._tail_code, *self._shape, self._indptr,
+                               self._indices, *self._links, self._use_mass, self._min_neighbors, n_chunks,
+                               *self._workspace, out)
+        self._parts.append(out)
+
+    def arrays(self):
+        """``{"<key>.max": float64 (n_rows,)}``."""
+        return {f"{self._key}.max": np.concatenate(self._parts) if self._parts else np.empty(0)}
+
+
+def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
+                   min_neighbor_channels=0, tail="two-sided"):
+    """Cluster labels of one map, numbered by descending statistic within each sign.
+
+    Parameters
+    ----------
+    stat : ndarray, shape (n_channels, n_freqs, n_times)
+
+    Returns
+    -------
+    cluster_id : ndarray of int32, same shape
+        0 outside clusters, +k for the k-th positive cluster, -k for the k-th
+        negative cluster.
+    statistics : dict of int to float
+        Cluster statistic of each id (same arithmetic as ``ClusterCollector``).
+    """
+    _check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+    stat = np.ascontiguousarray(stat, dtype=np.float64)
+    shape, indptr, indices = check_graph(stat.shape, indptr, indices)
+    flat = stat.ravel()
+    parent = np.empty(flat.size, np.int32)
+    acc = np.empty(flat.size, np.float64)
+    _cluster_roots(flat, float(threshold), check_tail(tail), *shape, indptr, indices, *check_dims(dims),
+                   cluster_stat == "mass", int(min_neighbor_channels), parent, acc)
+    roots = np.flatnonzero(parent == np.arange(flat.size))
+    lookup = np.zeros(flat.size, np.int32)
+    statistics = {}
+    for sign in (1, -1):
+        mine = roots[np.sign(flat[roots]) == sign]
+        mine = mine[np.lexsort((mine, -acc[mine]))]  # descending statistic, ties by position
+        lookup[mine] = sign * np.arange(1, mine.size + 1)
+        statistics.update({int(sign * (k + 1)): float(acc[r]) for k, r in enumerate(mine)})
+    inside = parent >= 0
+    cluster_id = np.zeros(flat.size, np.int32)
+    cluster_id[inside] = lookup[parent[inside]]
+    return cluster_id.reshape(stat.shape), statistics
+
+
+def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
+                      min_neighbor_channels=0, tail="two-sided", alpha=0.05, channels, freqs, times):
+    """Cluster-based permutation inference on the merged null.
+
+    Parameters
+    ----------
+    observed_stat : ndarray, shape (n_channels, n_freqs, n_times)
+        Observed statistic map.
+    null_max : ndarray, shape (n_rows,)
+        Largest cluster statistic of every permutation-table row (row 0 = identity).
+    threshold, indptr, indices, dims, cluster_stat, min_neighbor_channels, tail
+        As given to ``ClusterCollector``.
+    alpha : float
+        Family-wise level.
+    channels : list of str
+        Channel names (n_channels).
+    freqs : ndarray, shape (n_freqs,)
+        Frequencies in Hz.
+    times : ndarray, shape (n_times,)
+        Times in s.
+
+    Returns
+    -------
+    CorrectionResult
+        ``maps["cluster_id"]`` int32 map, ``p_corrected`` the p of each
+        point's cluster (1 outside), ``threshold`` the critical cluster
+        statistic (a cluster whose statistic exceeds it is significant),
+        ``clusters`` one dict per cluster (columns ``CLUSTER_COLUMNS``) sorted
+        by p then descending statistic, ``null`` = ``null_max``.
+
+    References
+    ----------
+    Maris E, Oostenveld R (2007). J Neurosci Methods 164(1):177-190.
+    """
+    check_alpha(alpha)
+    observed_stat = np.asarray(observed_stat, dtype=np.float64)
+    null_max = np.asarray(null_max, dtype=np.float64)
+    if null_max.ndim != 1 or null_max.size < 1:
+        raise ValueError(f"null_max must be a non-empty 1-D array, got shape {null_max.shape}")
+    _check_axes(observed_stat.shape, channels, freqs, times)
+    cluster_id, statistics = label_clusters(
+        observed_stat, threshold=threshold, indptr=indptr, indices=indices, dims=dims, cluster_stat=cluster_stat,
+        min_neighbor_channels=min_neighbor_channels, tail=tail)
+    ids = np.array(sorted(statistics), dtype=np.int64)
+    p_values = count_at_least(null_max, [statistics[i] for i in ids.tolist()])
+    offset = int(np.abs(ids).max(initial=0))
+    p_lookup = np.ones(2 * offset + 1)
+    p_lookup[ids + offset] = p_values
+    flat_id = cluster_id.ravel()
+    p_map = p_lookup[flat_id + offset].reshape(cluster_id.shape)
+    order = np.argsort(flat_id, kind="stable")  # points grouped by cluster, in memory order within each
+    starts = np.searchsorted(flat_id[order], ids, side="left")
+    stops = np.searchsorted(flat_id[order], ids, side="right")
+    rows = [_describe(i, statistics[i], p, np.unravel_index(order[start:stop], cluster_id.shape), observed_stat,
+                      channels, freqs, times)
+            for i, p, start, stop in zip(ids.tolist(), p_values.tolist(), starts, stops)]
+    rows.sort(key=lambda row: (row["p"], -row["statistic"], row["id"] < 0, abs(row["id"])))
+    return CorrectionResult(
+        method="cluster", p_corrected=p_map, mask=p_map <= alpha, threshold=critical_value(null_max, alpha),
+        threshold_kind="cluster", maps={"cluster_id": cluster_id}, clusters=rows, null=null_max,
+        settings={"threshold": float(threshold), "dims": list(dims), "cluster_stat": cluster_stat,
+                  "min_neighbor_channels": int(min_neighbor_channels), "tail": tail, "alpha": float(alpha),
+                  "n_permutations": int(null_max.size)})
+
+
+def _check_axes(shape, channels, freqs, times):
+    if (len(channels), len(freqs), len(times)) != tuple(shape):
+        raise ValueError(f"observed map of shape {shape} does not match {len(channels)} channels, "
+                         f"{len(freqs)} frequencies and {len(times)} times")
+
+
+def _describe(cluster, statistic, p, where, stat, channels, freqs, times):
+    """One row of the cluster table; ``where`` = (channel, freq, time) index arrays of its points."""
+    values = stat[where]
+    peak = int(np.argmax(np.abs(values)))
+    freqs, times = np.asarray(freqs, dtype=float), np.asarray(times, dtype=float)
+    return {
+        "id": int(cluster), "sign": "positive" if cluster > 0 else "negative", "statistic": float(statistic),
+        "p": float(p), "n_points": int(values.size),
+        "channels": ",".join(channels[c] for c in np.unique(where[0])),
+        "time_start_ms": 1e3 * float(times[where[2]].min()), "time_end_ms": 1e3 * float(times[where[2]].max()),
+        "freq_low_hz": float(freqs[where[1]].min()), "freq_high_hz": float(freqs[where[1]].max()),
+        "peak_stat": float(values[peak]), "peak_channel": channels[where[0][peak]],
+        "peak_freq_hz": float(freqs[where[1][peak]]), "peak_time_ms": 1e3 * float(times[where[2][peak]]),
+    }
+
+
+def write_cluster_table(path_tsv, clusters):
+    """Write the cluster table as TSV with a JSON sidecar (same stem, ``.json``) describing each column.
+
+    Parameters
+    ----------
+    path_tsv : str or Path
+        Output ``.tsv`` path; both files are written atomically.
+    clusters : list of dict
+        Rows with the keys ``CLUSTER_COLUMNS`` (as ``cluster_inference`` gives them).
+    """
+    path_tsv = os.fspath(path_tsv)
+    lines = ["\t".join(CLUSTER_COLUMNS)]
+    for row in clusters:
+        lines.append("\t".join(_format_cell(row[name]) for name in CLUSTER_COLUMNS))
+    _write_atomic(path_tsv, "\n".join(lines) + "\n")
+    stem = path_tsv[:-4] if path_tsv.endswith(".tsv") else path_tsv
+    _write_atomic(stem + ".json", json.dumps(CLUSTER_SIDECAR, indent=2) + "\n")
+
+
+def _format_cell(value):
+    if isinstance(value, float):
+        return repr(value) if math.isfinite(value) else "n/a"
+    return str(value)
+
+
+def _write_atomic(path, text):
+    folder = os.path.dirname(os.path.abspath(path))
+    os.makedirs(folder, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(dir=folder, prefix=".tmp-", suffix=os.path.basename(path))
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as handle:
+            handle.write(text)
+        os.replace(tmp, path)
+    except BaseException:
+        os.unlink(tmp)
+        raise
