@@ -27,11 +27,11 @@ the brain. IEEE Trans Med Imaging 18(1):32-42.
 import json
 import math
 import os
-import tempfile
 
 import numba
 import numpy as np
 
+from famwise.atomic import write_text
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.kernels.components import _cluster_max_block, _cluster_roots
@@ -322,11 +322,20 @@ def _describe(cluster, statistic, p, where, stat, channels, freqs, times):
         "id": int(cluster), "sign": "positive" if cluster > 0 else "negative", "statistic": float(statistic),
         "p": float(p), "n_points": int(values.size),
         "channels": ",".join(channels[c] for c in np.unique(where[0])),
-        "time_start_ms": 1e3 * float(times[where[2]].min()), "time_end_ms": 1e3 * float(times[where[2]].max()),
-        "freq_low_hz": float(freqs[where[1]].min()), "freq_high_hz": float(freqs[where[1]].max()),
+        "time_start_ms": _ms(times[where[2]].min()), "time_end_ms": _ms(times[where[2]].max()),
+        "freq_low_hz": _hz(freqs[where[1]].min()), "freq_high_hz": _hz(freqs[where[1]].max()),
         "peak_stat": float(values[peak]), "peak_channel": channels[where[0][peak]],
-        "peak_freq_hz": float(freqs[where[1][peak]]), "peak_time_ms": 1e3 * float(times[where[2][peak]]),
+        "peak_freq_hz": _hz(freqs[where[1][peak]]), "peak_time_ms": _ms(times[where[2][peak]]),
     }
+
+
+def _ms(seconds) -> float:
+    """Seconds -> ms, rounded to a microsecond (drops float noise such as 300.00000000000006)."""
+    return round(1e3 * float(seconds), 3)
+
+
+def _hz(value) -> float:
+    return round(float(value), 6)
 
 
 def write_cluster_table(path_tsv, clusters):
@@ -343,25 +352,12 @@ def write_cluster_table(path_tsv, clusters):
     lines = ["\t".join(CLUSTER_COLUMNS)]
     for row in clusters:
         lines.append("\t".join(_format_cell(row[name]) for name in CLUSTER_COLUMNS))
-    _write_atomic(path_tsv, "\n".join(lines) + "\n")
+    write_text(path_tsv, "\n".join(lines) + "\n")
     stem = path_tsv[:-4] if path_tsv.endswith(".tsv") else path_tsv
-    _write_atomic(stem + ".json", json.dumps(CLUSTER_SIDECAR, indent=2) + "\n")
+    write_text(stem + ".json", json.dumps(CLUSTER_SIDECAR, indent=2) + "\n")
 
 
 def _format_cell(value):
     if isinstance(value, float):
         return repr(value) if math.isfinite(value) else "n/a"
     return str(value)
-
-
-def _write_atomic(path, text):
-    folder = os.path.dirname(os.path.abspath(path))
-    os.makedirs(folder, exist_ok=True)
-    fd, tmp = tempfile.mkstemp(dir=folder, prefix=".tmp-", suffix=os.path.basename(path))
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as handle:
-            handle.write(text)
-        os.replace(tmp, path)
-    except BaseException:
-        os.unlink(tmp)
-        raise
