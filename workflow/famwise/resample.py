@@ -1,0 +1,505 @@
+"""Permutation tables, shards, the null-block engine and permutation p-values.
+
+One permutation table per contrast is generated from the seed; row 0 is
+always the identity (the observed data). Shard k of K runs rows
+[k m, (k + 1) m) with m = ceil(n_rows / K). Each row's statistic is computed
+the same way whatever the shard, block or thread (see
+`famwise.stats.resampled`), so merged nulls are bit-identical for any number
+of shards or cores.
+
+Schemes: sign flips (one-sample, paired: under H0 each subject's map is
+symmetric about 0), label permutations (two-sample), condition permutations
+within subject (repeated measures), covariate permutations (correlation).
+
+p-values: the identity row is counted in every exceedance count, so
+``permutation_p = count / n_rows`` is #{null >= observed} / n_total for an
+exact (enumerated) table and (1 + b) / (1 + m) for a Monte Carlo table of m
+random rows, b of which reach the observed value (Phipson & Smyth 2010).
+
+References
+----------
+Phipson B, Smyth GK (2010). Permutation p-values should never be zero.
+Stat Appl Genet Mol Biol 9(1): Article 39.
+Nichols TE, Holmes AP (2002). Nonparametric permutation tests for functional
+neuroimaging. Hum Brain Mapp 15:1-25.
+"""
+
+import itertools
+import math
+import warnings
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+import numpy as np
+
+from famwise.collectors import NullCollector, merge_shard_arrays
+from famwise.errors import FamwiseWarning, UserError
+from famwise.stats import TAILS, TESTS, check_design
+from famwise.stats.resampled import block_function
+
+SCHEMES = {
+    "one-sample": "sign-flip",
+    "paired": "sign-flip",
+    "two-sample": "label",
+    "repeated-measures": "within-subject",
+    "correlation": "covariate",
+}
+
+
+@dataclass(frozen=True)
+class PermutationTable:
+    """All resamplings of one run, identity first.
+
+    Attributes
+    ----------
+    scheme : {"sign-flip", "label", "within-subject", "covariate"}
+    rows : ndarray
+        sign-flip: int8 (n_rows, n) of +1/-1; label, covariate: int32
+        (n_rows, n) permutations of subject indices (subject i takes the
+        label or covariate of subject ``row[i]``); within-subject: int32
+        (n_rows, n, k) (subject i's condition j takes the data of its
+        condition ``row[i, j]``). Row 0 is the identity.
+    exact : bool
+        True when the rows enumerate every distinct resampling once.
+    n_rows : int
+        Number of rows (identity included).
+    n_distinct : int
+        Number of distinct resamplings of the design.
+    n_identical : int
+        Rows of an exact table that give the identity's statistic for any
+        data (within-subject: the k! relabellings of all subjects at once
+        leave F unchanged; otherwise 1).
+    n_mirrored : int
+        Rows of an exact table that give minus the identity's statistic for
+        any data (sign flips: flipping every subject; labels with equal group
+        sizes: swapping the groups; otherwise 0).
+    seed : int
+        The seed the table was drawn from.
+    """
+
+    scheme: str
+    rows: np.ndarray
+    exact: bool
+    n_rows: int
+    n_distinct: int
+    n_identical: int
+    n_mirrored: int
+    seed: int
+
+
+def make_table(test, *, n_subjects, n_permutations, seed, groups=None, n_conditions=None) -> PermutationTable:
+    """Build the permutation table of one test.
+
+    Exact enumeration when every distinct resampling fits:
+    n_distinct <= n_permutations + 1 (2^n sign flips, C(n, n0) relabellings,
+    (k!)^n within-subject permutations, n! covariate orders), identity first.
+    Otherwise Monte Carlo: the identity and then n_permutations rows drawn
+    independently (with replacement, so a row may repeat or equal the
+    identity, as the (1 + b) / (1 + m) p-value assumes) from
+    ``numpy.random.default_rng(seed)``. The same seed gives the same table,
+    bit for bit.
+
+    Parameters
+    ----------
+    test : str
+        One of `famwise.stats.TESTS`.
+    n_subjects : int
+    n_permutations : int
+        Requested number of random resamplings (besides the identity).
+    seed : int
+    groups : array_like of int, shape (n_subjects,), optional
+        0/1 labels (two-sample only).
+    n_conditions : int, optional
+        k (repeated measures only).
+
+    Returns
+    -------
+    PermutationTable
+    """
+    n, k = _check_table_inputs(test, n_subjects, n_permutations, seed, groups, n_conditions)
+    scheme = SCHEMES[test]
+    groups = None if groups is None else np.asarray(groups, dtype=np.int64)
+    n_distinct = _n_distinct(scheme, n, k, groups)
+    exact = n_distinct <= n_permutations + 1
+    if exact:
+        rows = _enumerate(scheme, n, k, groups)
+    else:
+        rows = _draw(scheme, n, k, n_permutations, np.random.default_rng(seed))
+    n_identical = math.factorial(k) if scheme == "within-subject" else 1
+    if scheme == "sign-flip":
+        n_mirrored = 1
+    elif scheme == "label":
+        n_mirrored = int(2 * np.count_nonzero(groups == 0) == n)
+    else:
+        n_mirrored = 0
+    return PermutationTable(
+        scheme=scheme,
+        rows=rows,
+        exact=exact,
+        n_rows=rows.shape[0],
+        n_distinct=n_distinct,
+        n_identical=n_identical,
+        n_mirrored=n_mirrored,
+        seed=seed,
+    )
+
+
+def check_family(designs: dict[str, dict]) -> None:
+    """Check that several contrasts can share one permutation table.
+
+    With ``family: all-contrasts`` every contrast runs the same table rows and
+    the null takes, row by row, the maximum over contrasts (e.g.
+    ``np.maximum`` of their ``max.stat`` arrays). That needs the same scheme
+    on the same subjects: the same `SCHEMES` entry, number of subjects, group
+    labels (two-sample) and number of conditions (repeated measures).
+
+    Parameters
+    ----------
+    designs : dict of str to dict
+        Contrast name -> ``{"test": ..., "n_subjects": ..., "groups": ...,
+        "n_conditions": ...}`` (the last two where they apply).
+
+    Raises
+    ------
+    UserError
+        Naming the first contrast that cannot share the table and why.
+    """
+    names = list(designs)
+    first = names[0]
+    keys = {name: _family_key(designs[name]) for name in names}
+    aspects = ("scheme", "number of subjects", "group labels", "number of conditions")
+    for name in names[1:]:
+        for what, mine, theirs in zip(aspects, keys[first], keys[name]):
+            if mine != theirs:
+                raise UserError(
+                    f"contrasts '{first}' and '{name}' cannot share permutations (family all-contrasts): "
+                    f"{what} {mine} vs {theirs}; test them as separate families"
+                )
+
+
+def _family_key(design: dict) -> tuple:
+    groups = design.get("groups")
+    return (
+        SCHEMES[design["test"]],
+        int(design["n_subjects"]),
+        None if groups is None else tuple(int(g) for g in groups),
+        design.get("n_conditions"),
+    )
+
+
+def shard_bounds(n_rows: int, n_shards: int, k: int) -> tuple[int, int]:
+    """Row range [start, stop) of shard k: m = ceil(n_rows / n_shards) rows each, the last shorter."""
+    if n_shards < 1:
+        raise UserError(f"the number of shards must be at least 1, got {n_shards}")
+    if not 0 <= k < n_shards:
+        raise UserError(f"shard index must be between 0 and {n_shards - 1}, got {k}")
+    m = -(-n_rows // n_shards)
+    return min(k * m, n_rows), min((k + 1) * m, n_rows)
+
+
+def iter_null_blocks(
+    x,
+    rows,
+    *,
+    test,
+    groups=None,
+    covariate=None,
+    statistic="t",
+    trim=0.2,
+    equal_var=True,
+    block_size=64,
+    reuse_output=False,
+) -> Iterator[np.ndarray]:
+    """Statistic maps of table rows, block by block, rows in order.
+
+    Parameters
+    ----------
+    x : array_like, (n, P) or (n, k, P)
+        The data of `famwise.stats.compute`.
+    rows : ndarray
+        A row range of `PermutationTable.rows`.
+    test, groups, covariate, statistic, trim, equal_var
+        As in `famwise.stats.compute`.
+    block_size : int
+        Rows per block; memory is O(block_size * P). The values do not depend
+        on it.
+    reuse_output : bool
+        When True, blocks may be written into one buffer that the next block
+        overwrites (no page faults for a fresh array per block): the
+        consumer must use each block before asking for the next, as
+        `run_shard`'s collectors do.
+
+    Yields
+    ------
+    ndarray of float32, shape (b, P)
+        The statistic of each row of the block (b <= block_size).
+    """
+    x, groups, covariate = check_design(
+        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim
+    )
+    rows = _check_rows(rows, test, x.shape)
+    if block_size < 1:
+        raise UserError(f"`block_size` must be at least 1, got {block_size}")
+    block = block_function(
+        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim, equal_var=equal_var
+    )
+    buffer = np.empty((min(block_size, rows.shape[0]), x.shape[-1]), dtype=np.float32) if reuse_output else None
+    for start in range(0, rows.shape[0], block_size):
+        part = rows[start : start + block_size]
+        yield block(part, None if buffer is None else buffer[: part.shape[0]])
+
+
+def run_shard(x, rows, *, collectors: list[NullCollector], block_size=64, **statistic_options) -> dict[str, np.ndarray]:
+    """Feed every block of a shard's rows to every collector.
+
+    Parameters
+    ----------
+    x : array_like
+        The data, as in `iter_null_blocks`.
+    rows : ndarray
+        The shard's rows of the permutation table.
+    collectors : list of NullCollector
+    block_size : int
+    **statistic_options
+        ``test`` and the other options of `iter_null_blocks`.
+
+    Returns
+    -------
+    dict of str to ndarray
+        Every collector's arrays (keys must not collide), ready for
+        `famwise.collectors.merge_shard_arrays`.
+    """
+    for stats in iter_null_blocks(x, rows, block_size=block_size, reuse_output=True, **statistic_options):
+        for collector in collectors:
+            collector.update(stats)
+    arrays = {}
+    for collector in collectors:
+        for key, value in collector.arrays().items():
+            if key in arrays:
+                raise ValueError(f"two collectors write the key {key!r}")
+            arrays[key] = value
+    return arrays
+
+
+def run_shards(x, table: PermutationTable, *, n_shards, make_collectors, block_size=64, **statistic_options):
+    """Run a whole table as ``n_shards`` shards in turn and merge them (for tests and small runs).
+
+    ``make_collectors()`` returns fresh collectors for each shard.
+    """
+    parts = []
+    for k in range(n_shards):
+        start, stop = shard_bounds(table.n_rows, n_shards, k)
+        parts.append(
+            run_shard(
+                x, table.rows[start:stop], collectors=make_collectors(), block_size=block_size, **statistic_options
+            )
+        )
+    return merge_shard_arrays(parts)
+
+
+def _oriented(stats: np.ndarray, tail: str) -> np.ndarray:
+    if tail == "two-sided":
+        return np.abs(stats)
+    return -stats if tail == "less" else stats
+
+
+class ExceedanceCollector:
+    """Per-point counts of rows whose statistic reaches the observed one.
+
+    Counts #{rows: stat* >= obs} on |stat| (two-sided), stat (greater) or
+    -stat (less), the identity row included. Values within a relative
+    100 machine epsilons (of the null's dtype) of the observed one count as
+    ties, as in ``scipy.stats.permutation_test``, so that the float32 null
+    matches the float64 observed statistic. A point whose observed statistic
+    is NaN (no variance) counts every row (permutation p = 1).
+
+    Parameters
+    ----------
+    observed_stat : ndarray, shape (P,)
+        `famwise.stats.GroupStatistic.stat`.
+    tail : {"two-sided", "greater", "less"}
+        Use `GroupStatistic.effective_tail` (``"greater"`` for F).
+    key : str
+        Prefix of the stored array: ``<key>.count``, int64 (P,).
+    """
+
+    def __init__(self, observed_stat, *, tail, key="exceed"):
+        _check_tail(tail)
+        self._observed = _oriented(np.asarray(observed_stat, dtype=np.float64), tail)
+        self._tail = tail
+        self._key = key
+        self._count = np.zeros(self._observed.shape, dtype=np.int64)
+
+    def update(self, stats: np.ndarray) -> None:
+        """Count the rows of a block (b, P) that reach the observed statistic."""
+        eps = 100 * np.finfo(stats.dtype).eps
+        bar = (self._observed - np.abs(self._observed) * eps).astype(stats.dtype)
+        reach = _oriented(stats, self._tail) >= bar
+        reach |= np.isnan(bar)
+        self._count += np.count_nonzero(reach, axis=0)
+
+    def arrays(self) -> dict[str, np.ndarray]:
+        """``{"<key>.count": int64 (P,)}``."""
+        return {f"{self._key}.count": self._count.copy()}
+
+
+class MaxStatCollector:
+    """Per-row maximum of the oriented statistic (max |stat| when two-sided).
+
+    Parameters
+    ----------
+    tail : {"two-sided", "greater", "less"}
+    key : str
+        Prefix of the stored array: ``<key>.stat``, float32 (n_rows,), in row
+        order. NaN points are ignored.
+    """
+
+    def __init__(self, *, tail, key="max"):
+        _check_tail(tail)
+        self._tail = tail
+        self._key = key
+        self._maxima = []
+
+    def update(self, stats: np.ndarray) -> None:
+        """Keep each row's maximum."""
+        if self._tail == "greater":
+            maxima = stats.max(axis=1)
+        elif self._tail == "less":
+            maxima = -stats.min(axis=1)
+        else:
+            maxima = np.maximum(stats.max(axis=1), -stats.min(axis=1))
+        missing = np.isnan(maxima)
+        if missing.any():
+            maxima[missing] = np.fmax.reduce(_oriented(stats[missing], self._tail), axis=1)
+        self._maxima.append(maxima)
+
+    def arrays(self) -> dict[str, np.ndarray]:
+        """``{"<key>.stat": float32 (n_rows,)}``."""
+        maxima = np.concatenate(self._maxima) if self._maxima else np.empty(0, dtype=np.float32)
+        return {f"{self._key}.stat": maxima}
+
+
+def permutation_p(counts, n_rows: int) -> np.ndarray:
+    """Permutation p = counts / n_rows, identity row included in counts and n_rows.
+
+    Exact tables: #{null >= observed} / n_total. Monte Carlo tables with m
+    random rows: (1 + b) / (1 + m) (Phipson & Smyth 2010), never 0.
+    """
+    counts = np.asarray(counts)
+    if n_rows < 1:
+        raise ValueError(f"n_rows must be at least 1, got {n_rows}")
+    if (counts < 0).any() or (counts > n_rows).any():
+        raise ValueError(f"exceedance counts must lie between 0 and n_rows ({n_rows})")
+    return counts / float(n_rows)
+
+
+def smallest_attainable_p(table: PermutationTable, *, tail: str) -> float:
+    """Smallest permutation p the table can give.
+
+    Monte Carlo: 1 / (m + 1). Exact: (rows tying with the identity) / n_rows,
+    e.g. 2 / 2^n for two-sided sign flips (flipping every sign gives -t),
+    1 / 2^n one-sided; k! / (k!)^n for F.
+    """
+    _check_tail(tail)
+    if not table.exact:
+        return 1.0 / table.n_rows
+    ties = table.n_identical + (table.n_mirrored if tail == "two-sided" and table.scheme != "within-subject" else 0)
+    return ties / table.n_rows
+
+
+def check_attainable(table: PermutationTable, *, tail: str, alpha: float) -> None:
+    """Warn (FamwiseWarning) when no permutation p can reach alpha, naming the smallest p."""
+    p_min = smallest_attainable_p(table, tail=tail)
+    if p_min > alpha:
+        kind = "exact" if table.exact else "Monte Carlo"
+        warnings.warn(
+            f"the smallest attainable {tail} permutation p is {p_min:.6g} ({kind}, {table.n_rows} "
+            f"{table.scheme} rows), above alpha {alpha}: no point can be significant; "
+            "add subjects or permutations",
+            FamwiseWarning,
+            stacklevel=2,
+        )
+
+
+def _check_tail(tail) -> None:
+    if tail not in TAILS:
+        raise UserError(f"`tail` must be one of {', '.join(map(repr, TAILS))}, got {tail!r}")
+
+
+def _check_table_inputs(test, n, n_permutations, seed, groups, n_conditions):
+    if test not in TESTS:
+        raise UserError(f"`test` must be one of {', '.join(map(repr, TESTS))}, got {test!r}")
+    if int(n_permutations) != n_permutations or n_permutations < 1:
+        raise UserError(f"`n_permutations` must be a whole number of at least 1, got {n_permutations}")
+    if int(seed) != seed or seed < 0:
+        raise UserError(f"`seed` must be a whole number of at least 0, got {seed}")
+    if n < 3:
+        raise UserError(f"the {test} test needs at least 3 subjects, got {n}")
+    k = None
+    if test == "two-sample":
+        check_design(np.zeros((n, 1)), test=test, groups=groups)
+    if test == "repeated-measures":
+        if n_conditions is None or n_conditions < 3:
+            raise UserError(
+                f"the repeated-measures test needs at least 3 conditions, got {n_conditions} "
+                "(use the paired test for two)"
+            )
+        k = int(n_conditions)
+    return int(n), k
+
+
+def _check_rows(rows, test, shape):
+    rows = np.asarray(rows)
+    n = shape[0]
+    want = (n, shape[1]) if test == "repeated-measures" else (n,)
+    if rows.ndim != len(want) + 1 or rows.shape[1:] != want:
+        raise ValueError(f"table rows of shape {rows.shape} do not fit {test} data of shape {shape}")
+    return rows
+
+
+def _n_distinct(scheme, n, k, groups) -> int:
+    if scheme == "sign-flip":
+        return 2**n
+    if scheme == "label":
+        return math.comb(n, int(np.count_nonzero(groups == 0)))
+    if scheme == "within-subject":
+        return math.factorial(k) ** n
+    return math.factorial(n)
+
+
+def _enumerate(scheme, n, k, groups) -> np.ndarray:
+    if scheme == "sign-flip":
+        bits = (np.arange(2**n, dtype=np.int64)[:, None] >> np.arange(n)) & 1
+        return (1 - 2 * bits).astype(np.int8)
+    if scheme == "covariate":
+        return np.array(list(itertools.permutations(range(n))), dtype=np.int32)
+    if scheme == "within-subject":
+        perms = np.array(list(itertools.permutations(range(k))), dtype=np.int32)
+        n_perms = perms.shape[0]
+        index = np.arange(n_perms**n, dtype=np.int64)
+        digits = (index[:, None] // n_perms ** np.arange(n)) % n_perms
+        return perms[digits]
+    members0 = np.flatnonzero(groups == 0)
+    members1 = np.flatnonzero(groups == 1)
+    observed = tuple(members0.tolist())
+    combos = [observed] + [c for c in itertools.combinations(range(n), members0.size) if c != observed]
+    rows = np.empty((len(combos), n), dtype=np.int32)
+    for r, chosen in enumerate(combos):
+        in0 = np.zeros(n, dtype=bool)
+        in0[list(chosen)] = True
+        rows[r, in0] = members0
+        rows[r, ~in0] = members1
+    return rows
+
+
+def _draw(scheme, n, k, m, rng) -> np.ndarray:
+    if scheme == "sign-flip":
+        flips = rng.integers(0, 2, size=(m, n), dtype=np.int8)
+        return np.concatenate([np.ones((1, n), dtype=np.int8), (1 - 2 * flips).astype(np.int8)])
+    if scheme == "within-subject":
+        base = np.broadcast_to(np.arange(k, dtype=np.int32), (m + 1, n, k)).copy()
+        base[1:] = rng.permuted(base[1:], axis=2)
+        return base
+    base = np.broadcast_to(np.arange(n, dtype=np.int32), (m + 1, n)).copy()
+    base[1:] = rng.permuted(base[1:], axis=1)
+    return base

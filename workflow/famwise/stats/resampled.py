@@ -1,0 +1,426 @@
+"""Statistics of blocks of resampled data sets: the permutation engine's fast paths.
+
+Every function here gives, for a block of permutation-table rows, the
+statistic map of each row, float32 (b, P). Each row's value at each point is
+computed by the same operations in the same order whatever the block it
+comes in, the block size, the number of blocks or the number of threads, so
+the null is bit-identical for any sharding. Sums over subjects run in
+subject order (numba kernels below), or are exact (the sign-flip t), because
+a BLAS product may sum in an order that depends on the matrix shapes and
+threads.
+
+Fast paths:
+
+- sign flips, t: the per-point sum of squares does not change under sign
+  flips, so t needs only the flipped sums (signs @ x, a BLAS product on data
+  rounded to an integer grid so that every sum is exact, see
+  `integer_grid`) plus one elementwise kernel.
+- labels (two-sample t): group-0 sums and sums of squares are one BLAS
+  product of the 0/1 label indicators with the integer grids of the
+  grand-mean-centred data and of its squares (exact); group 1 takes the
+  totals minus group 0.
+- within-subject (F): condition sums of the subject-centred data; the
+  within-subject sum of squares does not change.
+- covariate (correlation): r is the permuted standardised covariate weighted
+  sum of the standardised data.
+- Yuen (sign flips and labels): no matrix-product form, because trimming
+  depends on the order of the flipped or relabelled values; a numba kernel
+  sorts each row's values per point (exact, slower: O(n^2) per point and row).
+"""
+
+from collections.abc import Callable
+from math import sqrt
+
+import numpy as np
+from numba import njit, prange
+
+from famwise.stats.trimmed import n_trimmed
+
+_CHUNK = 2048
+_BLAS_CHUNK = 1 << 19
+
+BlockFunction = Callable[[np.ndarray], np.ndarray]
+
+
+def block_function(x, *, test, groups=None, covariate=None, statistic="t", trim=0.2, equal_var=True) -> BlockFunction:
+    """Prepare the data once; return f(rows_block, out=None) -> float32 (b, P).
+
+    The sign-flip and Yuen paths write into ``out`` (float32, C-contiguous,
+    shape (b, P)) when it is given, to spare a new allocation per block; the
+    others return a new array.
+
+    Parameters
+    ----------
+    x : ndarray of float64, (n, P) or (n, k, P)
+        Checked data (see `famwise.stats.check_design`).
+    test, groups, covariate, statistic, trim, equal_var
+        As in `famwise.stats.compute`.
+
+    Returns
+    -------
+    callable
+        Takes rows of the permutation table: int8 signs (b, n) for one-sample
+        and paired, int subject permutations (b, n) for two-sample and
+        correlation, int within-subject condition permutations (b, n, k) for
+        repeated measures. Row semantics: flipped data s_i x_i; subject i gets
+        the label ``groups[row[i]]`` or the covariate ``covariate[row[i]]``;
+        subject i's condition j takes the data of its condition ``row[i, j]``.
+    """
+    if test in ("one-sample", "paired"):
+        return _signflip_yuen_block(x, trim) if statistic == "yuen" else _signflip_t_block(x)
+    if test == "two-sample":
+        if statistic == "yuen":
+            return _label_yuen_block(x, groups, trim, equal_var)
+        return _label_t_block(x, groups, equal_var)
+    if test == "repeated-measures":
+        return _within_f_block(x)
+    return _covariate_block(x, covariate)
+
+
+def _signflip_t_block(x):
+    n, n_points = x.shape
+    grid = integer_grid(x)
+    n_ss = np.zeros(n_points)
+    for row in grid:
+        n_ss += row * row
+    n_ss *= n
+    factor = sqrt(n - 1.0)
+    if n_points <= _BLAS_CHUNK:
+        chunks = [grid]
+    else:
+        chunks = [np.ascontiguousarray(grid[:, p0 : p0 + _BLAS_CHUNK]) for p0 in range(0, n_points, _BLAS_CHUNK)]
+    storage = {}
+
+    def block(rows, out=None):
+        signs = rows.astype(np.float64)
+        if out is None:
+            out = np.empty((rows.shape[0], n_points), dtype=np.float32)
+        p0 = 0
+        for chunk in chunks:
+            shape = (rows.shape[0], chunk.shape[1])
+            sums = _buffer(storage, shape)
+            np.matmul(signs, chunk, out=sums)
+            _t_from_sums(sums, n_ss, factor, p0, out)
+            p0 += shape[1]
+        return out
+
+    return block
+
+
+def integer_grid(x: np.ndarray) -> np.ndarray:
+    """Round each point's values to integers on a power-of-two grid, float64.
+
+    Point p is scaled by 2^(B - e_p), where max_i |x_ip| < 2^e_p and
+    B = 52 - ceil(log2 n), then rounded: every sum of n values times +-1 is
+    an integer below 2^52 in magnitude, exact in float64 in any order. Sums
+    of flips can then use any BLAS with any threads and stay bit-identical.
+    The t statistic is scale free; the rounding changes it by about 2^-B
+    relative to the point's largest |value| (below 1e-13 for n <= 64).
+
+    Parameters
+    ----------
+    x : ndarray of float64, shape (n, P)
+
+    Returns
+    -------
+    ndarray of float64, shape (n, P)
+    """
+    return _grid_and_scale(x)[0]
+
+
+def _label_t_block(x, groups, equal_var):
+    n, n_points = x.shape
+    xc = x - x.mean(axis=0)
+    grid_x, scale_x = _grid_and_scale(xc)
+    grid_q, scale_q = _grid_and_scale(xc * xc)
+    total_x, total_q = _column_sums(grid_x), _column_sums(grid_q)
+    chunks = [
+        (p0, np.concatenate([grid_x[:, p0 : p0 + _BLAS_CHUNK], grid_q[:, p0 : p0 + _BLAS_CHUNK]], axis=1))
+        for p0 in range(0, n_points, _BLAS_CHUNK)
+    ]
+    groups = np.asarray(groups, dtype=np.int64)
+    n0 = int(np.count_nonzero(groups == 0))
+    storage = {}
+
+    def block(rows, out=None):
+        in0 = np.ascontiguousarray(groups[rows] == 0, dtype=np.float64)
+        if out is None:
+            out = np.empty((rows.shape[0], n_points), dtype=np.float32)
+        for p0, chunk in chunks:
+            sums = _buffer(storage, (rows.shape[0], chunk.shape[1]))
+            np.matmul(in0, chunk, out=sums)
+            _two_sample_t_from_sums(
+                sums, total_x, total_q, 1.0 / scale_x, 1.0 / scale_q, n0, n - n0, equal_var, p0, out
+            )
+        return out
+
+    return block
+
+
+def _buffer(storage: dict, shape: tuple) -> np.ndarray:
+    """A C-contiguous float64 work array of this shape, reusing one allocation."""
+    size = shape[0] * shape[1]
+    if storage.get("sums", np.empty(0)).size < size:
+        storage["sums"] = np.empty(size)
+    return storage["sums"][:size].reshape(shape)
+
+
+def _grid_and_scale(v):
+    """`integer_grid` of v and the per-point factor 2^k with grid ~= v * 2^k."""
+    bits = 52 - int(np.ceil(np.log2(v.shape[0])))
+    _, exponent = np.frexp(np.maximum(v.max(axis=0), -v.min(axis=0)))
+    grid = np.ldexp(v, bits - exponent)
+    return np.rint(grid, out=grid), np.ldexp(1.0, bits - exponent)
+
+
+def _column_sums(grid):
+    """Sums over subjects in subject order (exact on an integer grid)."""
+    total = np.zeros(grid.shape[1])
+    for row in grid:
+        total += row
+    return total
+
+
+def _within_f_block(x):
+    n, k = x.shape[:2]
+    within = np.ascontiguousarray(x - x.mean(axis=1, keepdims=True))
+    ss_within = np.sum(within**2, axis=(0, 1))
+    df1, df2 = k - 1.0, (n - 1.0) * (k - 1.0)
+
+    def block(rows, out=None):
+        sums = np.empty((rows.shape[0], k, x.shape[2]))
+        _condition_sums(np.ascontiguousarray(rows, dtype=np.int64), within, sums)
+        ss_cond = sums[:, 0] ** 2
+        for j in range(1, k):
+            ss_cond += sums[:, j] ** 2
+        ss_cond /= n
+        ss_error = np.maximum(ss_within - ss_cond, 0.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return ((ss_cond / df1) / (ss_error / df2)).astype(np.float32)
+
+    return block
+
+
+def _covariate_block(x, covariate):
+    n = x.shape[0]
+    xc = x - x.mean(axis=0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = np.ascontiguousarray(xc / np.sqrt(np.sum(xc**2, axis=0)))
+    cc = covariate - covariate.mean()
+    cz = cc / np.sqrt(np.sum(cc**2))
+
+    def block(rows, out=None):
+        r = np.clip(_weighted(np.ascontiguousarray(cz[rows]), z), -1.0, 1.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            return (r * np.sqrt((n - 2) / (1.0 - r**2))).astype(np.float32)
+
+    return block
+
+
+def _signflip_yuen_block(x, trim):
+    n = x.shape[0]
+    xt = np.ascontiguousarray(x.T)
+    g = n_trimmed(n, trim)
+    scale = (1.0 - 2.0 * trim) * sqrt(n)
+
+    def block(rows, out=None):
+        if out is None:
+            out = np.empty((rows.shape[0], xt.shape[0]), dtype=np.float32)
+        _signflip_yuen(np.ascontiguousarray(rows, dtype=np.float64), xt, g, scale, out)
+        return out
+
+    return block
+
+
+def _label_yuen_block(x, groups, trim, equal_var):
+    xt = np.ascontiguousarray(x.T)
+    groups = np.asarray(groups, dtype=np.int64)
+    n0 = int(np.count_nonzero(groups == 0))
+    n1 = groups.size - n0
+    g0, g1 = n_trimmed(n0, trim), n_trimmed(n1, trim)
+
+    def block(rows, out=None):
+        if out is None:
+            out = np.empty((rows.shape[0], xt.shape[0]), dtype=np.float32)
+        labels = np.ascontiguousarray(groups[rows])
+        _label_yuen(labels, xt, n0, n1, g0, g1, equal_var, out)
+        return out
+
+    return block
+
+
+def _weighted(w, x):
+    out = np.empty((w.shape[0], x.shape[1]))
+    _weighted_sums(w, x, out)
+    return out
+
+
+@njit(cache=True, error_model="numpy")
+def _t_from_sums(sums, n_ss, factor, p0, out):  # pragma: no cover - numba
+    """out[r, p0 + q] = one-sample t from the flipped sum S = sums[r, q] and n_ss = n * (sum of squares).
+
+    t = S sqrt(n - 1) / sqrt(n ss - S^2), which is mean / (SD / sqrt(n));
+    the difference is taken in float64, the rest in float32. Serial: it
+    runs between BLAS calls whose threads still hold the cores.
+    """
+    b, m = sums.shape
+    n_ss = n_ss[p0 : p0 + m]
+    for r in range(b):
+        src = sums[r]
+        dst = out[r, p0 : p0 + m]
+        for q in range(m):
+            s = src[q]
+            d = n_ss[q] - s * s
+            if d < 0.0:
+                d = 0.0
+            dst[q] = np.float32(s * factor) / np.sqrt(np.float32(d))
+
+
+@njit(cache=True, error_model="numpy")
+def _two_sample_t_from_sums(sums, total_x, total_q, unit_x, unit_q, n0, n1, equal_var, p0, out):  # pragma: no cover
+    """out[r, p0 + q] = two-sample t (label 0 minus label 1) from exact group-0 grid sums.
+
+    ``sums[r, :m]`` are the group-0 sums of the data grid, ``sums[r, m:]``
+    those of the squared-data grid; group 1 takes the totals minus group 0.
+    ``unit_*`` convert grid units back to data units (powers of two).
+    """
+    b = sums.shape[0]
+    m = sums.shape[1] // 2
+    total_x = total_x[p0 : p0 + m]
+    total_q = total_q[p0 : p0 + m]
+    unit_x = unit_x[p0 : p0 + m]
+    unit_q = unit_q[p0 : p0 + m]
+    pooled = (1.0 / n0 + 1.0 / n1) / (n0 + n1 - 2)
+    for r in range(b):
+        sum_x = sums[r, :m]
+        sum_q = sums[r, m:]
+        dst = out[r, p0 : p0 + m]
+        for q in range(m):
+            s0 = sum_x[q] * unit_x[q]
+            s1 = (total_x[q] - sum_x[q]) * unit_x[q]
+            m0 = s0 / n0
+            m1 = s1 / n1
+            ss0 = max(sum_q[q] * unit_q[q] - s0 * m0, 0.0)
+            ss1 = max((total_q[q] - sum_q[q]) * unit_q[q] - s1 * m1, 0.0)
+            if equal_var:
+                se = np.sqrt((ss0 + ss1) * pooled)
+            else:
+                se = np.sqrt(ss0 / ((n0 - 1) * n0) + ss1 / ((n1 - 1) * n1))
+            dst[q] = (m0 - m1) / se
+
+
+@njit(parallel=True, cache=True, error_model="numpy")
+def _weighted_sums(w, x, out):  # pragma: no cover - numba
+    """out[r, p] = sum_i w[r, i] x[i, p], summed in subject order."""
+    b, n = w.shape
+    n_points = x.shape[1]
+    n_chunks = (n_points + _CHUNK - 1) // _CHUNK
+    for c in prange(n_chunks):
+        p0 = c * _CHUNK
+        m = min(n_points, p0 + _CHUNK) - p0
+        acc = np.empty(m)
+        for r in range(b):
+            acc[:] = 0.0
+            for i in range(n):
+                s = w[r, i]
+                for q in range(m):
+                    acc[q] += s * x[i, p0 + q]
+            for q in range(m):
+                out[r, p0 + q] = acc[q]
+
+
+@njit(parallel=True, cache=True, error_model="numpy")
+def _condition_sums(perm, x, out):  # pragma: no cover - numba
+    """out[r, j, p] = sum_i x[i, perm[r, i, j], p], summed in subject order."""
+    b, n, k = perm.shape
+    n_points = x.shape[2]
+    n_chunks = (n_points + _CHUNK - 1) // _CHUNK
+    for c in prange(n_chunks):
+        p0 = c * _CHUNK
+        m = min(n_points, p0 + _CHUNK) - p0
+        acc = np.empty(m)
+        for r in range(b):
+            for j in range(k):
+                acc[:] = 0.0
+                for i in range(n):
+                    src = perm[r, i, j]
+                    for q in range(m):
+                        acc[q] += x[i, src, p0 + q]
+                for q in range(m):
+                    out[r, j, p0 + q] = acc[q]
+
+
+@njit(cache=True)
+def _sort_small(buf):  # pragma: no cover - numba
+    """Insertion sort in place (short arrays)."""
+    for i in range(1, buf.size):
+        v = buf[i]
+        j = i - 1
+        while j >= 0 and buf[j] > v:
+            buf[j + 1] = buf[j]
+            j -= 1
+        buf[j + 1] = v
+
+
+@njit(cache=True)
+def _trimmed_stats(buf, g):  # pragma: no cover - numba
+    """Trimmed mean and Winsorized variance (ddof 1) of a sorted array."""
+    n = buf.size
+    h = n - 2 * g
+    s = 0.0
+    for i in range(g, n - g):
+        s += buf[i]
+    lo = buf[g]
+    hi = buf[n - g - 1]
+    wm = (s + g * lo + g * hi) / n
+    v = g * (lo - wm) ** 2 + g * (hi - wm) ** 2
+    for i in range(g, n - g):
+        v += (buf[i] - wm) ** 2
+    return s / h, v / (n - 1)
+
+
+@njit(parallel=True, cache=True, error_model="numpy")
+def _signflip_yuen(signs, xt, g, scale, out):  # pragma: no cover - numba
+    """out[r, p] = one-sample trimmed t of xt[p] flipped by signs[r]."""
+    b, n = signs.shape
+    for r in prange(b):
+        buf = np.empty(n)
+        for p in range(xt.shape[0]):
+            for i in range(n):
+                buf[i] = signs[r, i] * xt[p, i]
+            _sort_small(buf)
+            mean_t, var_w = _trimmed_stats(buf, g)
+            out[r, p] = mean_t / (np.sqrt(var_w) / scale)
+
+
+@njit(parallel=True, cache=True, error_model="numpy")
+def _label_yuen(labels, xt, n0, n1, g0, g1, equal_var, out):  # pragma: no cover - numba
+    """out[r, p] = two-sample trimmed t (label 0 minus label 1) of xt[p] under labels[r]."""
+    b, n = labels.shape
+    h0 = n0 - 2 * g0
+    h1 = n1 - 2 * g1
+    for r in prange(b):
+        a = np.empty(n0)
+        c = np.empty(n1)
+        for p in range(xt.shape[0]):
+            ia = 0
+            ic = 0
+            for i in range(n):
+                if labels[r, i] == 0:
+                    a[ia] = xt[p, i]
+                    ia += 1
+                else:
+                    c[ic] = xt[p, i]
+                    ic += 1
+            _sort_small(a)
+            _sort_small(c)
+            ma, va = _trimmed_stats(a, g0)
+            mc, vc = _trimmed_stats(c, g1)
+            va = va * (n0 - 1) / (h0 - 1)
+            vc = vc * (n1 - 1) / (h1 - 1)
+            if equal_var:
+                pooled = ((h0 - 1) * va + (h1 - 1) * vc) / (h0 + h1 - 2)
+                se = np.sqrt(pooled * (1.0 / h0 + 1.0 / h1))
+            else:
+                se = np.sqrt(va / h0 + vc / h1)
+            out[r, p] = (ma - mc) / se
