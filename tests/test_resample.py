@@ -10,11 +10,10 @@ from scipy import stats as sps
 
 from famwise.errors import FamwiseWarning, UserError
 from famwise.reference.stats import null_stats
+from famwise.correct.maxstat import MaxStatCollector
 from famwise.resample import (
     ExceedanceCollector,
-    MaxStatCollector,
     check_attainable,
-    check_family,
     iter_null_blocks,
     make_table,
     permutation_p,
@@ -48,11 +47,11 @@ def design_data(options):
     return X3 if options["test"] == "repeated-measures" else X2
 
 
-def design_table(options, n_permutations=150, seed=11):
+def design_table(options, permutations=150, seed=11):
     return make_table(
         options["test"],
         n_subjects=N,
-        n_permutations=n_permutations,
+        permutations=permutations,
         seed=seed,
         groups=options.get("groups"),
         n_conditions=3 if options["test"] == "repeated-measures" else None,
@@ -64,7 +63,7 @@ def design_table(options, n_permutations=150, seed=11):
 
 @pytest.mark.parametrize("n, rows", [(5, 32), (8, 256), (10, 1024)])
 def test_sign_flip_exact_enumeration_cv09(n, rows):
-    table = make_table("one-sample", n_subjects=n, n_permutations=5000, seed=0)
+    table = make_table("one-sample", n_subjects=n, permutations=5000, seed=0)
     # CV-09: 2^n sign vectors, identity included
     assert table.exact and table.n_rows == rows == table.n_distinct
     assert table.rows.dtype == np.int8 and set(np.unique(table.rows)) == {-1, 1}
@@ -73,9 +72,9 @@ def test_sign_flip_exact_enumeration_cv09(n, rows):
 
 
 def test_exact_boundary_and_monte_carlo():
-    # n_distinct <= n_permutations + 1 -> exact
-    assert make_table("one-sample", n_subjects=6, n_permutations=63, seed=1).exact
-    table = make_table("one-sample", n_subjects=6, n_permutations=62, seed=1)
+    # n_distinct <= permutations + 1 -> exact
+    assert make_table("one-sample", n_subjects=6, permutations=63, seed=1).exact
+    table = make_table("one-sample", n_subjects=6, permutations=62, seed=1)
     assert not table.exact and table.n_rows == 63
     np.testing.assert_array_equal(table.rows[0], np.ones(6))
 
@@ -97,7 +96,7 @@ def test_same_seed_same_table(name):
 
 def test_label_exact_enumeration_cv09():
     groups = np.array([1, 0, 0, 1, 0, 1, 1, 0, 1, 0])
-    table = make_table("two-sample", n_subjects=10, n_permutations=9999, seed=0, groups=groups)
+    table = make_table("two-sample", n_subjects=10, permutations=9999, seed=0, groups=groups)
     # CV-09: 5 vs 5 -> C(10, 5) = 252 relabellings
     assert table.exact and table.n_rows == 252
     np.testing.assert_array_equal(table.rows[0], np.arange(10))
@@ -107,11 +106,11 @@ def test_label_exact_enumeration_cv09():
 
 
 def test_within_subject_and_covariate_exact():
-    table = make_table("repeated-measures", n_subjects=3, n_permutations=500, seed=0, n_conditions=3)
+    table = make_table("repeated-measures", n_subjects=3, permutations=500, seed=0, n_conditions=3)
     assert table.exact and table.n_rows == 6**3 and table.rows.shape == (216, 3, 3)
     assert len({r.tobytes() for r in table.rows}) == 216
     np.testing.assert_array_equal(table.rows[0], np.tile(np.arange(3), (3, 1)))
-    table = make_table("correlation", n_subjects=5, n_permutations=119, seed=0)
+    table = make_table("correlation", n_subjects=5, permutations=119, seed=0)
     assert table.exact and table.n_rows == math.factorial(5)
     np.testing.assert_array_equal(table.rows[0], np.arange(5))
 
@@ -130,7 +129,7 @@ def test_shard_bounds():
 @pytest.mark.parametrize("name", list(DESIGNS))
 def test_fast_path_equals_reference(name):
     options = DESIGNS[name]
-    x, table = design_data(options), design_table(options, n_permutations=60)
+    x, table = design_data(options), design_table(options, permutations=60)
     fast = np.concatenate(list(iter_null_blocks(x, table.rows, block_size=16, **options)))
     ref = null_stats(x, table.rows, **options)
     assert fast.dtype == np.float32 and fast.shape == ref.shape
@@ -141,7 +140,7 @@ def test_fast_path_equals_reference(name):
 
 def test_fast_path_with_ties_and_exact_table():
     x = np.array([[1.0, 2, 0], [1, -2, 0], [1, 2, 0], [2, 2, 0], [3, -1, 0], [1, 2, 0]])
-    table = make_table("one-sample", n_subjects=6, n_permutations=100, seed=0)
+    table = make_table("one-sample", n_subjects=6, permutations=100, seed=0)
     with np.errstate(all="ignore"):
         for statistic in ("t", "yuen"):
             fast = np.concatenate(list(iter_null_blocks(x, table.rows, test="one-sample", statistic=statistic)))
@@ -163,10 +162,10 @@ def collectors_for(options):
 @pytest.mark.parametrize("name", ["one-sample t", "paired yuen", "two-sample welch", "correlation", "repeated-measures"])
 def test_null_identical_for_shards_and_block_sizes(name):
     options = DESIGNS[name]
-    x, table = design_data(options), design_table(options, n_permutations=100)
+    x, table = design_data(options), design_table(options, permutations=100)
     make = collectors_for(options)
     base = run_shards(x, table, n_shards=1, make_collectors=make, block_size=64, **options)
-    assert base["max.stat"].shape == (table.n_rows,)
+    assert base["maxstat.max"].shape == (table.n_rows,)
     for n_shards, block_size in [(7, 1), (7, 7), (1, 7), (3, 64)]:
         other = run_shards(x, table, n_shards=n_shards, make_collectors=make, block_size=block_size, **options)
         for key in base:
@@ -176,7 +175,7 @@ def test_null_identical_for_shards_and_block_sizes(name):
 @pytest.mark.parametrize("name", ["one-sample t", "two-sample yuen", "repeated-measures"])
 def test_null_identical_for_thread_counts(name):
     options = DESIGNS[name]
-    x, table = design_data(options), design_table(options, n_permutations=40)
+    x, table = design_data(options), design_table(options, permutations=40)
     threads = numba.get_num_threads()
     try:
         numba.set_num_threads(1)
@@ -196,7 +195,7 @@ def exact_p(x, options, tail):
     table = make_table(
         options["test"],
         n_subjects=x.shape[0],
-        n_permutations=10**6,
+        permutations=10**6,
         seed=0,
         groups=options.get("groups"),
         n_conditions=n_conditions,
@@ -326,15 +325,6 @@ def test_exceedance_collector_tails():
     np.testing.assert_array_equal(counts["less"], [3, 2, 3])
 
 
-def test_max_collector():
-    collector = MaxStatCollector(tail="two-sided")
-    collector.update(np.array([[1.0, -3.0, np.nan], [0.5, 0.2, 0.1]], dtype=np.float32))
-    np.testing.assert_array_equal(collector.arrays()["max.stat"], [3.0, 0.5])
-    collector = MaxStatCollector(tail="less", key="neg")
-    collector.update(np.array([[1.0, -3.0]], dtype=np.float32))
-    np.testing.assert_array_equal(collector.arrays()["neg.stat"], [3.0])
-
-
 @pytest.mark.parametrize("b, m, expected", [(0, 999, 0.001), (24, 999, 0.025), (49, 999, 0.05), (0, 9999, 1e-4)])
 def test_permutation_p_phipson_smyth_cv08(b, m, expected):
     # CV-08, Phipson & Smyth (2010): p = (b + 1) / (m + 1); our counts include the identity row
@@ -343,19 +333,19 @@ def test_permutation_p_phipson_smyth_cv08(b, m, expected):
 
 def test_smallest_attainable_p():
     # CV-09: n = 5 sign flips -> 0.0625 two-sided, 0.03125 one-sided; 5 vs 5 -> 2/252 and 1/252
-    table = make_table("one-sample", n_subjects=5, n_permutations=1000, seed=0)
+    table = make_table("one-sample", n_subjects=5, permutations=1000, seed=0)
     assert smallest_attainable_p(table, tail="two-sided") == 0.0625
     assert smallest_attainable_p(table, tail="less") == 0.03125
     groups = np.r_[np.zeros(5, int), np.ones(5, int)]
-    table = make_table("two-sample", n_subjects=10, n_permutations=1000, seed=0, groups=groups)
+    table = make_table("two-sample", n_subjects=10, permutations=1000, seed=0, groups=groups)
     assert smallest_attainable_p(table, tail="two-sided") == pytest.approx(2 / 252)
     assert smallest_attainable_p(table, tail="greater") == pytest.approx(1 / 252)
-    table = make_table("one-sample", n_subjects=30, n_permutations=999, seed=0)
+    table = make_table("one-sample", n_subjects=30, permutations=999, seed=0)
     assert smallest_attainable_p(table, tail="two-sided") == 0.001
 
 
 def test_check_attainable_warns_with_the_p():
-    table = make_table("one-sample", n_subjects=5, n_permutations=1000, seed=0)
+    table = make_table("one-sample", n_subjects=5, permutations=1000, seed=0)
     with pytest.warns(FamwiseWarning, match=r"smallest attainable two-sided permutation p is 0.0625 .* above alpha 0.05"):
         check_attainable(table, tail="two-sided", alpha=0.05)
     with warnings.catch_warnings():
@@ -364,20 +354,20 @@ def test_check_attainable_warns_with_the_p():
 
 
 def test_bad_inputs():
-    with pytest.raises(UserError, match=r"`n_permutations` must be a whole number of at least 1, got 0"):
-        make_table("one-sample", n_subjects=10, n_permutations=0, seed=0)
+    with pytest.raises(UserError, match=r"`permutations` must be a whole number of at least 1, got 0"):
+        make_table("one-sample", n_subjects=10, permutations=0, seed=0)
     with pytest.raises(UserError, match=r"`seed` must be a whole number of at least 0, got -1"):
-        make_table("one-sample", n_subjects=10, n_permutations=10, seed=-1)
+        make_table("one-sample", n_subjects=10, permutations=10, seed=-1)
     with pytest.raises(UserError, match=r"the paired test needs at least 3 subjects, got 2"):
-        make_table("paired", n_subjects=2, n_permutations=10, seed=0)
+        make_table("paired", n_subjects=2, permutations=10, seed=0)
     with pytest.raises(UserError, match=r"group 0 has none"):
-        make_table("two-sample", n_subjects=6, n_permutations=10, seed=0, groups=np.ones(6, int))
+        make_table("two-sample", n_subjects=6, permutations=10, seed=0, groups=np.ones(6, int))
     with pytest.raises(UserError, match=r"group 1 has 2 subjects; the two-sample test needs at least 3 per group"):
-        make_table("two-sample", n_subjects=6, n_permutations=10, seed=0, groups=[0, 0, 0, 0, 1, 1])
+        make_table("two-sample", n_subjects=6, permutations=10, seed=0, groups=[0, 0, 0, 0, 1, 1])
     with pytest.raises(UserError, match=r"needs at least 3 conditions, got 2"):
-        make_table("repeated-measures", n_subjects=6, n_permutations=10, seed=0, n_conditions=2)
+        make_table("repeated-measures", n_subjects=6, permutations=10, seed=0, n_conditions=2)
     with pytest.raises(UserError, match=r"`test` must be one of .*got 'ttest'"):
-        make_table("ttest", n_subjects=6, n_permutations=10, seed=0)
+        make_table("ttest", n_subjects=6, permutations=10, seed=0)
     with pytest.raises(UserError, match=r"shard index must be between 0 and 2, got 3"):
         shard_bounds(10, 3, 3)
     with pytest.raises(UserError, match=r"`block_size` must be at least 1, got 0"):
@@ -386,19 +376,10 @@ def test_bad_inputs():
         ExceedanceCollector(np.zeros(3), tail="up")
 
 
-def test_check_family():
-    g = [0, 0, 0, 1, 1, 1]
-    check_family({"a": dict(test="one-sample", n_subjects=6), "b": dict(test="paired", n_subjects=6)})
-    with pytest.raises(UserError, match=r"contrasts 'a' and 'b' cannot share permutations .*scheme sign-flip vs label"):
-        check_family({"a": dict(test="paired", n_subjects=6), "b": dict(test="two-sample", n_subjects=6, groups=g)})
-    with pytest.raises(UserError, match=r"'a' and 'c' cannot share .*number of subjects 6 vs 7"):
-        check_family({"a": dict(test="paired", n_subjects=6), "c": dict(test="paired", n_subjects=7)})
-
-
 @pytest.mark.parametrize("scale", [1e-12, 1e12])
 def test_sign_flip_t_scale_free(scale):
     # t does not depend on the unit of the data (common practice, no source)
-    table = make_table("one-sample", n_subjects=N, n_permutations=30, seed=2)
+    table = make_table("one-sample", n_subjects=N, permutations=30, seed=2)
     base = np.concatenate(list(iter_null_blocks(X2, table.rows, test="one-sample")))
     scaled = np.concatenate(list(iter_null_blocks(X2 * scale, table.rows, test="one-sample")))
     np.testing.assert_allclose(base, scaled, rtol=1e-6)
@@ -420,7 +401,7 @@ def test_integer_grid_makes_flip_sums_exact():
 @pytest.mark.parametrize("name", ["one-sample t", "paired yuen", "two-sample yuen", "correlation"])
 def test_reused_output_buffer_gives_the_same_blocks(name):
     options = DESIGNS[name]
-    x, table = design_data(options), design_table(options, n_permutations=40)
+    x, table = design_data(options), design_table(options, permutations=40)
     fresh = np.concatenate(list(iter_null_blocks(x, table.rows, block_size=16, **options)))
     reused = np.concatenate(
         [b.copy() for b in iter_null_blocks(x, table.rows, block_size=16, reuse_output=True, **options)]
@@ -433,7 +414,7 @@ def test_point_chunks_do_not_change_the_null(monkeypatch, name):
     import famwise.stats.resampled as resampled
 
     options = DESIGNS[name]
-    table = design_table(options, n_permutations=50)
+    table = design_table(options, permutations=50)
     whole = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
     monkeypatch.setattr(resampled, "_BLAS_CHUNK", 8)
     chunked = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))

@@ -11,7 +11,7 @@ ALPHA = 0.05
 M = 20
 
 
-def null_rejections(options, n_subjects, n_datasets, n_permutations, seed):
+def null_rejections(options, n_subjects, n_datasets, permutations, seed):
     """Parametric and permutation rejections (n_datasets, M) on pure-noise data."""
     rng = np.random.default_rng(seed)
     k = 3 if options["test"] == "repeated-measures" else None
@@ -22,7 +22,7 @@ def null_rejections(options, n_subjects, n_datasets, n_permutations, seed):
         table = make_table(
             options["test"],
             n_subjects=n_subjects,
-            n_permutations=n_permutations,
+            permutations=permutations,
             seed=seed + d,
             groups=options.get("groups"),
             n_conditions=k,

@@ -27,7 +27,7 @@ def test_sizes_of_an_epochs_study(tiny_study):
     # samples at 100 Hz = 1590 ms, 50 ms steps -> 32 map times; 63 permutations in 2 shards.
     assert (sizes.n_subjects, sizes.n_channels, sizes.n_freqs, sizes.n_map_times) == (6, 8, 3, 32)
     assert sizes.n_times == 32 and sizes.n_points == 8 * 3 * 32
-    assert (sizes.n_conditions, sizes.n_contrasts, sizes.n_permutations, sizes.rows_per_shard) == (2, 1, 63, 32)
+    assert (sizes.n_conditions, sizes.n_contrasts, sizes.permutations, sizes.rows_per_shard) == (2, 1, 63, 32)
     assert resources.study_sizes(plan) is sizes
 
     rec = resources.recording_sizes(plan, "01")

@@ -128,7 +128,7 @@ def test_all_contrasts_family_equals_brute_force(tmp_path):
     out = tmp_path / "results" / "contrasts"
     names = ["high-vs-low", "high-only"]
     datas = [load_contrast(out / n / "subjects.npz") for n in names]
-    table = make_table("paired", n_subjects=6, n_permutations=63, seed=7)
+    table = make_table("paired", n_subjects=6, permutations=63, seed=7)
     maps = np.concatenate([np.concatenate(list(iter_null_blocks(d.x, table.rows, test=d.test)), axis=0) for d in datas], axis=1)
     observed = np.concatenate([np.load(out / n / "observed.npz")["stat"].reshape(-1) for n in names])
     expected = step_down_reference(maps, observed, tail="two-sided")

@@ -20,7 +20,7 @@ def table_for(data: ContrastData, *, settings: dict):
     """The study's permutation table for one contrast."""
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
     return make_table(
-        data.test, n_subjects=len(data.subjects), n_permutations=settings["permutations"], seed=settings["seed"],
+        data.test, n_subjects=len(data.subjects), permutations=settings["permutations"], seed=settings["seed"],
         groups=data.groups, n_conditions=n_conditions,
     )
 
@@ -32,7 +32,7 @@ def identity_statistic(data: ContrastData, *, settings: dict) -> np.ndarray:
     same bits the null's identity row gets, whatever the block or shard.
     """
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
-    identity = make_table(data.test, n_subjects=len(data.subjects), n_permutations=1, seed=0, groups=data.groups, n_conditions=n_conditions).rows[:1]
+    identity = make_table(data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups, n_conditions=n_conditions).rows[:1]
     block = next(
         iter_null_blocks(
             data.x, identity, test=data.test, groups=data.groups, covariate=data.covariate,

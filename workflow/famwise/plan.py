@@ -175,7 +175,7 @@ class Plan:
             n_conditions = len(contrast.conditions) if contrast.test == "repeated-measures" else None
             groups = settings.get("groups")
             table = make_table(
-                contrast.test, n_subjects=len(settings["subjects"]), n_permutations=inference.permutations,
+                contrast.test, n_subjects=len(settings["subjects"]), permutations=inference.permutations,
                 seed=self.study.seed, groups=None if groups is None else np.asarray(groups), n_conditions=n_conditions,
             )
             tail = "greater" if contrast.test == "repeated-measures" else inference.tail

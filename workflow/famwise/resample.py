@@ -87,13 +87,13 @@ class PermutationTable:
     seed: int
 
 
-def make_table(test, *, n_subjects, n_permutations, seed, groups=None, n_conditions=None) -> PermutationTable:
+def make_table(test, *, n_subjects, permutations, seed, groups=None, n_conditions=None) -> PermutationTable:
     """Build the permutation table of one test.
 
     Exact enumeration when every distinct resampling fits:
-    n_distinct <= n_permutations + 1 (2^n sign flips, C(n, n0) relabellings,
+    n_distinct <= permutations + 1 (2^n sign flips, C(n, n0) relabellings,
     (k!)^n within-subject permutations, n! covariate orders), identity first.
-    Otherwise Monte Carlo: the identity and then n_permutations rows drawn
+    Otherwise Monte Carlo: the identity and then permutations rows drawn
     independently (with replacement, so a row may repeat or equal the
     identity, as the (1 + b) / (1 + m) p-value assumes) from
     ``numpy.random.default_rng(seed)``. The same seed gives the same table,
@@ -104,7 +104,7 @@ def make_table(test, *, n_subjects, n_permutations, seed, groups=None, n_conditi
     test : str
         One of `famwise.stats.TESTS`.
     n_subjects : int
-    n_permutations : int
+    permutations : int
         Requested number of random resamplings (besides the identity).
     seed : int
     groups : array_like of int, shape (n_subjects,), optional
@@ -116,15 +116,15 @@ def make_table(test, *, n_subjects, n_permutations, seed, groups=None, n_conditi
     -------
     PermutationTable
     """
-    n, k = _check_table_inputs(test, n_subjects, n_permutations, seed, groups, n_conditions)
+    n, k = _check_table_inputs(test, n_subjects, permutations, seed, groups, n_conditions)
     scheme = SCHEMES[test]
     groups = None if groups is None else np.asarray(groups, dtype=np.int64)
     n_distinct = _n_distinct(scheme, n, k, groups)
-    exact = n_distinct <= n_permutations + 1
+    exact = n_distinct <= permutations + 1
     if exact:
         rows = _enumerate(scheme, n, k, groups)
     else:
-        rows = _draw(scheme, n, k, n_permutations, np.random.default_rng(seed))
+        rows = _draw(scheme, n, k, permutations, np.random.default_rng(seed))
     n_identical = math.factorial(k) if scheme == "within-subject" else 1
     if scheme == "sign-flip":
         n_mirrored = 1
@@ -141,49 +141,6 @@ def make_table(test, *, n_subjects, n_permutations, seed, groups=None, n_conditi
         n_identical=n_identical,
         n_mirrored=n_mirrored,
         seed=seed,
-    )
-
-
-def check_family(designs: dict[str, dict]) -> None:
-    """Check that several contrasts can share one permutation table.
-
-    With ``family: all-contrasts`` every contrast runs the same table rows and
-    the null takes, row by row, the maximum over contrasts (e.g.
-    ``np.maximum`` of their ``max.stat`` arrays). That needs the same scheme
-    on the same subjects: the same `SCHEMES` entry, number of subjects, group
-    labels (two-sample) and number of conditions (repeated measures).
-
-    Parameters
-    ----------
-    designs : dict of str to dict
-        Contrast name -> ``{"test": ..., "n_subjects": ..., "groups": ...,
-        "n_conditions": ...}`` (the last two where they apply).
-
-    Raises
-    ------
-    UserError
-        Naming the first contrast that cannot share the table and why.
-    """
-    names = list(designs)
-    first = names[0]
-    keys = {name: _family_key(designs[name]) for name in names}
-    aspects = ("scheme", "number of subjects", "group labels", "number of conditions")
-    for name in names[1:]:
-        for what, mine, theirs in zip(aspects, keys[first], keys[name]):
-            if mine != theirs:
-                raise UserError(
-                    f"contrasts '{first}' and '{name}' cannot share permutations (family all-contrasts): "
-                    f"{what} {mine} vs {theirs}; test them as separate families"
-                )
-
-
-def _family_key(design: dict) -> tuple:
-    groups = design.get("groups")
-    return (
-        SCHEMES[design["test"]],
-        int(design["n_subjects"]),
-        None if groups is None else tuple(int(g) for g in groups),
-        design.get("n_conditions"),
     )
 
 
@@ -343,42 +300,6 @@ class ExceedanceCollector:
         return {f"{self._key}.count": self._count.copy()}
 
 
-class MaxStatCollector:
-    """Per-row maximum of the oriented statistic (max |stat| when two-sided).
-
-    Parameters
-    ----------
-    tail : {"two-sided", "greater", "less"}
-    key : str
-        Prefix of the stored array: ``<key>.stat``, float32 (n_rows,), in row
-        order. NaN points are ignored.
-    """
-
-    def __init__(self, *, tail, key="max"):
-        _check_tail(tail)
-        self._tail = tail
-        self._key = key
-        self._maxima = []
-
-    def update(self, stats: np.ndarray) -> None:
-        """Keep each row's maximum."""
-        if self._tail == "greater":
-            maxima = stats.max(axis=1)
-        elif self._tail == "less":
-            maxima = -stats.min(axis=1)
-        else:
-            maxima = np.maximum(stats.max(axis=1), -stats.min(axis=1))
-        missing = np.isnan(maxima)
-        if missing.any():
-            maxima[missing] = np.fmax.reduce(_oriented(stats[missing], self._tail), axis=1)
-        self._maxima.append(maxima)
-
-    def arrays(self) -> dict[str, np.ndarray]:
-        """``{"<key>.stat": float32 (n_rows,)}``."""
-        maxima = np.concatenate(self._maxima) if self._maxima else np.empty(0, dtype=np.float32)
-        return {f"{self._key}.stat": maxima}
-
-
 def permutation_p(counts, n_rows: int) -> np.ndarray:
     """Permutation p = counts / n_rows, identity row included in counts and n_rows.
 
@@ -426,11 +347,11 @@ def _check_tail(tail) -> None:
         raise UserError(f"`tail` must be one of {', '.join(map(repr, TAILS))}, got {tail!r}")
 
 
-def _check_table_inputs(test, n, n_permutations, seed, groups, n_conditions):
+def _check_table_inputs(test, n, permutations, seed, groups, n_conditions):
     if test not in TESTS:
         raise UserError(f"`test` must be one of {', '.join(map(repr, TESTS))}, got {test!r}")
-    if int(n_permutations) != n_permutations or n_permutations < 1:
-        raise UserError(f"`n_permutations` must be a whole number of at least 1, got {n_permutations}")
+    if int(permutations) != permutations or permutations < 1:
+        raise UserError(f"`permutations` must be a whole number of at least 1, got {permutations}")
     if int(seed) != seed or seed < 0:
         raise UserError(f"`seed` must be a whole number of at least 0, got {seed}")
     if n < 3:

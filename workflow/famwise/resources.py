@@ -78,7 +78,7 @@ class StudySizes:
     n_conditions : int
         Conditions of the spec.
     n_contrasts : int
-    n_permutations : int
+    permutations : int
         Rows of the permutation table (upper bound: exact tables can be smaller).
     n_shards : int
     """
@@ -90,7 +90,7 @@ class StudySizes:
     n_map_times: int
     n_conditions: int
     n_contrasts: int
-    n_permutations: int
+    permutations: int
     n_shards: int
 
     @property
@@ -101,7 +101,7 @@ class StudySizes:
     @property
     def rows_per_shard(self) -> int:
         """Permutation-table rows of the largest shard."""
-        return -(-self.n_permutations // self.n_shards)
+        return -(-self.permutations // self.n_shards)
 
 
 @dataclass(frozen=True)
@@ -158,7 +158,7 @@ def study_sizes(plan) -> StudySizes:
         n_map_times=int((epoch_ms[1] - epoch_ms[0]) // step_ms) + 1,
         n_conditions=len(s.conditions),
         n_contrasts=len(s.contrasts),
-        n_permutations=s.inference.permutations,
+        permutations=s.inference.permutations,
         n_shards=s.inference.shards,
     )
     _CACHE[id(plan)] = (plan, sizes)
@@ -332,7 +332,7 @@ def correct_mem_mb(plan, correction: str) -> int:
     sizes = study_sizes(plan)
     family = sizes.n_contrasts if plan.study.inference.family == "all-contrasts" else 1
     maps = (48 if _spatial(plan, correction) else 32) * sizes.n_points * 8
-    null = 4 * (sizes.n_permutations + sizes.n_points) * 8
+    null = 4 * (sizes.permutations + sizes.n_points) * 8
     return _mem(family * (maps + null))
 
 
@@ -343,7 +343,7 @@ def correct_runtime_min(plan, correction: str) -> int:
     sizes = study_sizes(plan)
     family = sizes.n_contrasts if plan.study.inference.family == "all-contrasts" else 1
     per_point = 200.0 if _spatial(plan, correction) else 20.0
-    return _minutes(family * (per_point * sizes.n_points + 20.0 * sizes.n_permutations), NULL_RATE)
+    return _minutes(family * (per_point * sizes.n_points + 20.0 * sizes.permutations), NULL_RATE)
 
 
 def report_mem_mb(plan) -> int:

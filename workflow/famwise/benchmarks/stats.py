@@ -47,7 +47,7 @@ def bench_maxt_null(quick: bool) -> list[BenchRow]:
     n_reference = 3 if quick else 10
     rng = np.random.default_rng(0)
     x = rng.standard_normal((N_SUBJECTS, N_POINTS)) + 0.1
-    table = make_table("one-sample", n_subjects=N_SUBJECTS, n_permutations=n_rows - 1, seed=1)
+    table = make_table("one-sample", n_subjects=N_SUBJECTS, permutations=n_rows - 1, seed=1)
     size = f"{N_SUBJECTS} subjects x {N_POINTS:,} points x {n_rows:,} sign flips"
 
     run_shard(x[:, :100], table.rows[:2], collectors=[MaxStatCollector(tail="two-sided")], test="one-sample")

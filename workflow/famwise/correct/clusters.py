@@ -304,7 +304,7 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
         threshold_kind="cluster", maps={"cluster_id": cluster_id}, clusters=rows, null=null_max,
         settings={"threshold": float(threshold), "dims": list(dims), "cluster_stat": cluster_stat,
                   "min_neighbor_channels": int(min_neighbor_channels), "tail": tail, "alpha": float(alpha),
-                  "n_permutations": int(null_max.size)})
+                  "n_rows": int(null_max.size)})
 
 
 def _check_axes(shape, channels, freqs, times):

@@ -162,4 +162,4 @@ def tfce_inference(observed_stat, null_max, *, indptr, indices, dims=DIMS, E=0.5
         method="tfce", p_corrected=p_map, mask=p_map <= alpha, threshold=critical_value(null_max, alpha),
         threshold_kind="tfce", maps={"tfce": enhanced}, null=null_max,
         settings={"dims": list(dims), "E": float(E), "H": float(H), "step": step, "tail": tail,
-                  "alpha": float(alpha), "n_permutations": int(null_max.size)})
+                  "alpha": float(alpha), "n_rows": int(null_max.size)})
