@@ -20,3 +20,16 @@ def test_workflow_entry_is_the_packaged_rules():
     assert entry.name == "main.smk" and entry.is_file()
     includes = [line.split('"')[1] for line in entry.read_text().splitlines() if line.startswith("include:")]
     assert all((entry.parent / name).is_file() for name in includes)
+
+
+def test_every_module_imports():
+    """Catches a module left calling a name that moved (e.g. a benchmark only `famwise bench` imports)."""
+    import importlib
+    import pkgutil
+
+    import famwise
+
+    for module in pkgutil.walk_packages(famwise.__path__, "famwise."):
+        if module.name.endswith("__main__"):
+            continue
+        importlib.import_module(module.name)

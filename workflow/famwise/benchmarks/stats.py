@@ -7,7 +7,8 @@ import numpy as np
 
 from famwise.benchmarks import BenchRow
 from famwise.reference.stats import null_stats
-from famwise.resample import MaxStatCollector, make_table, run_shard
+from famwise.correct.maxstat import MaxStatCollector
+from famwise.resample import make_table, run_shard
 
 N_SUBJECTS = 24
 N_POINTS = 288_000
