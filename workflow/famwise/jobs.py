@@ -14,9 +14,11 @@ import time
 from pathlib import Path
 
 # Every rule runs single-threaded (Snakemake runs jobs side by side); a multi-threaded
-# BLAS in each of them would only fight for the same cores. Set before numpy loads.
-for _variable in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS"):
-    os.environ.setdefault(_variable, "1")
+# BLAS in each of them would only fight for the same cores. Set before numpy loads,
+# and only when run as a job: importing this module must not change the importer's threads.
+if __name__ == "__main__":
+    for _variable in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS", "NUMBA_NUM_THREADS"):
+        os.environ.setdefault(_variable, "1")
 
 import numpy as np  # noqa: E402
 
