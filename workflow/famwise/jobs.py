@@ -120,21 +120,15 @@ def run_channel_graph(args, settings: dict) -> None:
         lookup = {c.lower(): c for c in channels}
         channels = [lookup.get(name.lower(), name) for name in wanted]
     spec = settings["channels"]
-    source = spec["positions"]
-    if source.startswith("standard-"):
-        positions = montage.standard_positions(source.removeprefix("standard-"))
-    elif source == "bids":
+    source = spec["positions"].removeprefix("standard-")
+    if source == "bids":
         subject = Path(args.maps).stem.removeprefix("sub-")
-        path = bids.electrodes_file(Path(settings["bids_root"]), subject, task=settings["task"])
-        if path is None:
+        source = bids.electrodes_file(Path(settings["bids_root"]), subject, task=settings["task"])
+        if source is None:
             raise UserError(f"channels.positions: 'bids' but subject {subject} has no _electrodes.tsv")
-        positions = montage.read_positions(path)
-    else:
-        positions = montage.read_positions(Path(source))
-    positions = montage.match_channels(positions, channels)
     neighbors = spec["neighbors"]
-    graph = montage.neighbor_graph(
-        positions, method=neighbors["method"], max_distance_mm=neighbors["max_distance_mm"],
+    graph, positions = montage.channel_graph(
+        channels, positions=source, method=neighbors["method"], max_distance_mm=neighbors["max_distance_mm"],
         edges_file=Path(neighbors["edges_file"]) if neighbors["edges_file"] else None,
     )
     _say(montage.graph_summary(graph))

@@ -31,8 +31,7 @@ def identity_statistic(data: ContrastData, *, settings: dict) -> np.ndarray:
     The corrections compare every permutation with this map, so it must be the
     same bits the null's identity row gets, whatever the block or shard.
     """
-    n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
-    identity = make_table(data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups, n_conditions=n_conditions).rows[:1]
+    identity = table_for(data, settings={"permutations": 1, "seed": 0}).rows[:1]
     block = next(
         iter_null_blocks(
             data.x, identity, test=data.test, groups=data.groups, covariate=data.covariate,

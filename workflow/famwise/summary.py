@@ -57,7 +57,7 @@ def describe_plan(plan: Plan) -> str:
 
 def _graph_summary(plan: Plan) -> str:
     """The neighbor graph of the first subject's channels, when it can be built before decomposition."""
-    from famwise.montage import graph_summary, match_channels, neighbor_graph, read_positions, standard_positions
+    from famwise.montage import channel_graph, graph_summary
 
     channels = plan.first_subject_channels()
     if channels is None:
@@ -65,17 +65,14 @@ def _graph_summary(plan: Plan) -> str:
     s = plan.study.channels
     if plan.study.analysis.channels:
         channels = list(plan.study.analysis.channels)
-    if s.positions.startswith("standard-"):
-        positions = standard_positions(s.positions.removeprefix("standard-"))
-    elif s.positions == "bids":
+    if s.positions == "bids":
         return "Channel graph: from each subject's _electrodes.tsv when the run starts."
-    else:
-        positions = read_positions(plan.loaded.resolve(s.positions))
+    positions = s.positions.removeprefix("standard-") if s.positions.startswith("standard-") else plan.loaded.resolve(s.positions)
     n = s.neighbors
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        graph = neighbor_graph(
-            match_channels(positions, channels), method=n.method, max_distance_mm=n.max_distance_mm,
+        graph, _ = channel_graph(
+            channels, positions=positions, method=n.method, max_distance_mm=n.max_distance_mm,
             edges_file=plan.loaded.resolve(n.edges_file) if n.edges_file else None,
         )
     text = "Channel graph:\n" + "\n".join("  " + line for line in graph_summary(graph).splitlines())
