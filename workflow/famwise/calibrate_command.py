@@ -123,6 +123,7 @@ class _ProgressWatcher:
         self._last = -1
 
     def start(self) -> None:
+        self._report()  # the starting count, even when the run ends before the first tick
         self._thread.start()
 
     def stop(self) -> None:
