@@ -176,3 +176,18 @@ def test_injected_effect_is_found():
                                times=np.arange(16.0))
     assert result.clusters[0]["id"] == 1 and result.clusters[0]["p"] <= 0.01
     assert result.mask[2:4, 1:3, 6:9].all()
+
+
+def test_collector_takes_float32_blocks_as_their_float64_values():
+    # the null engine hands float32 blocks; the maxima equal those of the same values in float64
+    # (float32 to float64 is exact, IEEE 754-2008)
+    rng = np.random.default_rng(4)
+    graph = ring(5)
+    maps = ndimage.gaussian_filter(rng.standard_normal((9, 5, 3, 12)), (0, 0, 0.7, 1.2)).reshape(9, -1) * 6
+    single = maps.astype(np.float32)
+    threshold = 2.1
+    wide, narrow = (ClusterCollector(threshold=threshold, shape=(5, 3, 12), **graph) for _ in range(2))
+    wide.update(single.astype(np.float64))
+    narrow.update(single)
+    assert narrow.arrays()["cluster.max"].tobytes() == wide.arrays()["cluster.max"].tobytes()
+    assert (wide.arrays()["cluster.max"] > 0).all()

@@ -2,8 +2,8 @@
 
 Data: 24 subjects x 64 channels (8 x 8 triangulated grid, up to 6 neighbors
 each) x 30 frequencies x 150 times of smooth Gaussian noise with a small
-effect. famwise: sign-flip t blocks from one matrix product per block (plain
-numpy) handed to the collectors. Reference: ``famwise.reference`` (t
+effect. famwise: the permutation engine's sign-flip t blocks (float32, as in
+the pipeline's null jobs) handed to the collectors. Reference: ``famwise.reference`` (t
 recomputed per permutation, scipy.sparse.csgraph labeling), run on a subset
 of the permutations and extrapolated linearly.
 """
@@ -19,6 +19,7 @@ from famwise.correct.clusters import ClusterCollector
 from famwise.correct.tfce import TFCECollector
 from famwise.reference.clusters import cluster_null_reference
 from famwise.reference.tfce import tfce_null_reference
+from famwise.resample import iter_null_blocks
 
 N_SUBJECTS, SHAPE = 24, (64, 30, 150)
 BLOCK = 64
@@ -53,32 +54,11 @@ def _flips(n_rows, seed=1):
     return np.vstack([np.ones(N_SUBJECTS), rng.choice([-1.0, 1.0], size=(n_rows - 1, N_SUBJECTS))])
 
 
-def _t_blocks(flat, flips):
-    """One-sample t of every flip row, block by block: t = S sqrt(n-1) / sqrt(n ss - S^2), S = flips @ data.
-
-    The elementwise part runs on a few rows at a time so that it stays in cache.
-    """
-    n = flat.shape[0]
-    n_ss = n * np.einsum("ij,ij->j", flat, flat)
-    scratch = np.empty((4, flat.shape[1]))
-    for start in range(0, len(flips), BLOCK):
-        block = flips[start:start + BLOCK] @ flat
-        for sub in range(0, len(block), 4):
-            s = block[sub:sub + 4]
-            tmp = scratch[:len(s)]
-            np.multiply(s, s, out=tmp)
-            np.subtract(n_ss, tmp, out=tmp)
-            np.sqrt(tmp, out=tmp)
-            tmp *= 1 / np.sqrt(n - 1)
-            np.divide(s, tmp, out=s)
-        yield block
-
-
 def _run(collector, flat, flips):
     """Feed all t blocks to the collector; returns (total s, t-block s, collector s)."""
     t_time = k_time = 0.0
     start = time.perf_counter()
-    blocks = _t_blocks(flat, flips)
+    blocks = iter_null_blocks(flat, flips.astype(np.int8), test="one-sample", block_size=BLOCK, reuse_output=True)
     while True:
         t0 = time.perf_counter()
         block = next(blocks, None)
@@ -104,7 +84,8 @@ def bench_clusters(quick: bool) -> list[BenchRow]:
     threshold = float(stats.t.isf(0.005, N_SUBJECTS - 1))  # forming p 0.01 two-sided
     settings = dict(threshold=threshold, indptr=indptr, indices=indices)
     warm = ClusterCollector(shape=SHAPE, **settings)
-    warm.update(flat[:2])  # compile / load the kernel outside the timing
+    warm.update(flat[:2].astype(np.float32))  # compile / load the kernels outside the timing
+    next(iter_null_blocks(flat[:, :100], _flips(2).astype(np.int8), test="one-sample"))
     total, t_time, k_time = _run(ClusterCollector(shape=SHAPE, **settings), flat, _flips(n_perm))
     start = time.perf_counter()
     cluster_null_reference(data, _flips(n_ref), **settings)
@@ -120,7 +101,7 @@ def bench_clusters(quick: bool) -> list[BenchRow]:
     reference = (time.perf_counter() - start) / n_ref * n_perm
     for label, step in (("exact", None), ("fixed-step 0.1", 0.1)):
         warm = TFCECollector(shape=SHAPE, indptr=indptr, indices=indices, step=step)
-        warm.update(flat[:2])
+        warm.update(flat[:2].astype(np.float32))
         collector = TFCECollector(shape=SHAPE, indptr=indptr, indices=indices, step=step)
         total, t_time, k_time = _run(collector, flat, _flips(n_perm))
         rows.append(_row(f"TFCE null, famwise {label} vs reference fixed-step 0.1",

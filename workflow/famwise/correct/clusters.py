@@ -183,8 +183,10 @@ class ClusterCollector:
         self._workspace = None
 
     def update(self, stats):
-        """Take the statistic maps (n_rows_in_block, n_points) of consecutive table rows."""
-        stats = np.ascontiguousarray(stats, dtype=np.float64)
+        """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
+        stats = np.ascontiguousarray(stats)
+        if stats.dtype not in (np.float32, np.float64):
+            stats = stats.astype(np.float64)
         n_pts = math.prod(self._shape)
         if stats.ndim != 2 or stats.shape[1] != n_pts:
             raise ValueError(f"expected a block of shape (rows, {n_pts}), got {stats.shape}")
