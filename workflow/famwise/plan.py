@@ -365,8 +365,9 @@ class Plan:
                 files.append(f"contrasts/{contrast.name}/{c.label}/result.npz")
         return files
 
-    def cluster_labels(self) -> list[str]:
-        return [c.label for c in self.study.inference.corrections if c.method == "cluster"]
+    def labels_with_cluster_table(self) -> list[str]:
+        """Corrections that also write clusters.tsv: cluster inference and TFCE (its significant regions)."""
+        return [c.label for c in self.study.inference.corrections if c.method in ("cluster", "tfce")]
 
     def final_files(self) -> list[str]:
         """Every file ``rule all`` asks for."""

@@ -11,7 +11,8 @@ rule correct_points:
     params:
         settings=correction_settings,
     wildcard_constraints:
-        correction=_alternatives([c.label for c in PLAN.study.inference.corrections if c.method != "cluster"]),
+        correction=_alternatives([c.label for c in PLAN.study.inference.corrections
+                                  if c.label not in PLAN.labels_with_cluster_table()]),
     resources:
         mem_mb=correct_mem_mb,
         runtime=correct_runtime,
@@ -31,7 +32,7 @@ rule correct_clusters:
     params:
         settings=correction_settings,
     wildcard_constraints:
-        correction=_alternatives(PLAN.cluster_labels()),
+        correction=_alternatives(PLAN.labels_with_cluster_table()),
     resources:
         mem_mb=correct_mem_mb,
         runtime=correct_runtime,

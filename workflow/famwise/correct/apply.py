@@ -6,6 +6,7 @@ cluster and TFCE nulls take the largest value over contrasts per permutation
 (all contrasts share the permutation table).
 """
 
+import dataclasses
 import json
 from pathlib import Path
 
@@ -120,10 +121,17 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
         else:
             from famwise.correct import tfce
 
+            from famwise.correct.regions import significant_regions
+
             result = tfce.tfce_inference(
                 mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction["E"], H=correction["H"],
                 step=correction["step"], tail=tail, alpha=alpha,
             )
+            region_id, rows = significant_regions(
+                result.maps["tfce"], result.p_corrected, result.mask, mine["stat"], indptr=indptr, indices=indices,
+                dims=dims, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
+            )
+            result = dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
     else:
         raise ValueError(f"unknown correction method {method!r}")
     return result, shape
@@ -140,7 +148,7 @@ def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionR
 
 
 def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings: dict) -> None:
-    """Write ``result.npz`` (and ``clusters.tsv`` + sidecar for cluster methods) atomically."""
+    """Write ``result.npz`` (and ``clusters.tsv`` + sidecar for cluster and TFCE results) atomically."""
     arrays = {
         "p_corrected": np.asarray(result.p_corrected, dtype=np.float64).reshape(shape),
         "mask": np.asarray(result.mask, dtype=bool).reshape(shape),
@@ -158,4 +166,8 @@ def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings:
         from famwise.correct import clusters
 
         clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters)
+    elif settings["correction"]["method"] == "tfce":
+        from famwise.correct import clusters, regions
+
+        clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters, sidecar=regions.REGION_SIDECAR)
     save_npz(path, **arrays)

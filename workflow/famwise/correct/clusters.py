@@ -297,7 +297,7 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
     order = np.argsort(flat_id, kind="stable")  # points grouped by cluster, in memory order within each
     starts = np.searchsorted(flat_id[order], ids, side="left")
     stops = np.searchsorted(flat_id[order], ids, side="right")
-    rows = [_describe(i, statistics[i], p, np.unravel_index(order[start:stop], cluster_id.shape), observed_stat,
+    rows = [cluster_row(i, statistics[i], p, np.unravel_index(order[start:stop], cluster_id.shape), observed_stat,
                       channels, freqs, times)
             for i, p, start, stop in zip(ids.tolist(), p_values.tolist(), starts, stops)]
     rows.sort(key=lambda row: (row["p"], -row["statistic"], row["id"] < 0, abs(row["id"])))
@@ -315,8 +315,12 @@ def _check_axes(shape, channels, freqs, times):
                          f"{len(freqs)} frequencies and {len(times)} times")
 
 
-def _describe(cluster, statistic, p, where, stat, channels, freqs, times):
-    """One row of the cluster table; ``where`` = (channel, freq, time) index arrays of its points."""
+def cluster_row(cluster, statistic, p, where, stat, channels, freqs, times):
+    """One row of the cluster table (keys ``CLUSTER_COLUMNS``).
+
+    ``where`` = (channel, freq, time) index arrays of the cluster's points in
+    ``stat`` (n_channels, n_freqs, n_times); ``freqs`` in Hz, ``times`` in s.
+    """
     values = stat[where]
     peak = int(np.argmax(np.abs(values)))
     freqs, times = np.asarray(freqs, dtype=float), np.asarray(times, dtype=float)
@@ -340,7 +344,7 @@ def _hz(value) -> float:
     return round(float(value), 6)
 
 
-def write_cluster_table(path_tsv, clusters):
+def write_cluster_table(path_tsv, clusters, *, sidecar=CLUSTER_SIDECAR):
     """Write the cluster table as TSV with a JSON sidecar (same stem, ``.json``) describing each column.
 
     Parameters
@@ -349,6 +353,8 @@ def write_cluster_table(path_tsv, clusters):
         Output ``.tsv`` path; both files are written atomically.
     clusters : list of dict
         Rows with the keys ``CLUSTER_COLUMNS`` (as ``cluster_inference`` gives them).
+    sidecar : dict
+        Column descriptions (``CLUSTER_SIDECAR``, or the TFCE regions' own).
     """
     path_tsv = os.fspath(path_tsv)
     lines = ["\t".join(CLUSTER_COLUMNS)]
@@ -356,7 +362,7 @@ def write_cluster_table(path_tsv, clusters):
         lines.append("\t".join(_format_cell(row[name]) for name in CLUSTER_COLUMNS))
     write_text(path_tsv, "\n".join(lines) + "\n")
     stem = path_tsv[:-4] if path_tsv.endswith(".tsv") else path_tsv
-    write_text(stem + ".json", json.dumps(CLUSTER_SIDECAR, indent=2) + "\n")
+    write_text(stem + ".json", json.dumps(sidecar, indent=2) + "\n")
 
 
 def _format_cell(value):

@@ -210,6 +210,7 @@ def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: 
         Unit of the effect map.
     """
     points = cluster_points(correction, contrast, row)
+    noun = "region" if correction.threshold_kind == "tfce" else "cluster"  # TFCE: connected significant points
     names = [c for c in str(row["channels"]).split(",") if c]
     members = np.array([c in set(names) for c in contrast.channels])
     if not members.any():
@@ -217,21 +218,21 @@ def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: 
     times_ms = contrast.times * 1000.0
     figure, (tf_ax, scalp_ax, course_ax) = plt.subplots(
         1, 3, figsize=(11.5, 3.0), layout="constrained", width_ratios=[1.25, 1.0, 1.1])
-    figure.suptitle(f"{contrast.name} · {correction.name} · cluster {row['id']} "
+    figure.suptitle(f"{contrast.name} · {correction.name} · {noun} {row['id']} "
                     f"(p = {float(row['p']):.4g}, {int(row['n_points'])} points, "
                     f"{members.sum()} channels)", x=0.01, ha="left", fontsize=9, fontweight="bold")
     mean_effect = contrast.effect[members].mean(axis=0)
     limit = symmetric_limit(mean_effect)
     image = tf_image(tf_ax, mean_effect, contrast.freqs, times_ms, limit=limit)
     outline(tf_ax, points.any(axis=0), times_ms)
-    tf_ax.set_title("effect averaged over the cluster's channels", fontsize=8, fontweight="normal")
+    tf_ax.set_title(f"effect averaged over the {noun}'s channels", fontsize=8, fontweight="normal")
     figure.colorbar(image, ax=tf_ax, label=f"effect ({unit})", shrink=0.9)
     f_index = int(np.argmin(np.abs(contrast.freqs - float(row["peak_freq_hz"]))))
     t_index = int(np.argmin(np.abs(times_ms - float(row["peak_time_ms"]))))
     scalp = contrast.effect[:, f_index, t_index]
     shown = topography(scalp_ax, scalp, flat, limit=symmetric_limit(scalp), marked=members)
     scalp_ax.set_title(f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, "
-                       f"{times_ms[t_index]:.0f} ms\n(circles: cluster channels)",
+                       f"{times_ms[t_index]:.0f} ms\n(circles: {noun} channels)",
                        fontsize=8, fontweight="normal")
     figure.colorbar(shown, ax=scalp_ax, label=f"effect ({unit})", shrink=0.8)
     rows_in = points.any(axis=(0, 2))
@@ -241,8 +242,8 @@ def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: 
                       lw=0)
     course_ax.plot(times_ms, course, color=ACCENT, lw=1.3)
     band = contrast.freqs[rows_in]
-    course_ax.set_title(f"time course, {band.min():.3g}-{band.max():.3g} Hz, cluster channels\n"
-                        "(shaded: the cluster's time span)", fontsize=8, fontweight="normal")
+    course_ax.set_title(f"time course, {band.min():.3g}-{band.max():.3g} Hz, {noun} channels\n"
+                        f"(shaded: the {noun}'s time span)", fontsize=8, fontweight="normal")
     course_ax.set_xlabel("time (ms)")
     course_ax.set_ylabel(f"effect ({unit})")
     return figure

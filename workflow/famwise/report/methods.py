@@ -272,7 +272,8 @@ def _correction(contrast: Contrast, correction: Correction, entry: dict) -> str:
                 "cluster": "critical cluster statistic", "tfce": "critical TFCE value"}
         text += f" ({what.get(correction.threshold_kind, 'threshold')} {fmt(correction.threshold)})"
     if correction.clusters:
-        text += f", in {len(correction.clusters)} clusters"
+        noun = "connected regions" if correction.threshold_kind == "tfce" else "clusters"
+        text += f", in {len(correction.clusters)} {noun}"
     return text + "."
 
 

@@ -234,34 +234,35 @@ def cluster_block(contrast: Contrast, correction: Correction, spec: dict, study:
     rows = [[row[c] for c in columns] for row in shown]
     classes = ["significant" if float(row["p"]) <= alpha else "" for row in shown]
     ident = anchor(contrast.name, correction.name, "clusters")
-    html = (f"<h4>Clusters: {len(significant)} of {len(correction.clusters)} with p ≤ "
+    noun = "region" if correction.threshold_kind == "tfce" else "cluster"  # TFCE: connected significant points
+    html = (f"<h4>{noun.capitalize()}s: {len(significant)} of {len(correction.clusters)} with p ≤ "
             f"{fmt(alpha)} (bold)</h4>"
             + table(columns, rows, titles=titles, row_classes=classes,
                     table_class=f"clusters {ident}"))
     if len(others) > _OTHER_CLUSTERS:
-        html += (f"<p>{len(others) - _OTHER_CLUSTERS} smaller clusters with p &gt; {fmt(alpha)} "
-                 f"are not shown; every cluster is in contrasts/{esc(contrast.name)}/"
+        html += (f"<p>{len(others) - _OTHER_CLUSTERS} smaller {noun}s with p &gt; {fmt(alpha)} "
+                 f"are not shown; every {noun} is in contrasts/{esc(contrast.name)}/"
                  f"{esc(correction.name)}/clusters.tsv.</p>")
     unit = figures.effect_unit(study)
     for row in correction.clusters:
         if float(row["p"]) > alpha or flat is None:
             continue
         positive = str(row.get("sign", "+")).strip().lower() not in {"-", "negative", "-1"}
-        words = (f"<b>Cluster {esc(row['id'])}</b> ({esc(direction(spec, positive))}), p = "
+        words = (f"<b>{noun.capitalize()} {esc(row['id'])}</b> ({esc(direction(spec, positive))}), p = "
                  f"{fmt(float(row['p']))}: roughly {fmt(row['time_start_ms'])} to "
                  f"{fmt(row['time_end_ms'])} ms, {fmt(row['freq_low_hz'])} to "
                  f"{fmt(row['freq_high_hz'])} Hz, {len(str(row['channels']).split(','))} channels; "
                  f"peak {figures.stat_label(contrast)} = {fmt(row['peak_stat'])} at "
                  f"{esc(row['peak_channel'])}, {fmt(row['peak_freq_hz'])} Hz, "
-                 f"{fmt(row['peak_time_ms'])} ms. Left: effect over the cluster's channels, cluster "
-                 "outlined; middle: scalp map at the peak; right: time course over the cluster's "
+                 f"{fmt(row['peak_time_ms'])} ms. Left: effect over the {noun}'s channels, {noun} "
+                 f"outlined; middle: scalp map at the peak; right: time course over the {noun}'s "
                  "channels and frequencies.")
         with figure_style():
             fig = figures.cluster_figure(contrast, correction, row, flat, unit=unit)
         number = int(row["id"])
         label = f"{'neg' if number < 0 or not positive else 'pos'}{abs(number)}"
         stem = f"{anchor(contrast.name)}__{anchor(correction.name)}__cluster-{label}"
-        html += write(fig, stem, caption=words, alt=f"cluster {row['id']} of {correction.name}")
+        html += write(fig, stem, caption=words, alt=f"{noun} {row['id']} of {correction.name}")
     return html
 
 
