@@ -233,8 +233,13 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
         save_npz(tmp_path / f"chunk-{k}.npz", **calibration_chunk(tmp_path / "subjects.npz", None, chunk=k, settings=settings))
         files.append(tmp_path / f"chunk-{k}.npz")
     out = tmp_path / "output" / "calibration" / "c1.tsv"
-    assert calibration_section_html(tmp_path / "output") is None
-    rows = summarize(files, out, settings=settings)
+    contrast = tmp_path / "output" / "contrasts" / "c1"
+    contrast.mkdir(parents=True)
+    _contrast(_smooth_maps(np.random.default_rng(6), 8)).save(contrast / "subjects.npz")  # the same maps
+    save_npz(contrast / "observed.npz", stat=np.arange(6.0))
+    current = {"c1": settings["corrections"]}
+    assert calibration_section_html(tmp_path / "output", current) is None
+    rows = summarize(files, out, settings=settings, subjects=contrast / "subjects.npz", observed=contrast / "observed.npz")
     table = read_table(out)
     assert [r["correction"] for r in table] == ["uncorrected", "bonferroni", "fdr-bh", "max-stat"]
     assert [r["nominal"] for r in table] == [0.05, 0.05, 0.1, 0.05]
@@ -249,9 +254,18 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
     assert set(sidecar) >= {"fwer", "fwer_ci_low", "mean_fdp", "nominal"}
     assert out.with_suffix(".png").read_bytes()[:4] == b"\x89PNG"
     assert out.with_suffix(".svg").is_file()
-    section = calibration_section_html(tmp_path / "output")
+    section = calibration_section_html(tmp_path / "output", current)
     assert "<table" in section and "data:image/png;base64," in section
     assert "15 permutations" in section and "fdr-bh" in section
+    stale = "computed before the latest change"
+    assert stale not in section
+    # rewritten with the same contents (a rerun): still current
+    save_npz(contrast / "observed.npz", stat=np.arange(6.0))
+    assert stale not in calibration_section_html(tmp_path / "output", current)
+    # other statistics, or other corrections, than the calibration saw: the report says so
+    assert stale in calibration_section_html(tmp_path / "output", {"c1": settings["corrections"][:2]})
+    save_npz(contrast / "observed.npz", stat=np.arange(6.0) + 1)
+    assert stale in calibration_section_html(tmp_path / "output", current)
 
 
 def test_merge_refuses_missing_datasets(tmp_path):
@@ -295,4 +309,5 @@ def test_summarize_refuses_chunks_from_other_settings(tmp_path):
     old = _settings(plan, datasets=2, chunks=1)
     save_npz(tmp_path / "chunk-0.npz", **calibration_chunk(tmp_path / "subjects.npz", None, chunk=0, settings=old))
     with pytest.raises(UserError, match=r"chunk-0.npz was computed with other calibration settings; delete it and rerun"):
-        summarize([tmp_path / "chunk-0.npz"], tmp_path / "c1.tsv", settings=_settings(plan, datasets=2, chunks=1, permutations=7))
+        summarize([tmp_path / "chunk-0.npz"], tmp_path / "c1.tsv", settings=_settings(plan, datasets=2, chunks=1, permutations=7),
+                  subjects=tmp_path / "subjects.npz", observed=tmp_path / "observed.npz")

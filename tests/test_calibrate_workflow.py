@@ -1,15 +1,8 @@
-"""famwise calibrate through Snakemake: chunks as jobs, resume, the command's output.
-
-Until the lead wires the command (``include: "calibrate.smk"`` in main.smk and
-``calibrate_command.add_parser`` in cli.py), the fixture runs the rules from a
-copy of the packaged rules folder with the include added; the last test needs
-the wiring itself.
-"""
+"""famwise calibrate through Snakemake: chunks as jobs, resume, the command's output, the report's section."""
 
 import argparse
 import contextlib
 import io
-import shutil
 
 import pytest
 
@@ -41,17 +34,8 @@ def _calibrate(spec, options=OPTIONS):
 @pytest.fixture(scope="module")
 def calibrated(tmp_path_factory):
     root = tmp_path_factory.mktemp("calibrate")
-    rules = root / "rules"
-    shutil.copytree(famwise.cli.workflow_entry().parent, rules)
-    main = rules / "main.smk"
-    text = main.read_text()
-    if 'include: "calibrate.smk"' not in text:
-        main.write_text(text.replace('include: "report.smk"', 'include: "report.smk"\ninclude: "calibrate.smk"'))
     spec = write_tiny_study(root / "study", n_subjects=4, permutations=31, corrections=CORRECTIONS)
-    with pytest.MonkeyPatch.context() as patch:
-        patch.setattr(famwise.cli, "workflow_entry", lambda: main)
-        first = _calibrate(spec)
-        yield spec, first, lambda: _calibrate(spec)
+    yield spec, _calibrate(spec), lambda: _calibrate(spec)
 
 
 def test_calibrate_writes_table_figure_and_prints_it(calibrated):
@@ -94,11 +78,21 @@ def test_bad_option_is_a_user_error_before_snakemake(calibrated):
         _calibrate(spec, ["--datasets", "3", "--chunks", "5"])
 
 
-# WIRING: passes once cli.py adds the subcommand (calibrate_command.add_parser) and
-# workflow/rules/main.smk has `include: "calibrate.smk"`.
 def test_famwise_calibrate_command_is_wired(calibrated, capsys):
     spec, _, _ = calibrated
     code = famwise.cli.main(["calibrate", str(spec), *OPTIONS])
     out = capsys.readouterr().out
     assert code == 0
     assert "high-vs-low" in out and "bonferroni" in out
+
+
+def test_report_flags_a_calibration_that_no_longer_matches(calibrated):
+    spec, _, _ = calibrated
+    report = spec.parent / "results" / "report" / "index.html"
+    stale = "computed before the latest change"
+    assert famwise.cli.main(["run", str(spec), "--cores", "2"]) == 0
+    text = report.read_text()
+    assert "Error-rate calibration" in text and stale not in text
+    spec.write_text(spec.read_text().replace("alpha: 0.05", "alpha: 0.01"))
+    assert famwise.cli.main(["run", str(spec), "--cores", "2"]) == 0
+    assert stale in report.read_text()

@@ -39,7 +39,9 @@ rule calibrate_chunk:
 
 rule calibrate_table:
     input:
-        calibration_chunk_files,
+        chunks=calibration_chunk_files,
+        subjects="contrasts/{contrast}/subjects.npz",
+        observed="contrasts/{contrast}/observed.npz",
     output:
         table="calibration/{contrast}.tsv",
         sidecar="calibration/{contrast}.json",
@@ -50,4 +52,5 @@ rule calibrate_table:
     params:
         settings=calibration_settings,
     shell:
-        "{CALIBRATE} table --settings {params.settings:q} --out {output.table} {input} > {log} 2>&1"
+        "{CALIBRATE} table --settings {params.settings:q} --subjects {input.subjects} --observed {input.observed} "
+        "--out {output.table} {input.chunks} > {log} 2>&1"

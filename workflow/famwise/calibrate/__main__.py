@@ -24,7 +24,8 @@ def _parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(prog="python -m famwise.calibrate", description=__doc__)
     parser.add_argument("step", choices=("chunk", "table"))
     parser.add_argument("--settings", required=True, help="the calibration settings as JSON")
-    parser.add_argument("--subjects", help="contrasts/<c>/subjects.npz (chunk)")
+    parser.add_argument("--subjects", help="contrasts/<c>/subjects.npz (chunk, table)")
+    parser.add_argument("--observed", help="contrasts/<c>/observed.npz (table)")
     parser.add_argument("--graph", default="", help="channels/graph.npz (chunk; empty for none)")
     parser.add_argument("--chunk", type=int, help="chunk index (chunk)")
     parser.add_argument("--out", required=True, help="chunk file (chunk) or TSV (table)")
@@ -45,7 +46,8 @@ def main(argv: list[str] | None = None) -> int:
         else:
             from famwise.calibrate.table import summarize
 
-            rows = summarize([Path(p) for p in args.inputs], Path(args.out), settings=settings)
+            rows = summarize([Path(p) for p in args.inputs], Path(args.out), settings=settings,
+                             subjects=Path(args.subjects), observed=Path(args.observed))
             for row in rows:
                 _say(f"{settings['contrast']}: {row.correction}: FWER {row.fwer:.3f} "
                      f"[{row.fwer_ci_low:.3f}, {row.fwer_ci_high:.3f}] (nominal {row.nominal:g})")

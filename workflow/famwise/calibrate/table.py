@@ -15,6 +15,7 @@ illustrated in the case of the binomial. Biometrika 26(4):404-413.
 """
 
 import csv
+import hashlib
 import json
 from dataclasses import dataclass
 from pathlib import Path
@@ -118,8 +119,9 @@ def calibration_rows(merged: dict[str, np.ndarray], *, settings: dict, table_row
     return rows
 
 
-def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table_rows: int | None) -> None:
-    """``<contrast>.tsv`` and its JSON sidecar (columns, and the run's settings)."""
+def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table_rows: int | None,
+                basis: dict) -> None:
+    """``<contrast>.tsv`` and its JSON sidecar (columns, the run's settings and its ``calibration_basis``)."""
     lines = ["\t".join(COLUMNS)]
     for row in rows:
         values = [getattr(row, c) for c in COLUMNS]
@@ -141,6 +143,7 @@ def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table
         "null_datasets": "subjects' own maps with random sign flips (one-sample, paired), shuffled subject order "
                          "against fixed labels or covariate (two-sample, correlation), or conditions shuffled within "
                          "subject (repeated measures)",
+        "basis": basis,
     }
     write_json(path.with_suffix(".json"), sidecar)
 
@@ -156,7 +159,7 @@ def read_table(path: Path) -> list[dict]:
     return rows
 
 
-def summarize(chunk_files: list[Path], out: Path, *, settings: dict) -> list[CalibrationRow]:
+def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: Path, observed: Path) -> list[CalibrationRow]:
     """Merge the chunk files and write ``<contrast>.tsv``, ``.json``, ``.png`` and ``.svg``.
 
     Parameters
@@ -167,6 +170,10 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict) -> list[Cal
         The TSV to write; the others are written beside it.
     settings : dict
         The calibration settings.
+    subjects, observed : path
+        The contrast's ``subjects.npz`` and ``observed.npz``: their contents'
+        fingerprints go into the sidecar, so that the report can tell when
+        the calibration no longer matches the results.
     """
     chunks = []
     for path in chunk_files:
@@ -178,7 +185,8 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict) -> list[Cal
     table_rows = int(chunks[0]["table_rows"]) or None
     rows = calibration_rows(merged, settings=settings, table_rows=table_rows)
     out = Path(out)
-    write_table(out, rows, settings=settings, table_rows=table_rows)
+    basis = calibration_basis(Path(subjects).parent, settings["corrections"])
+    write_table(out, rows, settings=settings, table_rows=table_rows, basis=basis)
     calibration_figure(read_table(out), contrast=settings["contrast"], folder=out.parent, stem=out.stem)
     return rows
 
@@ -219,10 +227,14 @@ def calibration_figure(rows: list[dict], *, contrast: str, folder: Path, stem: s
         return save_figure(figure, folder, stem)
 
 
-def calibration_section_html(output_dir: Path) -> str | None:
+def calibration_section_html(output_dir: Path, corrections: dict[str, list[dict]]) -> str | None:
     """Report section: every contrast's calibration table and figure, or None when none has been run.
 
-    Reads ``<output>/calibration/<contrast>.tsv`` (+ .json, .png); recomputes nothing.
+    Reads ``<output>/calibration/<contrast>.tsv`` (+ .json, .png); recomputes
+    nothing. ``corrections`` maps each contrast to the settings of its
+    current correction results (the ``settings`` of their ``result.npz``); a
+    table whose ``calibration_basis`` differs from the current one gets a
+    warning that it describes earlier data or corrections.
     """
     from famwise.report.html import anchor, esc, figure, note, table
 
@@ -245,6 +257,12 @@ def calibration_section_html(output_dir: Path) -> str | None:
                   for k, v in row.items()] for row in rows]
         classes = ["significant" if r["method"] != UNCORRECTED and r["fwer_ci_low"] > r["nominal"] else "" for r in rows]
         parts.append(f'<h3 id="{anchor("calibration", contrast)}">{esc(contrast)}</h3>')
+        recorded = info.get("basis")
+        current = calibration_basis(Path(output_dir) / "contrasts" / contrast, corrections.get(contrast, []))
+        if recorded != current:
+            parts.append(note("This calibration was computed before the latest change to this contrast's data or "
+                              "corrections, so it may not describe the results above: run famwise calibrate "
+                              "again.", warning=True))
         if info.get("permutations_reduced"):
             parts.append(note(f"Each null dataset was tested with {info['permutations']} permutations "
                               f"(the study uses {info['study_permutations']}).", warning=True))
@@ -256,3 +274,27 @@ def calibration_section_html(output_dir: Path) -> str | None:
                                 link=f"../calibration/{contrast}.svg"))
     parts.append("</section>")
     return "".join(parts)
+
+
+def calibration_basis(contrast_folder: Path, corrections: list[dict]) -> dict:
+    """What a calibration describes: the contents of the contrast's subject maps and observed statistics
+    (SHA-256 over every array's name, dtype, shape and bytes) and each correction's method settings,
+    alpha and tail. Missing files give None."""
+    return {
+        "subjects_sha256": _arrays_sha256(contrast_folder / "subjects.npz"),
+        "observed_sha256": _arrays_sha256(contrast_folder / "observed.npz"),
+        "corrections": [{key: c[key] for key in ("correction", "alpha", "tail", "forming") if key in c}
+                        for c in corrections],
+    }
+
+
+def _arrays_sha256(path: Path) -> str | None:
+    if not path.is_file():
+        return None
+    digest = hashlib.sha256()
+    with np.load(path, allow_pickle=False) as archive:
+        for name in sorted(archive.files):
+            values = np.ascontiguousarray(archive[name])
+            digest.update(f"{name}|{values.dtype.str}|{values.shape}|".encode())
+            digest.update(values.tobytes())
+    return digest.hexdigest()

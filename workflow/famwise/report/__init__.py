@@ -59,7 +59,8 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     write = FigureWriter(folder / "figures")
     body = [study_section(run, spec_text), subjects_section(run), graph_section(run, write)]
     body += [contrast_section(run, contrast, write) for contrast in run.contrasts]
-    calibration = calibration_section_html(output_dir)
+    calibration = calibration_section_html(output_dir, {c.name: [x.settings for x in c.corrections]
+                                                        for c in run.contrasts})
     if calibration:
         body.append(calibration)
     methods = methods_from_run(run)
