@@ -181,7 +181,7 @@ def test_recording_and_channel_errors(tmp_path):
     _write(tmp_path)
     eeg = tmp_path / "sub-01" / "eeg"
     (eeg / "sub-01_task-rest_eeg.edf").write_bytes((eeg / "sub-01_task-view_eeg.edf").read_bytes())
-    with pytest.raises(UserError, match=r"subject 01: several EEG recordings, set the task"):
+    with pytest.raises(UserError, match=r"subject 01: several EEG recordings of different tasks, set the task"):
         _read(tmp_path, task=None)
     (eeg / "sub-01_task-rest_eeg.edf").write_bytes(b"garbage")
     (eeg / "sub-01_task-rest_events.tsv").write_text("onset\ttrial_type\n2.0\tface\n")
@@ -233,3 +233,31 @@ def test_more_file_errors(tmp_path):
     with pytest.raises(UserError, match=r"subject 02: cannot write .*sub-02_task-view_eeg.edf"):
         bids.write_subject(tmp_path, "02", data=np.zeros((1, 500)), sfreq=FS,
                            channels=["a-very-long-channel-name"], events=[], task="view")
+
+
+def test_runs_of_one_task_are_pooled_on_their_common_good_channels(tmp_path):
+    # BIDS 1.9 file naming sub-<label>_task-<label>_run-<index>_eeg.<ext> (BIDS-EEG: Pernet et al. 2019)
+    first, first_events = _write(tmp_path, events=_events({"face": 4, "house": 2}), run=1)
+    second, second_events = _write(tmp_path, data=_recording(seed=5), events=_events({"face": 3, "house": 5}),
+                                   run=2, bad_channels=["Oz"])
+    with pytest.warns(FamwiseWarning, match=r"channels \['Oz'\] are not good in every recording"):
+        epochs = _read(tmp_path)
+    assert epochs.channels == ("Fz", "Cz", "Pz")
+    assert list(epochs.labels) == [label for *_, label in first_events + second_events]
+    alone = [_read_single(tmp_path, run) for run in (1, 2)]
+    np.testing.assert_array_equal(epochs.data, np.concatenate([alone[0].data[:, :3], alone[1].data]))
+    assert bids.read_channel_names(tmp_path, "01", task="view") == ["Fz", "Cz", "Pz"]
+
+
+def _read_single(root, run):
+    """One run read alone: the other run's files moved away for the call."""
+    eeg = root / "sub-01" / "eeg"
+    other = 2 if run == 1 else 1
+    hidden = root / "hidden"
+    hidden.mkdir(exist_ok=True)
+    moved = [path.rename(hidden / path.name) for path in eeg.glob(f"*_run-{other}_*")]
+    try:
+        return _read(root)
+    finally:
+        for path in moved:
+            path.rename(eeg / path.name)

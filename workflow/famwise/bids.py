@@ -1,11 +1,13 @@
 """BIDS-EEG input and output: EDF/BDF recordings with their events, channels and participants.
 
-Reading: the recording ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>_eeg.edf|.bdf``
+Reading: the recordings ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>[_run-<n>]_eeg.edf|.bdf``
 (read with edfio), ``_channels.tsv`` (EEG channels not marked bad are kept),
 ``_events.tsv`` (``onset`` in s and ``trial_type``) and ``participants.tsv``.
 Epochs are cut around each event with the epoch window; each epoch has its
-mean removed per channel (EDF/BDF recordings often carry large DC offsets),
-then an optional average reference and peak-to-peak rejection apply.
+mean removed per channel (EDF/BDF recordings often carry large DC offsets).
+A subject's runs and sessions of the task are pooled, on the channels good in
+all of them; then an optional average reference and peak-to-peak rejection
+apply.
 
 Writing (used by ``famwise demo`` and the tests): EDF or BDF in microvolts,
 events, channels, sidecar JSON, optional electrodes, participants and
@@ -63,18 +65,21 @@ def electrodes_file(root: Path, subject: str, *, task: str | None = None) -> Pat
 
 
 def read_channel_names(root: Path, subject: str, *, task: str | None = None) -> list[str]:
-    """Names of the channels `read_subject` keeps (EEG, not bad), read from the headers only.
+    """Names of the channels `read_subject` keeps (EEG, good in every run), read from the headers only.
 
     Raises
     ------
     UserError
         As `read_subject` for a missing or unreadable recording or channels file.
     """
-    recording = _find_recording(Path(root), subject, task)
-    stem = recording.name.rsplit("_eeg.", 1)[0]
-    table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
-    edf = _open_recording(recording, subject)
-    return [signal.label for signal in _kept_signals(edf, table, recording, subject)]
+    recordings = _find_recordings(Path(root), subject, task)
+    kept = []
+    for recording in recordings:
+        stem = recording.name.rsplit("_eeg.", 1)[0]
+        table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
+        edf = _open_recording(recording, subject)
+        kept.append([signal.label for signal in _kept_signals(edf, table, recording, subject)])
+    return [c for c in kept[0] if all(c in other for other in kept[1:])]
 
 
 def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float],
@@ -89,7 +94,10 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
     subject : str
         Subject id without ``sub-``.
     task : str or None
-        Task label; None when the subject has a single recording.
+        Task label; None when the subject's recordings all belong to one task.
+        Several recordings of the task (runs, sessions) are pooled: their
+        epochs are concatenated in session and run order, on the channels
+        good in every recording (a warning names the others).
     window_ms : (float, float)
         Epoch window around each event onset in ms, e.g. (-500, 1500); both
         ends are rounded to the nearest sample and included.
@@ -121,7 +129,39 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
     if not start_ms < stop_ms:
         raise UserError(f"subject {subject}: epoch window must run forward, got {start_ms:g} to "
                         f"{stop_ms:g} ms")
-    recording = _find_recording(Path(root), subject, task)
+    recordings = _find_recordings(Path(root), subject, task)
+    runs = [_cut_epochs(path, subject, window_ms, labels) for path in recordings]
+    channels = _common_channels(runs, recordings, subject)
+    sfreqs = {run[1] for run in runs}
+    if len(sfreqs) > 1:
+        raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} have different "
+                        f"sampling rates {sorted(sfreqs)} Hz")
+    data = np.concatenate([data[:, [names.index(c) for c in channels]] for data, _, _, names, _ in runs])
+    names = np.concatenate([labels_of_run for *_, labels_of_run in runs])
+    sfreq, first_offset = runs[0][1], runs[0][2]
+    if reference == "average":
+        data -= data.mean(axis=1, keepdims=True)
+
+    keep = np.ones(len(names), dtype=bool)
+    if reject_peak_to_peak_uv is not None:
+        peak_to_peak = np.ptp(data, axis=-1).max(axis=-1)
+        keep = peak_to_peak <= reject_peak_to_peak_uv * 1e-6
+        if not keep.any():
+            raise UserError(f"subject {subject}: all {keep.size} epochs exceed the peak-to-peak "
+                            f"limit of {reject_peak_to_peak_uv:g} µV in {_listing(recordings)}")
+    rejected = {str(lab): int(np.sum(~keep & (names == lab))) for lab in np.unique(names)}
+    return Epochs(data=data[keep], sfreq=float(sfreq), tmin=first_offset / sfreq,
+                  channels=tuple(channels), labels=names[keep], rejected=rejected)
+
+
+def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], labels: set[str] | None):
+    """Epochs of one recording, each with its mean removed per channel.
+
+    Returns (data (n_epochs, n_channels, n_samples) in volts, sfreq in Hz,
+    offset of the first sample from the event in samples, channel names,
+    event labels (n_epochs,)).
+    """
+    start_ms, stop_ms = window_ms
     stem = recording.name.rsplit("_eeg.", 1)[0]
     events = _read_events(recording.parent / f"{stem}_events.tsv", subject, labels)
     table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
@@ -152,28 +192,32 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
                             f"samples (first at {first_bad:g} s) in {recording}")
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
-    if reference == "average":
-        data -= data.mean(axis=1, keepdims=True)
+    return data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events])
 
-    names = np.array([label for _, label in events])
-    keep = np.ones(len(events), dtype=bool)
-    if reject_peak_to_peak_uv is not None:
-        peak_to_peak = np.ptp(data, axis=-1).max(axis=-1)
-        keep = peak_to_peak <= reject_peak_to_peak_uv * 1e-6
-        if not keep.any():
-            raise UserError(f"subject {subject}: all {keep.size} epochs exceed the peak-to-peak "
-                            f"limit of {reject_peak_to_peak_uv:g} µV in {recording}")
-    rejected = {str(lab): int(np.sum(~keep & (names == lab))) for lab in np.unique(names)}
-    return Epochs(data=data[keep], sfreq=float(sfreq), tmin=first_offset / sfreq,
-                  channels=tuple(s.label for s in signals), labels=names[keep],
-                  rejected=rejected)
+
+def _common_channels(runs, recordings: list[Path], subject: str) -> list[str]:
+    """Channels kept in every recording, in the first one's order; warns about the others."""
+    names = [run[3] for run in runs]
+    common = [c for c in names[0] if all(c in other for other in names[1:])]
+    dropped = sorted({c for other in names for c in other} - set(common))
+    if not common:
+        raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} share no good "
+                        "EEG channel")
+    if dropped:
+        warnings.warn(f"subject {subject}: channels {dropped} are not good in every recording "
+                      f"({_listing(recordings)}) and are left out", FamwiseWarning, stacklevel=3)
+    return common
+
+
+def _listing(recordings: list[Path]) -> str:
+    return str(recordings[0]) if len(recordings) == 1 else ", ".join(p.name for p in recordings)
 
 
 def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
                   channels: list[str], events: list[tuple[float, float, str]], task: str,
                   bad_channels: Sequence[str] = (),
                   electrodes: dict[str, tuple[float, float, float]] | None = None,
-                  fmt: str = "edf") -> None:
+                  fmt: str = "edf", run: int | None = None) -> None:
     """Write one subject's continuous recording as BIDS-EEG.
 
     Parameters
@@ -199,6 +243,8 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
         Electrode positions in mm, written to ``_electrodes.tsv`` with a
         ``_coordsystem.json``.
     fmt : {"edf", "bdf"}
+    run : int, optional
+        Run number (``_run-<n>`` in the file names) for a subject recorded in several runs.
     """
     data = np.asarray(data, dtype=float)
     if data.ndim != 2 or data.shape[0] != len(channels):
@@ -208,7 +254,7 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
         raise UserError(f"subject {subject}: format must be 'edf' or 'bdf', got {fmt!r}")
     folder = Path(root) / f"sub-{subject}" / "eeg"
     folder.mkdir(parents=True, exist_ok=True)
-    stem = folder / f"sub-{subject}_task-{task}"
+    stem = folder / (f"sub-{subject}_task-{task}" + (f"_run-{run}" if run is not None else ""))
 
     signal_class, file_class = ((edfio.EdfSignal, edfio.Edf) if fmt == "edf"
                                 else (edfio.BdfSignal, edfio.Bdf))
@@ -284,8 +330,11 @@ def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
         writer.writerows(rows)
 
 
-def _find_recording(root: Path, subject: str, task: str | None) -> Path:
-    """The one EDF/BDF recording of the subject (and task)."""
+def _find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
+    """The subject's EDF/BDF recordings of one task: one, or several runs or sessions (pooled).
+
+    Without a task, the recordings must all belong to one task.
+    """
     sub_dir = root / f"sub-{subject}"
     found = [p for pattern in ("eeg/*_eeg.edf", "eeg/*_eeg.bdf", "ses-*/eeg/*_eeg.edf",
                                "ses-*/eeg/*_eeg.bdf") for p in sorted(sub_dir.glob(pattern))]
@@ -295,10 +344,24 @@ def _find_recording(root: Path, subject: str, task: str | None) -> Path:
     if not found:
         raise UserError(f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf or "
                         f".bdf){where} in {sub_dir / 'eeg'}")
-    if len(found) > 1:
-        raise UserError(f"subject {subject}: several EEG recordings{where}, set the task to "
+    tasks = {_entity(p.name, "task") for p in found}
+    if len(tasks) > 1:
+        raise UserError(f"subject {subject}: several EEG recordings of different tasks, set the task to "
                         f"choose one: {[p.name for p in found]}")
-    return found[0]
+    return sorted(found, key=lambda p: (_entity(p.name, "ses"), _run_number(p.name), p.name))
+
+
+def _entity(name: str, key: str) -> str:
+    """Value of a BIDS entity (``key-value``) in a file name, '' when absent."""
+    for part in name.split("_"):
+        if part.startswith(f"{key}-"):
+            return part[len(key) + 1:]
+    return ""
+
+
+def _run_number(name: str) -> int:
+    run = _entity(name, "run")
+    return int(run) if run.isdigit() else 0
 
 
 def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tuple[float, str]]:

@@ -80,7 +80,7 @@ class Subjects(SpecModel):
         description="For 'epochs' and 'timefreq': a file pattern with '{subject}', relative to "
         "the spec's folder (e.g. 'data/sub-{subject}.npz'). For 'bids': the BIDS root folder."
     )
-    task: str | None = Field(default=None, description="BIDS task label (the 'task-<label>' part); required when the folder holds several tasks.")
+    task: str | None = Field(default=None, description="BIDS task label (the 'task-<label>' part); required when the folder holds several tasks. A subject's runs and sessions of the task are pooled.")
     ids: list[str] | None = Field(
         default=None,
         description="Subject ids to analyse (letters and digits only: they become file names). "
