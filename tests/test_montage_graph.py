@@ -137,11 +137,11 @@ def test_cap64_from_names_alone_is_connected_with_plausible_degrees():
     assert not graph.isolated
     degrees = graph.degrees
     assert degrees.min() == 3 and np.median(degrees) == 6 and degrees.max() == 8
-    assert graph.n_edges == 177
+    assert graph.n_edges == 175  # the triangulation's 177 less the rim edges P9-Iz and P10-Iz
     assert {"FCz", "C1", "C2", "CPz"} <= set(graph.neighbors("Cz"))
     assert graph_summary(graph).splitlines() == [
         "channel graph: delaunay",
-        "channels: 64, edges: 177",
+        "channels: 64, edges: 175",
         "neighbors per channel: min 3, median 6, max 8",
         "isolated channels: none",
     ]
@@ -180,7 +180,20 @@ def test_delaunay_pruned_by_distance():
     index = {n: i for i, n in enumerate(CAP64)}
     for a, b in pruned.edges():
         assert np.linalg.norm(positions.xyz[index[a]] - positions.xyz[index[b]]) <= 50.0
-    assert frozenset(("P9", "Iz")) in _edge_set(full) - _edge_set(pruned)
+    assert frozenset(("P9", "Iz")) not in _edge_set(full)  # cut by default as a long rim edge
+
+
+def test_long_rim_edges_are_cut_unless_a_distance_is_given():
+    # common practice, no source: edges along the open border of the cap join channels that are not neighbors
+    positions = match_channels(standard_positions("10-10"), CAP64)
+    default = neighbor_graph(positions)
+    uncut = neighbor_graph(positions, max_distance_mm=1000.0)
+    assert _edge_set(uncut) - _edge_set(default) == {frozenset(("P9", "Iz")), frozenset(("P10", "Iz"))}
+    index = {n: i for i, n in enumerate(CAP64)}
+    lengths = [np.linalg.norm(positions.xyz[index[a]] - positions.xyz[index[b]]) for a, b in uncut.edges()]
+    for a, b in ("P9", "Iz"), ("P10", "Iz"):
+        assert np.linalg.norm(positions.xyz[index[a]] - positions.xyz[index[b]]) > 2 * np.median(lengths)
+    assert not default.isolated
 
 
 def test_distance_graph_matches_brute_force_and_grows_monotonically():

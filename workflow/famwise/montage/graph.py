@@ -6,7 +6,7 @@ from itertools import combinations
 from pathlib import Path
 
 import numpy as np
-from scipy.spatial import Delaunay
+from scipy.spatial import ConvexHull, Delaunay, QhullError
 from scipy.spatial.distance import cdist
 
 from famwise.atomic import save_npz
@@ -22,6 +22,7 @@ from famwise.montage.positions import (
 )
 
 METHODS = ("delaunay", "distance", "edges")
+RIM_FACTOR = 2.0  # outline edges longer than this x the median edge are cut (Delaunay without max_distance_mm)
 FILE_FORMAT = "famwise-channel-graph-1"
 
 
@@ -148,7 +149,10 @@ def neighbor_graph(positions: Positions, *, method: str = "delaunay", max_distan
         the head frame); where four or more channels lie on one empty circle
         (regular grids), all of them are joined, so the graph does not depend
         on rounding; with ``max_distance_mm``, edges longer than that (3-D, mm)
-        are dropped. ``"distance"``: channels at most ``max_distance_mm``
+        are dropped; without it, edges on the outline of the projection
+        (the rim of the cap) longer than ``RIM_FACTOR`` times the median edge
+        are dropped, as they join channels across the cap's open border,
+        unless a channel would lose its last neighbor. ``"distance"``: channels at most ``max_distance_mm``
         apart (3-D Euclidean, mm). ``"edges"``: the pairs listed in
         ``edges_file``, a TSV with the columns ``channel_a``, ``channel_b``.
     max_distance_mm : float, optional
@@ -169,9 +173,12 @@ def neighbor_graph(positions: Positions, *, method: str = "delaunay", max_distan
     _check_graph_args(positions, method, max_distance_mm, edges_file)
     if method == "delaunay":
         first, second = _delaunay_pairs(positions)
+        length = np.linalg.norm(positions.xyz[first] - positions.xyz[second], axis=1)
         if max_distance_mm is not None:
-            keep = np.linalg.norm(positions.xyz[first] - positions.xyz[second], axis=1) <= max_distance_mm
-            first, second = first[keep], second[keep]
+            keep = length <= max_distance_mm
+        else:
+            keep = ~_long_rim_edges(first, second, length, positions)
+        first, second = first[keep], second[keep]
     elif method == "distance":
         first, second = np.nonzero(cdist(positions.xyz, positions.xyz) <= max_distance_mm)
     else:
@@ -245,6 +252,31 @@ def _delaunay_pairs(positions):
         order = np.argsort(centred @ axes[0])
         return order[:-1], order[1:]
     return _cocircular_complete(Delaunay(flat), flat)
+
+
+def _long_rim_edges(first, second, length, positions) -> np.ndarray:
+    """Mask of the outline edges longer than ``RIM_FACTOR`` x the median edge length, longest first,
+    each kept if dropping it would leave a channel without neighbors."""
+    n = len(positions.names)
+    if n < 4 or first.size == 0:
+        return np.zeros(first.size, dtype=bool)
+    try:
+        hull = ConvexHull(azimuthal_projection(positions.xyz)).simplices
+    except QhullError:  # the channels lie on one line: no outline to trim
+        return np.zeros(first.size, dtype=bool)
+    outline = {(min(a, b), max(a, b)) for a, b in hull.tolist()}
+    degree = np.bincount(np.concatenate([first, second]), minlength=n)
+    limit = RIM_FACTOR * np.median(length)
+    drop = np.zeros(first.size, dtype=bool)
+    for k in np.argsort(-length, kind="stable"):
+        if length[k] <= limit:
+            break
+        a, b = int(first[k]), int(second[k])
+        if (min(a, b), max(a, b)) in outline and degree[a] > 1 and degree[b] > 1:
+            drop[k] = True
+            degree[a] -= 1
+            degree[b] -= 1
+    return drop
 
 
 def _cocircular_complete(triangulation, flat, rtol=1e-6):

@@ -264,10 +264,11 @@ class Neighbors(SpecModel):
 
     method: Literal["delaunay", "distance", "edges"] = Field(
         default="delaunay",
-        description="'delaunay' (triangulation of the 2-D projected positions), 'distance' "
+        description="'delaunay' (triangulation of the 2-D projected positions; rim edges longer than twice the "
+        "median edge are cut, or every edge longer than max_distance_mm when given), 'distance' "
         "(3-D distance up to max_distance_mm) or 'edges' (an edge-list TSV).",
     )
-    max_distance_mm: float | None = Field(default=None, gt=0, description="Largest neighbor distance in mm (method 'distance').")
+    max_distance_mm: float | None = Field(default=None, gt=0, description="Largest neighbor distance in mm (method 'distance'; optional cut for 'delaunay').")
     edges_file: str | None = Field(default=None, description="TSV with columns channel_a, channel_b (method 'edges').")
 
     @field_validator("edges_file")
