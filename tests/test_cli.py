@@ -2,10 +2,12 @@
 
 import subprocess
 import sys
+from pathlib import Path
 
 import numpy as np
 import pytest
 
+import famwise.cli
 import famwise.io
 from famwise.cli import main
 
@@ -143,3 +145,17 @@ def test_init_writes_a_valid_starter_spec(tmp_path):
 @pytest.mark.parametrize("argv", [["run", "missing.yaml"], ["check", "missing.yaml"]])
 def test_missing_spec(tmp_path, argv):
     _assert_one_line_error(famwise_cli(*argv, cwd=tmp_path), "spec file not found")
+
+
+@pytest.mark.parametrize(("cores", "profile", "threads"), [(2, None, 1), (8, None, 4), (1, None, 1), (5, None, 2),
+                                                            (8, "local", 4), (8, "slurm", None)])
+def test_shard_jobs_share_the_cores_on_this_machine(tmp_path, monkeypatch, cores, profile, threads):
+    # a study with fewer shards than cores still uses every core; cluster jobs keep one thread each
+    spec = write_tiny_study(tmp_path)  # shards: 2
+    calls = []
+    monkeypatch.setattr(famwise.cli, "_snakemake", lambda plan, options, **kw: calls.append(kw) or (0, []))
+    argv = ["run", str(spec), "--cores", str(cores)]
+    if profile:
+        argv += ["--profile", str(Path(__file__).parents[1] / "configs" / "profiles" / profile)]
+    assert main(argv) == 0
+    assert calls[0]["config"].get("null_threads") == threads

@@ -46,9 +46,9 @@ def command_calibrate(args) -> int:
         name: calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, chunks=chunks)
         for name in contrasts
     }
-    config = [f"spec={plan.loaded.path}", f"calibrate_datasets={args.datasets}", f"calibrate_chunks={chunks}"]
+    config = {"calibrate_datasets": args.datasets, "calibrate_chunks": chunks}
     if args.permutations is not None:
-        config.append(f"calibrate_permutations={args.permutations}")
+        config["calibrate_permutations"] = args.permutations
     targets = [f"calibration/{name}.tsv" for name in contrasts]
     used = args.permutations or plan.study.inference.permutations
     print(f"famwise: calibrating {len(contrasts)} contrast(s) with {args.datasets} null datasets each, "
@@ -58,9 +58,8 @@ def command_calibrate(args) -> int:
     watcher = _ProgressWatcher(plan.loaded.output / "logs" / "calibrate_chunk", total=args.datasets * len(contrasts),
                                kept=_kept_datasets(plan.loaded.output / "calibration", settings), since=started)
     watcher.start()
-    # Targets before --config (which takes every following word); this --config replaces the CLI's own, so it repeats spec=.
     try:
-        code, _ = _snakemake(plan, ["--cores", str(args.cores), *targets, "--config", *config], capture=False)
+        code, _ = _snakemake(plan, ["--cores", str(args.cores), *targets], capture=False, config=config)
     finally:
         watcher.stop()
     if code != 0:

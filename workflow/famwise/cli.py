@@ -135,10 +135,13 @@ def command_run(args) -> int:
         if not args.profile.is_dir():
             raise UserError(f"--profile {args.profile}: no such profile folder")
         options += ["--profile", str(args.profile.resolve())]
+    config = {}
+    if not args.profile or args.profile.resolve().name == "local":  # cluster jobs keep one thread each
+        config["null_threads"] = max(1, args.cores // plan.study.inference.shards)
     started = time.time()
     print(f"famwise {__version__}: {plan.study.name}: {len(plan.subjects)} subjects, "
           f"{len(plan.study.contrasts)} contrast(s), {len(plan.study.inference.corrections)} correction(s) -> {plan.loaded.output}")
-    code, _ = _snakemake(plan, options + args.snakemake_args, capture=False)
+    code, _ = _snakemake(plan, options + args.snakemake_args, capture=False, config=config)
     if code == 0:
         print(f"famwise: done in {time.time() - started:.1f} s; report: {plan.loaded.output / 'report' / 'index.html'}")
         return 0
@@ -154,14 +157,19 @@ def workflow_entry() -> Path:
     return Path(str(resources.files("famwise.rules") / "main.smk"))
 
 
-def _snakemake(plan, options: list[str], *, capture: bool) -> tuple[int, list[str]]:
-    """Run Snakemake in a subprocess; Ctrl-C reaches it as SIGINT and we wait for it."""
+def _snakemake(plan, options: list[str], *, capture: bool, config: dict | None = None) -> tuple[int, list[str]]:
+    """Run Snakemake in a subprocess; Ctrl-C reaches it as SIGINT and we wait for it.
+
+    ``config`` adds workflow config values to ``spec`` (one ``--config`` flag:
+    a second one would replace the first).
+    """
     output = plan.loaded.output
     output.mkdir(parents=True, exist_ok=True)
     _clear_stale_lock(output)
+    values = [f"{key}={value}" for key, value in {"spec": plan.loaded.path, **(config or {})}.items()]
     command = [
         sys.executable, "-m", "snakemake", "--snakefile", str(workflow_entry()), "--directory", str(output),
-        "--config", f"spec={plan.loaded.path}", "--rerun-incomplete", "--nocolor", *options,
+        "--rerun-incomplete", "--nocolor", *options, "--config", *values,
     ]
     pidfile = output / ".famwise-run.pid"
     pidfile.write_text(str(os.getpid()))

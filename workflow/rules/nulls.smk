@@ -1,4 +1,9 @@
 # Permutation stage: one job per shard of the permutation table.
+# `famwise run` on this machine gives each shard job cores // shards threads (config null_threads),
+# so that a study with fewer shards than cores still uses every core; the nulls do not depend on it.
+
+NULL_THREADS = max(1, int(config.get("null_threads", 1)))
+THREADED_JOB = "NUMBA_NUM_THREADS={threads} OMP_NUM_THREADS={threads} OPENBLAS_NUM_THREADS={threads} " + JOB
 
 
 rule null_shard:
@@ -12,12 +17,12 @@ rule null_shard:
         "logs/null_shard/{contrast}-{shard}.log",
     params:
         settings=null_settings,
-    threads: 1
+    threads: NULL_THREADS
     resources:
         mem_mb=null_shard_mem_mb,
         runtime=null_shard_runtime,
     shell:
-        "{JOB} null-shard --settings {params.settings:q} --shard {wildcards.shard} "
+        THREADED_JOB + " null-shard --settings {params.settings:q} --shard {wildcards.shard} "
         "--subjects {input.subjects} --observed {input.observed} --graph '{input.graph}' "
         "--out {output} > {log} 2>&1"
 
