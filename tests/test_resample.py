@@ -410,16 +410,19 @@ def test_reused_output_buffer_gives_the_same_blocks(name):
 
 
 @pytest.mark.parametrize("name", ["one-sample t", "two-sample student", "two-sample welch"])
-def test_point_chunks_do_not_change_the_null(monkeypatch, name):
+def test_point_tiles_and_subject_groups_do_not_change_the_null(monkeypatch, name):
+    # exact integer sums: any tiling of the points and any grouping of the subjects gives the same bits
     import famwise.stats.resampled as resampled
 
     options = DESIGNS[name]
     table = design_table(options, permutations=50)
     whole = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
-    monkeypatch.setattr(resampled, "_BLAS_CHUNK", 8)
     monkeypatch.setattr(resampled, "_TILE", 5)
     chunked = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
     assert whole.tobytes() == chunked.tobytes()
+    monkeypatch.setattr(resampled, "_GROUP", 3)
+    regrouped = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
+    assert whole.tobytes() == regrouped.tobytes()
 
 
 @pytest.mark.parametrize("n", [3, 5, 8, 13, 30])

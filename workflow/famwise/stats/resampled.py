@@ -5,9 +5,8 @@ statistic map of each row, float32 (b, P). Each row's value at each point is
 computed by the same operations in the same order whatever the block it
 comes in, the block size, the number of blocks or the number of threads, so
 the null is bit-identical for any sharding. Sums over subjects run in
-subject order (numba kernels below), or are exact (the sign-flip t), because
-a BLAS product may sum in an order that depends on the matrix shapes and
-threads.
+subject order (numba kernels below), or are exact on an integer grid (the
+t statistics), so that no summation order can change a bit.
 
 Fast paths:
 
@@ -16,10 +15,9 @@ Fast paths:
   of the data rounded to an integer grid (every sum exact, see
   `integer_grid`): one table lookup per group of 4 subjects instead of 4
   multiply-adds, fused with the elementwise t in one numba kernel.
-- labels (two-sample t): group-0 sums and sums of squares are one BLAS
-  product of the 0/1 label indicators with the integer grids of the
-  grand-mean-centred data and of its squares (exact); group 1 takes the
-  totals minus group 0.
+- labels (two-sample t): group-0 sums of the integer grids of the
+  grand-mean-centred data and of its squares, from the same kind of tables
+  (weights 0 / 1); group 1 takes the totals minus group 0.
 - within-subject (F): condition sums of the subject-centred data; the
   within-subject sum of squares does not change.
 - covariate (correlation): r is the permuted standardised covariate weighted
@@ -40,7 +38,6 @@ from numba import njit, prange
 from famwise.stats.trimmed import n_trimmed
 
 _CHUNK = 2048
-_BLAS_CHUNK = 1 << 19
 _GROUP = 4  # subjects per subset-sum table (16 entries)
 _TILE = 1024  # points per tile of the sign-flip kernel: its tables stay in cache
 
@@ -90,19 +87,23 @@ def _signflip_t_block(x):
         n_ss += row * row
     n_ss *= n
     factor = sqrt(n - 1.0)
-    n_groups = -(-n // _GROUP)
-    weights = np.zeros(n_groups * _GROUP, dtype=np.int64)
-    weights[:n] = 1 << (np.arange(n) % _GROUP)
 
     def block(rows, out=None):
         if out is None:
             out = np.empty((rows.shape[0], n_points), dtype=np.float32)
-        codes = (rows > 0) * weights[:n]
-        codes = np.pad(codes, ((0, 0), (0, weights.size - n))).reshape(rows.shape[0], n_groups, _GROUP).sum(axis=2)
-        _signflip_t(np.ascontiguousarray(codes), grid, n_ss, factor, _GROUP, _TILE, out)
+        _signflip_t(_subset_codes(rows > 0), grid, n_ss, factor, _GROUP, _TILE, out)
         return out
 
     return block
+
+
+def _subset_codes(selected: np.ndarray) -> np.ndarray:
+    """(b, n) bool -> int64 (b, ceil(n / _GROUP)): bit j of code g is subject g * _GROUP + j's flag."""
+    b, n = selected.shape
+    n_groups = -(-n // _GROUP)
+    padded = np.zeros((b, n_groups * _GROUP), dtype=np.int64)
+    padded[:, :n] = selected
+    return np.ascontiguousarray((padded.reshape(b, n_groups, _GROUP) << np.arange(_GROUP)).sum(axis=2))
 
 
 def integer_grid(x: np.ndarray) -> np.ndarray:
@@ -127,40 +128,22 @@ def integer_grid(x: np.ndarray) -> np.ndarray:
 
 
 def _label_t_block(x, groups, equal_var):
-    n, n_points = x.shape
     xc = x - x.mean(axis=0)
     grid_x, scale_x = _grid_and_scale(xc)
     grid_q, scale_q = _grid_and_scale(xc * xc)
     total_x, total_q = _column_sums(grid_x), _column_sums(grid_q)
-    chunks = [
-        (p0, np.concatenate([grid_x[:, p0 : p0 + _BLAS_CHUNK], grid_q[:, p0 : p0 + _BLAS_CHUNK]], axis=1))
-        for p0 in range(0, n_points, _BLAS_CHUNK)
-    ]
     groups = np.asarray(groups, dtype=np.int64)
     n0 = int(np.count_nonzero(groups == 0))
-    storage = {}
+    n1 = groups.size - n0
 
     def block(rows, out=None):
-        in0 = np.ascontiguousarray(groups[rows] == 0, dtype=np.float64)
         if out is None:
-            out = np.empty((rows.shape[0], n_points), dtype=np.float32)
-        for p0, chunk in chunks:
-            sums = _buffer(storage, (rows.shape[0], chunk.shape[1]))
-            np.matmul(in0, chunk, out=sums)
-            _two_sample_t_from_sums(
-                sums, total_x, total_q, 1.0 / scale_x, 1.0 / scale_q, n0, n - n0, equal_var, p0, out
-            )
+            out = np.empty((rows.shape[0], x.shape[1]), dtype=np.float32)
+        _label_t(_subset_codes(groups[rows] == 0), grid_x, grid_q, total_x, total_q, 1.0 / scale_x, 1.0 / scale_q,
+                 n0, n1, equal_var, _GROUP, _TILE, out)
         return out
 
     return block
-
-
-def _buffer(storage: dict, shape: tuple) -> np.ndarray:
-    """A C-contiguous float64 work array of this shape, reusing one allocation."""
-    size = shape[0] * shape[1]
-    if storage.get("sums", np.empty(0)).size < size:
-        storage["sums"] = np.empty(size)
-    return storage["sums"][:size].reshape(shape)
 
 
 def _grid_and_scale(v):
@@ -255,52 +238,72 @@ def _weighted(w, x):
     return out
 
 
+@njit(cache=True)
+def _subset_tables(grid, p0, group, low, step, tables):  # pragma: no cover - numba
+    """Subset sums of a tile: tables[g, c, q] = sum_j (low + step * bit j of c) * grid[g * group + j, p0 + q].
+
+    ``tables`` is (n_groups, 2^group, m) for the m points from ``p0``; each
+    entry adds step * x_j to an entry with one bit fewer. Exact on an
+    integer grid, so every way of summing gives the same bits.
+    """
+    n = grid.shape[0]
+    m = tables.shape[2]
+    for g in range(tables.shape[0]):
+        first = g * group
+        size = min(group, n - first)
+        entry = tables[g]
+        entry[0] = 0.0
+        if low != 0.0:
+            for j in range(size):
+                x_j = grid[first + j, p0 : p0 + m]
+                for q in range(m):
+                    entry[0, q] += low * x_j[q]
+        for c in range(1, 1 << size):
+            j = 0
+            while not (c >> j) & 1:
+                j += 1
+            x_j = grid[first + j, p0 : p0 + m]
+            previous = entry[c ^ (1 << j)]
+            current = entry[c]
+            for q in range(m):
+                current[q] = previous[q] + step * x_j[q]
+
+
+@njit(cache=True)
+def _row_sum(tables, codes, sums):  # pragma: no cover - numba
+    """sums[q] = sum over groups g of tables[g, codes[g], q]: one row's weighted sum over subjects."""
+    sums[:] = tables[0, codes[0]]
+    for g in range(1, tables.shape[0]):
+        entry = tables[g, codes[g]]
+        for q in range(sums.shape[0]):
+            sums[q] += entry[q]
+
+
 @njit(parallel=True, cache=True, error_model="numpy")
 def _signflip_t(codes, grid, n_ss, factor, group, tile_size, out):  # pragma: no cover - numba
     """out[r, p] = one-sample t of the flipped integer-grid data, from subset-sum tables.
 
     Subjects form groups of ``group``; for each tile of ``tile_size`` points,
     table entry (g, c) holds the group's sum with signs +1 where bit j of c
-    is set (subject g * group + j) and -1 elsewhere, built by adding 2 x_j to a
-    smaller entry. A row's flipped sum S is then the sum of one entry per
-    group (``codes[r, g]``): about 4x fewer additions than the product
-    signs @ grid, all exact on the integer grid, so S equals that product
-    bit for bit. t = S sqrt(n - 1) / sqrt(n ss - S^2) (mean / (SD / sqrt(n))),
-    the difference in float64, the rest in float32. Parallel over tiles.
+    is set (subject g * group + j) and -1 elsewhere (``_subset_tables``). A
+    row's flipped sum S is then one entry per group (``codes[r, g]``): about
+    4x fewer additions than the product signs @ grid, all exact, so S equals
+    that product bit for bit. t = S sqrt(n - 1) / sqrt(n ss - S^2) (mean /
+    (SD / sqrt(n))), the difference in float64, the rest in float32.
+    Parallel over tiles.
     """
-    n, n_points = grid.shape
+    n_points = grid.shape[1]
     b, n_groups = codes.shape
     n_tiles = (n_points + tile_size - 1) // tile_size
     for tile in prange(n_tiles):
         p0 = tile * tile_size
         m = min(n_points, p0 + tile_size) - p0
         tables = np.empty((n_groups, 1 << group, m))
-        for g in range(n_groups):
-            first = g * group
-            size = min(group, n - first)
-            entry = tables[g]
-            entry[0] = 0.0
-            for j in range(size):
-                x_j = grid[first + j, p0 : p0 + m]
-                for q in range(m):
-                    entry[0, q] -= x_j[q]
-            for c in range(1, 1 << size):
-                j = 0
-                while not (c >> j) & 1:
-                    j += 1
-                x_j = grid[first + j, p0 : p0 + m]
-                previous = entry[c ^ (1 << j)]
-                current = entry[c]
-                for q in range(m):
-                    current[q] = previous[q] + 2.0 * x_j[q]
+        _subset_tables(grid, p0, group, -1.0, 2.0, tables)
         sums = np.empty(m)
         n_ss_tile = n_ss[p0 : p0 + m]
         for r in range(b):
-            sums[:] = tables[0, codes[r, 0]]
-            for g in range(1, n_groups):
-                entry = tables[g, codes[r, g]]
-                for q in range(m):
-                    sums[q] += entry[q]
+            _row_sum(tables, codes[r], sums)
             dst = out[r, p0 : p0 + m]
             for q in range(m):
                 s = sums[q]
@@ -310,37 +313,47 @@ def _signflip_t(codes, grid, n_ss, factor, group, tile_size, out):  # pragma: no
                 dst[q] = np.float32(s * factor) / np.sqrt(np.float32(d))
 
 
-@njit(cache=True, error_model="numpy")
-def _two_sample_t_from_sums(sums, total_x, total_q, unit_x, unit_q, n0, n1, equal_var, p0, out):  # pragma: no cover
-    """out[r, p0 + q] = two-sample t (label 0 minus label 1) from exact group-0 grid sums.
+@njit(parallel=True, cache=True, error_model="numpy")
+def _label_t(codes, grid_x, grid_q, total_x, total_q, unit_x, unit_q, n0, n1, equal_var, group, tile_size,
+             out):  # pragma: no cover - numba
+    """out[r, p] = two-sample t (label 0 minus label 1), from exact group-0 sums of subset-sum tables.
 
-    ``sums[r, :m]`` are the group-0 sums of the data grid, ``sums[r, m:]``
-    those of the squared-data grid; group 1 takes the totals minus group 0.
-    ``unit_*`` convert grid units back to data units (powers of two).
+    ``codes[r]`` flags the subjects labelled 0 in row r (groups of
+    ``group``, as in `_signflip_t`); the group-0 sums of the centred data's
+    grid and of its squares' grid come from tables with weights 0 / 1, and
+    group 1 takes the totals minus group 0. ``unit_*`` convert grid units
+    back to data units (powers of two). Parallel over tiles.
     """
-    b = sums.shape[0]
-    m = sums.shape[1] // 2
-    total_x = total_x[p0 : p0 + m]
-    total_q = total_q[p0 : p0 + m]
-    unit_x = unit_x[p0 : p0 + m]
-    unit_q = unit_q[p0 : p0 + m]
+    n_points = grid_x.shape[1]
+    b, n_groups = codes.shape
+    n_tiles = (n_points + tile_size - 1) // tile_size
     pooled = (1.0 / n0 + 1.0 / n1) / (n0 + n1 - 2)
-    for r in range(b):
-        sum_x = sums[r, :m]
-        sum_q = sums[r, m:]
-        dst = out[r, p0 : p0 + m]
-        for q in range(m):
-            s0 = sum_x[q] * unit_x[q]
-            s1 = (total_x[q] - sum_x[q]) * unit_x[q]
-            m0 = s0 / n0
-            m1 = s1 / n1
-            ss0 = max(sum_q[q] * unit_q[q] - s0 * m0, 0.0)
-            ss1 = max((total_q[q] - sum_q[q]) * unit_q[q] - s1 * m1, 0.0)
-            if equal_var:
-                se = np.sqrt((ss0 + ss1) * pooled)
-            else:
-                se = np.sqrt(ss0 / ((n0 - 1) * n0) + ss1 / ((n1 - 1) * n1))
-            dst[q] = (m0 - m1) / se
+    for tile in prange(n_tiles):
+        p0 = tile * tile_size
+        m = min(n_points, p0 + tile_size) - p0
+        tables_x = np.empty((n_groups, 1 << group, m))
+        tables_q = np.empty((n_groups, 1 << group, m))
+        _subset_tables(grid_x, p0, group, 0.0, 1.0, tables_x)
+        _subset_tables(grid_q, p0, group, 0.0, 1.0, tables_q)
+        sum_x = np.empty(m)
+        sum_q = np.empty(m)
+        for r in range(b):
+            _row_sum(tables_x, codes[r], sum_x)
+            _row_sum(tables_q, codes[r], sum_q)
+            dst = out[r, p0 : p0 + m]
+            for q in range(m):
+                p = p0 + q
+                s0 = sum_x[q] * unit_x[p]
+                s1 = (total_x[p] - sum_x[q]) * unit_x[p]
+                m0 = s0 / n0
+                m1 = s1 / n1
+                ss0 = max(sum_q[q] * unit_q[p] - s0 * m0, 0.0)
+                ss1 = max((total_q[p] - sum_q[q]) * unit_q[p] - s1 * m1, 0.0)
+                if equal_var:
+                    se = np.sqrt((ss0 + ss1) * pooled)
+                else:
+                    se = np.sqrt(ss0 / ((n0 - 1) * n0) + ss1 / ((n1 - 1) * n1))
+                dst[q] = (m0 - m1) / se
 
 
 @njit(parallel=True, cache=True, error_model="numpy")
