@@ -263,3 +263,15 @@ def test_cv03_maxt_critical_value_for_100_independent_gaussians():
 def test_bad_input(call, error, message):
     with pytest.raises(error, match=message):
         call()
+
+
+@pytest.mark.parametrize("tail", ["two-sided", "greater", "less"])
+def test_collector_maxima_of_float32_blocks_equal_numpy(tail):
+    # numpy.max of |x|, x or -x per row (NaN propagates), the reference for the one-pass float32 path
+    rng = np.random.default_rng(8)
+    block = rng.standard_normal((5, 1000)).astype(np.float32)
+    block[1, 7], block[2, 3], block[3, 9] = np.nan, -np.inf, np.float32(-7.5)
+    collector = MaxStatCollector(tail=tail)
+    collector.update(block)
+    transformed = {"two-sided": np.abs(block), "greater": block, "less": -block}[tail]
+    np.testing.assert_array_equal(collector.arrays()["maxstat.max"], transformed.max(axis=1).astype(np.float64))

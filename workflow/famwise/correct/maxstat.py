@@ -58,7 +58,11 @@ class MaxStatCollector:
         stats : ndarray of float, shape (n_rows_in_block, n_points)
         """
         stats = _check_block(stats, None)
-        if self.tail == "greater":
+        if self.tail == "two-sided" and stats.dtype == np.float32 and stats.flags.c_contiguous:
+            top = np.empty(stats.shape[0], dtype=np.int32)
+            _largest_magnitude_bits(stats.view(np.int32), top)
+            block_max = top.view(np.float32)
+        elif self.tail == "greater":
             block_max = stats.max(axis=1)
         elif self.tail == "less":
             block_max = -stats.min(axis=1)
@@ -358,6 +362,23 @@ def _successive_max_counts(stats, rising, observed_rising, tail_code, counts):
                 running = value
             if running >= observed_rising[j]:
                 counts[j] += 1
+
+
+@numba.njit(cache=True)
+def _largest_magnitude_bits(bits, out):
+    """out[r] = bits of max |x| over row r of a float32 block given as its int32 view (n_rows, n_points).
+
+    With the sign bit cleared, the bits of float32 magnitudes order as
+    integers do, and NaN sorts above inf, so a NaN anywhere in the row gives
+    NaN (as ``numpy.max`` does). One pass that vectorises, about twice as
+    fast as max and min.
+    """
+    for row in range(bits.shape[0]):
+        values = bits[row]
+        top = np.int32(0)
+        for j in range(values.shape[0]):
+            top = max(top, values[j] & np.int32(0x7FFFFFFF))
+        out[row] = top
 
 
 def _with_family(result, m, n_contrasts):

@@ -272,11 +272,21 @@ def _subset_tables(grid, p0, group, low, step, tables):  # pragma: no cover - nu
 @njit(cache=True)
 def _row_sum(tables, codes, sums):  # pragma: no cover - numba
     """sums[q] = sum over groups g of tables[g, codes[g], q]: one row's weighted sum over subjects."""
-    sums[:] = tables[0, codes[0]]
-    for g in range(1, tables.shape[0]):
-        entry = tables[g, codes[g]]
+    n_groups = tables.shape[0]
+    if n_groups == 1:
+        sums[:] = tables[0, codes[0]]
+        return
+    first, second = tables[0, codes[0]], tables[1, codes[1]]
+    for q in range(sums.shape[0]):
+        sums[q] = first[q] + second[q]
+    for g in range(2, n_groups - 1, 2):  # two groups per pass over sums
+        first, second = tables[g, codes[g]], tables[g + 1, codes[g + 1]]
         for q in range(sums.shape[0]):
-            sums[q] += entry[q]
+            sums[q] += first[q] + second[q]
+    if n_groups % 2:
+        last = tables[n_groups - 1, codes[n_groups - 1]]
+        for q in range(sums.shape[0]):
+            sums[q] += last[q]
 
 
 @njit(parallel=True, cache=True, error_model="numpy")
