@@ -337,4 +337,5 @@ def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
     assert "trimmed mean (trim 0.2 per end)" in text
     assert "Yuen's trimmed t test (trim 0.2) (Yuen 1974)" in text
     assert "Yuen KK (1974)" in text and "Thomson DJ (1982)" in text
-    assert "Torrence C, Compo GP (1998)" not in text
+    # the edge rule is cited for the excluded points, not for the tapers
+    assert "Points whose window reached beyond the epoch (the cone of influence; Torrence & Compo 1998)" in text

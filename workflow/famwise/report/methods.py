@@ -31,7 +31,7 @@ REFERENCES = {
     "phipson": "Phipson B, Smyth GK (2010). Permutation p-values should never be zero: calculating "
                "exact p-values when permutations are randomly drawn. Stat Appl Genet Mol Biol "
                "9(1):Article 39.",
-    "morlet": "Torrence C, Compo GP (1998). A practical guide to wavelet analysis. "
+    "edges": "Torrence C, Compo GP (1998). A practical guide to wavelet analysis. "
               "Bull Am Meteorol Soc 79(1):61-78.",
     "multitaper": "Thomson DJ (1982). Spectrum estimation and harmonic analysis. "
                   "Proc IEEE 70(9):1055-1096.",
@@ -185,15 +185,16 @@ def _decomposition(study: dict) -> str:
         if tf.get("time_bandwidth") is not None:
             text += f" with a time-bandwidth product of {fmt(tf['time_bandwidth'])}"
     else:
-        text = (f"{measure} was estimated by convolution with complex Morlet "
-                f"wavelets (Torrence & Compo 1998) {grid}")
+        text = f"{measure} was estimated by convolution with complex Morlet wavelets {grid}"
         if tf.get("fwhm_ms") is not None:
             text += f", with a full width at half maximum of {_range(tf['fwhm_ms'])} ms in time"
         elif tf.get("cycles") is not None:
             text += f", with {_range(tf['cycles'])} cycles"
     if tf.get("time_step_ms") is not None:
         text += f"; values were kept every {fmt(tf['time_step_ms'])} ms"
-    text += "."
+    kernel = "window" if method == "multitaper" else "wavelet"
+    text += (f". Points whose {kernel} reached beyond the epoch (the cone of influence; Torrence & Compo "
+             "1998) were left out of the analysis.")
     if tf.get("average") == "trimmed":
         text += f" Trials were averaged with a trimmed mean (trim {fmt(tf.get('trim'))} per end)."
     baseline = tf.get("baseline") or {}
@@ -282,7 +283,9 @@ def kinds_used(run: Run) -> list[str]:
     study = run.study
     used = []
     method = str((study.get("timefreq") or {}).get("method", "morlet")).lower()
-    used.append("multitaper" if method == "multitaper" else "morlet")
+    if method == "multitaper":
+        used.append("multitaper")
+    used.append("edges")
     if any(c.statistic == "yuen" for c in run.contrasts):
         used.append("yuen")
     if any(c.nulls and not c.nulls.get("exact") for c in run.contrasts):
