@@ -27,6 +27,10 @@ class BenchRow:
     note : str
         Anything the reader must know (extrapolation, per-permutation times,
         extra ratios).
+    slower_is_ratio : bool
+        True when the row compares famwise against a floor rather than a
+        reference (the bare matrix product): its ratio is famwise time over
+        that floor's time.
     """
 
     task: str
@@ -37,8 +41,10 @@ class BenchRow:
     met: bool
     peak_memory_mb: float | None = None
     note: str = ""
+    slower_is_ratio: bool = False
 
     @property
     def ratio(self) -> float:
-        """Reference time over famwise time."""
-        return self.reference_s / self.famwise_s if self.famwise_s > 0 else float("inf")
+        """Reference time over famwise time (famwise time over the floor's for ``slower_is_ratio`` rows)."""
+        over, under = (self.famwise_s, self.reference_s) if self.slower_is_ratio else (self.reference_s, self.famwise_s)
+        return over / under if under > 0 else float("inf")
