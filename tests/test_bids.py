@@ -261,3 +261,19 @@ def _read_single(root, run):
     finally:
         for path in moved:
             path.rename(eeg / path.name)
+
+
+def test_written_electrodes_are_read_back_in_their_sidecar_units(tmp_path):
+    # BIDS: _coordsystem.json's EEGCoordinateUnits gives the unit of _electrodes.tsv (bidsschematools 2.0.1 schema)
+    import warnings
+
+    from famwise.montage.positions import read_positions
+
+    positions = {"Fz": (0.0, 60.0, 60.0), "Cz": (0.0, 0.0, 85.0), "Pz": (0.0, -60.0, 60.0), "Oz": (0.0, -85.0, 0.0)}
+    _write(tmp_path, electrodes=positions)
+    path = bids.electrodes_file(tmp_path, "01", task="view")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", FamwiseWarning)  # no "assuming mm" guess: the sidecar says mm
+        read = read_positions(path)
+    assert read.names == tuple(positions)
+    np.testing.assert_allclose(read.xyz, np.array(list(positions.values())))

@@ -151,7 +151,7 @@ def _write_electrodes(folder, names, xyz_m):
     rows = "".join(f"{n.upper()}\t{x:.7f}\t{y:.7f}\t{z:.7f}\n" for n, (x, y, z) in zip(names, xyz_m))
     tsv = folder / "sub-07_electrodes.tsv"
     tsv.write_text("name\tx\ty\tz\n" + rows + "HEOG\tn/a\tn/a\tn/a\n")
-    (folder / "sub-07_coordsystem.json").write_text(json.dumps({"EEGCoordinateSystemUnits": "m"}))
+    (folder / "sub-07_coordsystem.json").write_text(json.dumps({"EEGCoordinateUnits": "m"}))
     return tsv
 
 

@@ -225,7 +225,7 @@ def _write_bids(folder, units, rows, stem="sub-01_ses-1_space-CapTrak"):
     tsv.write_text("name\tx\ty\tz\ttype\n" + "".join(f"{n}\t{x}\t{y}\t{z}\tcup\n" for n, x, y, z in rows))
     if units is not None:
         (folder / f"{stem}_coordsystem.json").write_text(
-            json.dumps({"EEGCoordinateSystem": "CapTrak", "EEGCoordinateSystemUnits": units}))
+            json.dumps({"EEGCoordinateSystem": "CapTrak", "EEGCoordinateUnits": units}))
     return tsv
 
 
@@ -235,7 +235,7 @@ ROWS_M = [("Fz", 0.0, 0.06, 0.06), ("Cz", 0.0, 0.0, 0.085), ("T7", -0.085, 0.0, 
 
 @pytest.mark.parametrize(("units", "scale"), [("m", 1.0), ("cm", 100.0), ("mm", 1000.0)])
 def test_bids_units_from_coordsystem(tmp_path, units, scale):
-    # BIDS specification: EEGCoordinateSystemUnits in _coordsystem.json is m, cm or mm
+    # BIDS specification 1.x (its schema in bidsschematools 2.0.1): EEGCoordinateUnits of _coordsystem.json is m, mm, cm or n/a
     rows = [(n, *(v * scale if v != "n/a" else v for v in xyz)) for n, *xyz in ROWS_M]
     positions = read_positions(_write_bids(tmp_path, units, rows))
     assert positions.names == ("Fz", "Cz", "T7", "Oz")  # the n/a row (no position) is skipped
@@ -257,7 +257,7 @@ def test_units_that_look_wrong_warn(tmp_path):
 
 
 def test_bad_sidecar_units(tmp_path):
-    with pytest.raises(UserError, match=r"coordsystem\.json: EEGCoordinateSystemUnits must be one of "
+    with pytest.raises(UserError, match=r"coordsystem\.json: EEGCoordinateUnits must be one of "
                                         r"m, cm, mm, got 'inch'"):
         read_positions(_write_bids(tmp_path, "inch", ROWS_M))
 

@@ -101,7 +101,7 @@ def read_positions(path, *, units: str | None = None) -> Positions:
         comments; a comment ``# units: m|cm|mm`` states the unit of a plain TSV.
     units : {"m", "cm", "mm"}, optional
         Unit of the coordinates, overriding the file. Otherwise the unit is
-        ``EEGCoordinateSystemUnits`` of the sibling ``_coordsystem.json`` for
+        ``EEGCoordinateUnits`` of the sibling ``_coordsystem.json`` for
         a BIDS file, the ``# units:`` comment, or mm.
 
     Returns
@@ -116,7 +116,7 @@ def read_positions(path, *, units: str | None = None) -> Positions:
     if units is None:
         units = "mm"
         if path.name.endswith("_electrodes.tsv"):
-            warnings.warn(f"{path}: no EEGCoordinateSystemUnits in a sibling _coordsystem.json; "
+            warnings.warn(f"{path}: no EEGCoordinateUnits in a sibling _coordsystem.json; "
                           "assuming the coordinates are in mm", FamwiseWarning, stacklevel=2)
     if units not in UNITS_TO_MM:
         raise UserError(f"{path}: coordinate units must be one of m, cm, mm, got {units!r}")
@@ -245,7 +245,7 @@ def _read_table(path: Path):
 
 
 def _sidecar_units(path: Path):
-    """``EEGCoordinateSystemUnits`` of the BIDS ``_coordsystem.json`` beside an electrodes file."""
+    """``EEGCoordinateUnits`` of the BIDS ``_coordsystem.json`` beside an electrodes file."""
     if not path.name.endswith("_electrodes.tsv"):
         return None
     sidecar = path.with_name(path.name.removesuffix("_electrodes.tsv") + "_coordsystem.json")
@@ -255,9 +255,9 @@ def _sidecar_units(path: Path):
         meta = json.loads(sidecar.read_text(encoding="utf-8"))
     except (OSError, ValueError) as error:
         raise UserError(f"cannot read {sidecar}: {error}") from None
-    units = meta.get("EEGCoordinateSystemUnits") if isinstance(meta, dict) else None
+    units = meta.get("EEGCoordinateUnits") if isinstance(meta, dict) else None
     if units in (None, "n/a"):
         return None
     if units not in UNITS_TO_MM:
-        raise UserError(f"{sidecar}: EEGCoordinateSystemUnits must be one of m, cm, mm, got {units!r}")
+        raise UserError(f"{sidecar}: EEGCoordinateUnits must be one of m, cm, mm, got {units!r}")
     return units
