@@ -39,7 +39,7 @@ from famwise.stats.trimmed import n_trimmed
 
 _CHUNK = 2048
 _GROUP = 4  # subjects per subset-sum table (16 entries)
-_TILE = 1024  # points per tile of the sign-flip kernel: its tables stay in cache
+_TILE = 1024  # points per tile of the t kernels: their subset-sum tables stay in cache
 
 BlockFunction = Callable[[np.ndarray], np.ndarray]
 
@@ -47,9 +47,9 @@ BlockFunction = Callable[[np.ndarray], np.ndarray]
 def block_function(x, *, test, groups=None, covariate=None, statistic="t", trim=0.2, equal_var=True) -> BlockFunction:
     """Prepare the data once; return f(rows_block, out=None) -> float32 (b, P).
 
-    The sign-flip and Yuen paths write into ``out`` (float32, C-contiguous,
-    shape (b, P)) when it is given, to spare a new allocation per block; the
-    others return a new array.
+    The t and Yuen paths write into ``out`` (float32, C-contiguous, shape
+    (b, P)) when it is given, to spare a new allocation per block; the F and
+    correlation paths return a new array.
 
     Parameters
     ----------
@@ -112,7 +112,8 @@ def integer_grid(x: np.ndarray) -> np.ndarray:
     Point p is scaled by 2^(B - e_p), where max_i |x_ip| < 2^e_p and
     B = 52 - ceil(log2 n), then rounded: every sum of n values times +-1 is
     an integer below 2^52 in magnitude, exact in float64 in any order. Sums
-    of flips can then use any BLAS with any threads and stay bit-identical.
+    of flips or of label groups can then be formed in any order (subset-sum
+    tables, any tiling of the points, any threads) and stay bit-identical.
     The t statistic is scale free; the rounding changes it by about 2^-B
     relative to the point's largest |value| (below 1e-13 for n <= 64).
 
