@@ -218,6 +218,7 @@ def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: 
     times_ms = contrast.times * 1000.0
     figure, (tf_ax, scalp_ax, course_ax) = plt.subplots(
         1, 3, figsize=(11.5, 3.0), layout="constrained", width_ratios=[1.25, 1.0, 1.1])
+    figure.get_layout_engine().set(wspace=0.06)  # room between a colour bar's label and the next axis
     figure.suptitle(f"{contrast.name} · {correction.name} · {noun} {row['id']} "
                     f"(p = {float(row['p']):.4g}, {int(row['n_points'])} points, "
                     f"{members.sum()} channels)", x=0.01, ha="left", fontsize=9, fontweight="bold")

@@ -261,7 +261,7 @@ def cluster_block(contrast: Contrast, correction: Correction, spec: dict, study:
             fig = figures.cluster_figure(contrast, correction, row, flat, unit=unit)
         number = int(row["id"])
         label = f"{'neg' if number < 0 or not positive else 'pos'}{abs(number)}"
-        stem = f"{anchor(contrast.name)}__{anchor(correction.name)}__cluster-{label}"
+        stem = f"{anchor(contrast.name)}__{anchor(correction.name)}__{noun}-{label}"
         html += write(fig, stem, caption=words, alt=f"{noun} {row['id']} of {correction.name}")
     return html
 
