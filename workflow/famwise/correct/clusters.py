@@ -115,6 +115,21 @@ def check_alpha(alpha):
         raise UserError(f"alpha must be between 0 and 1, got {alpha}")
 
 
+def statistic_block(stats, shape):
+    """A collector's block as C-contiguous float32 or float64 (n_rows, n_points of ``shape``).
+
+    float32 stays float32 (the kernels promote each value exactly); other
+    dtypes become float64. A block of another width raises ValueError.
+    """
+    stats = np.ascontiguousarray(stats)
+    if stats.dtype not in (np.float32, np.float64):
+        stats = stats.astype(np.float64)
+    n_pts = math.prod(shape)
+    if stats.ndim != 2 or stats.shape[1] != n_pts:
+        raise ValueError(f"expected a block of shape (rows, {n_pts}), got {stats.shape}")
+    return stats
+
+
 def count_at_least(null, values):
     """p of each value: (1 + #{null[1:] >= value, within TIE_RTOL}) / len(null).
 
@@ -184,12 +199,8 @@ class ClusterCollector:
 
     def update(self, stats):
         """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = np.ascontiguousarray(stats)
-        if stats.dtype not in (np.float32, np.float64):
-            stats = stats.astype(np.float64)
-        n_pts = math.prod(self._shape)
-        if stats.ndim != 2 or stats.shape[1] != n_pts:
-            raise ValueError(f"expected a block of shape (rows, {n_pts}), got {stats.shape}")
+        stats = statistic_block(stats, self._shape)
+        n_pts = stats.shape[1]
         out = np.empty(stats.shape[0])
         if stats.shape[0]:
             n_chunks = min(stats.shape[0], numba.get_num_threads())

@@ -24,7 +24,7 @@ import numba
 import numpy as np
 
 from famwise.correct.clusters import DIMS, check_alpha, check_dims, check_graph, check_tail, count_at_least, \
-    critical_value
+    critical_value, statistic_block
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.kernels.tfce import _tfce_map, _tfce_max_block, _tfce_workspace
@@ -107,12 +107,8 @@ class TFCECollector:
 
     def update(self, stats):
         """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = np.ascontiguousarray(stats)
-        if stats.dtype not in (np.float32, np.float64):
-            stats = stats.astype(np.float64)
-        n_pts = math.prod(self._shape)
-        if stats.ndim != 2 or stats.shape[1] != n_pts:
-            raise ValueError(f"expected a block of shape (rows, {n_pts}), got {stats.shape}")
+        stats = statistic_block(stats, self._shape)
+        n_pts = stats.shape[1]
         out = np.empty(stats.shape[0])
         if stats.shape[0]:
             n_chunks = min(stats.shape[0], numba.get_num_threads())
