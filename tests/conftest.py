@@ -11,6 +11,12 @@ import famwise.io
 
 os.environ.setdefault("MPLBACKEND", "Agg")
 
+def ring(n_ch: int) -> dict:
+    """Channel graph of a ring (each channel touches the previous and the next), as CSR ``indptr``/``indices``."""
+    indices = np.sort(np.array([[(c - 1) % n_ch, (c + 1) % n_ch] for c in range(n_ch)]), axis=1).ravel()
+    return dict(indptr=np.arange(0, 2 * n_ch + 1, 2, dtype=np.int32), indices=indices.astype(np.int32))
+
+
 TINY_CHANNELS = ["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "Oz"]
 
 

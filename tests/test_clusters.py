@@ -12,14 +12,7 @@ from scipy.sparse.csgraph import connected_components
 from famwise.correct.clusters import CLUSTER_COLUMNS, ClusterCollector, cluster_inference, write_cluster_table
 from famwise.errors import UserError
 
-
-def ring(n_ch):
-    """CSR arrays of a ring of channels."""
-    rows = np.repeat(np.arange(n_ch), 2)
-    cols = np.ravel([[(c - 1) % n_ch, (c + 1) % n_ch] for c in range(n_ch)])
-    graph = sp.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(n_ch, n_ch))
-    graph.sort_indices()
-    return dict(indptr=graph.indptr.astype(np.int32), indices=graph.indices.astype(np.int32))
+from conftest import ring
 
 
 def t_maps(data, flips):

@@ -10,14 +10,13 @@ from famwise.correct.clusters import ClusterCollector, label_clusters
 from famwise.errors import UserError
 from famwise.reference.clusters import cluster_labels_reference, cluster_null_reference, one_sample_t
 
+from conftest import ring
 
-def ring(n_ch):
-    """CSR arrays of a ring of channels (each touches the next and the previous)."""
-    rows = np.repeat(np.arange(n_ch), 2)
-    cols = np.ravel([[(c - 1) % n_ch, (c + 1) % n_ch] for c in range(n_ch)])
-    graph = sp.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(n_ch, n_ch))
-    graph.sort_indices()
-    return graph.indptr.astype(np.int32), graph.indices.astype(np.int32)
+
+def ring_arrays(n_ch):
+    """(indptr, indices) of `ring`."""
+    graph = ring(n_ch)
+    return graph["indptr"], graph["indices"]
 
 
 NO_CHANNELS = (np.array([0, 0], np.int32), np.zeros(0, np.int32))
@@ -71,7 +70,7 @@ def test_product_graph_equals_csgraph(seed):
     # reference: scipy.sparse.csgraph.connected_components on an explicitly built adjacency
     rng = np.random.default_rng(seed)
     n_ch, n_f, n_t = 7, 5, 9
-    indptr, indices = ring(n_ch)
+    indptr, indices = ring_arrays(n_ch)
     stat = rng.standard_normal((n_ch, n_f, n_t)) * 2
     ids, _ = label_clusters(stat, threshold=1.0, indptr=indptr, indices=indices)
     adjacency = explicit_adjacency(n_ch, n_f, n_t, indptr, indices)
@@ -87,7 +86,7 @@ def test_product_graph_equals_csgraph(seed):
 def test_restricted_dims_match_reference(dims):
     # reference: famwise.reference.clusters (scipy.sparse.csgraph on the explicit product graph)
     rng = np.random.default_rng(3)
-    indptr, indices = ring(6)
+    indptr, indices = ring_arrays(6)
     stat = ndimage.gaussian_filter(rng.standard_normal((6, 4, 20)), (0, 0.7, 1.5)) * 4
     ids, stats = label_clusters(stat, threshold=0.7, indptr=indptr, indices=indices, dims=dims)
     clusters = cluster_labels_reference(stat, threshold=0.7, indptr=indptr, indices=indices, dims=dims)
@@ -103,7 +102,7 @@ def test_restricted_dims_match_reference(dims):
 
 def test_min_neighbor_channels_drops_isolated_points():
     # hand-made: channel 0's point has one supra-threshold neighbor channel, channel 3's has none
-    indptr, indices = ring(6)
+    indptr, indices = ring_arrays(6)
     stat = np.zeros((6, 1, 1))
     stat[[0, 1, 3], 0, 0] = 5.0
     ids, stats = label_clusters(stat, threshold=1.0, indptr=indptr, indices=indices, min_neighbor_channels=1)
@@ -133,7 +132,7 @@ def test_collector_matches_reference_null(tail, min_neighbors):
     # reference: famwise.reference.clusters (t recomputed per row, scipy.sparse.csgraph labels)
     rng = np.random.default_rng(11)
     n, shape = 10, (6, 4, 15)
-    indptr, indices = ring(6)
+    indptr, indices = ring_arrays(6)
     data = ndimage.gaussian_filter(rng.standard_normal((n, *shape)), (0, 0, 0.8, 1.5)) + 0.3
     flips = np.vstack([np.ones(n), rng.choice([-1.0, 1.0], size=(20, n))])
     settings = dict(threshold=1.8, indptr=indptr, indices=indices, min_neighbor_channels=min_neighbors, tail=tail)
@@ -151,7 +150,7 @@ def test_collector_matches_reference_null(tail, min_neighbors):
 
 
 def test_collector_input_errors():
-    indptr, indices = ring(4)
+    indptr, indices = ring_arrays(4)
     good = dict(threshold=2.0, shape=(4, 2, 3), indptr=indptr, indices=indices)
     with pytest.raises(UserError, match="cluster-forming threshold must be a finite statistic value"):
         ClusterCollector(**{**good, "threshold": float("nan")})

@@ -4,7 +4,6 @@ import itertools
 
 import numpy as np
 import pytest
-import scipy.sparse as sp
 from scipy import ndimage
 from scipy.sparse.csgraph import connected_components
 
@@ -13,17 +12,11 @@ from famwise.errors import UserError
 from famwise.reference.clusters import one_sample_t, product_adjacency
 from famwise.reference.tfce import tfce_null_reference, tfce_reference
 
+from conftest import ring
+
+
 NO_CHANNELS = dict(indptr=np.array([0, 0], np.int32), indices=np.zeros(0, np.int32))
 BUMP = np.array([0, 0, 2, 2, 2, 2, 0, 0], dtype=float)[None, None, :]
-
-
-def ring(n_ch):
-    """CSR arrays of a ring of channels."""
-    rows = np.repeat(np.arange(n_ch), 2)
-    cols = np.ravel([[(c - 1) % n_ch, (c + 1) % n_ch] for c in range(n_ch)])
-    graph = sp.csr_matrix((np.ones(rows.size), (rows, cols)), shape=(n_ch, n_ch))
-    graph.sort_indices()
-    return dict(indptr=graph.indptr.astype(np.int32), indices=graph.indices.astype(np.int32))
 
 
 def brute_tfce(stat, graph, E=0.5, H=2.0, signs=(1, -1)):
