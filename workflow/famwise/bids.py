@@ -18,6 +18,7 @@ import csv
 import json
 import warnings
 from collections.abc import Sequence
+from typing import NamedTuple
 from pathlib import Path
 
 import edfio
@@ -131,14 +132,14 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
                         f"{stop_ms:g} ms")
     recordings = _find_recordings(Path(root), subject, task)
     runs = [_cut_epochs(path, subject, window_ms, labels) for path in recordings]
-    channels = _common_channels(runs, recordings, subject)
-    sfreqs = {run[1] for run in runs}
+    channels = _common_channels([run.channels for run in runs], recordings, subject)
+    sfreqs = {run.sfreq for run in runs}
     if len(sfreqs) > 1:
         raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} have different "
                         f"sampling rates {sorted(sfreqs)} Hz")
-    data = np.concatenate([data[:, [names.index(c) for c in channels]] for data, _, _, names, _ in runs])
-    names = np.concatenate([labels_of_run for *_, labels_of_run in runs])
-    sfreq, first_offset = runs[0][1], runs[0][2]
+    data = np.concatenate([run.data[:, [run.channels.index(c) for c in channels]] for run in runs])
+    names = np.concatenate([run.labels for run in runs])
+    sfreq, first_offset = runs[0].sfreq, runs[0].first_offset
     if reference == "average":
         data -= data.mean(axis=1, keepdims=True)
 
@@ -154,13 +155,19 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
                   channels=tuple(channels), labels=names[keep], rejected=rejected)
 
 
-def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], labels: set[str] | None):
-    """Epochs of one recording, each with its mean removed per channel.
+class _Cut(NamedTuple):
+    """Epochs of one recording: data (n_epochs, n_channels, n_samples) in volts, sfreq in Hz, offset of the
+    first sample from the event in samples, channel names, event labels (n_epochs,)."""
 
-    Returns (data (n_epochs, n_channels, n_samples) in volts, sfreq in Hz,
-    offset of the first sample from the event in samples, channel names,
-    event labels (n_epochs,)).
-    """
+    data: np.ndarray
+    sfreq: float
+    first_offset: int
+    channels: list[str]
+    labels: np.ndarray
+
+
+def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], labels: set[str] | None) -> _Cut:
+    """Epochs of one recording, each with its mean removed per channel."""
     start_ms, stop_ms = window_ms
     stem = recording.name.rsplit("_eeg.", 1)[0]
     events = _read_events(recording.parent / f"{stem}_events.tsv", subject, labels)
@@ -192,12 +199,11 @@ def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], l
                             f"samples (first at {first_bad:g} s) in {recording}")
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
-    return data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events])
+    return _Cut(data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))
 
 
-def _common_channels(runs, recordings: list[Path], subject: str) -> list[str]:
-    """Channels kept in every recording, in the first one's order; warns about the others."""
-    names = [run[3] for run in runs]
+def _common_channels(names: list[list[str]], recordings: list[Path], subject: str) -> list[str]:
+    """Channels kept in every recording (``names``: each one's), in the first one's order; warns about the others."""
     common = [c for c in names[0] if all(c in other for other in names[1:])]
     dropped = sorted({c for other in names for c in other} - set(common))
     if not common:
