@@ -155,7 +155,7 @@ def graph_section(run: Run, write: FigureWriter) -> str:
     caption = (f"<b>Channel neighbor graph.</b> {len(run.graph.channels)} channels, "
                f"{run.graph.n_edges} neighbor pairs; seen from above, nose up. Clusters grow "
                "only along these links.")
-    return (f'<h2 id="channels">Channel graph</h2>'
+    return ('<h2 id="channels">Channel graph</h2>'
             + write(fig, "channel_graph", caption=caption, alt="channel neighbor graph"))
 
 
@@ -347,7 +347,7 @@ def provenance_section(record: dict) -> str:
     files = [[name, info["bytes"], info["sha256"]] for name, info in record["input_files"].items()]
     masks = [[name, info["n_significant"], info["mask_sha256"]]
              for name, info in record.get("masks", {}).items()]
-    html = (f'<h2 id="provenance">Provenance</h2><p>A rerun of the same spec on the same inputs '
+    html = ('<h2 id="provenance">Provenance</h2><p>A rerun of the same spec on the same inputs '
             "gives the same provenance.json apart from the start and end times.</p>"
             + table(["item", "value"], [[k, "" if v is None else v] for k, v in rows]))
     if masks:
