@@ -210,7 +210,7 @@ def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: 
         Unit of the effect map.
     """
     points = cluster_points(correction, contrast, row)
-    noun = "region" if correction.threshold_kind == "tfce" else "cluster"  # TFCE: connected significant points
+    noun = correction.table_noun
     names = [c for c in str(row["channels"]).split(",") if c]
     members = np.array([c in set(names) for c in contrast.channels])
     if not members.any():

@@ -273,7 +273,7 @@ def _correction(contrast: Contrast, correction: Correction, entry: dict) -> str:
                 "cluster": "critical cluster statistic", "tfce": "critical TFCE value"}
         text += f" ({what.get(correction.threshold_kind, 'threshold')} {fmt(correction.threshold)})"
     if correction.clusters:
-        noun = "connected regions" if correction.threshold_kind == "tfce" else "clusters"
+        noun = "connected regions" if correction.table_noun == "region" else "clusters"
         text += f", in {len(correction.clusters)} {noun}"
     return text + "."
 

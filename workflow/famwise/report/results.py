@@ -64,6 +64,11 @@ class Correction:
     clusters: list[dict] = field(default_factory=list)
     cluster_columns: dict = field(default_factory=dict)
 
+    @property
+    def table_noun(self) -> str:
+        """What a row of clusters.tsv is: "region" for TFCE (connected significant points), else "cluster"."""
+        return "region" if self.threshold_kind == "tfce" else "cluster"
+
 
 @dataclass(frozen=True)
 class Contrast:

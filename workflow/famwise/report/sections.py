@@ -234,7 +234,7 @@ def cluster_block(contrast: Contrast, correction: Correction, spec: dict, study:
     rows = [[row[c] for c in columns] for row in shown]
     classes = ["significant" if float(row["p"]) <= alpha else "" for row in shown]
     ident = anchor(contrast.name, correction.name, "clusters")
-    noun = "region" if correction.threshold_kind == "tfce" else "cluster"  # TFCE: connected significant points
+    noun = correction.table_noun
     html = (f"<h4>{noun.capitalize()}s: {len(significant)} of {len(correction.clusters)} with p ≤ "
             f"{fmt(alpha)} (bold)</h4>"
             + table(columns, rows, titles=titles, row_classes=classes,
