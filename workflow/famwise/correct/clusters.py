@@ -305,13 +305,10 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
     p_lookup[ids + offset] = p_values
     flat_id = cluster_id.ravel()
     p_map = p_lookup[flat_id + offset].reshape(cluster_id.shape)
-    order = np.argsort(flat_id, kind="stable")  # points grouped by cluster, in memory order within each
-    starts = np.searchsorted(flat_id[order], ids, side="left")
-    stops = np.searchsorted(flat_id[order], ids, side="right")
-    rows = [cluster_row(i, statistics[i], p, np.unravel_index(order[start:stop], cluster_id.shape), observed_stat,
-                      channels, freqs, times)
-            for i, p, start, stop in zip(ids.tolist(), p_values.tolist(), starts, stops)]
-    rows.sort(key=lambda row: (row["p"], -row["statistic"], row["id"] < 0, abs(row["id"])))
+    rows = [cluster_row(i, statistics[i], p, np.unravel_index(points, cluster_id.shape), observed_stat,
+                        channels, freqs, times)
+            for i, p, points in zip(ids.tolist(), p_values.tolist(), points_by_label(flat_id, ids))]
+    rows.sort(key=table_order)
     return CorrectionResult(
         method="cluster", p_corrected=p_map, mask=p_map <= alpha, threshold=critical_value(null_max, alpha),
         threshold_kind="cluster", maps={"cluster_id": cluster_id}, clusters=rows, null=null_max,
@@ -324,6 +321,20 @@ def _check_axes(shape, channels, freqs, times):
     if (len(channels), len(freqs), len(times)) != tuple(shape):
         raise ValueError(f"observed map of shape {shape} does not match {len(channels)} channels, "
                          f"{len(freqs)} frequencies and {len(times)} times")
+
+
+def points_by_label(flat_labels, ids):
+    """Flat indices of the points of each label in ``ids`` (one int array each, in memory order)."""
+    order = np.argsort(flat_labels, kind="stable")
+    grouped = flat_labels[order]
+    starts = np.searchsorted(grouped, ids, side="left")
+    stops = np.searchsorted(grouped, ids, side="right")
+    return [order[start:stop] for start, stop in zip(starts, stops)]
+
+
+def table_order(row):
+    """Sort key of cluster-table rows: by p, then descending statistic, positive before negative, by number."""
+    return row["p"], -row["statistic"], row["id"] < 0, abs(row["id"])
 
 
 def cluster_row(cluster, statistic, p, where, stat, channels, freqs, times):

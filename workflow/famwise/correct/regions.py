@@ -18,7 +18,8 @@ inference. NeuroImage 44(1):83-98.
 
 import numpy as np
 
-from famwise.correct.clusters import CLUSTER_SIDECAR, DIMS, cluster_row, label_clusters
+from famwise.correct.clusters import CLUSTER_SIDECAR, DIMS, cluster_row, label_clusters, points_by_label, \
+    table_order
 
 REGION_SIDECAR = CLUSTER_SIDECAR | {
     "id": {"Description": "Region number as in the cluster_id map: positive regions 1, 2, ..., negative "
@@ -66,15 +67,10 @@ def significant_regions(enhanced, p_corrected, mask, stat, *, indptr, indices, d
     labels, _ = label_clusters(significant, threshold=0.0, indptr=indptr, indices=indices, dims=dims,
                                cluster_stat="size")
     flat = labels.ravel()
-    order = np.argsort(flat, kind="stable")  # points grouped by label, in memory order within each
     ids = np.unique(flat[flat != 0])
-    starts = np.searchsorted(flat[order], ids, side="left")
-    stops = np.searchsorted(flat[order], ids, side="right")
     magnitude, p_flat = np.abs(enhanced).ravel(), np.asarray(p_corrected, dtype=np.float64).ravel()
-    regions = []
-    for ident, start, stop in zip(ids.tolist(), starts, stops):
-        points = order[start:stop]
-        regions.append((ident, float(magnitude[points].max()), float(p_flat[points].min()), points))
+    regions = [(ident, float(magnitude[points].max()), float(p_flat[points].min()), points)
+               for ident, points in zip(ids.tolist(), points_by_label(flat, ids))]
     region_id = np.zeros(flat.size, np.int32)
     rows = []
     for sign in (1, -1):
@@ -83,5 +79,5 @@ def significant_regions(enhanced, p_corrected, mask, stat, *, indptr, indices, d
             region_id[points] = sign * k
             rows.append(cluster_row(sign * k, peak, p, np.unravel_index(points, labels.shape), stat, channels,
                                     freqs, times))
-    rows.sort(key=lambda row: (row["p"], -row["statistic"], row["id"] < 0, abs(row["id"])))
+    rows.sort(key=table_order)
     return region_id.reshape(labels.shape), rows
