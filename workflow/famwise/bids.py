@@ -80,7 +80,7 @@ def read_channel_names(root: Path, subject: str, *, task: str | None = None) -> 
         table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
         edf = _open_recording(recording, subject)
         kept.append([signal.label for signal in _kept_signals(edf, table, recording, subject)])
-    return [c for c in kept[0] if all(c in other for other in kept[1:])]
+    return _shared(kept)
 
 
 def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float],
@@ -204,7 +204,7 @@ def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], l
 
 def _common_channels(names: list[list[str]], recordings: list[Path], subject: str) -> list[str]:
     """Channels kept in every recording (``names``: each one's), in the first one's order; warns about the others."""
-    common = [c for c in names[0] if all(c in other for other in names[1:])]
+    common = _shared(names)
     dropped = sorted({c for other in names for c in other} - set(common))
     if not common:
         raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} share no good "
@@ -213,6 +213,11 @@ def _common_channels(names: list[list[str]], recordings: list[Path], subject: st
         warnings.warn(f"subject {subject}: channels {dropped} are not good in every recording "
                       f"({_listing(recordings)}) and are left out", FamwiseWarning, stacklevel=3)
     return common
+
+
+def _shared(names: list[list[str]]) -> list[str]:
+    """The names in every list, in the first list's order."""
+    return [c for c in names[0] if all(c in other for other in names[1:])]
 
 
 def _listing(recordings: list[Path]) -> str:
