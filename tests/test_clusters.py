@@ -9,8 +9,9 @@ import scipy.sparse as sp
 from scipy import ndimage, stats
 from scipy.sparse.csgraph import connected_components
 
-from famwise.correct.clusters import CLUSTER_COLUMNS, ClusterCollector, cluster_inference, write_cluster_table
+from famwise.correct.clusters import CLUSTER_COLUMNS, cluster_inference, write_cluster_table
 from famwise.errors import UserError
+from famwise.nulls.collectors.largest_cluster import ClusterCollector
 
 from conftest import ring
 
@@ -116,7 +117,8 @@ def test_inference_input_errors():
 
 def null_rejections(n_datasets, seed, n_rows=100, alpha=0.05):
     """Family-wise rejections of cluster and TFCE inference on smooth null data (Monte Carlo sign flips)."""
-    from famwise.correct.tfce import TFCECollector, tfce_inference
+    from famwise.correct.tfce import tfce_inference
+    from famwise.nulls.collectors.largest_tfce import TFCECollector
 
     rng = np.random.default_rng(seed)
     n, shape, graph = 12, (6, 4, 16), ring(6)

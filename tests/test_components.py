@@ -6,8 +6,9 @@ import scipy.sparse as sp
 from scipy import ndimage
 from scipy.sparse.csgraph import connected_components
 
-from famwise.correct.clusters import ClusterCollector, label_clusters
+from famwise.correct.clusters import label_clusters
 from famwise.errors import UserError
+from famwise.nulls.collectors.largest_cluster import ClusterCollector
 from famwise.reference.clusters import cluster_labels_reference, cluster_null_reference, one_sample_t
 
 from conftest import ring

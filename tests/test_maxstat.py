@@ -3,15 +3,9 @@
 import numpy as np
 import pytest
 
-from famwise.collectors import merge_shard_arrays
-from famwise.correct.maxstat import (
-    MaxStatCollector,
-    StepDownCollector,
-    single_step,
-    single_step_family,
-    step_down,
-    step_down_family,
-)
+from famwise.correct.maxstat import single_step, single_step_family, step_down, step_down_family
+from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
+from famwise.nulls.collectors.protocol import merge_shard_arrays
 from famwise.errors import UserError
 from famwise.reference.stepdown import step_down_reference
 

@@ -11,8 +11,9 @@ import pytest
 import scipy.ndimage
 import scipy.stats
 
-from famwise.correct.maxstat import MaxStatCollector, StepDownCollector, single_step, step_down
+from famwise.correct.maxstat import single_step, step_down
 from famwise.correct.pvalues import adjust
+from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
 
 ALPHA = 0.05
 

@@ -9,19 +9,11 @@ import pytest
 from scipy import stats as sps
 
 from famwise.errors import FamwiseWarning, UserError
+from famwise.nulls.collectors.exceedance import ExceedanceCollector, permutation_p
+from famwise.nulls.collectors.maxima import MaxStatCollector
+from famwise.nulls.engine import iter_null_blocks, run_shard, run_shards
+from famwise.nulls.tables import check_attainable, make_table, shard_bounds, smallest_attainable_p
 from famwise.reference.stats import null_stats
-from famwise.correct.maxstat import MaxStatCollector
-from famwise.resample import (
-    ExceedanceCollector,
-    check_attainable,
-    iter_null_blocks,
-    make_table,
-    permutation_p,
-    run_shard,
-    run_shards,
-    shard_bounds,
-    smallest_attainable_p,
-)
 from famwise.stats import compute
 
 RNG = np.random.default_rng(4)
@@ -386,7 +378,7 @@ def test_sign_flip_t_scale_free(scale):
 
 
 def test_integer_grid_makes_flip_sums_exact():
-    from famwise.stats.resampled import integer_grid
+    from famwise.nulls.engine import integer_grid
 
     x = np.random.default_rng(3).standard_normal((24, 50)) * np.logspace(-30, 30, 50)
     grid = integer_grid(x)
@@ -412,7 +404,7 @@ def test_reused_output_buffer_gives_the_same_blocks(name):
 @pytest.mark.parametrize("name", ["one-sample t", "two-sample student", "two-sample welch"])
 def test_point_tiles_and_subject_groups_do_not_change_the_null(monkeypatch, name):
     # exact integer sums: any tiling of the points and any grouping of the subjects gives the same bits
-    import famwise.stats.resampled as resampled
+    import famwise.nulls.engine as resampled
 
     options = DESIGNS[name]
     table = design_table(options, permutations=50)
@@ -429,7 +421,7 @@ def test_point_tiles_and_subject_groups_do_not_change_the_null(monkeypatch, name
 def test_subset_sum_t_equals_the_product_formula_bit_for_bit(monkeypatch, n):
     # The sign-flip kernel's table sums against t computed here from signs @ grid (exact integers) with
     # the kernel's float32 arithmetic; grouping subjects by 3 instead of 4 changes nothing (common practice, no source)
-    import famwise.stats.resampled as resampled
+    import famwise.nulls.engine as resampled
 
     rng = np.random.default_rng(n)
     x = rng.standard_normal((n, 2500)) * np.exp(rng.standard_normal(2500))

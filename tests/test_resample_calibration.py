@@ -4,7 +4,9 @@ import numpy as np
 import pytest
 from scipy import stats as sps
 
-from famwise.resample import ExceedanceCollector, make_table, permutation_p, run_shard
+from famwise.nulls.collectors.exceedance import ExceedanceCollector, permutation_p
+from famwise.nulls.engine import run_shard
+from famwise.nulls.tables import make_table
 from famwise.stats import compute
 
 ALPHA = 0.05

@@ -7,8 +7,9 @@ import pytest
 from scipy import ndimage
 from scipy.sparse.csgraph import connected_components
 
-from famwise.correct.tfce import TFCECollector, tfce_inference, tfce_map
+from famwise.correct.tfce import tfce_inference, tfce_map
 from famwise.errors import UserError
+from famwise.nulls.collectors.largest_tfce import TFCECollector
 from famwise.reference.clusters import one_sample_t, product_adjacency
 from famwise.reference.tfce import tfce_null_reference, tfce_reference
 

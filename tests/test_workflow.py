@@ -117,7 +117,8 @@ def test_all_contrasts_family_equals_brute_force(tmp_path):
     and Holm over the concatenated parametric p (statsmodels.stats.multitest.multipletests)."""
     from famwise.design import load_contrast
     from famwise.reference.stepdown import step_down_reference
-    from famwise.resample import iter_null_blocks, make_table
+    from famwise.nulls.engine import iter_null_blocks
+    from famwise.nulls.tables import make_table
 
     spec = write_tiny_study(tmp_path, n_subjects=6, corrections="- method: holm\n- method: max-stat\n  step_down: true\n")
     text = spec.read_text().replace("  shards: 2\n", "  shards: 2\n  family: all-contrasts\n")

@@ -154,7 +154,7 @@ def run_contrast_data(args, settings: dict) -> None:
 def run_observed(args, settings: dict) -> None:
     """Contrast data -> ``contrasts/<c>/observed.npz``."""
     from famwise.design import load_contrast
-    from famwise.nulls import identity_statistic
+    from famwise.nulls.shard import identity_statistic
     from famwise.stats import compute
 
     data = load_contrast(Path(args.subjects))
@@ -176,7 +176,7 @@ def run_observed(args, settings: dict) -> None:
 
 def run_null_shard(args, settings: dict) -> None:
     """Contrast data + observed -> ``contrasts/<c>/nulls/shard-<k>.npz``."""
-    from famwise.nulls import null_shard
+    from famwise.nulls.shard import null_shard
 
     arrays = null_shard(
         Path(args.subjects), Path(args.observed), Path(args.graph) if args.graph.strip() else None,
@@ -187,7 +187,7 @@ def run_null_shard(args, settings: dict) -> None:
 
 def run_family_stepdown_shard(args, settings: dict) -> None:
     """Every contrast's data + observed -> ``family/<correction>/shard-<k>.npz`` (joint step-down)."""
-    from famwise.nulls import family_stepdown_shard
+    from famwise.nulls.shard import family_stepdown_shard
 
     arrays = family_stepdown_shard(
         [Path(p) for p in args.subjects.split()], [Path(p) for p in args.observed.split()],
@@ -198,7 +198,7 @@ def run_family_stepdown_shard(args, settings: dict) -> None:
 
 def run_null_info(args, settings: dict) -> None:
     """Contrast data -> ``contrasts/<c>/nulls/info.json`` (size of the permutation table)."""
-    from famwise.nulls import permutation_info
+    from famwise.nulls.shard import permutation_info
 
     write_json(Path(args.out), permutation_info(Path(args.subjects), settings=settings))
 

@@ -164,7 +164,7 @@ class Plan:
 
     def attainability_warnings(self) -> list[str]:
         """One line per contrast whose permutation table cannot reach alpha (naming the smallest p)."""
-        from famwise.resample import make_table, smallest_attainable_p
+        from famwise.nulls.tables import make_table, smallest_attainable_p
 
         inference = self.study.inference
         if not inference.needs_null:

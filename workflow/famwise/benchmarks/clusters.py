@@ -10,16 +10,16 @@ of the permutations and extrapolated linearly.
 
 import time
 
-import numba
 import numpy as np
 from scipy import ndimage, stats
 
 from famwise.benchmarks import BenchRow
-from famwise.correct.clusters import ClusterCollector
-from famwise.correct.tfce import TFCECollector
+from famwise.kernels._jit import thread_count
+from famwise.nulls.collectors.largest_cluster import ClusterCollector
+from famwise.nulls.collectors.largest_tfce import TFCECollector
+from famwise.nulls.engine import iter_null_blocks
 from famwise.reference.clusters import cluster_null_reference
 from famwise.reference.tfce import tfce_null_reference
-from famwise.resample import iter_null_blocks
 
 N_SUBJECTS, SHAPE = 24, (64, 30, 150)
 BLOCK = 64
@@ -77,7 +77,7 @@ def bench_clusters(quick: bool) -> list[BenchRow]:
     data = _data()
     flat = np.ascontiguousarray(data.reshape(N_SUBJECTS, -1))
     size = f"{N_SUBJECTS} subjects x 64 channels x 30 freqs x 150 times"
-    threads = numba.get_num_threads()
+    threads = thread_count()
     rows = []
 
     n_perm, n_ref = (200, 2) if quick else (2000, 10)

@@ -6,9 +6,10 @@ import tracemalloc
 import numpy as np
 
 from famwise.benchmarks import BenchRow
-from famwise.correct.maxstat import StepDownCollector, step_down
+from famwise.correct.maxstat import step_down
+from famwise.nulls.collectors.maxima import StepDownCollector
+from famwise.nulls.engine import iter_null_blocks
 from famwise.reference.stepdown import step_down_reference
-from famwise.resample import iter_null_blocks
 
 _N_SUBJECTS = 24
 _BLOCK_ROWS = 64
@@ -114,7 +115,7 @@ def _step_down_from_blocks(blocks, n_rows):
 
 def _t_blocks(data, flips):
     """One-sample t maps (rows, n_points), float32, of sign-flipped ``data`` (n_subjects, n_points), block
-    by block: the permutation engine of the pipeline's null jobs (`famwise.resample.iter_null_blocks`)."""
+    by block: the permutation engine of the pipeline's null jobs (`famwise.nulls.engine.iter_null_blocks`)."""
     yield from iter_null_blocks(data, flips.astype(np.int8), test="one-sample", block_size=_BLOCK_ROWS,
                                 reuse_output=True)
 

@@ -45,8 +45,9 @@ from famwise.atomic import save_npz
 from famwise.calibrate.settings import UNCORRECTED
 from famwise.correct.apply import apply_correction
 from famwise.design import ContrastData, load_contrast
-from famwise.nulls import identity_statistic, load_graph_arrays, make_collectors, table_for
-from famwise.resample import run_shard, shard_bounds
+from famwise.nulls.engine import run_shard
+from famwise.nulls.shard import identity_statistic, load_graph_arrays, make_collectors, table_for
+from famwise.nulls.tables import shard_bounds
 from famwise.stats import compute
 
 STREAM = 0xCA11

@@ -12,11 +12,11 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise.collectors import merge_shard_arrays
 from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.atomic import save_npz
+from famwise.nulls.collectors.protocol import merge_shard_arrays
 
 
 def _load(path: Path) -> dict[str, np.ndarray]:
@@ -111,7 +111,7 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
         dims = tuple(correction["dims"])
         if method == "cluster":
             from famwise.correct import clusters  # numba kernels: imported only when used
-            from famwise.correct.forming import cluster_threshold
+            from famwise.stats.forming import cluster_threshold
 
             result = clusters.cluster_inference(
                 mine["stat"], max_null, threshold=cluster_threshold(settings["forming"], mine), indptr=indptr, indices=indices,

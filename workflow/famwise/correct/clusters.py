@@ -28,17 +28,14 @@ import json
 import math
 import os
 
-import numba
 import numpy as np
 
 from famwise.atomic import write_text
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
-from famwise.kernels.components import _cluster_max_block, _cluster_roots
+from famwise.kernels.components import _cluster_roots
+from famwise.nulls.collectors.kernel_inputs import DIMS, check_cluster_settings, check_dims, check_graph, tail_code
 
-DIMS = ("channel", "freq", "time")
-TAILS = {"two-sided": 0, "greater": 1, "less": 2}
-CLUSTER_STATS = ("mass", "size")
 # Ties within this relative tolerance count as reaching the observed value, so
 # rounding differences between the observed map and a permuted copy of it
 # (e.g. the all-flipped row of an exact enumeration) never split a tie.
@@ -70,64 +67,10 @@ CLUSTER_SIDECAR = {
 }
 
 
-def check_graph(shape, indptr, indices):
-    """Validate the grid shape and channel graph; return (shape, indptr, indices) as kernel inputs."""
-    if len(shape) != 3 or any(int(n) < 1 for n in shape):
-        raise UserError(f"the map shape must be (n_channels, n_freqs, n_times) with positive sizes, got {shape}")
-    n_ch = int(shape[0])
-    indptr = np.ascontiguousarray(indptr, dtype=np.int32)
-    indices = np.ascontiguousarray(indices, dtype=np.int32)
-    if indptr.shape != (n_ch + 1,) or indptr[0] != 0 or indptr[-1] != len(indices) or np.any(np.diff(indptr) < 0):
-        raise UserError(f"the channel neighbor graph must be CSR arrays for {n_ch} channels "
-                        f"(indptr of length {n_ch + 1}, from 0 to len(indices)), got indptr of length {len(indptr)}")
-    if len(indices) and (indices.min() < 0 or indices.max() >= n_ch):
-        raise UserError(f"the channel neighbor graph names channel index {int(indices.max())} "
-                        f"but there are {n_ch} channels")
-    rows = np.repeat(np.arange(n_ch), np.diff(indptr))
-    if np.any(rows == indices):
-        raise UserError(f"the channel neighbor graph has a self loop at channel {int(rows[rows == indices][0])}")
-    edges = set(zip(rows.tolist(), indices.tolist()))
-    missing = next(((a, b) for a, b in edges if (b, a) not in edges), None)
-    if missing is not None:
-        raise UserError(f"the channel neighbor graph is not symmetric: {missing[0]} -> {missing[1]} "
-                        f"has no reverse edge")
-    return tuple(int(n) for n in shape), indptr, indices
-
-
-def check_dims(dims):
-    """Validate ``dims``; return (link_channel, link_freq, link_time)."""
-    dims = tuple(dims)
-    if not dims or len(set(dims)) != len(dims) or not set(dims) <= set(DIMS):
-        raise UserError(f"cluster dims must be distinct names from {list(DIMS)}, got {list(dims)}")
-    return "channel" in dims, "freq" in dims, "time" in dims
-
-
-def check_tail(tail):
-    """Validate ``tail``; return its kernel code."""
-    if tail not in TAILS:
-        raise UserError(f"tail must be one of {list(TAILS)}, got {tail!r}")
-    return TAILS[tail]
-
-
 def check_alpha(alpha):
     """Validate the family-wise level."""
     if not 0.0 < alpha < 1.0:
         raise UserError(f"alpha must be between 0 and 1, got {alpha}")
-
-
-def statistic_block(stats, shape):
-    """A collector's block as C-contiguous float32 or float64 (n_rows, n_points of ``shape``).
-
-    float32 stays float32 (the kernels promote each value exactly); other
-    dtypes become float64. A block of another width raises ValueError.
-    """
-    stats = np.ascontiguousarray(stats)
-    if stats.dtype not in (np.float32, np.float64):
-        stats = stats.astype(np.float64)
-    n_pts = math.prod(shape)
-    if stats.ndim != 2 or stats.shape[1] != n_pts:
-        raise ValueError(f"expected a block of shape (rows, {n_pts}), got {stats.shape}")
-    return stats
 
 
 def count_at_least(null, values):
@@ -148,75 +91,6 @@ def critical_value(null, alpha):
     return float(ordered[min(int(math.floor(alpha * len(ordered) + 1e-9)), len(ordered) - 1)])
 
 
-def _check_cluster_settings(threshold, cluster_stat, min_neighbor_channels):
-    if not (math.isfinite(threshold) and threshold >= 0):
-        raise UserError(f"the cluster-forming threshold must be a finite statistic value >= 0, got {threshold}")
-    if cluster_stat not in CLUSTER_STATS:
-        raise UserError(f"cluster_stat must be one of {list(CLUSTER_STATS)}, got {cluster_stat!r}")
-    if int(min_neighbor_channels) != min_neighbor_channels or min_neighbor_channels < 0:
-        raise UserError(f"min_neighbor_channels must be a whole number >= 0, got {min_neighbor_channels}")
-
-
-class ClusterCollector:
-    """Null collector: the largest cluster statistic of every table row.
-
-    Parameters
-    ----------
-    threshold : float
-        Cluster-forming threshold as a statistic value (>= 0); see the module
-        docstring for how tails use it.
-    shape : tuple of int
-        (n_channels, n_freqs, n_times).
-    indptr, indices : ndarray of int
-        Channel neighbor graph (CSR, symmetric, no self loops).
-    dims : tuple of str
-        Dimensions clustering connects over, from ("channel", "freq", "time").
-    cluster_stat : {"mass", "size"}
-    min_neighbor_channels : int
-    tail : {"two-sided", "greater", "less"}
-    key : str
-        Prefix of the stored arrays.
-
-    Notes
-    -----
-    ``arrays()`` gives ``{"<key>.max": float64 (n_rows,)}`` in row order; each
-    row's value depends on that row alone, so any block split gives the same
-    array.
-    """
-
-    def __init__(self, *, threshold, shape, indptr, indices, dims=DIMS, cluster_stat="mass",
-                 min_neighbor_channels=0, tail="two-sided", key="cluster"):
-        _check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
-        self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
-        self._links = check_dims(dims)
-        self._tail_code = check_tail(tail)
-        self._threshold = float(threshold)
-        self._use_mass = cluster_stat == "mass"
-        self._min_neighbors = int(min_neighbor_channels)
-        self._key = key
-        self._parts = []
-        self._workspace = None
-
-    def update(self, stats):
-        """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = statistic_block(stats, self._shape)
-        n_pts = stats.shape[1]
-        out = np.empty(stats.shape[0])
-        if stats.shape[0]:
-            n_chunks = min(stats.shape[0], numba.get_num_threads())
-            if self._workspace is None or len(self._workspace[0]) < n_chunks:  # reused by every block
-                self._workspace = (np.empty((n_chunks, 2, n_pts), np.int8), np.empty((n_chunks, 2, n_pts), np.int32),
-                                   np.empty((n_chunks, n_pts), np.float64))
-            _cluster_max_block(stats, self._threshold, self._tail_code, *self._shape, self._indptr,
-                               self._indices, *self._links, self._use_mass, self._min_neighbors, n_chunks,
-                               *self._workspace, out)
-        self._parts.append(out)
-
-    def arrays(self):
-        """``{"<key>.max": float64 (n_rows,)}``."""
-        return {f"{self._key}.max": np.concatenate(self._parts) if self._parts else np.empty(0)}
-
-
 def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
                    min_neighbor_channels=0, tail="two-sided"):
     """Cluster labels of one map, numbered by descending statistic within each sign.
@@ -231,15 +105,15 @@ def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat=
         0 outside clusters, +k for the k-th positive cluster, -k for the k-th
         negative cluster.
     statistics : dict of int to float
-        Cluster statistic of each id (same arithmetic as ``ClusterCollector``).
+        Cluster statistic of each id (same arithmetic as the null's ``ClusterCollector``).
     """
-    _check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+    check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
     stat = np.ascontiguousarray(stat, dtype=np.float64)
     shape, indptr, indices = check_graph(stat.shape, indptr, indices)
     flat = stat.ravel()
     parent = np.empty(flat.size, np.int32)
     acc = np.empty(flat.size, np.float64)
-    _cluster_roots(flat, float(threshold), check_tail(tail), *shape, indptr, indices, *check_dims(dims),
+    _cluster_roots(flat, float(threshold), tail_code(tail), *shape, indptr, indices, *check_dims(dims),
                    cluster_stat == "mass", int(min_neighbor_channels), parent, acc)
     roots = np.flatnonzero(parent == np.arange(flat.size))
     lookup = np.zeros(flat.size, np.int32)
@@ -266,7 +140,7 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
     null_max : ndarray, shape (n_rows,)
         Largest cluster statistic of every permutation-table row (row 0 = identity).
     threshold, indptr, indices, dims, cluster_stat, min_neighbor_channels, tail
-        As given to ``ClusterCollector``.
+        As given to ``famwise.nulls.collectors.largest_cluster.ClusterCollector``.
     alpha : float
         Family-wise level.
     channels : list of str

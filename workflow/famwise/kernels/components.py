@@ -13,11 +13,12 @@ points, linking each selected point to its already visited neighbors.
 1 greater (stat > thr only), 2 less (stat < -thr only).
 """
 
-import numba as nb
 import numpy as np
 
+from famwise.kernels._jit import jit, jit_parallel, prange
 
-@nb.njit(cache=True, nogil=True)
+
+@jit
 def _find(parent, p):
     """Root of ``p`` with path halving."""
     while parent[p] != p:
@@ -26,7 +27,7 @@ def _find(parent, p):
     return p
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _mark_signs(stat, threshold, tail_code, sign):
     """sign[p] = +1 / -1 for supra-threshold points of the allowed tails, else 0."""
     for p in range(stat.shape[0]):
@@ -39,7 +40,7 @@ def _mark_signs(stat, threshold, tail_code, sign):
         sign[p] = s
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _drop_isolated(sign, kept, n_ch, n_ft, indptr, indices, min_neighbors):
     """kept = sign where at least ``min_neighbors`` neighbor channels share the sign at the same (f, t)."""
     for c in range(n_ch):
@@ -56,7 +57,7 @@ def _drop_isolated(sign, kept, n_ch, n_ft, indptr, indices, min_neighbors):
             kept[p] = s if count >= min_neighbors else 0
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _union_components(sign, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t, parent, selected):
     """Union-find over the signed points; returns their count n.
 
@@ -93,7 +94,7 @@ def _union_components(sign, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, li
     return n
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _link(parent, p, q):
     """Join the components of p and q; the smaller root index becomes the root."""
     rp = _find(parent, p)
@@ -104,7 +105,7 @@ def _link(parent, p, q):
         parent[rp] = rq
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _component_sums(stat, parent, selected, n, use_mass, acc):
     """acc[root] = cluster statistic (sum of |stat| or count), summed in point order; returns the largest."""
     for i in range(n):
@@ -120,7 +121,7 @@ def _component_sums(stat, parent, selected, n, use_mass, acc):
     return best
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _label_row(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
                use_mass, min_neighbors, sign, kept, parent, selected, acc):
     """Components of one map: fills parent (roots of the selected points) and acc; returns the largest
@@ -133,7 +134,7 @@ def _label_row(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link
     return _component_sums(stat, parent, selected, n, use_mass, acc)
 
 
-@nb.njit(cache=True, parallel=True)
+@jit_parallel
 def _cluster_max_block(stats, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f,
                        link_t, use_mass, min_neighbors, n_chunks, signs, ints, accs, out):
     """Largest cluster statistic of each row of ``stats`` (n_rows, n_points) into ``out`` (n_rows,).
@@ -144,14 +145,14 @@ def _cluster_max_block(stats, threshold, tail_code, n_ch, n_f, n_t, indptr, indi
     n_points); every row's result is independent of the split.
     """
     n_rows = stats.shape[0]
-    for chunk in nb.prange(n_chunks):
+    for chunk in prange(n_chunks):
         for row in range(chunk * n_rows // n_chunks, (chunk + 1) * n_rows // n_chunks):
             out[row] = _label_row(stats[row], threshold, tail_code, n_ch, n_f, n_t, indptr, indices,
                                   link_ch, link_f, link_t, use_mass, min_neighbors, signs[chunk, 0],
                                   signs[chunk, 1], ints[chunk, 0], ints[chunk, 1], accs[chunk])
 
 
-@nb.njit(cache=True)
+@jit
 def _cluster_roots(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
                    use_mass, min_neighbors, parent, acc):
     """Components of one map, with the same arithmetic as ``_cluster_max_block``.

@@ -1,6 +1,6 @@
 """Naive permutation nulls: build each permuted data set, recompute the statistic.
 
-The oracle of the fast paths in `famwise.stats.resampled` and the baseline of
+The oracle of the fast paths in `famwise.nulls.engine` and the baseline of
 `famwise bench`. Statistics come from ``scipy.stats`` where it has them and
 from the textbook formulas otherwise; nothing is shared with famwise.stats.
 """

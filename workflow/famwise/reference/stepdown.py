@@ -1,6 +1,6 @@
 """Brute-force Westfall-Young step-down with every permutation map held in memory.
 
-The oracle for ``famwise.correct.maxstat.StepDownCollector`` + ``step_down``
+The oracle for ``famwise.nulls.collectors.maxima.StepDownCollector`` + ``step_down``
 and the baseline of the step-down benchmark. It walks the points one at a
 time from the least significant upward, keeping the successive maximum of
 every permutation row, exactly as the algorithm is written out in Westfall &

@@ -1,8 +1,8 @@
 """Group test statistics per point: t, Welch t, Yuen's trimmed t, F and r.
 
 `compute` gives the observed statistic with its parametric p and effect size;
-`famwise.stats.resampled` gives the same statistics for blocks of permuted
-data sets (the fast paths of the permutation engine in `famwise.resample`).
+`famwise.nulls.engine` gives the same statistics for blocks of permuted data
+sets (the fast paths of the permutation engine).
 """
 
 from famwise.stats.group import (

@@ -21,7 +21,7 @@ from famwise.errors import FamwiseWarning, UserError
 from famwise.timefreq import baseline as _baseline
 from famwise.timefreq import multitaper as _mt
 from famwise.timefreq import wavelets as _wl
-from famwise.timefreq._power import _add_mean_power, _add_trial_power
+from famwise.kernels.tf_power import _add_mean_power, _add_trial_power
 from famwise.timefreq.maps import TimeFreqMaps
 
 METHODS = ("morlet", "multitaper")

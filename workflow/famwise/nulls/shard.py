@@ -1,4 +1,4 @@
-"""Null stage: one shard of the permutation table through every correction's collector.
+"""The shard runner: one shard of the permutation table through every correction's collector.
 
 The permutation table comes from the seed and the contrast's design; shard
 ``k`` takes its row range, so the merged null is bit-identical whatever the
@@ -10,10 +10,12 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise.correct.forming import cluster_threshold
-from famwise.correct.maxstat import MaxStatCollector, StepDownCollector
 from famwise.design import ContrastData, load_contrast
-from famwise.resample import ExceedanceCollector, iter_null_blocks, make_table, run_shard, shard_bounds, smallest_attainable_p
+from famwise.nulls.collectors.exceedance import ExceedanceCollector
+from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
+from famwise.nulls.engine import iter_null_blocks, run_shard
+from famwise.nulls.tables import make_table, shard_bounds, smallest_attainable_p
+from famwise.stats.forming import cluster_threshold
 
 
 def table_for(data: ContrastData, *, settings: dict):
@@ -78,7 +80,7 @@ def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: t
             collectors.append(MaxStatCollector(tail=tail, key=key))
             collectors.append(StepDownCollector(stat, tail=tail, key=key))
         elif kind == "cluster":
-            from famwise.correct.clusters import ClusterCollector  # numba kernels: imported only when used
+            from famwise.nulls.collectors.largest_cluster import ClusterCollector  # numba kernels: imported only when used
 
             collectors.append(
                 ClusterCollector(
@@ -88,7 +90,7 @@ def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: t
                 )
             )
         elif kind == "tfce":
-            from famwise.correct.tfce import TFCECollector
+            from famwise.nulls.collectors.largest_tfce import TFCECollector
 
             collectors.append(
                 TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=tuple(spec["dims"]), E=spec["E"], H=spec["H"], step=spec["step"], tail=tail, key=key)

@@ -1,10 +1,11 @@
-"""numba kernels: power of complex coefficients summed over epochs in one pass."""
+"""numba kernels of the time-frequency decomposition: power of complex coefficients summed over epochs in one pass."""
 
-import numba
 import numpy as np
 
+from famwise.kernels._jit import jit
 
-@numba.njit(cache=True)
+
+@jit
 def _add_mean_power(coef: np.ndarray, row_start: int, row_stop: int, t_start: int, t_step: int,
                     weight: float, out: np.ndarray) -> None:
     """out[f, j] += weight * mean over rows r of |coef[r, f, t_start + j t_step]|^2.
@@ -20,7 +21,7 @@ def _add_mean_power(coef: np.ndarray, row_start: int, row_stop: int, t_start: in
                 out[f, j] += scale * (v.real * v.real + v.imag * v.imag)
 
 
-@numba.njit(cache=True)
+@jit
 def _add_trial_power(coef: np.ndarray, row_start: int, t_start: int, t_step: int,
                      weight: float, out: np.ndarray) -> None:
     """out[r, f, j] += weight * |coef[row_start + r, f, t_start + j t_step]|^2.

@@ -1,10 +1,10 @@
-"""Permutation tables, shards, the null-block engine and permutation p-values.
+"""Permutation tables, their shards and the smallest attainable permutation p.
 
 One permutation table per contrast is generated from the seed; row 0 is
 always the identity (the observed data). Shard k of K runs rows
 [k m, (k + 1) m) with m = ceil(n_rows / K). Each row's statistic is computed
 the same way whatever the shard, block or thread (see
-`famwise.stats.resampled`), so merged nulls are bit-identical for any number
+`famwise.nulls.engine`), so merged nulls are bit-identical for any number
 of shards or cores.
 
 Schemes: sign flips (one-sample, paired: under H0 each subject's map is
@@ -12,8 +12,8 @@ symmetric about 0), label permutations (two-sample), condition permutations
 within subject (repeated measures), covariate permutations (correlation).
 
 p-values: the identity row is counted in every exceedance count, so
-``permutation_p = count / n_rows`` is #{null >= observed} / n_total for an
-exact (enumerated) table and (1 + b) / (1 + m) for a Monte Carlo table of m
+``count / n_rows`` is #{null >= observed} / n_total for an exact
+(enumerated) table and (1 + b) / (1 + m) for a Monte Carlo table of m
 random rows, b of which reach the observed value (Phipson & Smyth 2010).
 
 References
@@ -27,15 +27,12 @@ neuroimaging. Hum Brain Mapp 15:1-25.
 import itertools
 import math
 import warnings
-from collections.abc import Iterator
 from dataclasses import dataclass
 
 import numpy as np
 
-from famwise.collectors import NullCollector, merge_shard_arrays
 from famwise.errors import FamwiseWarning, UserError
 from famwise.stats import TAILS, TESTS, check_design
-from famwise.stats.resampled import block_function
 
 SCHEMES = {
     "one-sample": "sign-flip",
@@ -154,166 +151,6 @@ def shard_bounds(n_rows: int, n_shards: int, k: int) -> tuple[int, int]:
     return min(k * m, n_rows), min((k + 1) * m, n_rows)
 
 
-def iter_null_blocks(
-    x,
-    rows,
-    *,
-    test,
-    groups=None,
-    covariate=None,
-    statistic="t",
-    trim=0.2,
-    equal_var=True,
-    block_size=64,
-    reuse_output=False,
-) -> Iterator[np.ndarray]:
-    """Statistic maps of table rows, block by block, rows in order.
-
-    Parameters
-    ----------
-    x : array_like, (n, P) or (n, k, P)
-        The data of `famwise.stats.compute`.
-    rows : ndarray
-        A row range of `PermutationTable.rows`.
-    test, groups, covariate, statistic, trim, equal_var
-        As in `famwise.stats.compute`.
-    block_size : int
-        Rows per block; memory is O(block_size * P). The values do not depend
-        on it.
-    reuse_output : bool
-        When True, blocks may be written into one buffer that the next block
-        overwrites (no page faults for a fresh array per block): the
-        consumer must use each block before asking for the next, as
-        `run_shard`'s collectors do.
-
-    Yields
-    ------
-    ndarray of float32, shape (b, P)
-        The statistic of each row of the block (b <= block_size).
-    """
-    x, groups, covariate = check_design(
-        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim
-    )
-    rows = _check_rows(rows, test, x.shape)
-    if block_size < 1:
-        raise UserError(f"`block_size` must be at least 1, got {block_size}")
-    block = block_function(
-        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim, equal_var=equal_var
-    )
-    buffer = np.empty((min(block_size, rows.shape[0]), x.shape[-1]), dtype=np.float32) if reuse_output else None
-    for start in range(0, rows.shape[0], block_size):
-        part = rows[start : start + block_size]
-        yield block(part, None if buffer is None else buffer[: part.shape[0]])
-
-
-def run_shard(x, rows, *, collectors: list[NullCollector], block_size=64, **statistic_options) -> dict[str, np.ndarray]:
-    """Feed every block of a shard's rows to every collector.
-
-    Parameters
-    ----------
-    x : array_like
-        The data, as in `iter_null_blocks`.
-    rows : ndarray
-        The shard's rows of the permutation table.
-    collectors : list of NullCollector
-    block_size : int
-    **statistic_options
-        ``test`` and the other options of `iter_null_blocks`.
-
-    Returns
-    -------
-    dict of str to ndarray
-        Every collector's arrays (keys must not collide), ready for
-        `famwise.collectors.merge_shard_arrays`.
-    """
-    for stats in iter_null_blocks(x, rows, block_size=block_size, reuse_output=True, **statistic_options):
-        for collector in collectors:
-            collector.update(stats)
-    arrays = {}
-    for collector in collectors:
-        for key, value in collector.arrays().items():
-            if key in arrays:
-                raise ValueError(f"two collectors write the key {key!r}")
-            arrays[key] = value
-    return arrays
-
-
-def run_shards(x, table: PermutationTable, *, n_shards, make_collectors, block_size=64, **statistic_options):
-    """Run a whole table as ``n_shards`` shards in turn and merge them (for tests and small runs).
-
-    ``make_collectors()`` returns fresh collectors for each shard.
-    """
-    parts = []
-    for k in range(n_shards):
-        start, stop = shard_bounds(table.n_rows, n_shards, k)
-        parts.append(
-            run_shard(
-                x, table.rows[start:stop], collectors=make_collectors(), block_size=block_size, **statistic_options
-            )
-        )
-    return merge_shard_arrays(parts)
-
-
-def _oriented(stats: np.ndarray, tail: str) -> np.ndarray:
-    if tail == "two-sided":
-        return np.abs(stats)
-    return -stats if tail == "less" else stats
-
-
-class ExceedanceCollector:
-    """Per-point counts of rows whose statistic reaches the observed one.
-
-    Counts #{rows: stat* >= obs} on |stat| (two-sided), stat (greater) or
-    -stat (less), the identity row included. Values within a relative
-    100 machine epsilons (of the null's dtype) of the observed one count as
-    ties, as in ``scipy.stats.permutation_test``, so that the float32 null
-    matches the float64 observed statistic. A point whose observed statistic
-    is NaN (no variance) counts every row (permutation p = 1).
-
-    Parameters
-    ----------
-    observed_stat : ndarray, shape (P,)
-        `famwise.stats.GroupStatistic.stat`.
-    tail : {"two-sided", "greater", "less"}
-        Use `GroupStatistic.effective_tail` (``"greater"`` for F).
-    key : str
-        Prefix of the stored array: ``<key>.count``, int64 (P,).
-    """
-
-    def __init__(self, observed_stat, *, tail, key="exceed"):
-        _check_tail(tail)
-        self._observed = _oriented(np.asarray(observed_stat, dtype=np.float64), tail)
-        self._tail = tail
-        self._key = key
-        self._count = np.zeros(self._observed.shape, dtype=np.int64)
-
-    def update(self, stats: np.ndarray) -> None:
-        """Count the rows of a block (b, P) that reach the observed statistic."""
-        eps = 100 * np.finfo(stats.dtype).eps
-        bar = (self._observed - np.abs(self._observed) * eps).astype(stats.dtype)
-        reach = _oriented(stats, self._tail) >= bar
-        reach |= np.isnan(bar)
-        self._count += np.count_nonzero(reach, axis=0)
-
-    def arrays(self) -> dict[str, np.ndarray]:
-        """``{"<key>.count": int64 (P,)}``."""
-        return {f"{self._key}.count": self._count.copy()}
-
-
-def permutation_p(counts, n_rows: int) -> np.ndarray:
-    """Permutation p = counts / n_rows, identity row included in counts and n_rows.
-
-    Exact tables: #{null >= observed} / n_total. Monte Carlo tables with m
-    random rows: (1 + b) / (1 + m) (Phipson & Smyth 2010), never 0.
-    """
-    counts = np.asarray(counts)
-    if n_rows < 1:
-        raise ValueError(f"n_rows must be at least 1, got {n_rows}")
-    if (counts < 0).any() or (counts > n_rows).any():
-        raise ValueError(f"exceedance counts must lie between 0 and n_rows ({n_rows})")
-    return counts / float(n_rows)
-
-
 def smallest_attainable_p(table: PermutationTable, *, tail: str) -> float:
     """Smallest permutation p the table can give.
 
@@ -321,7 +158,7 @@ def smallest_attainable_p(table: PermutationTable, *, tail: str) -> float:
     e.g. 2 / 2^n for two-sided sign flips (flipping every sign gives -t),
     1 / 2^n one-sided; k! / (k!)^n for F.
     """
-    _check_tail(tail)
+    check_tail(tail)
     if not table.exact:
         return 1.0 / table.n_rows
     ties = table.n_identical + (table.n_mirrored if tail == "two-sided" and table.scheme != "within-subject" else 0)
@@ -342,7 +179,8 @@ def check_attainable(table: PermutationTable, *, tail: str, alpha: float) -> Non
         )
 
 
-def _check_tail(tail) -> None:
+def check_tail(tail) -> None:
+    """Raise UserError unless ``tail`` is one of `famwise.stats.TAILS`."""
     if tail not in TAILS:
         raise UserError(f"`tail` must be one of {', '.join(map(repr, TAILS))}, got {tail!r}")
 
@@ -367,15 +205,6 @@ def _check_table_inputs(test, n, permutations, seed, groups, n_conditions):
             )
         k = int(n_conditions)
     return int(n), k
-
-
-def _check_rows(rows, test, shape):
-    rows = np.asarray(rows)
-    n = shape[0]
-    want = (n, shape[1]) if test == "repeated-measures" else (n,)
-    if rows.ndim != len(want) + 1 or rows.shape[1:] != want:
-        raise ValueError(f"table rows of shape {rows.shape} do not fit {test} data of shape {shape}")
-    return rows
 
 
 def _n_distinct(scheme, n, k, groups) -> int:

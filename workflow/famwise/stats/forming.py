@@ -1,6 +1,6 @@
-"""The cluster-forming threshold of a cluster correction."""
+"""The cluster-forming threshold of a cluster correction (read by the null stage and the correction stage)."""
 
-from famwise.stats import forming_threshold
+from famwise.stats.group import forming_threshold
 
 
 def cluster_threshold(spec: dict, observed: dict) -> float:

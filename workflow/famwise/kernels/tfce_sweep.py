@@ -43,19 +43,18 @@ problems of smoothing, threshold dependence and localisation in cluster
 inference. NeuroImage 44(1):83-98.
 """
 
-import numba as nb
 import numpy as np
 from llvmlite import ir
-from numba import types
-from numba.core import cgutils
-from numba.extending import intrinsic, overload
+
+from famwise.kernels._jit import JIT_DISABLED, cgutils, intrinsic, jit, jit_inline, jit_parallel, overload, prange, \
+    types
 
 PREFETCH_AHEAD = 16  # points ahead whose memory is requested early in the random-access passes
 FIXED_SLOTS = 4  # neighbor slots the sweep always visits (most points have at most 4 earlier neighbors)
 MAX_RADIX_BITS = 11  # most bits of the sort key per radix pass (three passes cover any 31-bit key)
 
 
-if nb.config.DISABLE_JIT:
+if JIT_DISABLED:
     def _prefetch(arr, index):
         """No-op when kernels run as plain Python."""
 else:
@@ -78,7 +77,7 @@ else:
         return types.void(arr, index), codegen
 
 
-if nb.config.DISABLE_JIT:
+if JIT_DISABLED:
     def _float32_from_bits(bits):
         """The float32 whose bits are ``bits`` (uint32)."""
         return np.uint32(bits).view(np.float32)
@@ -95,7 +94,7 @@ else:
         return types.float32(bits), codegen
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _signed(v, tail_code):
     """+1, -1 or 0: the sign under which value ``v`` is enhanced for the tail."""
     if v > 0.0 and tail_code != 2:
@@ -105,7 +104,7 @@ def _signed(v, tail_code):
     return 0
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _scan(stat, tail_code):
     """(number of signed points, max |stat| and min |stat| over them) as (int, float, float)."""
     n = 0
@@ -136,13 +135,13 @@ def _key_bits_jit(stat):
     return lambda stat: (stat.view(np.uint64), 32)
 
 
-@nb.njit(cache=True, nogil=True, inline="always")
+@jit_inline
 def _key(bits, shift, q):
     """Upper 32 bits of |stat[q]| (sign bit cleared) as uint64."""
     return (np.uint64(bits[q]) >> np.uint64(shift)) & np.uint64(0x7FFFFFFF)
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _order_exact(stat, tail_code, bottom, top, H, order, rank, buf, hist, nlev):
     """Sweep order (descending |stat|) of the signed points (|stat| between ``bottom`` and ``top``).
 
@@ -222,7 +221,7 @@ def _order_exact(stat, tail_code, bottom, top, H, order, rank, buf, hist, nlev):
     return n
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _order_steps(stat, tail_code, top, step, H, order, rank, nlev):
     """Sweep order of the points with level index k_p >= 1 (counting sort on k_p).
 
@@ -267,7 +266,7 @@ def _order_steps(stat, tail_code, top, step, H, order, rank, nlev):
     return start[k_max]
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _extent_power(size, E):
     """size ** E with fast paths for E = 0.5 and E = 1."""
     if E == 0.5:
@@ -277,7 +276,7 @@ def _extent_power(size, E):
     return size ** E
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _earlier_neighbors(rank, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t, nbr):
     """For each swept point (row = its sweep position j), its same-sign neighbors swept before it.
 
@@ -340,7 +339,7 @@ def _earlier_neighbors(rank, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, l
                 q += one
 
 
-@nb.njit(cache=True, nogil=True, inline="always")
+@jit_inline
 def _find(par, x):
     """Root of ``x`` with path halving; ``par`` holds parents, and minus the size at roots."""
     while True:
@@ -354,7 +353,7 @@ def _find(par, x):
         x = ppx
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _sweep(order, n, rank, E, nbr, par, cur, npar, nsize, nlev, val, out):
     """Component-tree sweep; returns max |TFCE| and writes the signed map into ``out``
     when ``out`` has the points' length (points outside the sweep are left as they are).
@@ -412,7 +411,7 @@ def _sweep(order, n, rank, E, nbr, par, cur, npar, nsize, nlev, val, out):
     return best
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _tfce_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
               order, rank, nsize, par, cur, npar, nlev, val, buf, hist, nbr, out):
     """TFCE of one map (exact when step <= 0); returns max |TFCE|, fills ``out`` if it has the map's length."""
@@ -444,7 +443,7 @@ def _tfce_workspace(n_chunks, n_pts, indptr):
             np.empty((n_chunks, n_pts, 1 + max_neighbors), np.int32))
 
 
-@nb.njit(cache=True, nogil=True)
+@jit
 def _tfce_chunk_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
                     chunk, i32, f64, buf, hist, nbr, out):
     """``_tfce_row`` on the workspace of one chunk."""
@@ -453,7 +452,7 @@ def _tfce_chunk_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices
                      f64[chunk, 0], f64[chunk, 1], buf[chunk], hist[chunk], nbr[chunk], out)
 
 
-@nb.njit(cache=True, parallel=True)
+@jit_parallel
 def _tfce_max_block(stats, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f,
                     link_t, n_chunks, i32, f64, buf, hist, nbr, out):
     """max |TFCE| of each row of ``stats`` (n_rows, n_points) into ``out`` (n_rows,); step <= 0 means exact.
@@ -464,13 +463,13 @@ def _tfce_max_block(stats, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indice
     """
     n_rows = stats.shape[0]
     no_map = np.empty(0, np.float64)
-    for chunk in nb.prange(n_chunks):
+    for chunk in prange(n_chunks):
         for row in range(chunk * n_rows // n_chunks, (chunk + 1) * n_rows // n_chunks):
             out[row] = _tfce_chunk_row(stats[row], tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices,
                                        link_ch, link_f, link_t, chunk, i32, f64, buf, hist, nbr, no_map)
 
 
-@nb.njit(cache=True)
+@jit
 def _tfce_map(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
               i32, f64, buf, hist, nbr, out):
     """Signed TFCE of one map into ``out`` (n_points,) on workspace 0, same arithmetic as

@@ -1,0 +1,73 @@
+"""The null of cluster inference: the largest cluster statistic of every permutation.
+
+Clusters, tails and the cluster statistic are those of
+`famwise.correct.clusters` (the inference on this null), computed by the
+same kernel (`famwise.kernels.components`).
+"""
+
+import numpy as np
+
+from famwise.kernels._jit import thread_count
+from famwise.kernels.components import _cluster_max_block
+from famwise.nulls.collectors.kernel_inputs import DIMS, check_cluster_settings, check_dims, check_graph, \
+    statistic_block, tail_code
+
+
+class ClusterCollector:
+    """Null collector: the largest cluster statistic of every table row.
+
+    Parameters
+    ----------
+    threshold : float
+        Cluster-forming threshold as a statistic value (>= 0); see the module
+        docstring for how tails use it.
+    shape : tuple of int
+        (n_channels, n_freqs, n_times).
+    indptr, indices : ndarray of int
+        Channel neighbor graph (CSR, symmetric, no self loops).
+    dims : tuple of str
+        Dimensions clustering connects over, from ("channel", "freq", "time").
+    cluster_stat : {"mass", "size"}
+    min_neighbor_channels : int
+    tail : {"two-sided", "greater", "less"}
+    key : str
+        Prefix of the stored arrays.
+
+    Notes
+    -----
+    ``arrays()`` gives ``{"<key>.max": float64 (n_rows,)}`` in row order; each
+    row's value depends on that row alone, so any block split gives the same
+    array.
+    """
+
+    def __init__(self, *, threshold, shape, indptr, indices, dims=DIMS, cluster_stat="mass",
+                 min_neighbor_channels=0, tail="two-sided", key="cluster"):
+        check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+        self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
+        self._links = check_dims(dims)
+        self._tail_code = tail_code(tail)
+        self._threshold = float(threshold)
+        self._use_mass = cluster_stat == "mass"
+        self._min_neighbors = int(min_neighbor_channels)
+        self._key = key
+        self._parts = []
+        self._workspace = None
+
+    def update(self, stats):
+        """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
+        stats = statistic_block(stats, self._shape)
+        n_pts = stats.shape[1]
+        out = np.empty(stats.shape[0])
+        if stats.shape[0]:
+            n_chunks = min(stats.shape[0], thread_count())
+            if self._workspace is None or len(self._workspace[0]) < n_chunks:  # reused by every block
+                self._workspace = (np.empty((n_chunks, 2, n_pts), np.int8), np.empty((n_chunks, 2, n_pts), np.int32),
+                                   np.empty((n_chunks, n_pts), np.float64))
+            _cluster_max_block(stats, self._threshold, self._tail_code, *self._shape, self._indptr,
+                               self._indices, *self._links, self._use_mass, self._min_neighbors, n_chunks,
+                               *self._workspace, out)
+        self._parts.append(out)
+
+    def arrays(self):
+        """``{"<key>.max": float64 (n_rows,)}``."""
+        return {f"{self._key}.max": np.concatenate(self._parts) if self._parts else np.empty(0)}
