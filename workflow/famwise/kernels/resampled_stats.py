@@ -207,11 +207,15 @@ def _signflip_yuen(signs, values, by_size, g, scale, out):
     ``by_size[p]`` their subjects, so the flipped values come out sorted in
     two linear passes: the negative ones by descending size, then the others
     by ascending size (branch-free appends). Same sorted values, same sums,
-    as sorting each flipped row.
+    as sorting each flipped row. Every value is written before the pointer
+    decides to keep it, so a pass whose last value is not kept writes one
+    slot past the n kept ones: the buffer has n + 1 slots, the last a
+    scratch slot outside the statistics.
     """
     b, n = signs.shape
     for r in prange(b):
-        buf = np.empty(n)
+        scratch = np.empty(n + 1)
+        buf = scratch[:n]
         s = signs[r]
         for p in range(values.shape[0]):
             v_p = values[p]
@@ -219,11 +223,11 @@ def _signflip_yuen(signs, values, by_size, g, scale, out):
             filled = 0
             for k in range(n - 1, -1, -1):
                 v = s[subjects[k]] * v_p[k]
-                buf[filled] = v
+                scratch[filled] = v
                 filled += v < 0.0
             for k in range(n):
                 v = s[subjects[k]] * v_p[k]
-                buf[filled] = v
+                scratch[filled] = v
                 filled += v >= 0.0
             mean_t, var_w = _trimmed_stats(buf, g)
             out[r, p] = mean_t / (np.sqrt(var_w) / scale)
