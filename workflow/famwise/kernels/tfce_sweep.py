@@ -285,7 +285,8 @@ def _earlier_neighbors(rank, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, l
     and the channel loop has the same length for a whole channel; no
     data-dependent branches (a candidate is always written and kept by
     advancing the count: rank r is an earlier same-sign neighbor of sweep
-    position j when s r - 1 < j as unsigned) and the rows of the coming
+    position j when s r - 1 < j as unsigned; the candidate is stored as the
+    int32 s r - 1, the same bits) and the rows of the coming
     points are prefetched. Negative offsets wrap around as unsigned
     integers; a missing freq neighbor reads the point itself, which is never
     earlier. The sweep then reads ``nbr`` in order.
@@ -318,23 +319,23 @@ def _earlier_neighbors(rank, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, l
                     row = np.uint64(j) * width + one
                     count = np.uint64(0)
                     if link_t and t > 0:
-                        m = np.uint32((rank[q - one] ^ flip) + back)
+                        m = (rank[q - one] ^ flip) + back
                         rows[row + count] = m
-                        count += np.uint64(m < j)
+                        count += np.uint64(np.uint32(m) < j)
                     if link_t and t < n_t - 1:
-                        m = np.uint32((rank[q + one] ^ flip) + back)
+                        m = (rank[q + one] ^ flip) + back
                         rows[row + count] = m
-                        count += np.uint64(m < j)
-                    m = np.uint32((rank[q - down] ^ flip) + back)
+                        count += np.uint64(np.uint32(m) < j)
+                    m = (rank[q - down] ^ flip) + back
                     rows[row + count] = m
-                    count += np.uint64(m < j)
-                    m = np.uint32((rank[q + up] ^ flip) + back)
+                    count += np.uint64(np.uint32(m) < j)
+                    m = (rank[q + up] ^ flip) + back
                     rows[row + count] = m
-                    count += np.uint64(m < j)
+                    count += np.uint64(np.uint32(m) < j)
                     for k in range(k0, k1):
-                        m = np.uint32((rank[q + offsets[k]] ^ flip) + back)
+                        m = (rank[q + offsets[k]] ^ flip) + back
                         rows[row + count] = m
-                        count += np.uint64(m < j)
+                        count += np.uint64(np.uint32(m) < j)
                     rows[row - one] = count
                 q += one
 
