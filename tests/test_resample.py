@@ -404,15 +404,15 @@ def test_reused_output_buffer_gives_the_same_blocks(name):
 @pytest.mark.parametrize("name", ["one-sample t", "two-sample student", "two-sample welch"])
 def test_point_tiles_and_subject_groups_do_not_change_the_null(monkeypatch, name):
     # exact integer sums: any tiling of the points and any grouping of the subjects gives the same bits
-    import famwise.nulls.engine as resampled
+    import famwise.nulls.engine as engine
 
     options = DESIGNS[name]
     table = design_table(options, permutations=50)
     whole = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
-    monkeypatch.setattr(resampled, "_TILE", 5)
+    monkeypatch.setattr(engine, "_TILE", 5)
     chunked = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
     assert whole.tobytes() == chunked.tobytes()
-    monkeypatch.setattr(resampled, "_GROUP", 3)
+    monkeypatch.setattr(engine, "_GROUP", 3)
     regrouped = np.concatenate(list(iter_null_blocks(X2, table.rows, block_size=7, **options)))
     assert whole.tobytes() == regrouped.tobytes()
 
@@ -421,19 +421,19 @@ def test_point_tiles_and_subject_groups_do_not_change_the_null(monkeypatch, name
 def test_subset_sum_t_equals_the_product_formula_bit_for_bit(monkeypatch, n):
     # The sign-flip kernel's table sums against t computed here from signs @ grid (exact integers) with
     # the kernel's float32 arithmetic; grouping subjects by 3 instead of 4 changes nothing (common practice, no source)
-    import famwise.nulls.engine as resampled
+    import famwise.nulls.engine as engine
 
     rng = np.random.default_rng(n)
     x = rng.standard_normal((n, 2500)) * np.exp(rng.standard_normal(2500))
     signs = rng.choice(np.array([-1, 1], dtype=np.int8), size=(17, n))
-    grid = resampled.integer_grid(x)
+    grid = engine.integer_grid(x)
     sums = signs.astype(np.float64) @ grid
     sum_of_squares = np.zeros(grid.shape[1])
     for row in grid:  # in subject order, as the kernel's caller does
         sum_of_squares += row * row
     d = np.maximum(n * sum_of_squares - sums * sums, 0.0)
     expected = (sums * np.sqrt(n - 1.0)).astype(np.float32) / np.sqrt(d.astype(np.float32))
-    got = resampled.block_function(x, test="one-sample")(signs)
+    got = engine.block_function(x, test="one-sample")(signs)
     assert got.tobytes() == expected.tobytes()
-    monkeypatch.setattr(resampled, "_GROUP", 3)
-    assert resampled.block_function(x, test="one-sample")(signs).tobytes() == expected.tobytes()
+    monkeypatch.setattr(engine, "_GROUP", 3)
+    assert engine.block_function(x, test="one-sample")(signs).tobytes() == expected.tobytes()

@@ -12,7 +12,7 @@ import numpy as np
 from famwise.errors import UserError
 
 DIMS = ("channel", "freq", "time")
-TAILS = {"two-sided": 0, "greater": 1, "less": 2}
+TAILS = {"two-sided": 0, "greater": 1, "less": 2}  # tail -> kernel code
 CLUSTER_STATS = ("mass", "size")
 
 
@@ -81,7 +81,7 @@ def check_cluster_settings(threshold, cluster_stat, min_neighbor_channels):
 
 
 INFINITE_STATISTIC = ("the statistic map has infinite values (a point with zero variance across subjects?); "
-             "TFCE needs finite statistics")
+                      "TFCE needs finite statistics")
 
 
 def check_tfce_settings(E, H, step):

@@ -18,8 +18,7 @@ import numpy as np
 
 from famwise.errors import UserError
 from famwise.kernels.row_maxima import _largest_magnitude_bits, _successive_max_counts
-
-TAILS = ("two-sided", "greater", "less")
+from famwise.stats import TAILS
 
 _TAIL_CODES = {"two-sided": 0, "greater": 1, "less": 2}
 
