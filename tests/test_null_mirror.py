@@ -17,7 +17,7 @@ from famwise.nulls.tables import make_table, smallest_attainable_p
 
 N = 8
 RNG = np.random.default_rng(15)
-X = RNG.standard_normal((N, 3000)) * np.exp(RNG.standard_normal(3000)) + 0.3
+X = RNG.standard_normal((N, 500)) * np.exp(RNG.standard_normal(500)) + 0.3
 GROUPS = np.repeat([0, 1], N // 2)
 DESIGNS = {
     "one-sample t": dict(test="one-sample"),
