@@ -13,6 +13,8 @@ from famwise.errors import UserError
 
 from conftest import write_tiny_study
 
+pytestmark = pytest.mark.workflow
+
 CORRECTIONS = """\
 - method: bonferroni
 - method: max-stat

@@ -95,7 +95,7 @@ def test_report_is_self_contained(built):
     images = [src for tag, src in built["page"].links if tag == "img"]
     assert len(images) == 11  # the figures listed in the test above
     assert all(src.startswith("data:image/png;base64,") for src in images)
-    for tag, target in built["page"].links:
+    for _, target in built["page"].links:
         assert not re.match(r"^(https?:)?//", target), target
     assert "<script" not in built["html"]
     assert "@media print" in built["html"]

@@ -289,7 +289,7 @@ def test_exact_correlation_equals_scipy_permutation_test():
         # scipy.stats.permutation_test, permutation_type='pairings', all 6! orders
         ref = sps.permutation_test(
             (covariate,),
-            lambda u: sps.pearsonr(u, x[:, point]).statistic,
+            lambda u, column=x[:, point]: sps.pearsonr(u, column).statistic,
             permutation_type="pairings",
             n_resamples=np.inf,
             alternative="greater",
