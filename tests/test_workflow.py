@@ -6,6 +6,7 @@ import scipy.stats
 from statsmodels.stats.multitest import multipletests
 
 from famwise.cli import main, planned_jobs
+from famwise.job_benchmarks import stage_costs
 from famwise.plan import Plan
 
 from conftest import write_tiny_study, write_tiny_subject
@@ -34,6 +35,19 @@ def cached_study(tmp_path_factory):
 @pytest.mark.workflow
 def test_second_run_does_nothing(cached_study):
     assert _jobs(cached_study) == {}
+
+
+@pytest.mark.workflow
+def test_every_job_records_its_time_and_memory(cached_study, capsys):
+    logs = cached_study.parent / "results" / "logs"
+    assert sorted(p.name for p in (logs / "decompose").glob("*.benchmark.tsv")) == [f"0{k}.benchmark.tsv" for k in range(1, 7)]
+    jobs = {cost.stage: cost.jobs for cost in stage_costs(logs)}
+    assert jobs == {"decompose": 6, "subjects_table": 1, "contrast_data": 1, "observed": 1, "null_shard": 2,
+                    "null_info": 1, "correct": 4, "report": 1}
+    assert all(cost.wall_s > 0 for cost in stage_costs(logs))
+    assert main(["check", str(cached_study)]) == 0
+    out = capsys.readouterr().out
+    assert "Where the time went" in out and "null_shard" in out.split("Where the time went")[1]
 
 
 @pytest.mark.workflow
