@@ -126,7 +126,7 @@ def test_too_few_permutations_warns(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, permutations=100)
     result = famwise_cli("check", spec)
     assert result.returncode == 0, result.stderr
-    # 4 subjects: 16 sign flips, two-sided smallest p = 2/16 (CHECK_VALUES CV-09, common practice)
+    # 4 subjects: 16 sign flips, two-sided smallest p = 2/16 (common practice; Nichols & Holmes 2002)
     assert "famwise: warning: contrast high-vs-low: the smallest attainable permutation p is 0.125 (16 all sign-flip rows" in result.stderr
 
 
