@@ -1,6 +1,7 @@
 """Shared fixtures: tiny studies written into temporary folders."""
 
 import os
+import re
 import textwrap
 from pathlib import Path
 
@@ -10,6 +11,24 @@ import pytest
 import famwise.io
 
 os.environ.setdefault("MPLBACKEND", "Agg")
+
+OPT_IN_MARKERS = ("slow", "slurm")
+
+
+def pytest_collection_modifyitems(config, items):
+    """Leave out slow and slurm tests unless the -m expression names them.
+
+    pyproject's addopts hold ``-m 'not slow and not slurm'``, but a -m on the command
+    line replaces it: ``pytest -m "not workflow"`` (the unit tier) would otherwise run
+    the long calibrations and the SLURM test too.
+    """
+    expression = config.getoption("markexpr") or ""
+    left_out = [m for m in OPT_IN_MARKERS if not re.search(rf"\b{m}\b", expression)]
+    dropped = [item for item in items if any(item.get_closest_marker(m) for m in left_out)]
+    if dropped:
+        config.hook.pytest_deselected(items=dropped)
+        items[:] = [item for item in items if item not in dropped]
+
 
 def ring(n_ch: int) -> dict:
     """Channel graph of a ring (each channel touches the previous and the next), as CSR ``indptr``/``indices``."""

@@ -138,7 +138,7 @@ def test_dataset_stream_depends_on_seed_contrast_and_index_only():
 
 
 def test_uncorrected_fwer_matches_independent_points(tmp_path):
-    # 20 independent Gaussian points: FWER = 1 - (1 - alpha)^m = 0.6415141 (CV-01; common practice, no source).
+    # 20 independent Gaussian points: FWER = 1 - (1 - alpha)^m = 0.6415141 (common practice, no source).
     rng = np.random.default_rng(11)
     data = _contrast(rng.normal(size=(40, 20)).astype(np.float32), shape=(1, 4, 5))
     data.save(tmp_path / "subjects.npz")
@@ -298,7 +298,7 @@ def test_uncorrected_reference_is_parametric_p_at_alpha(tmp_path):
         x = null_dataset(data, dataset_rng(settings["seed"], "c1", int(index))).astype(np.float64)
         p = scipy.stats.ttest_1samp(x, 0.0).pvalue  # reference: scipy.stats.ttest_1samp
         assert part["n_significant"][row, 0] == np.count_nonzero(p <= 0.05)
-        assert part["n_significant"][row, 1] == np.count_nonzero(p <= 0.05 / 20)  # Bonferroni (CV-02)
+        assert part["n_significant"][row, 1] == np.count_nonzero(p <= 0.05 / 20)  # Bonferroni (common practice)
     assert math.isclose(float(part["detected"].mean()), float((part["n_significant"] > 0).mean()))
 
 

@@ -13,6 +13,8 @@ from famwise.errors import UserError
 
 from conftest import write_tiny_study
 
+pytestmark = pytest.mark.workflow
+
 CORRECTIONS = """\
 - method: bonferroni
 - method: max-stat
@@ -51,6 +53,11 @@ def test_calibrate_writes_table_figure_and_prints_it(calibrated):
     assert "(reduced from the study's 31)" in out
     assert "uncorrected" in out and "max-stat" in out and "[" in out
     assert "calibration: 0/6 null datasets done" in err and "calibration: 6/6 null datasets done" in err
+    logs = spec.parent / "results" / "logs"
+    assert sorted(p.name for p in (logs / "calibrate_chunk").glob("*.benchmark.tsv")) == [
+        f"high-vs-low-{k}.benchmark.tsv" for k in range(3)
+    ]
+    assert (logs / "calibrate_table" / "high-vs-low.benchmark.tsv").is_file()
 
 
 def test_interrupted_run_recomputes_only_the_missing_chunk(calibrated):

@@ -36,12 +36,14 @@ def _result_files(folder):
     return sorted(p for p in (folder / "results").rglob("*") if p.is_file() and "logs" not in p.parts and ".snakemake" not in p.parts)
 
 
+@pytest.mark.workflow
 def test_unknown_spec_key(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("seed: 7", "sed: 7"))
     _assert_one_line_error(famwise_cli("check", spec), "study.yaml:3 sed: unknown key 'sed' (did you mean 'seed'?)")
 
 
+@pytest.mark.workflow
 def test_wrong_type(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("alpha: 0.05", "alpha: lots"))
@@ -49,24 +51,28 @@ def test_wrong_type(tmp_path):
     assert not (tmp_path / "results").exists()
 
 
+@pytest.mark.workflow
 def test_contrast_naming_a_missing_condition(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("conditions: [high, low]", "conditions: [high, lo]"))
     _assert_one_line_error(famwise_cli("check", spec), "contrasts[0].conditions: unknown condition 'lo' (known: high, low)")
 
 
+@pytest.mark.workflow
 def test_subject_file_missing(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("  min_epochs: 5", "  min_epochs: 5\n  ids: ['01', '02', '09']"))
     _assert_one_line_error(famwise_cli("run", spec), "subject 09: file not found")
 
 
+@pytest.mark.workflow
 def test_subject_id_not_plain(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("  min_epochs: 5", "  min_epochs: 5\n  ids: ['01', 'sub 2']"))
     _assert_one_line_error(famwise_cli("check", spec), "subjects.ids: subject id 'sub 2' is not a plain identifier")
 
 
+@pytest.mark.workflow
 def test_channels_differ_between_subjects(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     write_tiny_subject(tmp_path / "data" / "sub-03.npz", np.random.default_rng(3), channels=["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "POz"])
@@ -74,12 +80,14 @@ def test_channels_differ_between_subjects(tmp_path):
     assert not [p for p in _result_files(tmp_path) if "contrasts" in p.parts]
 
 
+@pytest.mark.workflow
 def test_sampling_rates_differ(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sfreq=200.0)
     _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz)")
 
 
+@pytest.mark.workflow
 def test_nan_in_data(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     path = tmp_path / "data" / "sub-02.npz"
@@ -92,32 +100,37 @@ def test_nan_in_data(tmp_path):
     assert not (tmp_path / "results" / "tf" / "sub-02.npz").exists()
 
 
+@pytest.mark.workflow
 def test_too_few_epochs(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     spec.write_text(spec.read_text().replace("min_epochs: 5", "min_epochs: 30"))
     _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 0", "30")
 
 
+@pytest.mark.workflow
 def test_baseline_outside_epoch(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     spec.write_text(spec.read_text().replace("window_ms: [-400, -200]", "window_ms: [-900, -200]"))
     _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "baseline")
 
 
+@pytest.mark.workflow
 def test_analysis_window_in_cone_of_influence(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     spec.write_text(spec.read_text().replace("channels:\n", "analysis:\n  time_ms: [-600, 900]\nchannels:\n", 1))
     _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "analysis.time_ms: [-600.0, 900.0] ms reaches into", "widest window that fits is")
 
 
+@pytest.mark.workflow
 def test_too_few_permutations_warns(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, permutations=100)
     result = famwise_cli("check", spec)
     assert result.returncode == 0, result.stderr
-    # 4 subjects: 16 sign flips, two-sided smallest p = 2/16 (CHECK_VALUES CV-09, common practice)
+    # 4 subjects: 16 sign flips, two-sided smallest p = 2/16 (common practice; Nichols & Holmes 2002)
     assert "famwise: warning: contrast high-vs-low: the smallest attainable permutation p is 0.125 (16 all sign-flip rows" in result.stderr
 
 
+@pytest.mark.workflow
 def test_debug_shows_traceback(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("seed: 7", "sed: 7"))
@@ -125,6 +138,7 @@ def test_debug_shows_traceback(tmp_path):
     assert result.returncode == 2 and "Traceback" in result.stderr
 
 
+@pytest.mark.workflow
 def test_check_prints_plan(tiny_study):
     result = famwise_cli("check", tiny_study)
     assert result.returncode == 0, result.stderr
@@ -132,6 +146,7 @@ def test_check_prints_plan(tiny_study):
     assert "decompose" in result.stdout and "Missing output files" in result.stdout
 
 
+@pytest.mark.workflow
 def test_init_writes_a_valid_starter_spec(tmp_path):
     write_tiny_study(tmp_path)
     (tmp_path / "study.yaml").unlink()
@@ -142,6 +157,7 @@ def test_init_writes_a_valid_starter_spec(tmp_path):
     assert result.returncode == 0, result.stderr
 
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("argv", [["run", "missing.yaml"], ["check", "missing.yaml"]])
 def test_missing_spec(tmp_path, argv):
     _assert_one_line_error(famwise_cli(*argv, cwd=tmp_path), "spec file not found")

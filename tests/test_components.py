@@ -32,8 +32,8 @@ def same_partition(a, b):
     return len(pairs) == len(set(a[a != 0].tolist())) == len(set(b[b != 0].tolist()))
 
 
-def test_cv23_diagonal_points_stay_apart():
-    # CHECK_VALUES CV-23: 4-connectivity gives 3 clusters of mass 3 (scipy.ndimage.label)
+def test_diagonal_points_stay_apart():
+    # 4-connectivity gives 3 clusters of mass 3 (scipy.ndimage.label)
     stat = np.array([[[3.0, 0, 0], [0, 3, 0], [0, 0, 3]]])
     ids, stats = label_clusters(stat, threshold=2.0, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1])
     assert sorted(stats.values()) == [3.0, 3.0, 3.0]
@@ -42,7 +42,7 @@ def test_cv23_diagonal_points_stay_apart():
 
 @pytest.mark.parametrize("seed", range(5))
 def test_one_channel_equals_ndimage_label(seed):
-    # reference: scipy.ndimage.label with 4-connectivity (generate_binary_structure(2, 1)), CV-23
+    # reference: scipy.ndimage.label with 4-connectivity (generate_binary_structure(2, 1))
     rng = np.random.default_rng(seed)
     stat = ndimage.gaussian_filter(rng.standard_normal((12, 30)), 1.0) * 3
     ids, _ = label_clusters(stat[None], threshold=0.8, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1],

@@ -195,8 +195,8 @@ def test_step_down_family_ranks_all_contrasts_jointly(tail):
     assert all(r.settings["m"] == 20 and r.settings["contrasts"] == 2 for r in results)
 
 
-def test_cv03_maxt_critical_value_for_100_independent_gaussians():
-    # CHECK_VALUES CV-03 (ii): Sidak (1967) gives the 95th percentile of max|Z| over m = 100 independent N(0, 1)
+def test_maxt_critical_value_for_100_independent_gaussians():
+    # Sidak (1967) gives the 95th percentile of max|Z| over m = 100 independent N(0, 1)
     # as 3.473979; Monte Carlo with 200,000 draws, tolerance 0.02.
     rng = np.random.default_rng(2010)
     collector = MaxStatCollector(tail="two-sided")

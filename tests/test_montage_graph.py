@@ -64,7 +64,7 @@ def test_projection_is_equidistant_from_the_vertex():
     std = standard_positions("10-20")
     flat = azimuthal_projection(std.xyz)
     fz, t7 = flat[std.names.index("Fz")], flat[std.names.index("T7")]
-    np.testing.assert_allclose(fz, [0, np.pi / 4], atol=1e-6)  # CV-36 model B: Fz 45 degrees anterior
+    np.testing.assert_allclose(fz, [0, np.pi / 4], atol=1e-6)  # Fz 45 degrees anterior on a sphere whose equator is the Fpz-T7-Oz-T8 circle (Jasper 1958 percentages)
     np.testing.assert_allclose(t7, [-np.pi / 2, 0], atol=1e-6)  # left on the left
 
 
@@ -119,7 +119,7 @@ def test_graph_structure_invariants():
 
 
 def test_ten_twenty_neighbors():
-    # CV-36 test use: Cz-Fz adjacency in the 10-20 layout; Fz and Pz are not neighbors
+    # Jasper (1958) layout: Cz and Fz are adjacent; Fz and Pz are not neighbors
     graph = neighbor_graph(standard_positions("10-20"))
     assert {"Fz", "Pz", "C3", "C4"} <= set(graph.neighbors("Cz"))
     assert "Pz" not in graph.neighbors("Fz")

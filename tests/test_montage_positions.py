@@ -39,7 +39,7 @@ def _unit(polar_deg, azimuth_deg):
     return np.array([np.sin(p) * np.cos(a), np.sin(p) * np.sin(a), np.cos(p)])
 
 
-# --- geometry of the 10-20 definition (Jasper 1958), model B of CV-36 ---------------------------
+# --- geometry of the 10-20 definition (Jasper 1958) on a sphere ---------------------------------
 # Model B: the Fpz-T7-Oz-T8 circumference is the equator, so Fpz -> Cz (40 % of the midline) is
 # 90 degrees and the whole nasion-inion arc (and preauricular arc) is 90 / 0.4 = 225 degrees.
 ARC = 90.0 / 0.4
@@ -58,14 +58,14 @@ def test_cz_at_the_vertex():
 
 
 def test_midline_20_percent_steps():
-    # Jasper (1958): Fpz 10 %, Fz 30 %, Cz 50 %, Pz 70 %, Oz 90 % of nasion-inion (CV-35)
+    # Jasper (1958): Fpz 10 %, Fz 30 %, Cz 50 %, Pz 70 %, Oz 90 % of nasion-inion
     p = standard_positions("10-20")
     midline = ["Fpz", "Fz", "Cz", "Pz", "Oz"]
     for name in midline:
         assert abs(_pos(p, name)[0]) < 1e-6
     for a, b in zip(midline, midline[1:]):
         assert _angle_deg(_pos(p, a), _pos(p, b)) == pytest.approx(0.2 * ARC, abs=1e-5)
-    assert [n for n in sorted(midline, key=lambda n: -_pos(p, n)[1])] == midline  # CV-35 ordering
+    assert [n for n in sorted(midline, key=lambda n: -_pos(p, n)[1])] == midline  # Jasper (1958) ordering
     nz, iz = _pos(standard_positions("10-10"), "Nz"), _pos(standard_positions("10-10"), "Iz")
     assert _angle_deg(nz, _pos(p, "Fpz")) == pytest.approx(0.1 * ARC, abs=1e-5)
     assert _angle_deg(iz, _pos(p, "Oz")) == pytest.approx(0.1 * ARC, abs=1e-5)
@@ -74,7 +74,7 @@ def test_midline_20_percent_steps():
 
 
 def test_preauricular_line():
-    # Jasper (1958): T7 10 %, C3 30 %, Cz 50 %, C4 70 %, T8 90 % of the preauricular line (CV-35)
+    # Jasper (1958): T7 10 %, C3 30 %, Cz 50 %, C4 70 %, T8 90 % of the preauricular line
     p = standard_positions("10-20")
     line = ["T7", "C3", "Cz", "C4", "T8"]
     for name in line:
@@ -88,7 +88,7 @@ def test_preauricular_line():
 
 def test_circumference_10_percent_steps():
     # Jasper (1958): Fp1 10 %, F7 30 %, T7 50 %, P7 70 %, O1 90 % of the half circumference
-    # from Fpz (CV-35); in model B the circumference is the equator
+    # from Fpz; in model B the circumference is the equator
     p = standard_positions("10-20")
     for name, fraction in [("Fp1", 0.1), ("F7", 0.3), ("T7", 0.5), ("P7", 0.7), ("O1", 0.9)]:
         expected = R * _unit(90, 90 + fraction * 180)
@@ -130,8 +130,8 @@ def test_mirror_symmetry(system):
             np.testing.assert_allclose(_pos(p, partner), _pos(p, name) * [-1, 1, 1], atol=1e-6)
 
 
-def test_cv36_model_b_values():
-    # CV-36 model B (derived in CHECK_VALUES.md with numpy trigonometry)
+def test_model_b_values():
+    # model B, derived by hand from the Jasper (1958) percentages (numpy trigonometry; not a standard)
     p = standard_positions("10-20")
     expected = {
         "Fpz": (0, 1, 0), "Fz": (0, 0.70711, 0.70711), "Cz": (0, 0, 1), "Pz": (0, -0.70711, 0.70711),
@@ -179,7 +179,7 @@ def test_bad_system():
 # --- matching names ----------------------------------------------------------------------------
 
 def test_aliases_and_case():
-    # from memory, high confidence (CV-35): the 10-10 names replace T3/T4 -> T7/T8, T5/T6 -> P7/P8
+    # from memory, high confidence (Acharya et al. 2016 guideline): the 10-10 names replace T3/T4 -> T7/T8, T5/T6 -> P7/P8
     std = standard_positions("10-10")
     old = match_channels(std, ["T3", "t4", "T5", "T6", "fz", "CZ"])
     new = match_channels(std, ["T7", "T8", "P7", "P8", "Fz", "Cz"])

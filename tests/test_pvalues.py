@@ -17,7 +17,7 @@ STATSMODELS_NAMES = {
     "fdr-by": "fdr_by",
 }
 
-# CV-05: the p-values of the Benjamini & Hochberg (1995) example (Neuhaus et al. 1992 trial data), confirmed
+# The p-values of the Benjamini & Hochberg (1995) example (Neuhaus et al. 1992 trial data), confirmed
 # second-hand via the scipy.stats.false_discovery_control docstring, not from the paper itself.
 BH_1995 = np.array(
     [0.0001, 0.0004, 0.0019, 0.0095, 0.0201, 0.0278, 0.0298, 0.0344, 0.0459, 0.3240, 0.4262, 0.5719, 0.6528,
@@ -86,7 +86,7 @@ def test_threshold_none_when_nothing_significant():
 
 
 def test_bonferroni_threshold_for_100_tests():
-    # Common practice, no source: 100 tests at 0.05 give a Bonferroni per-test threshold of 0.0005 (CV-02).
+    # Common practice, no source: 100 tests at 0.05 give a Bonferroni per-test threshold of 0.0005.
     result = adjust(np.full(100, 0.3), method="bonferroni", alpha=0.05)
     assert result.threshold == pytest.approx(0.0005, rel=1e-12)
 
@@ -100,8 +100,8 @@ def test_holm_second_threshold_with_10_tests():
     assert above.n_significant == 1 and above.threshold == 0.001
 
 
-def test_cv02_bonferroni_on_bh_example():
-    # CHECK_VALUES CV-02: Bonferroni inequality (common practice); 15 p capped at 1, 3 rejections.
+def test_bonferroni_on_bh_example():
+    # Bonferroni inequality (common practice; statsmodels.stats.multitest.multipletests); 15 p capped at 1, 3 rejections.
     result = adjust(BH_1995, method="bonferroni")
     expected = [0.0015, 0.006, 0.0285, 0.1425, 0.3015, 0.417, 0.447, 0.516, 0.6885, 1, 1, 1, 1, 1, 1]
     np.testing.assert_allclose(result.p_corrected, expected, rtol=1e-12)
@@ -111,17 +111,17 @@ def test_cv02_bonferroni_on_bh_example():
 @pytest.mark.parametrize(
     ("m", "expected"), [(10, 5.116197e-3), (20, 2.561379e-3), (100, 5.128014e-4), (1000, 5.129198e-5)]
 )
-def test_cv03_sidak_threshold(m, expected):
-    # CHECK_VALUES CV-03: Sidak (1967) per-test level 1 - (1 - alpha)^(1/m).
+def test_sidak_threshold(m, expected):
+    # Sidak (1967) per-test level 1 - (1 - alpha)^(1/m).
     assert adjust(np.full(m, 0.5), method="sidak").threshold == pytest.approx(expected, rel=1e-6)
 
 
-def test_cv03_sidak_adjusted_p():
-    # CHECK_VALUES CV-03: Sidak (1967), adjusted p for p = 0.01, m = 4.
+def test_sidak_adjusted_p():
+    # Sidak (1967), adjusted p for p = 0.01, m = 4.
     assert adjust([0.01, 0.5, 0.6, 0.7], method="sidak").p_corrected[0] == pytest.approx(0.03940399, rel=1e-7)
 
 
-CV04 = {  # method: (mask, adjusted p), input order kept
+DISCRIMINATING = {  # method: (mask, adjusted p), input order kept
     "bonferroni": ([1, 0, 0, 1], [0.04, 0.16, 0.12, 0.02]),
     "holm": ([1, 0, 0, 1], [0.03, 0.06, 0.06, 0.02]),
     "hochberg": ([1, 1, 1, 1], [0.03, 0.04, 0.04, 0.02]),
@@ -132,17 +132,18 @@ CV04 = {  # method: (mask, adjusted p), input order kept
 
 
 @pytest.mark.parametrize("method", METHODS)
-def test_cv04_discriminating_example(method):
-    # CHECK_VALUES CV-04: definitions in Holm (1979), Hochberg (1988), Benjamini & Hochberg (1995),
-    # Benjamini & Yekutieli (2001), Sidak (1967); Hochberg rejects 4 where Holm rejects 2.
-    mask, adjusted = CV04[method]
+def test_discriminating_example(method):
+    # definitions in Holm (1979), Hochberg (1988), Benjamini & Hochberg (1995),
+    # Benjamini & Yekutieli (2001), Sidak (1967); values of statsmodels.stats.multitest.multipletests.
+    # Hochberg rejects 4 where Holm rejects 2.
+    mask, adjusted = DISCRIMINATING[method]
     result = adjust([0.01, 0.04, 0.03, 0.005], method=method, alpha=0.05)
     np.testing.assert_array_equal(result.mask, np.array(mask, dtype=bool))
     np.testing.assert_allclose(result.p_corrected, adjusted, atol=1e-7)
 
 
-def test_cv05_benjamini_hochberg_1995_example():
-    # CHECK_VALUES CV-05: Benjamini & Hochberg (1995), JRSS-B 57:289-300, 15 p-values at q = 0.05: BH rejects the
+def test_benjamini_hochberg_1995_example():
+    # Benjamini & Hochberg (1995), JRSS-B 57:289-300, 15 p-values at q = 0.05: BH rejects the
     # four smallest, Bonferroni three. Confirmed second-hand via the scipy.stats.false_discovery_control docstring.
     result = adjust(BH_1995, method="fdr-bh", alpha=0.05)
     np.testing.assert_array_equal(np.flatnonzero(result.mask), [0, 1, 2, 3])
@@ -153,15 +154,15 @@ def test_cv05_benjamini_hochberg_1995_example():
     assert adjust(BH_1995, method="bonferroni").n_significant == 3
 
 
-def test_cv05_shuffled_input_gives_same_decisions():
-    # CHECK_VALUES CV-05: decisions belong to hypotheses, not to input positions.
+def test_bh_shuffled_input_gives_same_decisions():
+    # Benjamini & Hochberg (1995): decisions belong to hypotheses, not to input positions.
     shuffle = np.random.default_rng(5).permutation(BH_1995.size)
     result = adjust(BH_1995[shuffle], method="fdr-bh")
     np.testing.assert_array_equal(result.mask, np.isin(shuffle, [0, 1, 2, 3]))
 
 
-def test_cv06_other_procedures_on_bh_example():
-    # CHECK_VALUES CV-06: counts and adjusted p computed with statsmodels/scipy (not quoted from BH 1995).
+def test_other_procedures_on_bh_example():
+    # counts and adjusted p of statsmodels.stats.multitest.multipletests (not quoted from BH 1995).
     counts = {"bonferroni": 3, "sidak": 3, "holm": 3, "hochberg": 3, "fdr-by": 3, "fdr-bh": 4}
     for method, count in counts.items():
         assert adjust(BH_1995, method=method).n_significant == count, method
@@ -176,16 +177,16 @@ def test_cv06_other_procedures_on_bh_example():
 
 
 @pytest.mark.parametrize(("m", "harmonic"), [(4, 2.0833333), (15, 3.3182290), (100, 5.1873775)])
-def test_cv07_by_equals_harmonic_factor_times_bh(m, harmonic):
-    # CHECK_VALUES CV-07: Benjamini & Yekutieli (2001) factor c(m) = sum 1/i; BY-adjusted = min(1, c(m) BH-adjusted).
+def test_by_equals_harmonic_factor_times_bh(m, harmonic):
+    # Benjamini & Yekutieli (2001) factor c(m) = sum 1/i; BY-adjusted = min(1, c(m) BH-adjusted).
     p = _random_p(m, m, ties=False)
     by = adjust(p, method="fdr-by").p_corrected
     bh = adjust(p, method="fdr-bh").p_corrected
     np.testing.assert_allclose(by, np.minimum(1.0, harmonic * bh), rtol=1e-7)
 
 
-def test_cv07_by_thresholds_for_15_tests():
-    # CHECK_VALUES CV-07: BY thresholds i q / (m c(m)) for m = 15, q = 0.05: 0.00100455, 0.00200910, 0.00301366,
+def test_by_thresholds_for_15_tests():
+    # Benjamini & Yekutieli (2001): BY thresholds i q / (m c(m)) for m = 15, q = 0.05: 0.00100455, 0.00200910, 0.00301366,
     # 0.00401821.
     thresholds = np.array([0.00100455, 0.00200910, 0.00301366, 0.00401821])
     rest = [0.9] * 11

@@ -3,6 +3,7 @@
 import json
 
 import numpy as np
+import pytest
 from scipy import ndimage
 
 from famwise.cli import main
@@ -57,6 +58,7 @@ def test_regions_follow_the_channel_graph():
     assert [row["channels"] for row in rows] == ["C3", "C4"]
 
 
+@pytest.mark.workflow
 def test_tfce_correction_writes_its_regions_table(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=6, corrections="- method: tfce\n- method: cluster\n")
     assert main(["run", str(spec), "--cores", "2"]) == 0

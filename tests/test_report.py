@@ -95,7 +95,7 @@ def test_report_is_self_contained(built):
     images = [src for tag, src in built["page"].links if tag == "img"]
     assert len(images) == 11  # the figures listed in the test above
     assert all(src.startswith("data:image/png;base64,") for src in images)
-    for tag, target in built["page"].links:
+    for _, target in built["page"].links:
         assert not re.match(r"^(https?:)?//", target), target
     assert "<script" not in built["html"]
     assert "@media print" in built["html"]
@@ -232,7 +232,7 @@ def test_interpretation_notes_are_shown(built):
 
 def test_few_subjects_warn_that_nothing_can_be_significant(tmp_path):
     # n = 5 subjects: 32 sign flips, smallest two-sided p 2/32 = 0.0625 > 0.05
-    # (CHECK_VALUES CV-09; common practice, Nichols & Holmes 2002)
+    # (common practice, Nichols & Holmes 2002)
     write_output(tmp_path, n_included=5, exact=True)
     run = read_run(tmp_path)
     note = permutation_notes(run.contrasts[0], run.study)

@@ -1,4 +1,4 @@
-"""Permutation tables, shards, the null engine and permutation p-values (CHECK_VALUES section C)."""
+"""Permutation tables, shards, the null engine and permutation p-values."""
 
 import math
 import warnings
@@ -54,9 +54,9 @@ def design_table(options, permutations=150, seed=11):
 
 
 @pytest.mark.parametrize("n, rows", [(5, 32), (8, 256), (10, 1024)])
-def test_sign_flip_exact_enumeration_cv09(n, rows):
+def test_sign_flip_exact_enumeration(n, rows):
     table = make_table("one-sample", n_subjects=n, permutations=5000, seed=0)
-    # CV-09: 2^n sign vectors, identity included
+    # 2^n sign vectors, identity included (common practice; Nichols & Holmes 2002)
     assert table.exact and table.n_rows == rows == table.n_distinct
     assert table.rows.dtype == np.int8 and set(np.unique(table.rows)) == {-1, 1}
     np.testing.assert_array_equal(table.rows[0], np.ones(n))
@@ -86,10 +86,10 @@ def test_same_seed_same_table(name):
         assert a.rows.dtype == np.int32
 
 
-def test_label_exact_enumeration_cv09():
+def test_label_exact_enumeration():
     groups = np.array([1, 0, 0, 1, 0, 1, 1, 0, 1, 0])
     table = make_table("two-sample", n_subjects=10, permutations=9999, seed=0, groups=groups)
-    # CV-09: 5 vs 5 -> C(10, 5) = 252 relabellings
+    # 5 vs 5 -> C(10, 5) = 252 relabellings (common practice; Nichols & Holmes 2002)
     assert table.exact and table.n_rows == 252
     np.testing.assert_array_equal(table.rows[0], np.arange(10))
     labels = groups[table.rows]
@@ -200,17 +200,18 @@ def exact_p(x, options, tail):
     return permutation_p(arrays["exceed.count"], table.n_rows), table
 
 
-def test_exact_sign_flip_t_cv10():
+def test_exact_sign_flip_t():
     x = np.array([1.9, -0.4, 2.3, 0.8, 1.1, -0.2, 1.6, 0.7])[:, None]
     p, table = exact_p(x, dict(test="one-sample"), "two-sided")
-    # CV-10: 8 of 256 flips reach |t_obs| = 2.885216 -> p = 0.03125
+    # 8 of 256 flips reach |t_obs| = 2.885216 -> p = 0.03125 (scipy.stats.permutation_test with a t statistic, all flips)
     assert table.n_rows == 256
     assert p[0] == 8 / 256
     assert compute(x, test="one-sample").stat[0] == pytest.approx(2.885216, rel=1e-6)
 
 
-def test_all_positive_sample_cv09():
-    # CV-09: an all-positive sample gives exactly 2 / 2^n two-sided, 1 / 2^n greater
+def test_all_positive_sample():
+    # an all-positive sample gives exactly 2 / 2^n two-sided, 1 / 2^n greater
+    # (scipy.stats.permutation_test with permutation_type='samples'; Nichols & Holmes 2002)
     x = np.arange(1.0, 11.0)[:, None]
     p, table = exact_p(x, dict(test="one-sample"), "two-sided")
     assert p[0] == 2 / 1024 == smallest_attainable_p(table, tail="two-sided")
@@ -225,7 +226,7 @@ def paired_t(u, v):
 
 
 def paired_trimmed_t(u, v):
-    # scipy.stats.trim_mean / scipy.stats.mstats.trimmed_stde: the one-sample trimmed t (CV-18 form A)
+    # scipy.stats.trim_mean / scipy.stats.mstats.trimmed_stde: the one-sample trimmed t (Tukey & McLaughlin 1963)
     d = u - v
     return sps.trim_mean(d, 0.2) / float(sps.mstats.trimmed_stde(d, limits=(0.2, 0.2)))
 
@@ -281,7 +282,7 @@ def test_exact_correlation_equals_scipy_permutation_test():
         # scipy.stats.permutation_test, permutation_type='pairings', all 6! orders
         ref = sps.permutation_test(
             (covariate,),
-            lambda u: sps.pearsonr(u, x[:, point]).statistic,
+            lambda u, column=x[:, point]: sps.pearsonr(u, column).statistic,
             permutation_type="pairings",
             n_resamples=np.inf,
             alternative="greater",
@@ -318,13 +319,13 @@ def test_exceedance_collector_tails():
 
 
 @pytest.mark.parametrize("b, m, expected", [(0, 999, 0.001), (24, 999, 0.025), (49, 999, 0.05), (0, 9999, 1e-4)])
-def test_permutation_p_phipson_smyth_cv08(b, m, expected):
-    # CV-08, Phipson & Smyth (2010): p = (b + 1) / (m + 1); our counts include the identity row
+def test_permutation_p_phipson_smyth(b, m, expected):
+    # Phipson & Smyth (2010): p = (b + 1) / (m + 1); our counts include the identity row
     assert permutation_p(np.array([b + 1]), m + 1)[0] == pytest.approx(expected, rel=1e-12)
 
 
 def test_smallest_attainable_p():
-    # CV-09: n = 5 sign flips -> 0.0625 two-sided, 0.03125 one-sided; 5 vs 5 -> 2/252 and 1/252
+    # common practice (Nichols & Holmes 2002): n = 5 sign flips -> 0.0625 two-sided, 0.03125 one-sided; 5 vs 5 -> 2/252 and 1/252
     table = make_table("one-sample", n_subjects=5, permutations=1000, seed=0)
     assert smallest_attainable_p(table, tail="two-sided") == 0.0625
     assert smallest_attainable_p(table, tail="less") == 0.03125

@@ -43,7 +43,7 @@ def assert_calibrated(rejected):
     # per point: binomial 99.9% interval around alpha (scipy.stats.binom; common practice)
     lo, hi = sps.binom.interval(0.999, rejected.size, ALPHA)
     assert lo <= rejected.sum() <= hi, rejected.mean()
-    # uncorrected FWER over M independent points: 1 - (1 - alpha)^M = 0.6415141 for M = 20 (CV-01)
+    # uncorrected FWER over M independent points: 1 - (1 - alpha)^M = 0.6415141 for M = 20 (common practice, no source)
     fwer = 1 - (1 - ALPHA) ** M
     assert fwer == pytest.approx(0.6415141, abs=1e-7)
     lo, hi = sps.binom.interval(0.999, n_datasets, fwer)

@@ -16,7 +16,7 @@ import yaml
 from famwise.cli import main
 from famwise.demo import write_demo
 
-pytestmark = pytest.mark.slurm
+pytestmark = [pytest.mark.slurm, pytest.mark.workflow]
 
 PROFILE = Path(__file__).resolve().parents[1] / "configs" / "profiles" / "slurm"
 # Fewer permutations than the example's 1000 keep the test short; still two shards.

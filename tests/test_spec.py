@@ -2,6 +2,7 @@
 
 from pathlib import Path
 
+import pydantic
 import pytest
 
 from famwise.errors import UserError
@@ -41,7 +42,7 @@ def test_valid_spec_loads_frozen(tmp_path):
     loaded = load_study(spec)
     assert loaded.study.contrasts[0].conditions == ["high-load", "low-load"]
     assert loaded.output == (tmp_path / "results").resolve()
-    with pytest.raises(Exception):
+    with pytest.raises(pydantic.ValidationError, match="frozen"):
         loaded.study.seed = 3
 
 

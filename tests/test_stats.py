@@ -1,4 +1,4 @@
-"""Observed group statistics: values against scipy/statsmodels and CHECK_VALUES (section D)."""
+"""Observed group statistics: values against scipy, statsmodels and published formulas."""
 
 import numpy as np
 import pytest
@@ -21,8 +21,8 @@ def rng():
 # --- one-sample and paired t ------------------------------------------------
 
 
-def test_one_sample_cv13():
-    # CV-13, scipy.stats.ttest_1samp: t = 3 sqrt(2), df 4, p 0.01323560
+def test_one_sample_t():
+    # scipy.stats.ttest_1samp: t = 3 sqrt(2), df 4, p 0.01323560
     res = compute(col([1, 2, 3, 4, 5]), test="one-sample")
     assert res.stat[0] == pytest.approx(3 * np.sqrt(2), rel=1e-12)
     assert res.p[0] == pytest.approx(0.01323560, rel=1e-6)
@@ -32,10 +32,10 @@ def test_one_sample_cv13():
     assert res.effect_size[0] == pytest.approx(3 / np.std([1, 2, 3, 4, 5], ddof=1))
 
 
-def test_paired_cv14_equals_one_sample_on_differences():
+def test_paired_equals_one_sample_on_differences():
     a, b = np.array([2, 4, 5, 4, 8.0]), np.array([1, 2, 3, 4, 5.0])
     res = compute(col(a - b), test="paired")
-    # CV-14, scipy.stats.ttest_rel: t 3.1378582, p 0.03491971
+    # scipy.stats.ttest_rel: t 3.1378582, p 0.03491971
     assert res.stat[0] == pytest.approx(3.1378582, rel=1e-7)
     assert res.p[0] == pytest.approx(0.03491971, rel=1e-6)
     ref = sps.ttest_rel(a, b)  # scipy.stats.ttest_rel
@@ -55,23 +55,23 @@ def test_one_sample_many_points_equals_scipy(rng, tail):
 # --- two-sample t -------------------------------------------------------------
 
 
-def test_two_sample_cv15a():
+def test_two_sample_equal_sizes():
     x = col([1, 2, 3, 4, 5, 3, 4, 5, 6, 7])
     groups = np.r_[np.zeros(5, int), np.ones(5, int)]
     for equal_var in (True, False):
         res = compute(x, test="two-sample", groups=groups, equal_var=equal_var)
-        # CV-15(a), scipy.stats.ttest_ind: t = -2, df 8, p 0.08051624 (Welch identical)
+        # scipy.stats.ttest_ind: t = -2, df 8, p 0.08051624 (Welch identical)
         assert res.stat[0] == pytest.approx(-2.0, rel=1e-12)
         assert res.p[0] == pytest.approx(0.08051624, rel=1e-6)
         assert float(np.ravel(res.df)[0]) == pytest.approx(8.0)
 
 
-def test_two_sample_cv15b_student_and_welch():
+def test_two_sample_student_and_welch():
     x = col([1, 2, 3, 4, 5, 2, 4, 6, 8, 10, 12])
     groups = np.r_[np.zeros(5, int), np.ones(6, int)]
     student = compute(x, test="two-sample", groups=groups)
     welch = compute(x, test="two-sample", groups=groups, equal_var=False)
-    # CV-15(b), scipy.stats.ttest_ind(equal_var=True/False)
+    # scipy.stats.ttest_ind(equal_var=True/False)
     assert student.stat[0] == pytest.approx(-2.2156468, rel=1e-7)
     assert student.p[0] == pytest.approx(0.05394592, rel=1e-6)
     assert float(student.df) == 9
@@ -109,30 +109,30 @@ def test_hedges_g_equals_statsmodels(rng):
 # --- Yuen's trimmed t -----------------------------------------------------------
 
 
-def test_yuen_two_sample_cv16():
+def test_yuen_two_sample_scipy_example():
     a = [56, 128.6, 12, 123.8, 64.34, 78, 763.3]
     b = [1.1, 2.9, 4.2]
     x = col(a + b)
     groups = np.r_[np.zeros(7, int), np.ones(3, int)]
     pooled = compute(x, test="two-sample", groups=groups, statistic="yuen")
-    # CV-16, scipy.stats.ttest_ind(a, b, trim=.2): t 3.4463884028, p 0.0136933873, df 6
+    # scipy.stats.ttest_ind(a, b, trim=.2) (its docstring example): t 3.4463884028, p 0.0136933873, df 6
     assert pooled.stat[0] == pytest.approx(3.4463884028, rel=1e-9)
     assert pooled.p[0] == pytest.approx(0.0136933873, rel=1e-8)
     assert float(pooled.df) == 6
     welch = compute(x, test="two-sample", groups=groups, statistic="yuen", equal_var=False)
-    # CV-16, Yuen (1974) proper = ttest_ind(..., trim=.2, equal_var=False)
+    # Yuen (1974) proper = ttest_ind(..., trim=.2, equal_var=False)
     assert welch.stat[0] == pytest.approx(4.5915987, rel=1e-7)
     assert welch.df[0] == pytest.approx(4.0178493, rel=1e-7)
     assert welch.p[0] == pytest.approx(0.0099890925, rel=1e-7)
 
 
-def test_yuen_two_sample_cv17():
+def test_yuen_two_sample_with_outliers():
     a = [1, 2, 3, 4, 5, 6, 7, 8, 9, 30]
     b = [-3, 0, 1, 1.5, 2, 2.5, 3, 4, 5, -20]
     x, groups = col(a + b), np.r_[np.zeros(10, int), np.ones(10, int)]
     welch = compute(x, test="two-sample", groups=groups, statistic="yuen", equal_var=False)
     pooled = compute(x, test="two-sample", groups=groups, statistic="yuen")
-    # CV-17 (computed; matches scipy.stats.ttest_ind(trim=0.2))
+    # scipy.stats.ttest_ind(a, b, trim=0.2, equal_var=False) and its pooled variant
     assert welch.stat[0] == pytest.approx(2.7712855, rel=1e-7)
     assert welch.df[0] == pytest.approx(8.1221342, rel=1e-7)
     assert welch.p[0] == pytest.approx(0.0238994, rel=1e-5)
@@ -157,7 +157,7 @@ def test_yuen_two_sample_many_points_equals_scipy(rng, equal_var):
     )
 
 
-def test_yuen_one_sample_cv18_textbook_formula():
+def test_yuen_one_sample_textbook_formula():
     x = np.array([-1.2, 0.3, 0.5, 0.8, 1.1, 1.4, 1.9, 2.2, 2.6, 9.0])
     res = compute(col(x), test="one-sample", statistic="yuen")
     # Textbook formula (Tukey & McLaughlin 1963; Yuen 1974 Winsorized variance; the
@@ -167,22 +167,22 @@ def test_yuen_one_sample_cv18_textbook_formula():
     w = np.r_[[s[g]] * g, s[g : n - g], [s[n - g - 1]] * g]
     se = w.std(ddof=1) / ((1 - 2 * 0.2) * np.sqrt(n))
     assert res.stat[0] == pytest.approx(s[g : n - g].mean() / se, rel=1e-12)
-    # CV-18 form A: T 3.3513510, df 5, p 0.0202988, trimmed mean 1.3166667
+    # the same formula evaluated by hand (scipy.stats.mstats.trimmed_stde): T 3.3513510, df 5, p 0.0202988, trimmed mean 1.3166667
     assert res.stat[0] == pytest.approx(3.3513510, rel=1e-7)
     assert float(res.df) == 5
     assert res.p[0] == pytest.approx(0.0202988, rel=1e-5)
     assert res.effect[0] == pytest.approx(1.3166667, rel=1e-7)
-    # scipy.stats.mstats.trimmed_stde gives the same standard error (CV-18)
+    # scipy.stats.mstats.trimmed_stde gives the same standard error
     assert res.effect[0] / res.stat[0] == pytest.approx(mstats.trimmed_stde(x, limits=(0.2, 0.2)), rel=1e-10)
     # scipy.stats.trim_mean
     assert res.effect[0] == pytest.approx(sps.trim_mean(x, 0.2), rel=1e-12)
 
 
-def test_yuen_paired_is_one_sample_on_differences_cv19():
+def test_yuen_paired_is_one_sample_on_differences():
     a = np.array([10.1, 9.8, 12.0, 11.5, 10.9, 13.2, 9.5, 11.1, 10.4, 25.0])
     b = np.array([9.0, 9.9, 10.1, 10.0, 9.2, 11.0, 9.6, 9.8, 9.7, 8.0])
     res = compute(col(a - b), test="paired", statistic="yuen")
-    # CV-19, second definition (one-sample trimmed t on the differences, form A)
+    # one-sample trimmed t on the differences (Tukey & McLaughlin 1963), computed by hand
     assert res.stat[0] == pytest.approx(5.0382763, rel=1e-7)
     assert res.effect[0] == pytest.approx(1.3666667, rel=1e-7)
     assert res.p[0] == pytest.approx(0.0039727, rel=1e-4)
@@ -249,8 +249,8 @@ def test_constant_points_follow_scipy():
 @pytest.mark.parametrize(
     "df, two_sided, one_sided", [(5, 2.5705818, 2.0150484), (9, 2.2621572, 1.8331129), (19, 2.0930241, 1.7291328)]
 )
-def test_forming_threshold_cv20(df, two_sided, one_sided):
-    # CV-20, scipy.stats.t.isf
+def test_forming_threshold(df, two_sided, one_sided):
+    # scipy.stats.t.isf
     assert forming_threshold(0.05, test="one-sample", df=np.asarray(df), tail="two-sided") == pytest.approx(
         two_sided, rel=1e-7
     )

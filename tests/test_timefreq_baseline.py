@@ -12,7 +12,7 @@ from famwise.timefreq import decompose
 
 @pytest.mark.parametrize(
     ("ratio", "db", "percent"),
-    [  # CV-33 (common practice; Cohen 2014, ch. 18, from memory)
+    [  # common practice; Cohen 2014, ch. 18 (from memory)
         (2.0, 3.0103000, 100.0), (10.0, 10.0, 900.0), (0.5, -3.0103000, -50.0),
         (1.5, 1.7609126, 50.0), (1.0, 0.0, 0.0),
     ],
@@ -22,19 +22,19 @@ def test_db_percent_ratio(ratio, db, percent):
     assert bl.normalise(power, mean, sd, mode="db")[0] == pytest.approx(db, rel=1e-7, abs=1e-12)
     assert bl.normalise(power, mean, sd, mode="percent")[0] == pytest.approx(percent, abs=1e-9)
     assert bl.normalise(power, mean, sd, mode="ratio")[0] == pytest.approx(ratio, rel=1e-12)
-    # CV-33 identity dB = 10 log10(1 + pct/100)
+    # identity dB = 10 log10(1 + pct/100) (common practice, no source)
     assert 10 * np.log10(1 + percent / 100) == pytest.approx(db, rel=1e-7, abs=1e-12)
 
 
 def test_zscore_uses_sample_sd():
-    # CV-33: base [1..5], P = 7 -> ddof 1: 2.5298221 (ddof 0 would give 2.8284271)
+    # common practice, no source: base [1..5], P = 7 -> ddof 1: 2.5298221 (ddof 0 would give 2.8284271)
     power = np.array([1.0, 2.0, 3.0, 4.0, 5.0, 7.0])
     mean, sd = bl.baseline_stats(power, np.arange(6) < 5)
     assert bl.normalise(power, mean, sd, mode="zscore")[-1] == pytest.approx(2.5298221, rel=1e-7)
 
 
 def test_constant_map_at_baseline_gives_zero():
-    # CV-33 property: a map equal to its baseline gives 0 in dB, percent and z (ratio 1)
+    # common practice, no source: a map equal to its baseline gives 0 in dB, percent and z (ratio 1)
     power = np.full((2, 6), 3.0)
     power[:, ::2] += 1e-3  # some spread so the SD is not zero
     window = np.ones(6, dtype=bool)
@@ -75,7 +75,7 @@ def test_decompose_baseline_equals_hand_formula(mode):
     base = raw[..., window]
     mean, sd = base.mean(-1, keepdims=True), base.std(-1, ddof=1, keepdims=True)
     expected = {"db": 10 * np.log10(raw / mean), "percent": 100 * (raw - mean) / mean,
-                "zscore": (raw - mean) / sd, "ratio": raw / mean}[mode]  # CV-33 formulas
+                "zscore": (raw - mean) / sd, "ratio": raw / mean}[mode]  # Cohen 2014, ch. 18 (from memory)
     np.testing.assert_allclose(out.values, expected, rtol=2e-4, atol=2e-4)
 
 
@@ -112,7 +112,7 @@ def test_single_trial_baseline_then_trimmed_mean():
         trials = np.stack([naive_timefreq(epochs.data[[i]], kernels, measure="power", scale=1.0,
                                           keep=keep)
                            for i in np.flatnonzero(epochs.labels == label)])
-        db = 10 * np.log10(trials / trials[..., window].mean(-1, keepdims=True))  # CV-33
+        db = 10 * np.log10(trials / trials[..., window].mean(-1, keepdims=True))  # dB of each trial (common practice, no source)
         expected = trim_mean(db, 0.2, axis=0)  # scipy.stats.trim_mean
         np.testing.assert_allclose(out.values[c], expected, atol=2e-4)
     assert "own baseline" in out.baseline

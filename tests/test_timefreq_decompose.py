@@ -83,11 +83,11 @@ def test_condition_sharing_a_label_and_progress():
 
 
 def test_cone_of_influence_mask():
-    # Morlet: invalid within sqrt(2) sigma_t of an edge (Torrence & Compo 1998; CV-30)
+    # Morlet: invalid within sqrt(2) sigma_t of an edge (Torrence & Compo 1998, Sec. 3g)
     epochs = _epochs(n_samples=500, tmin=0.0)
     maps = decompose(epochs, subject="s1", conditions=CONDITIONS, freqs_hz=np.array([10.0]),
                      cycles=7.0)
-    halfwidth = np.sqrt(2) * 7 / (2 * np.pi * 10)  # 0.1575554 s (CV-30)
+    halfwidth = np.sqrt(2) * 7 / (2 * np.pi * 10)  # 0.1575554 s (Torrence & Compo 1998)
     t = maps.times
     np.testing.assert_array_equal(maps.valid[0], (t >= halfwidth) & (t <= t[-1] - halfwidth))
     # multitaper: half the window (our choice)

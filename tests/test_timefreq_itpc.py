@@ -1,4 +1,4 @@
-"""Inter-trial phase coherence: exact values and the null expectation (CV-34)."""
+"""Inter-trial phase coherence: exact values and the null expectation (circular statistics; Mardia & Jupp 2000)."""
 
 import numpy as np
 import pytest
@@ -18,7 +18,7 @@ def _itpc(phases, *, n_samples=1000, fs=500.0, freqs=(10.0,)):
 
 
 def test_identical_phases_give_one():
-    maps = _itpc([0.4] * 6)  # CV-34: identical phases -> ITPC = 1 (circular statistics)
+    maps = _itpc([0.4] * 6)  # identical phases -> ITPC = 1 (Mardia & Jupp 2000)
     np.testing.assert_allclose(maps.values[0, 0, 0], 1.0, atol=1e-5)
     assert maps.measure == "itpc"
 
@@ -26,19 +26,19 @@ def test_identical_phases_give_one():
 def test_five_phase_example():
     phases = np.array([0.1, 0.5, -0.3, 2.0, 1.0])
     maps = _itpc(phases)
-    # CV-34: 0.7170492, equal to scipy.stats.directional_stats(...).mean_resultant_length
+    # 0.7170492, equal to scipy.stats.directional_stats(...).mean_resultant_length
     expected = directional_stats(np.c_[np.cos(phases), np.sin(phases)]).mean_resultant_length
     assert expected == pytest.approx(0.7170492, rel=1e-6)
     assert maps.values[0, 0, 0, 500] == pytest.approx(expected, abs=1e-4)
 
 
 def test_opposite_phases_give_zero():
-    maps = _itpc([0.0, np.pi / 2, np.pi, 3 * np.pi / 2])  # CV-34: four quadrature phases -> 0
+    maps = _itpc([0.0, np.pi / 2, np.pi, 3 * np.pi / 2])  # four quadrature phases -> 0 (Mardia & Jupp 2000)
     assert abs(maps.values[0, 0, 0, 500]) < 1e-4
 
 
 def test_random_phases_null_expectation():
-    # CV-34 (Rayleigh limit; Mardia & Jupp 2000): uniform random phases over N epochs give
+    # Rayleigh limit (Mardia & Jupp 2000): uniform random phases over N epochs give
     # mean ITPC ~ sqrt(pi) / (2 sqrt(N)) (rel tol 2 % for N >= 20) and mean ITPC^2 = 1/N (1 %).
     # White noise has independent uniform phases per epoch; many cells average the estimate.
     n = 40

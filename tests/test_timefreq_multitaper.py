@@ -12,7 +12,7 @@ from famwise.timefreq import multitaper as mt
 
 @pytest.mark.parametrize(
     ("n_samples", "nw", "ratios"),
-    [  # CV-31, values of scipy.signal.windows.dpss(M, NW, Kmax, return_ratios=True)
+    [  # values of scipy.signal.windows.dpss(M, NW, Kmax, return_ratios=True)
         (500, 2.0, [0.99994277, 0.99756210, 0.95939335]),
         (1000, 4.0, [1.0, 0.99999997, 0.99999879, 0.99996756, 0.99941019, 0.99250534,
                      0.93665556]),
@@ -21,15 +21,15 @@ from famwise.timefreq import multitaper as mt
 )
 def test_tapers_equal_scipy_dpss(n_samples, nw, ratios):
     tapers, found = mt.dpss_tapers(n_samples, nw)
-    assert tapers.shape == (2 * nw - 1, n_samples)  # K = 2NW - 1 (CV-31; Percival & Walden 1993)
-    np.testing.assert_allclose(found, ratios, atol=1e-7)  # CV-31
+    assert tapers.shape == (2 * nw - 1, n_samples)  # K = 2NW - 1 (Percival & Walden 1993)
+    np.testing.assert_allclose(found, ratios, atol=1e-7)  # scipy.signal.windows.dpss(..., return_ratios=True)
     # scipy.signal.windows.dpss with Kmax: the same L2-normalised tapers
     np.testing.assert_allclose(tapers, dpss(n_samples, nw, Kmax=int(2 * nw - 1)), atol=1e-12)
     np.testing.assert_allclose(tapers @ tapers.T, np.eye(tapers.shape[0]), atol=1e-12)
 
 
 def test_counts_and_resolution():
-    # CV-31: T = 0.5 s, W = 4 Hz -> NW = 2, K = 3, resolution 8 Hz; T = 1 s, W = 4 Hz -> K = 7
+    # Percival & Walden (1993): T = 0.5 s, W = 4 Hz -> NW = 2, K = 3, resolution 8 Hz; T = 1 s, W = 4 Hz -> K = 7
     assert mt.taper_count(2.0) == 3
     assert mt.taper_count(4.0) == 7
     assert mt.resolution_hz(0.5, 2.0) == pytest.approx(8.0)
@@ -42,7 +42,7 @@ def _epochs(data, sfreq):
 
 
 def test_sinusoid_power_integrates_to_half_amplitude_squared():
-    # CV-32 (Parseval, common practice): fs 1 kHz, T = 0.5 s, NW = 2 (K = 3), x = 2 cos(2 pi 100 t
+    # Parseval (common practice): fs 1 kHz, T = 0.5 s, NW = 2 (K = 3), x = 2 cos(2 pi 100 t
     # + 0.3): one-sided PSD integrated over 100 +- 12 Hz = A^2 / 2 = 2 (rel tol 1 %)
     fs = 1000.0
     t = np.arange(1500) / fs
@@ -55,7 +55,7 @@ def test_sinusoid_power_integrates_to_half_amplitude_squared():
 
 
 def test_white_noise_flat_at_psd_level():
-    # CV-32: white noise of SD 1.5 has two-sided PSD sigma^2/fs, one-sided 2 sigma^2/fs = 0.0045
+    # white noise of SD 1.5 has two-sided PSD sigma^2/fs, one-sided 2 sigma^2/fs = 0.0045
     # (Parseval, common practice); flat over frequency
     fs, sd = 1000.0, 1.5
     rng = np.random.default_rng(11)

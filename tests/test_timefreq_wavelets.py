@@ -10,7 +10,7 @@ from famwise.timefreq import wavelets as wl
 
 @pytest.mark.parametrize(
     ("freq", "cycles", "sigma_t", "fwhm_t", "fwhm_f"),
-    [  # CV-28: Gaussian/Fourier identities; FWHM form after Cohen (2019), NeuroImage 199:81-86
+    [  # Gaussian/Fourier identities (common practice); FWHM form after Cohen (2019), NeuroImage 199:81-86
         (10.0, 7.0, 0.1114085, 0.2623469, 3.3640286),
         (4.0, 3.0, 0.1193662, 0.2810864, 3.1397602),
         (40.0, 7.0, 0.0278521, 0.0655867, 13.456115),
@@ -18,20 +18,20 @@ from famwise.timefreq import wavelets as wl
     ],
 )
 def test_width_relations(freq, cycles, sigma_t, fwhm_t, fwhm_f):
-    # rel 1e-5: two CV-28 FWHM_t entries (4 Hz/3 cycles, 10 Hz/5 cycles) are 1.7e-6 off
+    # rel 1e-5: two FWHM_t entries (4 Hz/3 cycles, 10 Hz/5 cycles) are 1.7e-6 off
     # the product sigma_t * 2.3548200 of their own columns
     sigma = wl.sigma_t_from_cycles(np.array([freq]), np.array([cycles]))[0]
-    assert sigma == pytest.approx(sigma_t, rel=1e-6)  # CV-28
-    assert wl.fwhm_from_sigma(sigma) == pytest.approx(fwhm_t, rel=1e-5)  # CV-28
-    assert wl.sigma_from_fwhm(fwhm_t) == pytest.approx(sigma_t, rel=1e-5)  # CV-28
+    assert sigma == pytest.approx(sigma_t, rel=1e-6)  # sigma_t = n / (2 pi f)
+    assert wl.fwhm_from_sigma(sigma) == pytest.approx(fwhm_t, rel=1e-5)  # FWHM = 2 sqrt(2 ln 2) sigma
+    assert wl.sigma_from_fwhm(fwhm_t) == pytest.approx(sigma_t, rel=1e-5)  # Cohen (2019)
     spectral = wl.spectral_fwhm_hz(wl.fwhm_from_sigma(sigma))
-    assert spectral == pytest.approx(fwhm_f, rel=1e-6)  # CV-28
-    # sigma_t * sigma_f = 1 / (2 pi) (CV-28)
+    assert spectral == pytest.approx(fwhm_f, rel=1e-6)  # spectral FWHM = 4 ln 2 / (pi FWHM_t)
+    # sigma_t * sigma_f = 1 / (2 pi) (Gaussian/Fourier identity, common practice)
     assert sigma * (freq / cycles) == pytest.approx(0.1591549, rel=1e-6)
 
 
 def test_constructed_wavelet_widths():
-    # CV-28 (ii): envelope FWHM at fs = 1 kHz is 0.2623469 s (tol 1/fs); |FFT| half-maximum
+    # envelope FWHM at fs = 1 kHz is 0.2623469 s (tol 1/fs); |FFT| half-maximum
     # width 3.3607 Hz with 2^18-point zero padding (tol 0.01 Hz). Cohen (2019).
     fs = 1000.0
     sigma = wl.sigma_t_from_cycles(10.0, 7.0)
@@ -46,14 +46,14 @@ def test_constructed_wavelet_widths():
 
 
 def test_envelope_sums_to_two():
-    # CV-29: amplitude-preserving normalisation, sum of |psi| = 2 (common practice)
+    # amplitude-preserving normalisation, sum of |psi| = 2 (common practice, no source)
     psi = wl.morlet_wavelet(10.0, wl.sigma_t_from_cycles(10.0, 7.0), 1000.0)
     assert np.abs(psi).sum() == pytest.approx(2.0, rel=1e-12)
     assert psi.size % 2 == 1
 
 
 def test_cone_of_influence_halfwidth():
-    # CV-30: e-folding time sqrt(2) sigma_t; 10 Hz, 7 cycles -> 0.1575554 s
+    # e-folding time sqrt(2) sigma_t; 10 Hz, 7 cycles -> 0.1575554 s
     # (Torrence & Compo 1998, Sec. 3g)
     sigma = wl.sigma_t_from_cycles(10.0, 7.0)
     assert wl.cone_halfwidth_s(sigma) == pytest.approx(0.1575554, rel=1e-6)
@@ -75,7 +75,7 @@ def _one_channel(signal, sfreq, tmin=0.0, label="a"):
 
 
 def test_sinusoid_amplitude_recovered():
-    # CV-29: x = A cos(2 pi f0 t + 0.7) -> |W| = A at f0 away from edges (analytic);
+    # x = A cos(2 pi f0 t + 0.7) -> |W| = A at f0 away from edges (analytic; common practice);
     # power = A^2. A = 3 uV, f0 = 10 Hz, 7 cycles. Farther than 5 sigma_t from both edges
     # the wavelet lies wholly inside the epoch.
     fs, amplitude = 1000.0, 3e-6
@@ -93,7 +93,7 @@ def test_sinusoid_amplitude_recovered():
 
 
 def test_fwhm_setting_equals_cycles_setting():
-    # the FWHM of a 7-cycle 10 Hz wavelet is 262.3469 ms (CV-28); both settings build it
+    # the FWHM of a 7-cycle 10 Hz wavelet is 262.3469 ms (Cohen 2019); both settings build it
     fs = 500.0
     rng = np.random.default_rng(3)
     epochs = _one_channel(rng.normal(size=(4, 1000)) * 1e-6, fs)

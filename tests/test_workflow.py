@@ -6,6 +6,7 @@ import scipy.stats
 from statsmodels.stats.multitest import multipletests
 
 from famwise.cli import main, planned_jobs
+from famwise.job_benchmarks import stage_costs
 from famwise.plan import Plan
 
 from conftest import write_tiny_study, write_tiny_subject
@@ -31,10 +32,25 @@ def cached_study(tmp_path_factory):
     return spec
 
 
+@pytest.mark.workflow
 def test_second_run_does_nothing(cached_study):
     assert _jobs(cached_study) == {}
 
 
+@pytest.mark.workflow
+def test_every_job_records_its_time_and_memory(cached_study, capsys):
+    logs = cached_study.parent / "results" / "logs"
+    assert sorted(p.name for p in (logs / "decompose").glob("*.benchmark.tsv")) == [f"0{k}.benchmark.tsv" for k in range(1, 7)]
+    jobs = {cost.stage: cost.jobs for cost in stage_costs(logs)}
+    assert jobs == {"decompose": 6, "subjects_table": 1, "contrast_data": 1, "observed": 1, "null_shard": 2,
+                    "null_info": 1, "correct": 4, "report": 1}
+    assert all(cost.wall_s > 0 for cost in stage_costs(logs))
+    assert main(["check", str(cached_study)]) == 0
+    out = capsys.readouterr().out
+    assert "Where the time went" in out and "null_shard" in out.split("Where the time went")[1]
+
+
+@pytest.mark.workflow
 def test_result_files_follow_the_design(cached_study):
     out = cached_study.parent / "results"
     for name in ("bonferroni", "holm", "fdr-bh", "max-stat"):
@@ -47,6 +63,7 @@ def test_result_files_follow_the_design(cached_study):
     assert (out / "subjects.tsv").read_text().count("included") == 6
 
 
+@pytest.mark.workflow
 def test_t_map_and_corrections_match_references(cached_study):
     out = cached_study.parent / "results" / "contrasts" / "high-vs-low"
     with np.load(out / "subjects.npz") as subjects, np.load(out / "observed.npz") as observed:
@@ -63,6 +80,7 @@ def test_t_map_and_corrections_match_references(cached_study):
             np.testing.assert_array_equal(result["mask"].reshape(-1), reject)
 
 
+@pytest.mark.workflow
 def test_paired_t_equals_ttest_rel(cached_study):
     """The paired contrast equals scipy.stats.ttest_rel on the two conditions' maps."""
     out = cached_study.parent / "results"
@@ -80,6 +98,7 @@ def test_paired_t_equals_ttest_rel(cached_study):
     np.testing.assert_allclose(stat, reference.statistic, rtol=1e-4)
 
 
+@pytest.mark.workflow
 def test_reruns_only_what_changed(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=5, corrections="- method: holm\n- method: fdr-bh\n- method: max-stat\n")
     _run(spec)
@@ -111,6 +130,7 @@ def test_reruns_only_what_changed(tmp_path):
     }
 
 
+@pytest.mark.workflow
 def test_all_contrasts_family_equals_brute_force(tmp_path):
     """family: all-contrasts ranks both contrasts' points jointly (Westfall & Young 1993 successive maxima),
     checked against the brute-force step-down over the concatenated permutation maps (famwise.reference.stepdown)

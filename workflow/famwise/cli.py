@@ -81,6 +81,7 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def command_check(args) -> int:
+    from famwise.job_benchmarks import describe_stage_costs
     from famwise.plan import Plan
     from famwise.summary import describe_plan
 
@@ -94,6 +95,10 @@ def command_check(args) -> int:
         print("  nothing: every result is up to date")
     for rule, (count, reasons) in jobs.items():
         print(f"  {count:4d} x {rule:<17} {'; '.join(sorted(reasons))[:150]}")
+    costs = describe_stage_costs(plan.loaded.output / "logs")
+    if costs:
+        print()
+        print(costs)
     return 0
 
 

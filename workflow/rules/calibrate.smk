@@ -27,6 +27,8 @@ rule calibrate_chunk:
         "calibration/{contrast}/chunk-{chunk}.npz",
     log:
         "logs/calibrate_chunk/{contrast}-{chunk}.log",
+    benchmark:
+        "logs/calibrate_chunk/{contrast}-{chunk}.benchmark.tsv",
     params:
         settings=calibration_settings,
     wildcard_constraints:
@@ -49,6 +51,8 @@ rule calibrate_table:
         vector="calibration/{contrast}.svg",
     log:
         "logs/calibrate_table/{contrast}.log",
+    benchmark:
+        "logs/calibrate_table/{contrast}.benchmark.tsv",
     params:
         settings=calibration_settings,
     shell:

@@ -8,6 +8,8 @@ rule correct_points:
         "contrasts/{contrast}/{correction}/result.npz",
     log:
         "logs/correct/{contrast}-{correction}.log",
+    benchmark:
+        "logs/correct/{contrast}-{correction}.benchmark.tsv",
     params:
         settings=correction_settings,
     wildcard_constraints:
@@ -29,6 +31,8 @@ rule correct_clusters:
         table="contrasts/{contrast}/{correction}/clusters.tsv",
     log:
         "logs/correct/{contrast}-{correction}.log",
+    benchmark:
+        "logs/correct/{contrast}-{correction}.benchmark.tsv",
     params:
         settings=correction_settings,
     wildcard_constraints:

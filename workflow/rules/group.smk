@@ -9,6 +9,8 @@ rule contrast_data:
         "contrasts/{contrast}/subjects.npz",
     log:
         "logs/contrast_data/{contrast}.log",
+    benchmark:
+        "logs/contrast_data/{contrast}.benchmark.tsv",
     params:
         settings=contrast_settings,
     resources:
@@ -25,6 +27,8 @@ rule observed:
         "contrasts/{contrast}/observed.npz",
     log:
         "logs/observed/{contrast}.log",
+    benchmark:
+        "logs/observed/{contrast}.benchmark.tsv",
     params:
         settings=observed_settings,
     resources:

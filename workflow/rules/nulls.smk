@@ -15,6 +15,8 @@ rule null_shard:
         "contrasts/{contrast}/nulls/shard-{shard}.npz",
     log:
         "logs/null_shard/{contrast}-{shard}.log",
+    benchmark:
+        "logs/null_shard/{contrast}-{shard}.benchmark.tsv",
     params:
         settings=null_settings,
     threads: NULL_THREADS
@@ -34,6 +36,8 @@ rule null_info:
         "contrasts/{contrast}/nulls/info.json",
     log:
         "logs/null_info/{contrast}.log",
+    benchmark:
+        "logs/null_info/{contrast}.benchmark.tsv",
     params:
         settings=null_settings,
     resources:
@@ -50,6 +54,8 @@ rule family_stepdown_shard:
         "family/{correction}/shard-{shard}.npz",
     log:
         "logs/family_stepdown_shard/{correction}-{shard}.log",
+    benchmark:
+        "logs/family_stepdown_shard/{correction}-{shard}.benchmark.tsv",
     params:
         settings=null_settings,
     threads: 1

@@ -13,6 +13,8 @@ rule report:
         "report/provenance.json",
     log:
         "logs/report/all.log",
+    benchmark:
+        "logs/report/all.benchmark.tsv",
     params:
         settings=report_settings,
     resources:

@@ -9,6 +9,8 @@ rule decompose:
         info="tf/sub-{subject}.json",
     log:
         "logs/decompose/{subject}.log",
+    benchmark:
+        "logs/decompose/{subject}.benchmark.tsv",
     params:
         settings=decompose_settings,
     resources:
@@ -26,6 +28,8 @@ rule subjects_table:
         "subjects.tsv",
     log:
         "logs/subjects_table/all.log",
+    benchmark:
+        "logs/subjects_table/all.benchmark.tsv",
     params:
         settings=subjects_table_settings,
     resources:
@@ -43,6 +47,8 @@ rule channel_graph:
         "channels/graph.npz",
     log:
         "logs/channel_graph/all.log",
+    benchmark:
+        "logs/channel_graph/all.benchmark.tsv",
     params:
         settings=graph_settings,
     resources:
