@@ -49,7 +49,7 @@ def read_participants(root: Path) -> dict[str, dict[str, str]]:
     path = Path(root) / "participants.tsv"
     if not path.is_file():
         return {}
-    rows = _read_tsv(path)
+    rows = read_tsv(path)
     if rows and "participant_id" not in rows[0]:
         raise UserError(f"{path} must have a 'participant_id' column, found {list(rows[0])}")
     return {_strip_sub(row["participant_id"]): {k: v for k, v in row.items()
@@ -329,7 +329,8 @@ def _strip_sub(value: str) -> str:
     return value[4:] if value.startswith("sub-") else value
 
 
-def _read_tsv(path: Path) -> list[dict[str, str]]:
+def read_tsv(path: Path) -> list[dict[str, str]]:
+    """Rows of a BIDS tab-separated file as dicts keyed by its header line."""
     with path.open(newline="", encoding="utf-8") as stream:
         return [dict(row) for row in csv.DictReader(stream, delimiter="\t")]
 
@@ -391,7 +392,7 @@ def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tupl
     """(onset s, trial_type) of the wanted events, in file order."""
     if not path.is_file():
         raise UserError(f"subject {subject}: events file {path} is missing")
-    rows = _read_tsv(path)
+    rows = read_tsv(path)
     columns = list(rows[0]) if rows else []
     for column in ("onset", "trial_type"):
         if column not in columns:
@@ -423,7 +424,7 @@ def read_channels(path: Path, subject: str) -> dict[str, dict[str, str]] | None:
     """Rows of ``_channels.tsv`` by name; None when the file is absent (keep all signals)."""
     if not path.is_file():
         return None
-    rows = _read_tsv(path)
+    rows = read_tsv(path)
     if rows and not {"name", "type"} <= set(rows[0]):
         raise UserError(f"subject {subject}: channels file {path} needs 'name' and 'type' "
                         f"columns, found {list(rows[0])}")
@@ -466,12 +467,17 @@ def _kept_signals(recording: Recording, table, subject: str) -> list:
 
 
 def _unit_factor(signal, table, subject: str) -> float:
-    """Volts per stored unit, from ``_channels.tsv`` units or else the recording's header."""
+    """Volts per stored unit, from ``_channels.tsv`` units or else the recording's header (a warning when they differ)."""
     unit = ""
     if table is not None and signal.label in table:
         unit = table[signal.label].get("units", "") or ""
     if unit in ("", "n/a"):
         unit = signal.unit
+    else:
+        given, stated = (_UNITS_TO_VOLTS.get(text.strip().lower()) for text in (unit, signal.unit))
+        if given is not None and stated is not None and given != stated:
+            warnings.warn(f"subject {subject}: channel {signal.label} is in {unit} by _channels.tsv but in "
+                          f"{signal.unit} by the header of its recording; using {unit}", FamwiseWarning, stacklevel=3)
     factor = _UNITS_TO_VOLTS.get(unit.strip().lower())
     if factor is None:
         warnings.warn(f"subject {subject}: unit {unit!r} of channel {signal.label} is not one of "
