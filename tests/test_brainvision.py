@@ -92,6 +92,12 @@ def test_header_encoding_placeholders_and_escaped_commas(tmp_path):
     np.testing.assert_array_equal(brainvision.read_samples(header), stored * 0.5)
 
 
+def test_utf8_header_with_a_byte_order_mark(tmp_path):
+    path = _hand_built(tmp_path, stored=np.ones((3, 2)), binary_format="INT_16", encoding="utf-8-sig")
+    header = brainvision.read_header(path)
+    assert [(c.name, c.unit) for c in header.channels] == [(name, "µV") for name in NAMES]
+
+
 def test_missing_data_file_is_one_error_naming_it(tmp_path):
     path = _hand_built(tmp_path, stored=np.zeros((3, 4)), binary_format="INT_16")
     (tmp_path / "rec.eeg").unlink()

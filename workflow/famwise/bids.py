@@ -6,7 +6,7 @@ type EEG not marked bad are kept, other types such as EOG, ECG, EMG, MISC and TR
 are left out; without the file every signal is kept), ``_events.tsv`` (``onset``
 in s and ``trial_type``; a BrainVision marker file is not needed) and ``participants.tsv``.
 Epochs are cut around each event with the epoch window; each epoch has its
-mean removed per channel (EDF/BDF recordings often carry large DC offsets).
+mean removed per channel (recordings often carry large DC offsets).
 A subject's runs and sessions of the task are pooled, on the channels good in
 all of them; then an optional average reference and peak-to-peak rejection
 apply.

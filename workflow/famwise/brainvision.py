@@ -199,6 +199,7 @@ def write(path: Path, data: np.ndarray, *, sfreq: float, channels: list[str],
         binary_format = "INT_16" if np.abs(stored).max(initial=0) <= 32767 else "INT_32"
         stored = stored.astype("<" + _DTYPES[binary_format])
     names = [name.replace(",", "\\1") for name in channels]
+    descriptions = [text.replace(",", "\\1") for _, text in markers]
     header = ["Brain Vision Data Exchange Header File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
               f"DataFile={path.stem}.eeg", f"MarkerFile={path.stem}.vmrk", "DataFormat=BINARY",
               "DataOrientation=MULTIPLEXED", f"NumberOfChannels={len(channels)}",
@@ -206,8 +207,8 @@ def write(path: Path, data: np.ndarray, *, sfreq: float, channels: list[str],
               "[Channel Infos]", *(f"Ch{n}={name},,{resolution!r},µV" for n, name in enumerate(names, start=1)), ""]
     marker_lines = ["Brain Vision Data Exchange Marker File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
                     f"DataFile={path.stem}.eeg", "", "[Marker Infos]",
-                    *(f"Mk{n}=Stimulus,{text.replace(',', chr(92) + '1')},{sample + 1},1,0"
-                      for n, (sample, text) in enumerate(markers, start=1)), ""]
+                    *(f"Mk{n}=Stimulus,{text},{sample + 1},1,0"
+                      for n, ((sample, _), text) in enumerate(zip(markers, descriptions), start=1)), ""]
     path.write_text("\n".join(header), encoding="utf-8")
     path.with_suffix(".vmrk").write_text("\n".join(marker_lines), encoding="utf-8")
     stored.T.tofile(path.with_suffix(".eeg"))
@@ -219,7 +220,7 @@ def _read_sections(path: Path, magic: str) -> dict[str, dict[str, str]]:
         raise UserError(f"{path}: file not found")
     raw = path.read_bytes()
     lines = raw.decode("latin-1").splitlines()
-    if not lines or magic not in lines[0].replace(" ", "").replace("\ufeff", "").replace("ï»¿", ""):
+    if not lines or magic not in lines[0].replace(" ", ""):
         kind = "header" if magic == _HEADER_MAGIC else "marker"
         raise UserError(f"{path}: not a BrainVision {kind} file (its first line should name the "
                         f"'Data Exchange {kind.title()} File')")
