@@ -165,6 +165,10 @@ def test_written_files_read_back(tmp_path):
     assert [c.name for c in header.channels] == ["F,z", "Cz"]
     np.testing.assert_array_equal(brainvision.read_samples(header), data)
     assert brainvision.read_markers(header.marker_file) == [brainvision.Marker("Stimulus", "go, now", 1, 1, 0)]
+    for bad in (np.nan, 1e9):
+        with pytest.raises(ValueError, match=r"samples must be finite and within ±5.36871e\+08 µV at 0.25 µV per step"):
+            brainvision.write(tmp_path / "c.vhdr", data + [[0, 0, bad], [0, 0, 0]], sfreq=250.0, channels=["Fz", "Cz"],
+                              markers=[], resolution=0.25)
     brainvision.write(tmp_path / "b.vhdr", data, sfreq=250.0, channels=["Fz", "Cz"], markers=[])
     header = brainvision.read_header(tmp_path / "b.vhdr")
     assert header.binary_format == "IEEE_FLOAT_32"

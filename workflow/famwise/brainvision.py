@@ -190,14 +190,23 @@ def write(path: Path, data: np.ndarray, *, sfreq: float, channels: list[str],
         µV per stored step. Given: samples stored as integers (``INT_16`` when
         they fit, else ``INT_32``), multiplexed. None: ``IEEE_FLOAT_32`` with
         resolution 1.
+
+    Raises
+    ------
+    ValueError
+        With ``resolution``: a sample that is not finite or beyond 32 bits.
     """
     path = Path(path)
     if resolution is None:
         stored, binary_format, resolution = np.asarray(data, dtype="<f4"), "IEEE_FLOAT_32", 1.0
     else:
-        stored = np.asarray(np.round(np.asarray(data) / resolution), dtype=np.int64)
-        binary_format = "INT_16" if np.abs(stored).max(initial=0) <= 32767 else "INT_32"
-        stored = stored.astype("<" + _DTYPES[binary_format])
+        steps = np.round(np.asarray(data, dtype=float) / resolution)
+        largest = np.abs(steps).max(initial=0)
+        if not largest <= 2**31 - 1:
+            raise ValueError(f"samples must be finite and within ±{(2**31 - 1) * resolution:g} µV "
+                             f"at {resolution:g} µV per step")
+        binary_format = "INT_16" if largest <= 32767 else "INT_32"
+        stored = steps.astype("<" + _DTYPES[binary_format])
     names = [name.replace(",", "\\1") for name in channels]
     descriptions = [text.replace(",", "\\1") for _, text in markers]
     header = ["Brain Vision Data Exchange Header File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
