@@ -119,6 +119,17 @@ def test_missing_or_short_data_file_is_one_error_naming_it(tmp_path):
         bids.read_channel_names(tmp_path, "01", task="view")
 
 
+def test_a_format_not_read_is_named_with_what_to_do(tmp_path):
+    folder = tmp_path / "sub-01" / "eeg"
+    folder.mkdir(parents=True)
+    (folder / "sub-01_task-view_eeg.set").write_bytes(b"\0")
+    (folder / "sub-01_task-view_eeg.json").write_text("{}")
+    with pytest.raises(UserError, match=r"subject 01: no EEG recording .* in .*eeg; found sub-01_task-view_eeg.set, in a "
+                                        r"format famwise does not read: convert it with a general-purpose converter "
+                                        r"to EDF or BrainVision$"):
+        _read(tmp_path)
+
+
 def test_one_recording_in_two_formats_is_an_error(tmp_path):
     _write(tmp_path, "brainvision")
     _write(tmp_path, "edf")

@@ -361,8 +361,12 @@ def find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
         found = [p for p in found if f"_task-{task}_" in p.name]
     where = f" for task {task!r}" if task is not None else ""
     if not found:
+        others = sorted(p.name for p in sub_dir.glob("**/*_eeg.*")
+                        if p.suffix.lower() not in (*SUFFIXES, ".json", ".eeg", ".vmrk"))
+        hint = (f"; found {', '.join(others)}, in a format famwise does not read: convert it with a general-purpose "
+                "converter to EDF or BrainVision") if others else ""
         raise UserError(f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf, .bdf or "
-                        f".vhdr){where} in {sub_dir / 'eeg'}")
+                        f".vhdr){where} in {sub_dir / 'eeg'}{hint}")
     stems = [p.with_suffix("") for p in found]
     twice = sorted({p.name for p in found if stems.count(p.with_suffix("")) > 1})
     if twice:
