@@ -126,8 +126,8 @@ def test_electrodes_file(tmp_path):
 
 
 def test_missing_files(tmp_path):
-    with pytest.raises(UserError, match=r"subject 01: no EEG recording \(sub-01_..._eeg.edf or "
-                                        r".bdf\) for task 'view' in"):
+    with pytest.raises(UserError, match=r"subject 01: no EEG recording \(sub-01_..._eeg.edf, .bdf or "
+                                        r".vhdr\) for task 'view' in"):
         _read(tmp_path)
     _write(tmp_path)
     (tmp_path / "sub-01" / "eeg" / "sub-01_task-view_events.tsv").unlink()
@@ -204,7 +204,7 @@ def test_write_errors(tmp_path):
                                         r"n_samples\), got \(3, 100\)"):
         bids.write_subject(tmp_path, "01", data=np.zeros((3, 100)), sfreq=FS, channels=CHANNELS,
                            events=[], task="view")
-    with pytest.raises(UserError, match=r"format must be 'edf' or 'bdf', got 'gdf'"):
+    with pytest.raises(UserError, match=r"format must be one of edf, bdf, brainvision, got 'gdf'"):
         _write(tmp_path, fmt="gdf")
     with pytest.raises(UserError, match=r"every participants row needs a 'participant_id'"):
         bids.write_participants(tmp_path, [{"group": "a"}])

@@ -1,16 +1,18 @@
-"""BIDS-EEG input and output: EDF/BDF recordings with their events, channels and participants.
+"""BIDS-EEG input and output: EDF, BDF or BrainVision recordings with their events, channels and participants.
 
-Reading: the recordings ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>[_run-<n>]_eeg.edf|.bdf``
-(read with edfio), ``_channels.tsv`` (EEG channels not marked bad are kept),
-``_events.tsv`` (``onset`` in s and ``trial_type``) and ``participants.tsv``.
+Reading: the recordings ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>[_run-<n>]_eeg.edf|.bdf|.vhdr``
+(`famwise.recordings`), ``_channels.tsv`` (one rule for every format: channels of
+type EEG not marked bad are kept, other types such as EOG, ECG, EMG, MISC and TRIG
+are left out; without the file every signal is kept), ``_events.tsv`` (``onset``
+in s and ``trial_type``; a BrainVision marker file is not needed) and ``participants.tsv``.
 Epochs are cut around each event with the epoch window; each epoch has its
-mean removed per channel (EDF/BDF recordings often carry large DC offsets).
+mean removed per channel (recordings often carry large DC offsets).
 A subject's runs and sessions of the task are pooled, on the channels good in
 all of them; then an optional average reference and peak-to-peak rejection
 apply.
 
-Writing (used by ``famwise demo`` and the tests): EDF or BDF in microvolts,
-events, channels, sidecar JSON, optional electrodes, participants and
+Writing (used by ``famwise demo`` and the tests): EDF, BDF or BrainVision in
+microvolts, events, channels, sidecar JSON, optional electrodes, participants and
 dataset_description.json.
 """
 
@@ -21,11 +23,11 @@ from collections.abc import Sequence
 from typing import NamedTuple
 from pathlib import Path
 
-import edfio
 import numpy as np
 
 from famwise.epochs import Epochs
 from famwise.errors import FamwiseWarning, UserError
+from famwise.recordings import FORMATS, SUFFIXES, Recording, open_recording, write_recording
 
 _UNITS_TO_VOLTS = {"v": 1.0, "mv": 1e-3, "uv": 1e-6, "µv": 1e-6, "μv": 1e-6, "nv": 1e-9}
 BIDS_VERSION = "1.9.0"
@@ -47,7 +49,7 @@ def read_participants(root: Path) -> dict[str, dict[str, str]]:
     path = Path(root) / "participants.tsv"
     if not path.is_file():
         return {}
-    rows = _read_tsv(path)
+    rows = read_tsv(path)
     if rows and "participant_id" not in rows[0]:
         raise UserError(f"{path} must have a 'participant_id' column, found {list(rows[0])}")
     return {_strip_sub(row["participant_id"]): {k: v for k, v in row.items()
@@ -73,13 +75,11 @@ def read_channel_names(root: Path, subject: str, *, task: str | None = None) -> 
     UserError
         As `read_subject` for a missing or unreadable recording or channels file.
     """
-    recordings = _find_recordings(Path(root), subject, task)
     kept = []
-    for recording in recordings:
-        stem = recording.name.rsplit("_eeg.", 1)[0]
-        table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
-        edf = _open_recording(recording, subject)
-        kept.append([signal.label for signal in _kept_signals(edf, table, recording, subject)])
+    for path in find_recordings(Path(root), subject, task):
+        table = read_channels(sidecar(path, "channels.tsv"), subject)
+        recording = open_recording(path, subject, headers_only=True)
+        kept.append([signal.label for signal in _kept_signals(recording, table, subject)])
     return _shared(kept)
 
 
@@ -130,7 +130,7 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
     if not start_ms < stop_ms:
         raise UserError(f"subject {subject}: epoch window must run forward, got {start_ms:g} to "
                         f"{stop_ms:g} ms")
-    recordings = _find_recordings(Path(root), subject, task)
+    recordings = find_recordings(Path(root), subject, task)
     runs = [_cut_epochs(path, subject, window_ms, labels) for path in recordings]
     channels = _common_channels([run.channels for run in runs], recordings, subject)
     sfreqs = {run.sfreq for run in runs}
@@ -166,16 +166,15 @@ class _Cut(NamedTuple):
     labels: np.ndarray
 
 
-def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], labels: set[str] | None) -> _Cut:
+def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels: set[str] | None) -> _Cut:
     """Epochs of one recording, each with its mean removed per channel."""
     start_ms, stop_ms = window_ms
-    stem = recording.name.rsplit("_eeg.", 1)[0]
-    events = _read_events(recording.parent / f"{stem}_events.tsv", subject, labels)
-    table = _read_channels(recording.parent / f"{stem}_channels.tsv", subject)
-    edf = _open_recording(recording, subject)
-    signals = _kept_signals(edf, table, recording, subject)
-    sfreq = signals[0].sampling_frequency
-    n_total = int(round(edf.duration * sfreq))
+    events = _read_events(sidecar(path, "events.tsv"), subject, labels)
+    table = read_channels(sidecar(path, "channels.tsv"), subject)
+    recording = open_recording(path, subject)
+    signals = _kept_signals(recording, table, subject)
+    sfreq = signals[0].sfreq
+    n_total = int(round(recording.duration_s * sfreq))
 
     first_offset = int(round(start_ms * sfreq / 1000.0))
     n_samples = int(round(stop_ms * sfreq / 1000.0)) - first_offset + 1
@@ -185,18 +184,19 @@ def _cut_epochs(recording: Path, subject: str, window_ms: tuple[float, float], l
         if first < 0 or first + n_samples > n_total:
             raise UserError(f"subject {subject}: the epoch window {start_ms:g} to {stop_ms:g} ms "
                             f"around the event at onset {onset:g} s runs beyond the recording "
-                            f"(0 to {n_total / sfreq:g} s) in {recording}")
+                            f"(0 to {n_total / sfreq:g} s) in {path}")
         starts.append(first)
     window = np.asarray(starts)[:, None] + np.arange(n_samples)[None, :]
 
     data = np.empty((len(starts), len(signals), n_samples))
+    stored = recording.read([signal.label for signal in signals])
     for ch, signal in enumerate(signals):
-        samples = signal.data * _unit_factor(signal, table, subject)
+        samples = stored[ch] * _unit_factor(signal, table, subject)
         bad = ~np.isfinite(samples)
         if bad.any():
             first_bad = np.flatnonzero(bad)[0] / sfreq
             raise UserError(f"subject {subject}: channel {signal.label} holds NaN or infinite "
-                            f"samples (first at {first_bad:g} s) in {recording}")
+                            f"samples (first at {first_bad:g} s) in {path}")
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
     return _Cut(data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))
@@ -228,7 +228,7 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
                   channels: list[str], events: list[tuple[float, float, str]], task: str,
                   bad_channels: Sequence[str] = (),
                   electrodes: dict[str, tuple[float, float, float]] | None = None,
-                  fmt: str = "edf", run: int | None = None) -> None:
+                  fmt: str = "edf", run: int | None = None, resolution_uv: float | None = None) -> None:
     """Write one subject's continuous recording as BIDS-EEG.
 
     Parameters
@@ -238,9 +238,9 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
     subject : str
         Subject id without ``sub-``.
     data : ndarray, shape (n_channels, n_samples)
-        Samples in volts. Stored in µV with 16-bit (EDF) or 24-bit (BDF)
-        resolution over each channel's range; the recording is padded with
-        its last sample to a whole number of 1-s data records.
+        Samples in volts, stored in µV as `famwise.recordings.write_recording`
+        describes (EDF/BDF: 16 or 24 bit over each channel's range, padded with
+        the last sample to whole 1-s data records; BrainVision: 32-bit floats).
     sfreq : float
         Sampling rate in Hz.
     channels : list of str
@@ -253,30 +253,30 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
     electrodes : dict of str to (x, y, z), optional
         Electrode positions in mm, written to ``_electrodes.tsv`` with a
         ``_coordsystem.json``.
-    fmt : {"edf", "bdf"}
+    fmt : {"edf", "bdf", "brainvision"}
     run : int, optional
         Run number (``_run-<n>`` in the file names) for a subject recorded in several runs.
+    resolution_uv : float, optional
+        Store whole multiples of this step (µV) in any format, so that the
+        formats hold the same integer samples.
     """
     data = np.asarray(data, dtype=float)
     if data.ndim != 2 or data.shape[0] != len(channels):
         raise UserError(f"subject {subject}: data must have shape (n_channels={len(channels)}, "
                         f"n_samples), got {data.shape}")
-    if fmt not in ("edf", "bdf"):
-        raise UserError(f"subject {subject}: format must be 'edf' or 'bdf', got {fmt!r}")
+    if fmt not in FORMATS:
+        raise UserError(f"subject {subject}: format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     folder = Path(root) / f"sub-{subject}" / "eeg"
     folder.mkdir(parents=True, exist_ok=True)
     stem = folder / (f"sub-{subject}_task-{task}" + (f"_run-{run}" if run is not None else ""))
 
-    signal_class, file_class = ((edfio.EdfSignal, edfio.Edf) if fmt == "edf"
-                                else (edfio.BdfSignal, edfio.Bdf))
-    record = int(round(sfreq)) if float(sfreq).is_integer() else data.shape[1]
-    padded = np.pad(data, ((0, 0), (0, -data.shape[1] % record)), mode="edge") * 1e6
+    markers = [(int(round(onset * sfreq)), label) for onset, _, label in events]
     try:
-        signals = [signal_class(row, sfreq, label=name, physical_dimension="uV")
-                   for row, name in zip(padded, channels)]
-        file_class(signals).write(Path(f"{stem}_eeg.{fmt}"))
+        write_recording(Path(f"{stem}_eeg"), data * 1e6, sfreq=sfreq, channels=channels, fmt=fmt,
+                        markers=markers, resolution_uv=resolution_uv)
     except ValueError as exc:
-        raise UserError(f"subject {subject}: cannot write {stem}_eeg.{fmt}: {exc}") from None
+        suffix = "vhdr" if fmt == "brainvision" else fmt
+        raise UserError(f"subject {subject}: cannot write {stem}_eeg.{suffix}: {exc}") from None
 
     _write_tsv(Path(f"{stem}_events.tsv"), ["onset", "duration", "trial_type", "sample"],
                [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))]
@@ -329,7 +329,8 @@ def _strip_sub(value: str) -> str:
     return value[4:] if value.startswith("sub-") else value
 
 
-def _read_tsv(path: Path) -> list[dict[str, str]]:
+def read_tsv(path: Path) -> list[dict[str, str]]:
+    """Rows of a BIDS tab-separated file as dicts keyed by its header line."""
     with path.open(newline="", encoding="utf-8") as stream:
         return [dict(row) for row in csv.DictReader(stream, delimiter="\t")]
 
@@ -341,20 +342,36 @@ def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
         writer.writerows(rows)
 
 
-def _find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
-    """The subject's EDF/BDF recordings of one task: one, or several runs or sessions (pooled).
+def recording_files(root: Path, subject: str) -> list[Path]:
+    """Every recording of a subject in a format famwise reads (``*_eeg.edf|.bdf|.vhdr`` in eeg/ and ses-*/eeg/)."""
+    sub_dir = Path(root) / f"sub-{subject}"
+    return [p for folder in ("eeg", "ses-*/eeg") for suffix in SUFFIXES
+            for p in sorted(sub_dir.glob(f"{folder}/*_eeg{suffix}"))]
 
-    Without a task, the recordings must all belong to one task.
+
+def find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
+    """The subject's recordings of one task: one, or several runs or sessions (pooled).
+
+    Without a task, the recordings must all belong to one task. One recording
+    stored in two formats is an error (it would be pooled twice).
     """
-    sub_dir = root / f"sub-{subject}"
-    found = [p for pattern in ("eeg/*_eeg.edf", "eeg/*_eeg.bdf", "ses-*/eeg/*_eeg.edf",
-                               "ses-*/eeg/*_eeg.bdf") for p in sorted(sub_dir.glob(pattern))]
+    sub_dir = Path(root) / f"sub-{subject}"
+    found = recording_files(root, subject)
     if task is not None:
         found = [p for p in found if f"_task-{task}_" in p.name]
     where = f" for task {task!r}" if task is not None else ""
     if not found:
-        raise UserError(f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf or "
-                        f".bdf){where} in {sub_dir / 'eeg'}")
+        others = sorted(p.name for p in sub_dir.glob("**/*_eeg.*")
+                        if p.suffix.lower() not in (*SUFFIXES, ".json", ".eeg", ".vmrk"))
+        hint = (f"; found {', '.join(others)}, in a format famwise does not read: convert it with a general-purpose "
+                "converter to EDF or BrainVision") if others else ""
+        raise UserError(f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf, .bdf or "
+                        f".vhdr){where} in {sub_dir / 'eeg'}{hint}")
+    stems = [p.with_suffix("") for p in found]
+    twice = sorted({p.name for p in found if stems.count(p.with_suffix("")) > 1})
+    if twice:
+        raise UserError(f"subject {subject}: one recording stored in several formats ({', '.join(twice)}); "
+                        "keep one of them in the BIDS folder")
     tasks = {_entity(p.name, "task") for p in found}
     if len(tasks) > 1:
         raise UserError(f"subject {subject}: several EEG recordings of different tasks, set the task to "
@@ -379,7 +396,7 @@ def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tupl
     """(onset s, trial_type) of the wanted events, in file order."""
     if not path.is_file():
         raise UserError(f"subject {subject}: events file {path} is missing")
-    rows = _read_tsv(path)
+    rows = read_tsv(path)
     columns = list(rows[0]) if rows else []
     for column in ("onset", "trial_type"):
         if column not in columns:
@@ -402,55 +419,69 @@ def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tupl
     return events
 
 
-def _read_channels(path: Path, subject: str) -> dict[str, dict[str, str]] | None:
+def sidecar(recording: Path, suffix: str) -> Path:
+    """The file beside a recording that shares its name up to ``_eeg``, e.g. ``sidecar(p, "events.tsv")``."""
+    return recording.parent / f"{recording.name.rsplit('_eeg.', 1)[0]}_{suffix}"
+
+
+def read_channels(path: Path, subject: str) -> dict[str, dict[str, str]] | None:
     """Rows of ``_channels.tsv`` by name; None when the file is absent (keep all signals)."""
     if not path.is_file():
         return None
-    rows = _read_tsv(path)
+    rows = read_tsv(path)
     if rows and not {"name", "type"} <= set(rows[0]):
         raise UserError(f"subject {subject}: channels file {path} needs 'name' and 'type' "
                         f"columns, found {list(rows[0])}")
     return {row["name"]: row for row in rows}
 
 
-def _open_recording(path: Path, subject: str):
-    try:
-        if path.suffix.lower() == ".bdf":
-            return edfio.read_bdf(path)
-        return edfio.read_edf(path)
-    except Exception as exc:
-        raise UserError(f"subject {subject}: cannot read the recording {path}: {exc}") from None
+def left_out_channels(table: dict[str, dict[str, str]]) -> dict[str, str]:
+    """Channels of a ``_channels.tsv`` left out of the analysis, with why: their type when it is not EEG
+    (EOG, ECG, EMG, MISC, TRIG, ...), else ``bad`` for status bad. The one rule for every format."""
+    left_out = {}
+    for name, row in table.items():
+        kind = (row.get("type") or "").strip().upper()
+        if kind != "EEG":
+            left_out[name] = kind or "no type"
+        elif (row.get("status") or "good").strip().lower() == "bad":
+            left_out[name] = "bad"
+    return left_out
 
 
-def _kept_signals(edf, table, recording: Path, subject: str) -> list:
-    """EEG signals not marked bad in ``_channels.tsv`` (all signals without one)."""
-    by_label = {s.label: s for s in edf.signals}
+def _kept_signals(recording: Recording, table, subject: str) -> list:
+    """Signals not left out by ``_channels.tsv`` (`left_out_channels`; all signals without one)."""
+    by_label = {s.label: s for s in recording.signals}
     if table is None:
-        kept = list(edf.signals)
+        kept = list(recording.signals)
     else:
-        names = [name for name, row in table.items() if row["type"].upper() == "EEG"
-                 and row.get("status", "good").lower() != "bad"]
+        left_out = left_out_channels(table)
+        names = [name for name in table if name not in left_out]
         missing = [name for name in names if name not in by_label]
         if missing:
             raise UserError(f"subject {subject}: channels {missing} of the channels file are not "
-                            f"in {recording}, which holds {list(by_label)}")
+                            f"in {recording.path}, which holds {list(by_label)}")
         kept = [by_label[name] for name in names]
     if not kept:
-        raise UserError(f"subject {subject}: no good EEG channel in {recording}")
-    rates = {s.sampling_frequency for s in kept}
+        raise UserError(f"subject {subject}: no good EEG channel in {recording.path}")
+    rates = {s.sfreq for s in kept}
     if len(rates) > 1:
-        raise UserError(f"subject {subject}: the EEG channels of {recording} have different "
+        raise UserError(f"subject {subject}: the EEG channels of {recording.path} have different "
                         f"sampling rates {sorted(rates)} Hz")
     return kept
 
 
 def _unit_factor(signal, table, subject: str) -> float:
-    """Volts per stored unit, from ``_channels.tsv`` units or else the EDF header."""
+    """Volts per stored unit, from ``_channels.tsv`` units or else the recording's header (a warning when they differ)."""
     unit = ""
     if table is not None and signal.label in table:
         unit = table[signal.label].get("units", "") or ""
     if unit in ("", "n/a"):
-        unit = signal.physical_dimension
+        unit = signal.unit
+    else:
+        given, stated = (_UNITS_TO_VOLTS.get(text.strip().lower()) for text in (unit, signal.unit))
+        if given is not None and stated is not None and given != stated:
+            warnings.warn(f"subject {subject}: channel {signal.label} is in {unit} by _channels.tsv but in "
+                          f"{signal.unit} by the header of its recording; using {unit}", FamwiseWarning, stacklevel=3)
     factor = _UNITS_TO_VOLTS.get(unit.strip().lower())
     if factor is None:
         warnings.warn(f"subject {subject}: unit {unit!r} of channel {signal.label} is not one of "

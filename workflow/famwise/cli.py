@@ -83,11 +83,11 @@ def _parser() -> argparse.ArgumentParser:
 def command_check(args) -> int:
     from famwise.job_benchmarks import describe_stage_costs
     from famwise.plan import Plan
-    from famwise.summary import describe_plan
+    from famwise.summary import describe_plan, input_warnings
 
     plan = Plan.from_spec(args.spec)
     print(describe_plan(plan))
-    _warn(plan.attainability_warnings())
+    _warn(input_warnings(plan) + plan.attainability_warnings())
     print()
     print("What would run and why:")
     jobs = planned_jobs(plan)

@@ -32,8 +32,18 @@ EXCLUDED = "07"
 SEED = 20261201
 
 
-def write_demo(folder: Path) -> Path:
-    """Write the example study (spec + BIDS data) into ``folder``; return the spec path."""
+def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = None) -> Path:
+    """Write the example study (spec + BIDS data) into ``folder``; return the spec path.
+
+    Parameters
+    ----------
+    folder : Path
+    fmt : {"edf", "bdf", "brainvision"}
+        Format of the recordings (``famwise demo`` writes EDF).
+    resolution_uv : float, optional
+        Store whole multiples of this step (µV), so that two formats hold the
+        same integer samples (`famwise.bids.write_subject`).
+    """
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     spec = folder / "study.yaml"
@@ -42,7 +52,9 @@ def write_demo(folder: Path) -> Path:
             shutil.copyfile(source, spec)
     root = folder / "data"
     marker = root / ".complete"
-    if marker.exists():
+    written = "written by famwise demo\n" + ("" if (fmt, resolution_uv) == ("edf", None)
+                                             else f"as {fmt}, resolution {resolution_uv} uV\n")
+    if marker.exists() and marker.read_text() == written:
         return spec
     if root.exists():
         shutil.rmtree(root)
@@ -51,10 +63,11 @@ def write_demo(folder: Path) -> Path:
     for number in range(1, N_PARTICIPANTS + 1):
         subject = f"{number:02d}"
         data, events = simulate_recording(rng, gain=float(rng.normal(1.0, 0.25)), artefacts=subject == "03")
-        bids.write_subject(root, subject, data=data, sfreq=SFREQ, channels=CHANNELS, events=events, task="lantern")
+        bids.write_subject(root, subject, data=data, sfreq=SFREQ, channels=CHANNELS, events=events, task="lantern",
+                           fmt=fmt, resolution_uv=resolution_uv)
         rows.append({"participant_id": f"sub-{subject}", "age": str(int(rng.integers(19, 36))), "handedness": "R"})
     bids.write_participants(root, rows)
-    marker.write_text("written by famwise demo\n")
+    marker.write_text(written)
     return spec
 
 

@@ -166,7 +166,7 @@ def study_sizes(plan) -> StudySizes:
 
 
 def recording_sizes(plan, subject: str) -> RecordingSizes:
-    """One subject's input sizes from file sizes, EDF/BDF headers, events and NPZ headers.
+    """One subject's input sizes from file sizes, recording headers (EDF, BDF, BrainVision), events and NPZ headers.
 
     Parameters
     ----------
@@ -178,13 +178,12 @@ def recording_sizes(plan, subject: str) -> RecordingSizes:
     input_bytes = sum(f.stat().st_size for f in files if f.is_file())
     s = plan.study
     source = s.subjects.source
-    recording = next((f for f in files if f.suffix.lower() in (".edf", ".bdf")), None)
-    if source == "bids" and recording is not None:
-        import edfio
+    from famwise.recordings import SUFFIXES, open_recording
 
-        reader = edfio.read_bdf if recording.suffix.lower() == ".bdf" else edfio.read_edf
-        signals = reader(recording, lazy_load_data=True).signals
-        sfreq = max(signal.sampling_frequency for signal in signals)
+    recording = next((f for f in files if f.suffix.lower() in SUFFIXES), None)
+    if source == "bids" and recording is not None:
+        signals = open_recording(recording, subject, headers_only=True).signals
+        sfreq = max(signal.sfreq for signal in signals)
         labels = {label for group in s.conditions.values() for label in group}
         events = [f for f in files if f.name.endswith("_events.tsv")]
         n_epochs = _count_events(events[0], labels) if events else 0

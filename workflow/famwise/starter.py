@@ -15,7 +15,8 @@ from famwise.io import discover_pattern
 
 
 def write_starter_spec(data: Path, out: Path) -> None:
-    """Look at ``data`` (a BIDS-EEG folder or a folder of epochs NPZ files) and write ``out``."""
+    """Look at ``data`` (a BIDS-EEG folder with EDF, BDF or BrainVision recordings, or a folder of epochs NPZ
+    files) and write ``out``."""
     data = Path(data).resolve()
     out = Path(out).resolve()
     if not data.is_dir():
@@ -26,33 +27,43 @@ def write_starter_spec(data: Path, out: Path) -> None:
     if relative.startswith(".."):
         raise UserError(f"{out}: the spec must sit in the data folder or above it (paths in a spec stay inside its folder)")
     subjects = bids.discover_subjects(data)
+    found = ""
     if subjects:
-        source, path, task, labels = "bids", relative, _bids_task(data, subjects[0]), _bids_labels(data, subjects)
+        recordings = [p for subject in subjects for p in bids.recording_files(data, subject)]
+        if not recordings:
+            raise UserError(f"{data}: the sub-* folders hold no recording famwise reads (sub-<id>_..._eeg.edf, .bdf "
+                            "or .vhdr); convert the recordings with a general-purpose converter to EDF or BrainVision")
+        source, path, task, labels = "bids", relative, _bids_task(recordings[0]), _bids_labels(recordings)
+        found = _formats_found(recordings)
     else:
         pattern = _epochs_pattern(data)
         subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
         source, path, task, labels = "epochs", f"{relative}/{pattern}", None, _epochs_labels(out.parent, f"{relative}/{pattern}", subjects)
-    write_text(out, _starter_text(source, path, task, subjects, labels, name=data.name))
+    write_text(out, _starter_text(source, path, task, subjects, labels, name=data.name, found=found))
 
 
-def _bids_task(root: Path, subject: str) -> str | None:
-    for events in sorted((root / f"sub-{subject}" / "eeg").glob("*_events.tsv")):
-        for part in events.name.split("_"):
-            if part.startswith("task-"):
-                return part[5:]
+def _bids_task(recording: Path) -> str | None:
+    for part in recording.name.split("_"):
+        if part.startswith("task-"):
+            return part[5:]
     return None
 
 
-def _bids_labels(root: Path, subjects: list[str]) -> Counter:
+def _bids_labels(recordings: list[Path]) -> Counter:
+    """Event labels (``trial_type``) of the recordings' ``_events.tsv`` files, counted."""
     labels = Counter()
-    for subject in subjects:
-        for events in (root / f"sub-{subject}" / "eeg").glob("*_events.tsv"):
-            lines = events.read_text(encoding="utf-8").splitlines()
-            header = lines[0].split("\t")
-            if "trial_type" in header:
-                column = header.index("trial_type")
-                labels.update(line.split("\t")[column] for line in lines[1:] if line.strip())
+    for recording in recordings:
+        events = bids.sidecar(recording, "events.tsv")
+        if events.is_file():
+            labels.update(row["trial_type"] for row in bids.read_tsv(events) if row.get("trial_type"))
     return labels
+
+
+def _formats_found(recordings: list[Path]) -> str:
+    """E.g. ``"12 BrainVision (.vhdr)"``: how many recordings of each format."""
+    names = {".edf": "EDF (.edf)", ".bdf": "BDF (.bdf)", ".vhdr": "BrainVision (.vhdr)"}
+    counts = Counter(names[p.suffix.lower()] for p in recordings)
+    return ", ".join(f"{count} {name}" for name, count in sorted(counts.items()))
 
 
 def _epochs_pattern(data: Path) -> str:
@@ -79,7 +90,7 @@ def _condition_name(label: str) -> str:
     return re.sub(r"[^A-Za-z0-9_.-]+", "-", label).strip("-._") or "condition"
 
 
-def _starter_text(source, path, task, subjects, labels: Counter, *, name: str) -> str:
+def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, found: str) -> str:
     conditions = "\n".join(
         f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects" for label, count in sorted(labels.items())
     ) or "  condition-a: [label-a]"
@@ -94,7 +105,7 @@ output: results          # folder for every result, relative to this file
 seed: 1                  # the permutation table comes from this seed
 
 subjects:
-  source: {source}
+  source: {source}{f"            # recordings found: {found}" if found else ""}
   path: {path}
 {task_line}  # ids: [...]           # omit to use every subject found: {', '.join(subjects[:10])}{' ...' if len(subjects) > 10 else ''}
   exclude: {{}}           # id: reason

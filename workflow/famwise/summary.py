@@ -2,6 +2,7 @@
 
 import warnings
 
+from famwise.bids_notes import left_out_lines, marker_warnings
 from famwise.plan import Plan
 
 
@@ -19,6 +20,8 @@ def describe_plan(plan: Plan) -> str:
         for group in plan.groups.values():
             counts[group] = counts.get(group, 0) + 1
         lines.append("Groups: " + ", ".join(f"{g} ({n})" for g, n in sorted(counts.items())))
+    if s.subjects.source == "bids":
+        lines += left_out_lines(plan.loaded.resolve(s.subjects.path), list(plan.subjects), s.subjects.task)
     lines.append("Conditions: " + "; ".join(f"{name} <- {', '.join(labels)}" for name, labels in s.conditions.items()))
     if s.subjects.source != "timefreq":
         tf = s.timefreq
@@ -53,6 +56,14 @@ def describe_plan(plan: Plan) -> str:
         lines.append("")
         lines.append(_graph_summary(plan))
     return "\n".join(lines)
+
+
+def input_warnings(plan: Plan) -> list[str]:
+    """Warnings about the subjects' input files (BIDS: marker counts that disagree with _events.tsv)."""
+    s = plan.study.subjects
+    if s.source != "bids":
+        return []
+    return marker_warnings(plan.loaded.resolve(s.path), list(plan.subjects), s.task)
 
 
 def _graph_summary(plan: Plan) -> str:
