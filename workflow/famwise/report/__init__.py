@@ -43,7 +43,8 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     spec_path : Path
         The spec file; input paths are recorded relative to its folder.
     input_files : list of Path
-        The subject input files, hashed into the provenance.
+        The files the run read (subject data, channel files), hashed into
+        the provenance.
     started : str, optional
         When the run started (ISO 8601); defaults to now.
 
@@ -79,6 +80,7 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     title = f"famwise report: {run.study.get('name', output_dir.name)}"
     subtitle = (f"{len(run.contrasts)} contrasts, "
                 f"{len((run.study.get('inference') or {}).get('corrections', []))} corrections; "
+                f"results fingerprint {record['results_fingerprint'][:12]}; "
                 f"spec fingerprint {record['spec_fingerprint'][:12]}; finished {record['finished']}")
     index = folder / "index.html"
     write_atomic(index, page(title=title, subtitle=subtitle, nav=nav, body="".join(body)).encode("utf-8"))
