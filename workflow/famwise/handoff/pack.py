@@ -1,0 +1,96 @@
+"""Pack a study for a collaborator (``famwise pack SPEC ARCHIVE``).
+
+The ZIP archive holds one folder (named after the archive) with the spec,
+the channel position and edge files it names, and the manifest
+``<spec stem>.manifest.json`` of every file the study reads; the subjects'
+data go in only on request (``--with-data``), since they can be large. Files
+keep their places relative to the spec, so the unpacked spec runs as it is
+once the data sit where the manifest names them.
+"""
+
+import json
+import os
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+
+from famwise.errors import UserError
+from famwise.handoff.inputs import study_files
+from famwise.handoff.manifest import build_manifest, manifest_path
+
+
+@dataclass(frozen=True)
+class Packed:
+    """What went into an archive.
+
+    Attributes
+    ----------
+    archive : Path
+    channel_files, data_files : int
+        Numbers of channel and data files in the manifest.
+    data_bytes : int
+        Total size of the data files.
+    data_included : bool
+        Whether the data files are in the archive.
+    """
+
+    archive: Path
+    channel_files: int
+    data_files: int
+    data_bytes: int
+    data_included: bool
+
+
+def _check_relative(plan) -> None:
+    """A collaborator's copy can only use paths relative to the spec's folder."""
+    study = plan.study
+    named = {"subjects.path": study.subjects.path, "channels.positions": study.channels.positions,
+             "channels.neighbors.edges_file": study.channels.neighbors.edges_file}
+    for key, value in named.items():
+        if value and Path(value).is_absolute():
+            raise UserError(f"{plan.loaded.path.name} {key}: '{value}' is an absolute path, which a collaborator's "
+                            "copy cannot use; make it relative to the spec's folder before packing")
+
+
+def pack_study(spec: Path, archive: Path, *, with_data: bool = False) -> Packed:
+    """Write the hand-off archive of a study.
+
+    Parameters
+    ----------
+    spec : Path
+        The study spec (validated, its inputs checked).
+    archive : Path
+        The ZIP file to write (replaced atomically if it exists).
+    with_data : bool
+        Also put the subjects' data files in the archive.
+
+    Returns
+    -------
+    Packed
+    """
+    from famwise.plan import Plan
+
+    archive = Path(archive)
+    if archive.suffix.lower() != ".zip":
+        raise UserError(f"famwise pack: the archive must be a .zip file, got {archive}")
+    plan = Plan.from_spec(spec)
+    _check_relative(plan)
+    spec = plan.loaded.path
+    files = study_files(plan)
+    manifest = build_manifest(spec, files, data_included=with_data)
+    packed = [spec, *files.channel_files, *(files.data_files if with_data else [])]
+    base = Path(os.path.commonpath([p.resolve().parent for p in packed]))
+    top = archive.name[:-len(archive.suffix)]
+
+    def member(path: Path) -> str:
+        return f"{top}/{Path(os.path.relpath(path.resolve(), base)).as_posix()}"
+
+    archive.parent.mkdir(parents=True, exist_ok=True)
+    partial = archive.with_name(archive.name + ".partial")
+    with zipfile.ZipFile(partial, "w", compression=zipfile.ZIP_DEFLATED) as handle:
+        for path in dict.fromkeys(packed):
+            handle.write(path, member(path))
+        handle.writestr(member(manifest_path(spec)), json.dumps(manifest, indent=2) + "\n")
+    os.replace(partial, archive)
+    return Packed(archive=archive, channel_files=len(files.channel_files), data_files=len(files.data_files),
+                  data_bytes=sum(p.stat().st_size for p in files.data_files), data_included=with_data)
