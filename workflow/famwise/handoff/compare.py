@@ -82,7 +82,7 @@ def _show(value) -> str:
 
 def _listed(phrases: list[str], noun: str) -> list[str]:
     if len(phrases) <= MAX_LISTED:
-        return phrases
+        return list(phrases)
     return phrases[:MAX_LISTED] + [f"{len(phrases) - MAX_LISTED} more {noun}"]
 
 
@@ -155,12 +155,13 @@ def _detail(a: dict, b: dict, result: str) -> str:
     if result == STATISTICS:
         return ", ".join(sorted(k for k in set(a) | set(b) if a.get(k) != b.get(k))) + " differ"
     arrays, tables = (a["arrays"], b["arrays"]), (a.get("tables", {}), b.get("tables", {}))
-    other = sorted(k for k in set(arrays[0]) | set(arrays[1]) if k != "mask" and arrays[0].get(k) != arrays[1].get(k))
+    other = sorted(k for k in set(arrays[0]) | set(arrays[1])
+                   if k not in ("mask", "n_significant") and arrays[0].get(k) != arrays[1].get(k))
     other += sorted(k for k in set(tables[0]) | set(tables[1]) if tables[0].get(k) != tables[1].get(k))
     if arrays[0].get("mask") == arrays[1].get("mask"):
         mask = "mask identical"
     else:
-        mask = f"mask {a.get('n_significant', '?')} -> {b.get('n_significant', '?')} points"
+        mask = f"mask differs, {a.get('n_significant', '?')} -> {b.get('n_significant', '?')} points"
     return mask + (f"; {', '.join(other)} differ" if other else "")
 
 
