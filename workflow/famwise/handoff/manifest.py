@@ -10,7 +10,7 @@ from pathlib import Path
 
 from famwise import __version__
 from famwise.errors import UserError
-from famwise.handoff.inputs import StudyFiles, spec_relative
+from famwise.handoff.inputs import StudyFiles
 from famwise.report.provenance import file_sha256
 
 FORMAT = 1
@@ -33,9 +33,8 @@ def file_entry(path: Path, role: str) -> dict:
 
 def build_manifest(spec: Path, files: StudyFiles, *, data_included: bool) -> dict:
     """The manifest of a study: its spec's hash and an entry per file, named as the spec names it."""
-    folder = Path(spec).parent
-    entries = {spec_relative(p, folder): file_entry(p, "channels") for p in files.channel_files}
-    entries |= {spec_relative(p, folder): file_entry(p, "data") for p in files.data_files}
+    entries = {name: file_entry(p, "channels") for name, p in files.channel_files.items()}
+    entries |= {name: file_entry(p, "data") for name, p in files.data_files.items()}
     return {"famwise_manifest": FORMAT, "famwise": __version__, "spec": Path(spec).name,
             "spec_sha256": file_sha256(spec), "data_included": data_included, "files": entries}
 

@@ -5,7 +5,8 @@ the channel position and edge files it names, and the manifest
 ``<spec stem>.manifest.json`` of every file the study reads; the subjects'
 data go in only on request (``--with-data``), since they can be large. Files
 keep their places relative to the spec, so the unpacked spec runs as it is
-once the data sit where the manifest names them.
+once the data sit where the manifest names them (the spec's paths all lie
+inside its folder).
 """
 
 import json
@@ -41,17 +42,6 @@ class Packed:
     data_included: bool
 
 
-def _check_relative(plan) -> None:
-    """A collaborator's copy can only use paths relative to the spec's folder."""
-    study = plan.study
-    named = {"subjects.path": study.subjects.path, "channels.positions": study.channels.positions,
-             "channels.neighbors.edges_file": study.channels.neighbors.edges_file}
-    for key, value in named.items():
-        if value and Path(value).is_absolute():
-            raise UserError(f"{plan.loaded.path.name} {key}: '{value}' is an absolute path, which a collaborator's "
-                            "copy cannot use; make it relative to the spec's folder before packing")
-
-
 def pack_study(spec: Path, archive: Path, *, with_data: bool = False) -> Packed:
     """Write the hand-off archive of a study.
 
@@ -74,23 +64,17 @@ def pack_study(spec: Path, archive: Path, *, with_data: bool = False) -> Packed:
     if archive.suffix.lower() != ".zip":
         raise UserError(f"famwise pack: the archive must be a .zip file, got {archive}")
     plan = Plan.from_spec(spec)
-    _check_relative(plan)
     spec = plan.loaded.path
     files = study_files(plan)
     manifest = build_manifest(spec, files, data_included=with_data)
-    packed = [spec, *files.channel_files, *(files.data_files if with_data else [])]
-    base = Path(os.path.commonpath([p.resolve().parent for p in packed]))
+    packed = {spec.name: spec, **files.channel_files, **(files.data_files if with_data else {})}
     top = archive.name[:-len(archive.suffix)]
-
-    def member(path: Path) -> str:
-        return f"{top}/{Path(os.path.relpath(path.resolve(), base)).as_posix()}"
-
     archive.parent.mkdir(parents=True, exist_ok=True)
     partial = archive.with_name(archive.name + ".partial")
     with zipfile.ZipFile(partial, "w", compression=zipfile.ZIP_DEFLATED) as handle:
-        for path in dict.fromkeys(packed):
-            handle.write(path, member(path))
-        handle.writestr(member(manifest_path(spec)), json.dumps(manifest, indent=2) + "\n")
+        for name, path in packed.items():
+            handle.write(path, f"{top}/{name}")
+        handle.writestr(f"{top}/{manifest_path(spec).name}", json.dumps(manifest, indent=2) + "\n")
     os.replace(partial, archive)
     return Packed(archive=archive, channel_files=len(files.channel_files), data_files=len(files.data_files),
-                  data_bytes=sum(p.stat().st_size for p in files.data_files), data_included=with_data)
+                  data_bytes=sum(p.stat().st_size for p in files.data_files.values()), data_included=with_data)

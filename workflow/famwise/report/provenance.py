@@ -8,7 +8,6 @@ names which (see ``famwise.handoff.compare``).
 
 import hashlib
 import json
-import os
 from importlib import metadata
 from pathlib import Path
 
@@ -54,11 +53,10 @@ def file_sha256(path: Path) -> str:
 
 
 def _label(path: Path, root: Path | None) -> str:
-    """``path`` relative to ``root`` (POSIX, with ``..`` where needed), as the spec names it."""
     if root is not None:
         try:
-            return Path(os.path.relpath(Path(path).resolve(), Path(root).resolve())).as_posix()
-        except ValueError:  # another drive
+            return Path(path).resolve().relative_to(Path(root).resolve()).as_posix()
+        except ValueError:
             pass
     return Path(path).as_posix()
 
@@ -87,7 +85,7 @@ def spec_settings(study: dict) -> dict:
     return flat
 
 
-def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: list[Path],
+def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: list[Path] | dict[str, Path],
                      started: str | None, finished: str | None, root: Path | None = None,
                      output_dir: Path | None = None) -> dict:
     """Write ``provenance.json`` and return its content.
@@ -101,14 +99,16 @@ def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: li
     study : dict
         The validated spec as JSON (``model_dump(mode="json")``); its
         canonical JSON is fingerprinted.
-    input_files : list of Path
+    input_files : list of Path, or dict of str to Path
         Files the run read (subject data, channel position and edge files);
-        each is hashed (SHA-256).
+        each is hashed (SHA-256). A mapping gives each file's name as the
+        spec names it (see ``famwise.handoff.inputs.study_files``).
     started, finished : str or None
         Start and end times (ISO 8601, UTC).
     root : Path, optional
-        Input paths are recorded relative to this folder (normally the spec's
-        folder) so the record does not depend on where the study lives.
+        Input paths given as a list are recorded relative to this folder
+        (normally the spec's folder) so the record does not depend on where
+        the study lives.
     output_dir : Path, optional
         The run's output folder; when given, the hash of every result array
         and cluster table (see :func:`famwise.report.result_hashes.result_hashes`)
@@ -119,7 +119,9 @@ def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: li
     dict
         What was written.
     """
-    for file in input_files:
+    if not isinstance(input_files, dict):
+        input_files = {_label(p, root): p for p in input_files}
+    for file in input_files.values():
         if not Path(file).is_file():
             raise UserError(f"provenance: expected the input file {file} of this run, "
                             "found no such file")
@@ -131,8 +133,8 @@ def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: li
         "seed": study.get("seed"),
         "permutations": inference.get("permutations"),
         "packages": package_versions(),
-        "input_files": {_label(p, root): {"sha256": file_sha256(p), "bytes": Path(p).stat().st_size}
-                        for p in sorted(input_files, key=lambda p: _label(p, root))},
+        "input_files": {name: {"sha256": file_sha256(p), "bytes": Path(p).stat().st_size}
+                        for name, p in sorted(input_files.items())},
         "started": started,
         "finished": finished,
     }
