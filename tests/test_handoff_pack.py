@@ -4,6 +4,7 @@ import hashlib
 import json
 import zipfile
 
+import numpy as np
 import pytest
 
 from famwise.cli import main
@@ -102,3 +103,38 @@ def test_a_malformed_manifest_is_a_user_error(study, capsys):
     (study.parent / "study.manifest.json").write_text('{"files": 3}')
     assert main(["check", str(study)]) == 2
     assert "study.manifest.json: not a famwise manifest" in capsys.readouterr().err
+
+
+BIDS_SPEC = """\
+version: 1
+name: bids hand-off
+subjects: {source: bids, path: data, task: view, exclude: {"03": noisy}}
+conditions: {face: [face], house: [house]}
+channels: {positions: bids}
+contrasts: [{name: faces, test: paired, conditions: [face, house]}]
+inference: {corrections: [{method: holm}]}
+"""
+
+
+def test_bids_study_files_are_recordings_sidecars_electrodes_and_participants(tmp_path):
+    from famwise import bids
+    from famwise.handoff.inputs import study_files
+    from famwise.plan import Plan
+
+    rng = np.random.default_rng(0)
+    events = [(1.0 + 1.2 * i, 0.0, ("face", "house")[i % 2]) for i in range(10)]
+    for subject in ("01", "02", "03"):
+        bids.write_subject(tmp_path / "data", subject, data=rng.normal(0, 2e-5, (2, 4000)), sfreq=250.0,
+                           channels=["Fz", "Cz"], events=events, task="view",
+                           electrodes={"Fz": (0.0, 60.0, 70.0), "Cz": (0.0, 0.0, 95.0)})
+        bids.write_subject(tmp_path / "data", subject, data=rng.normal(0, 2e-5, (2, 4000)), sfreq=250.0,
+                           channels=["Fz", "Cz"], events=events, task="rest")
+    bids.write_participants(tmp_path / "data", [{"participant_id": f"sub-{s}"} for s in ("01", "02", "03")])
+    (tmp_path / "study.yaml").write_text(BIDS_SPEC)
+    files = study_files(Plan.from_spec(tmp_path / "study.yaml"))
+    names = sorted(files.data_files)
+    assert "data/participants.tsv" in names and files.channel_files == {}
+    assert {"data/sub-01/eeg/sub-01_electrodes.tsv", "data/sub-02/eeg/sub-02_task-view_eeg.edf",
+            "data/sub-02/eeg/sub-02_task-view_events.tsv", "data/sub-02/eeg/sub-02_task-view_channels.tsv"} <= set(names)
+    assert not [n for n in names if "sub-03" in n or "task-rest" in n]  # excluded subject, other task
+    assert all(files.data_files[n] == (tmp_path / n).resolve() for n in names)
