@@ -89,6 +89,16 @@ def test_settings_are_named_only_where_they_can_change_the_result():
     assert _status(outcomes)["a/statistics"] == "identical"
 
 
+def test_channel_graph_settings_are_named_for_cluster_results_only():
+    first, second = _base(), _base()
+    first["spec_settings"]["channels.neighbors.method"] = "delaunay"
+    second["spec_settings"]["channels.neighbors.method"] = "distance"
+    for name in ("holm", "clusters"):
+        second["results"]["a"]["corrections"][name]["arrays"]["p_corrected"] = "changed"
+    causes = {o.result: o.causes for o in compare_records(first, second)[0] if o.status == "different"}
+    assert causes == {"holm": [], "clusters": ["channels.neighbors.method delaunay -> distance"]}
+
+
 def test_all_contrasts_family_makes_every_contrast_relevant():
     first, second = _base(), _base()
     for record in (first, second):

@@ -19,6 +19,9 @@ NEUTRAL_SETTINGS = frozenset({"name", "output", "inference.shards"})
 NULL_METHODS = frozenset({"max-stat", "cluster", "tfce"})
 """Correction methods that read the permutation null."""
 
+GRAPH_METHODS = frozenset({"cluster", "tfce"})
+"""Correction methods that read the channel neighbor graph."""
+
 STATISTICS = "statistics"
 """Name of a contrast's observed statistics among its results."""
 
@@ -117,36 +120,61 @@ def _changed(first: dict, second: dict, key: str) -> tuple | None:
     return (first[key], second[key]) if first[key] != second[key] else None
 
 
-def _relevant(key: str, contrast: str, result: str, joint: bool) -> bool:
-    """Whether setting ``key`` can change ``result`` of ``contrast`` (``joint``: all-contrasts family)."""
+@dataclass(frozen=True)
+class _Result:
+    """Which result a cause may explain: contrast, result name, the correction's methods and family."""
+
+    contrast: str
+    name: str
+    methods: frozenset
+    pvalues: frozenset
+    joint: bool
+
+    @property
+    def uses_null(self) -> bool:
+        return bool(self.methods & NULL_METHODS) or "permutation" in self.pvalues
+
+
+def _relevant(key: str, result: _Result) -> bool:
+    """Whether setting ``key`` can change ``result``."""
     if key in NEUTRAL_SETTINGS:
         return False
     if key.startswith("inference.corrections["):
-        return result != STATISTICS and key.startswith(f"inference.corrections[{result}].")
+        return key.startswith(f"inference.corrections[{result.name}].")
     if key.startswith("contrasts["):
-        return joint or key.startswith(f"contrasts[{contrast}].")
-    return not (result == STATISTICS and key in ("inference.alpha", "inference.family"))
+        return result.joint or key.startswith(f"contrasts[{result.contrast}].")
+    if key.startswith("channels."):  # the neighbor graph
+        return bool(result.methods & GRAPH_METHODS)
+    return not (result.name == STATISTICS and key in ("inference.alpha", "inference.family"))
 
 
-def _uses_null(settings: dict, result: str) -> bool:
-    method = settings.get(f"inference.corrections[{result}].method")
-    return method in NULL_METHODS or settings.get(f"inference.corrections[{result}].pvalues") == "permutation"
+def _result(first: dict, second: dict, contrast: str, name: str) -> _Result:
+    """What the two records' settings say about one result (a correction's method may differ between them)."""
+    settings = (first["spec_settings"], second["spec_settings"])
+
+    def values(field: str) -> frozenset:
+        if name == STATISTICS:
+            return frozenset()
+        return frozenset(s.get(f"inference.corrections[{name}].{field}") for s in settings) - {None}
+
+    joint = "all-contrasts" in {s.get("inference.family") for s in settings}
+    return _Result(contrast, name, values("method"), values("pvalues"), joint)
 
 
-def causes_of(found: Differences, contrast: str, result: str, *, joint: bool, uses_null: bool) -> list[str]:
+def causes_of(found: Differences, result: _Result) -> list[str]:
     """Phrases naming what went in differently and can change this result.
 
-    Inputs, settings (those of this contrast and correction, and the ones
-    every result depends on), the seed and permutation count (results of the
-    permutation null only) and the versions of :data:`RESULT_PACKAGES`.
+    Inputs, settings (those of this contrast and correction, the channel
+    graph's for cluster and TFCE results, and the ones every result depends
+    on), the seed and permutation count (results of the permutation null
+    only) and the versions of :data:`RESULT_PACKAGES`.
     """
     causes = _listed(found.inputs, "input files")
-    settings = [f"{key} {_show(a)} -> {_show(b)}" for key, (a, b) in found.settings.items()
-                if _relevant(key, contrast, result, joint)]
+    settings = [f"{key} {_show(a)} -> {_show(b)}" for key, (a, b) in found.settings.items() if _relevant(key, result)]
     causes += _listed(settings, "settings")
-    if uses_null and found.seed:
+    if result.uses_null and found.seed:
         causes.append(f"seed {found.seed[0]} -> {found.seed[1]}")
-    if uses_null and found.permutations:
+    if result.uses_null and found.permutations:
         causes.append(f"permutations {found.permutations[0]} -> {found.permutations[1]}")
     return causes + [f"{name} {a} -> {b}" for name, (a, b) in found.packages.items()]
 
@@ -184,20 +212,18 @@ def compare_records(first: dict, second: dict) -> tuple[list[Outcome], Differenc
         What went in differently.
     """
     found = differences(first, second)
-    joint = "all-contrasts" in (first["spec_settings"].get("inference.family"), second["spec_settings"].get("inference.family"))
-    ours, theirs = _entries(first), _entries(second)
+    a, b = _entries(first), _entries(second)
     outcomes = []
-    for key in [*ours, *(k for k in theirs if k not in ours)]:
+    for key in [*a, *(k for k in b if k not in a)]:
         contrast, result = key
-        if key not in theirs or key not in ours:
-            outcomes.append(Outcome(contrast, result, "only in first" if key in ours else "only in second"))
+        if key not in b or key not in a:
+            outcomes.append(Outcome(contrast, result, "only in first" if key in a else "only in second"))
             continue
-        if ours[key] == theirs[key]:
+        if a[key] == b[key]:
             outcomes.append(Outcome(contrast, result, "identical"))
             continue
-        uses_null = result != STATISTICS and (_uses_null(first["spec_settings"], result) or _uses_null(second["spec_settings"], result))
-        causes = causes_of(found, contrast, result, joint=joint, uses_null=uses_null)
-        outcomes.append(Outcome(contrast, result, "different", _detail(ours[key], theirs[key], result),
+        causes = causes_of(found, _result(first, second, contrast, result))
+        outcomes.append(Outcome(contrast, result, "different", _detail(a[key], b[key], result),
                                 causes, failure=not causes))
     return outcomes, found
 
