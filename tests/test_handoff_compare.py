@@ -7,6 +7,7 @@ import pytest
 
 from famwise.cli import main
 from famwise.handoff.compare import compare_records, comparison_text
+from famwise.report.result_hashes import results_fingerprint
 
 
 def _base() -> dict:
@@ -134,7 +135,7 @@ def test_a_result_in_one_record_only():
 
 
 def _write(path, record) -> str:
-    path.write_text(json.dumps(record))
+    path.write_text(json.dumps(record | {"results_fingerprint": results_fingerprint(record["results"])}))
     return str(path)
 
 
@@ -158,6 +159,7 @@ def test_exit_status_and_e_mail_sized_output(tmp_path, capsys):
     (json.dumps({"spec_fingerprint": "f", "packages": {"famwise": "0.0.9"}}), "has no result hashes (written by famwise 0.0.9)"),
     (json.dumps({"seed": 1}), "not a famwise provenance record (missing spec_settings, permutations"),
     (json.dumps(_base() | {"results": {"a": {"statistics": {}}}}), "results of contrast 'a' are malformed"),
+    (json.dumps(_base()), "theirs.json: the results fingerprint does not match the record's result hashes"),
 ])
 def test_unusable_records_exit_2(tmp_path, capsys, content, message):
     path = tmp_path / "theirs.json"

@@ -4,8 +4,9 @@ import json
 from pathlib import Path
 
 from famwise.errors import UserError
+from famwise.report.result_hashes import results_fingerprint
 
-REQUIRED_KEYS = ("spec_settings", "seed", "permutations", "packages", "input_files", "results")
+REQUIRED_KEYS = ("spec_settings", "seed", "permutations", "packages", "input_files", "results", "results_fingerprint")
 """Keys a record needs for ``famwise compare``."""
 
 
@@ -52,8 +53,9 @@ def read_record(path: Path) -> dict:
     Raises
     ------
     UserError
-        For a missing file, invalid JSON, or a record without the keys of
-        :data:`REQUIRED_KEYS` (e.g. one written before famwise hashed results).
+        For a missing file, invalid JSON, a record without the keys of
+        :data:`REQUIRED_KEYS` (e.g. one written before famwise hashed
+        results), or one whose results fingerprint does not match its hashes.
     """
     path = record_path(path)
     if not path.is_file():
@@ -76,4 +78,7 @@ def read_record(path: Path) -> dict:
         if not isinstance(record[key], dict):
             raise UserError(f"{path}: '{key}' is not a mapping; not a famwise provenance record")
     _check_results(record["results"], path)
+    if record.get("results_fingerprint") != results_fingerprint(record["results"]):
+        raise UserError(f"{path}: the results fingerprint does not match the record's result hashes; "
+                        "the record was altered after famwise wrote it")
     return record
