@@ -339,3 +339,12 @@ def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
     assert "Yuen KK (1974)" in text and "Thomson DJ (1982)" in text
     # the edge rule is cited for the excluded points, not for the tapers
     assert "Points whose window reached beyond the epoch (the cone of influence; Torrence & Compo 1998)" in text
+
+
+def test_report_shows_the_results_fingerprint(built):
+    record = json.loads((built["output"] / "report" / "provenance.json").read_text())
+    fingerprint = record["results_fingerprint"]
+    head = built["html"][:built["html"].index('id="study"')]
+    assert f"results fingerprint {fingerprint[:12]}" in head  # at a glance, under the title
+    rows = {row[0]: row[1] for table in built["page"].tables for row in table["rows"] if len(row) == 2}
+    assert rows["results fingerprint (SHA-256)"] == fingerprint

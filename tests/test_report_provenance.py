@@ -60,7 +60,20 @@ def test_provenance_records_fingerprint_versions_seed_and_hashes(study_folder, t
     data = (study_folder / "data" / "sub-01.npz").read_bytes()
     assert record["input_files"]["data/sub-01.npz"] == {
         "sha256": hashlib.sha256(data).hexdigest(), "bytes": len(data)}
-    assert record["masks"]["attention/holm"]["n_significant"] == 85
+    holm = record["results"]["attention"]["corrections"]["holm"]
+    assert holm["n_significant"] == 85
+    with np.load(study_folder / "results/contrasts/attention/holm/result.npz") as stored:
+        mask = stored["mask"]
+    # hashlib.sha256 over dtype, shape and C-order bytes, as documented in result_hashes
+    assert holm["arrays"]["mask"] == hashlib.sha256(
+        f"{mask.dtype.str}|{mask.shape}|".encode() + mask.tobytes()).hexdigest()
+    assert {"stat", "p", "df", "effect", "effect_size"} <= set(record["results"]["attention"]["statistics"])
+    assert "clusters.tsv" in record["results"]["attention"]["corrections"]["clusters"]["tables"]
+    assert len(record["results_fingerprint"]) == 64
+    assert record["spec_settings"]["inference.corrections[holm].method"] == "holm"
+    assert record["spec_settings"]["inference.corrections[max-stat].step_down"] is True
+    assert record["spec_settings"]["contrasts[attention].conditions"] == ["attend", "ignore"]
+    assert record["spec_settings"]["subjects.exclude.11"] == "left the session early"
     assert record["started"] == "2026-01-01T00:00:00+00:00"
 
 
@@ -71,8 +84,11 @@ def test_provenance_changes_with_the_spec(study_folder, tmp_path):
                                    spec_text="version: 1\nname: attention alpha\nalpha: 0.01\n"))
     assert other["spec_fingerprint"] != base["spec_fingerprint"]
     assert other["spec_text"] != base["spec_text"]
-    assert {k: v for k, v in other.items() if k not in {"spec_fingerprint", "spec_text"}} == \
-        {k: v for k, v in base.items() if k not in {"spec_fingerprint", "spec_text"}}
+    changed_keys = {"spec_fingerprint", "spec_text", "spec_settings"}
+    assert {k: v for k, v in other.items() if k not in changed_keys} == \
+        {k: v for k, v in base.items() if k not in changed_keys}
+    differing = {k for k in base["spec_settings"] if base["spec_settings"][k] != other["spec_settings"][k]}
+    assert differing == {"inference.alpha"}
 
 
 def test_provenance_changes_with_an_input_file_or_a_mask(study_folder, tmp_path):
@@ -93,8 +109,29 @@ def test_provenance_changes_with_an_input_file_or_a_mask(study_folder, tmp_path)
     arrays["mask"][0, 0, 0] = ~arrays["mask"][0, 0, 0]
     np.savez(result, **arrays)
     third = _without_times(_record(study_folder, tmp_path / "c.json"))
-    assert third["masks"]["attention/fdr"] != other["masks"]["attention/fdr"]
-    assert third["masks"]["attention/holm"] == other["masks"]["attention/holm"]
+    fdr, holm = ([r["results"]["attention"]["corrections"][n] for r in (third, other)] for n in ("fdr", "holm"))
+    assert fdr[0]["arrays"]["mask"] != fdr[1]["arrays"]["mask"]
+    assert fdr[0]["arrays"]["p_corrected"] == fdr[1]["arrays"]["p_corrected"]
+    assert holm[0] == holm[1]
+    assert third["results_fingerprint"] != other["results_fingerprint"]
+
+
+def test_result_hashes_ignore_the_files_zip_metadata_but_not_dtype_or_shape(study_folder, tmp_path):
+    base = _record(study_folder, tmp_path / "a.json")
+    result = study_folder / "results/contrasts/attention/holm/result.npz"
+    with np.load(result) as stored:
+        arrays = dict(stored)
+    np.savez_compressed(result, **arrays)  # other bytes on disk, same arrays
+    again = _record(study_folder, tmp_path / "b.json")
+    assert again["results"] == base["results"]
+    assert again["results_fingerprint"] == base["results_fingerprint"]
+    p = arrays["p_corrected"]
+    for changed in (p.astype(np.float32), p.reshape(p.shape[0], -1)):
+        np.savez(result, **(arrays | {"p_corrected": changed}))
+        other = _record(study_folder, tmp_path / "c.json")
+        entry = other["results"]["attention"]["corrections"]["holm"]["arrays"]
+        assert entry["p_corrected"] != base["results"]["attention"]["corrections"]["holm"]["arrays"]["p_corrected"]
+        assert entry["mask"] == base["results"]["attention"]["corrections"]["holm"]["arrays"]["mask"]
 
 
 def test_missing_input_file_is_a_user_error(study_folder, tmp_path):

@@ -1,4 +1,4 @@
-"""The ``famwise`` command: check, run, demo, init, bench.
+"""The ``famwise`` command: check, run, demo, init, bench, calibrate, compare, pack.
 
 Exit status: 0 on success, 2 on a user error (one clear message, no
 traceback; ``--debug`` shows it), 1 on an internal error.
@@ -74,6 +74,10 @@ def _parser() -> argparse.ArgumentParser:
     from famwise.calibrate_command import add_parser as add_calibrate_parser
 
     add_calibrate_parser(commands)
+
+    from famwise.handoff.commands import add_parsers as add_handoff_parsers
+
+    add_handoff_parsers(commands)
     return parser
 
 
@@ -82,9 +86,11 @@ def _parser() -> argparse.ArgumentParser:
 
 def command_check(args) -> int:
     from famwise.job_benchmarks import describe_stage_costs
+    from famwise.handoff.commands import verify_handoff
     from famwise.plan import Plan
     from famwise.summary import describe_plan, input_warnings
 
+    verify_handoff(args.spec)
     plan = Plan.from_spec(args.spec)
     print(describe_plan(plan))
     _warn(input_warnings(plan) + plan.attainability_warnings())
@@ -131,8 +137,10 @@ def planned_jobs(plan) -> dict[str, tuple[int, set[str]]]:
 
 
 def command_run(args) -> int:
+    from famwise.handoff.commands import verify_handoff
     from famwise.plan import Plan
 
+    verify_handoff(args.spec)
     plan = Plan.from_spec(args.spec)
     _warn(plan.attainability_warnings())
     options = ["--cores", str(args.cores)]

@@ -214,14 +214,15 @@ def run_correct(args, settings: dict) -> None:
 
 def run_report(args, settings: dict) -> None:
     """Every result -> ``report/`` (index.html, figures, methods.md, provenance.json)."""
+    from famwise.handoff.inputs import study_files
     from famwise.plan import Plan
     from famwise.report import build_report
 
     spec_path = Path(settings["spec"])
     write_json(Path("study.json"), settings["study"])
     plan = Plan.from_spec(spec_path)
-    inputs = [Path(f) for subject in plan.subjects for f in plan.input_files(subject)]
-    build_report(Path("."), spec_text=spec_path.read_text(encoding="utf-8"), spec_path=spec_path, input_files=inputs)
+    build_report(Path("."), spec_text=spec_path.read_text(encoding="utf-8"), spec_path=spec_path,
+                 input_files=study_files(plan).all)
 
 
 STAGES = {

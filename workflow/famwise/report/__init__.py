@@ -23,7 +23,7 @@ def _now() -> str:
     return datetime.now(timezone.utc).isoformat(timespec="seconds")
 
 
-def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_files: list[Path],
+def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_files: list[Path] | dict[str, Path],
                  started: str | None = None) -> Path:
     """Write the study report of a finished run.
 
@@ -42,8 +42,9 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
         The spec file's text, shown in the report and kept in the provenance.
     spec_path : Path
         The spec file; input paths are recorded relative to its folder.
-    input_files : list of Path
-        The subject input files, hashed into the provenance.
+    input_files : list of Path, or dict of str to Path
+        The files the run read (subject data, channel files), hashed into
+        the provenance; a mapping names each as the spec does.
     started : str, optional
         When the run started (ISO 8601); defaults to now.
 
@@ -66,7 +67,7 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     methods = methods_from_run(run)
     write_atomic(folder / "methods.md", methods.encode("utf-8"))
     record = write_provenance(folder / "provenance.json", spec_text=spec_text, study=run.study,
-                              input_files=list(input_files), started=started, finished=_now(),
+                              input_files=input_files, started=started, finished=_now(),
                               root=Path(spec_path).parent, output_dir=output_dir)
     paragraph = markdown(methods.removeprefix("## Methods\n"))
     body += [f'<h2 id="methods">Methods</h2><div class="methods">{paragraph}</div>',
@@ -79,6 +80,7 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     title = f"famwise report: {run.study.get('name', output_dir.name)}"
     subtitle = (f"{len(run.contrasts)} contrasts, "
                 f"{len((run.study.get('inference') or {}).get('corrections', []))} corrections; "
+                f"results fingerprint {record['results_fingerprint'][:12]}; "
                 f"spec fingerprint {record['spec_fingerprint'][:12]}; finished {record['finished']}")
     index = folder / "index.html"
     write_atomic(index, page(title=title, subtitle=subtitle, nav=nav, body="".join(body)).encode("utf-8"))

@@ -2,7 +2,8 @@
 
 A collaborator who reruns the same spec on the same inputs gets the same
 file apart from the start and end times; any change of the spec, an input
-file or a package version shows up in it.
+file, a package version or a result shows up in it, and ``famwise compare``
+names which (see ``famwise.handoff.compare``).
 """
 
 import hashlib
@@ -10,10 +11,8 @@ import json
 from importlib import metadata
 from pathlib import Path
 
-import numpy as np
-
 from famwise.errors import UserError
-from famwise.report.results import correction_entries
+from famwise.report.result_hashes import result_hashes, results_fingerprint
 from famwise.report.style import write_atomic
 
 PACKAGES = ("famwise", "numpy", "scipy", "numba", "snakemake", "matplotlib", "pydantic")
@@ -62,28 +61,31 @@ def _label(path: Path, root: Path | None) -> str:
     return Path(path).as_posix()
 
 
-def mask_hashes(output_dir: Path, study: dict) -> dict[str, dict]:
-    """SHA-256 of every stored significance mask, by ``<contrast>/<correction>``.
+def spec_settings(study: dict) -> dict:
+    """Every setting of the study by its key path, e.g. ``inference.corrections[holm].level``.
 
-    Lets a collaborator confirm they got the same masks without comparing
-    arrays; the hash covers the mask's shape and its boolean values.
+    Mappings are walked key by key; a list of sections (contrasts,
+    corrections) is keyed by each item's name (a correction without one by
+    its method), so that a comparison names the setting that differs.
+    Other values, lists of values included, are leaves.
     """
-    found = {}
-    corrections = list(correction_entries(study))
-    for contrast in study.get("contrasts", []):
-        for correction in corrections:
-            path = Path(output_dir) / "contrasts" / contrast["name"] / correction / "result.npz"
-            if not path.is_file():
-                continue
-            with np.load(path) as data:
-                mask = np.ascontiguousarray(data["mask"], dtype=bool)
-            digest = hashlib.sha256(repr(mask.shape).encode() + mask.tobytes()).hexdigest()
-            found[f"{contrast['name']}/{correction}"] = {
-                "mask_sha256": digest, "n_significant": int(mask.sum())}
-    return found
+    flat = {}
+
+    def walk(prefix: str, value) -> None:
+        if isinstance(value, dict) and value:
+            for key, item in value.items():
+                walk(f"{prefix}.{key}" if prefix else str(key), item)
+        elif isinstance(value, list) and value and all(isinstance(item, dict) for item in value):
+            for index, item in enumerate(value):
+                walk(f"{prefix}[{item.get('name') or item.get('method') or index}]", item)
+        else:
+            flat[prefix] = value
+
+    walk("", study)
+    return flat
 
 
-def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: list[Path],
+def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: list[Path] | dict[str, Path],
                      started: str | None, finished: str | None, root: Path | None = None,
                      output_dir: Path | None = None) -> dict:
     """Write ``provenance.json`` and return its content.
@@ -97,40 +99,48 @@ def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: li
     study : dict
         The validated spec as JSON (``model_dump(mode="json")``); its
         canonical JSON is fingerprinted.
-    input_files : list of Path
-        Subject input files; each is hashed (SHA-256).
+    input_files : list of Path, or dict of str to Path
+        Files the run read (subject data, channel position and edge files);
+        each is hashed (SHA-256). A mapping gives each file's name as the
+        spec names it (see ``famwise.handoff.inputs.study_files``).
     started, finished : str or None
         Start and end times (ISO 8601, UTC).
     root : Path, optional
-        Input paths are recorded relative to this folder (normally the spec's
-        folder) so the record does not depend on where the study lives.
+        Input paths given as a list are recorded relative to this folder
+        (normally the spec's folder) so the record does not depend on where
+        the study lives.
     output_dir : Path, optional
-        The run's output folder; when given, the hash and count of every
-        stored significance mask are recorded too.
+        The run's output folder; when given, the hash of every result array
+        and cluster table (see :func:`famwise.report.result_hashes.result_hashes`)
+        and their fingerprint are recorded too.
 
     Returns
     -------
     dict
         What was written.
     """
-    for file in input_files:
+    if not isinstance(input_files, dict):
+        input_files = {_label(p, root): p for p in input_files}
+    for file in input_files.values():
         if not Path(file).is_file():
             raise UserError(f"provenance: expected the input file {file} of this run, "
                             "found no such file")
     inference = study.get("inference", {}) or {}
     record = {
         "spec_fingerprint": spec_fingerprint(study),
+        "spec_settings": spec_settings(study),
         "spec_text": spec_text,
         "seed": study.get("seed"),
         "permutations": inference.get("permutations"),
         "packages": package_versions(),
-        "input_files": {_label(p, root): {"sha256": file_sha256(p), "bytes": Path(p).stat().st_size}
-                        for p in sorted(input_files, key=lambda p: _label(p, root))},
+        "input_files": {name: {"sha256": file_sha256(p), "bytes": Path(p).stat().st_size}
+                        for name, p in sorted(input_files.items())},
         "started": started,
         "finished": finished,
     }
     if output_dir is not None:
-        record["masks"] = mask_hashes(output_dir, study)
+        record["results"] = result_hashes(output_dir, study)
+        record["results_fingerprint"] = results_fingerprint(record["results"])
     text = json.dumps(record, indent=2, sort_keys=False, ensure_ascii=False) + "\n"
     write_atomic(Path(path), text.encode("utf-8"))
     return record

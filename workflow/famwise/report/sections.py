@@ -339,16 +339,20 @@ def _correction_detail(run: Run, contrast: Contrast, correction: Correction, spe
 
 
 def provenance_section(record: dict) -> str:
-    """Fingerprint, versions and input hashes."""
-    rows = [["spec fingerprint (SHA-256)", record["spec_fingerprint"]],
+    """Fingerprints, versions, result and input hashes."""
+    rows = [["results fingerprint (SHA-256)", record.get("results_fingerprint")],
+            ["spec fingerprint (SHA-256)", record["spec_fingerprint"]],
             ["seed", record.get("seed")], ["permutations", record.get("permutations")],
             ["started", record.get("started")], ["finished", record.get("finished")]]
     rows += [[f"package {k}", v] for k, v in record["packages"].items()]
     files = [[name, info["bytes"], info["sha256"]] for name, info in record["input_files"].items()]
-    masks = [[name, info["n_significant"], info["mask_sha256"]]
-             for name, info in record.get("masks", {}).items()]
+    masks = [[f"{contrast}/{name}", info["n_significant"], info["arrays"]["mask"]]
+             for contrast, entry in record.get("results", {}).items()
+             for name, info in entry["corrections"].items()]
     html = ('<h2 id="provenance">Provenance</h2><p>A rerun of the same spec on the same inputs '
-            "gives the same provenance.json apart from the start and end times.</p>"
+            "gives the same provenance.json apart from the start and end times. Two runs with the "
+            "same results fingerprint have identical statistics, corrected p-values, masks and "
+            "cluster tables; <code>famwise compare</code> names what differs.</p>"
             + table(["item", "value"], [[k, "" if v is None else v] for k, v in rows]))
     if masks:
         html += "<h4>Significance masks</h4>" + table(["contrast/correction", "points", "SHA-256"], masks)
