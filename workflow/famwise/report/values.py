@@ -1,0 +1,77 @@
+"""The report's per-subject values: a strip plot per significant cluster or region, and the caveat.
+
+Reads ``contrasts/<c>/<correction>/subject_values.tsv`` (written by
+:mod:`famwise.subject_values`); nothing is recomputed.
+"""
+
+from pathlib import Path
+
+import matplotlib.pyplot as plt
+import numpy as np
+
+from famwise.report.html import esc, note
+from famwise.report.results import read_tsv
+from famwise.report.style import ACCENT, DIVERGING, MUTED, figure_style
+
+_MOST = 8
+"""Clusters drawn in the static figure (the TSV has every significant one)."""
+
+CAVEAT = ("<b>Circular analysis:</b> these values come from points selected by the same data the test used, "
+          "so they overstate the effect (Kriegeskorte et al. 2009, Nature Neuroscience 12:535-540). Use them "
+          "to plot the effect, spot outliers or relate it to behaviour descriptively; never test them again. "
+          "An unbiased value comes from a region fixed in advance (from earlier work or independent data), "
+          "not from this result.")
+
+
+def read_values(folder: Path) -> tuple[list[str], dict[str, list[dict]]]:
+    """Value columns and rows by cluster id of ``<folder>/subject_values.tsv`` (empty when absent)."""
+    path = Path(folder) / "subject_values.tsv"
+    if not path.is_file():
+        return [], {}
+    rows = read_tsv(path)
+    if not rows:
+        return [], {}
+    columns = [k for k in rows[0] if k not in {"id", "sign", "p", "n_points", "subject", "group"}]
+    found: dict[str, list[dict]] = {}
+    for row in rows:
+        found.setdefault(row["id"], []).append(row)
+    return columns, found
+
+
+def strip_figure(columns: list[str], clusters: dict[str, list[dict]], *, noun: str, unit: str):
+    """Small multiples: per cluster, each subject's value per column as dots, the group mean as a bar."""
+    shown = list(clusters.items())[:_MOST]
+    figure, axes = plt.subplots(1, len(shown), figsize=(0.9 + 1.05 * len(columns) * len(shown), 2.9),
+                                layout="constrained", squeeze=False)
+    for ax, (ident, rows) in zip(axes[0], shown):
+        values = np.array([[float(r[c]) for c in columns] for r in rows])
+        spread = (np.arange(len(rows)) * 0.618034 % 1 - 0.5) * 0.36
+        if len(columns) == 3 and columns[2] == "contrast":
+            ax.plot(np.array([0, 1])[:, None] + spread, values[:, :2].T, color="#b8bcc4", lw=0.7)
+        for k, name in enumerate(columns):
+            colour = DIVERGING(0.93) if name == "contrast" else "#5d6f8f"
+            ax.scatter(k + spread, values[:, k], s=14, color=colour, alpha=0.85, edgecolor="white", lw=0.4,
+                       zorder=3)
+            ax.plot([k - 0.3, k + 0.3], [values[:, k].mean()] * 2, color=ACCENT, lw=2.2, zorder=4)
+        ax.axhline(0, color=MUTED, lw=0.6, ls="--")
+        ax.set_xticks(range(len(columns)), columns, rotation=20 if len(columns) > 2 else 0)
+        ax.set_xlim(-0.6, len(columns) - 0.4)
+        ax.set_title(f"{noun} {ident} ({rows[0]['n_points']} points)", fontsize=8.5)
+    axes[0][0].set_ylabel(f"mean over the {noun} ({unit})")
+    return figure
+
+
+def values_block(folder: Path, stem: str, *, noun: str, unit: str, write) -> str:
+    """The per-subject values of one correction (figure, link to the TSV, caveat); "" when none."""
+    columns, clusters = read_values(folder)
+    if not clusters:
+        return ""
+    with figure_style():
+        fig = strip_figure(columns, clusters, noun=noun, unit=unit)
+    more = len(clusters) - _MOST
+    caption = (f"<b>Per-subject values</b>: each subject's mean over the points of each significant {noun} "
+               f"(dots), the group mean (bar); columns are the conditions and the tested contrast. "
+               + (f"The first {_MOST} of {len(clusters)} {noun}s are drawn; " if more > 0 else "")
+               + f"every value is in {esc(Path(folder).parent.name)}/{esc(Path(folder).name)}/subject_values.tsv.")
+    return (f"<h4>Per-subject values of the significant {noun}s</h4>" + note(CAVEAT, warning=True)
+            + write(fig, stem, caption=caption, alt=f"per-subject values of each {noun}"))
