@@ -30,7 +30,7 @@
   }
   function fmt(x, digits) {
     if (!isFinite(x)) return "n/a";
-    return Math.abs(x) >= 1000 || Number.isInteger(x) ? String(Math.round(x)) : x.toPrecision(digits || 3);
+    return Math.abs(x) >= 1000 || Number.isInteger(x) ? String(Math.round(x)) : String(Number(x.toPrecision(digits || 3)));
   }
   function esc(text) {
     return String(text).replace(/[&<>"]/g, function (c) {
