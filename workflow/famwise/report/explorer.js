@@ -281,7 +281,7 @@
       var rows = info.clusters.map(function (row) {
         var chosen = state.cluster === row.id ? ' class="xp-chosen"' : "";
         return "<tr data-id=\"" + row.id + "\"" + chosen + "><td>" + row.id + "</td><td>" +
-          esc(row.sign === "-" ? d.negative : d.positive) + "</td><td class=\"num\">" + fmtP(row.p) +
+          esc(/^(-|negative|-1)$/i.test(String(row.sign)) ? d.negative : d.positive) + "</td><td class=\"num\">" + fmtP(row.p) +
           "</td><td class=\"num\">" + row.n_points + "</td><td class=\"num\">" + String(row.channels).split(",").length +
           "</td><td>" + fmt(row.time_start_ms) + " to " + fmt(row.time_end_ms) + " ms</td><td>" +
           fmt(row.freq_low_hz) + " to " + fmt(row.freq_high_hz) + " Hz</td></tr>";
@@ -317,8 +317,9 @@
       var cells = Object.keys(row).map(function (k) {
         return "<tr><th>" + esc(k) + "</th><td>" + esc(typeof row[k] === "number" ? fmt(row[k], 4) : row[k]) + "</td></tr>";
       });
-      detail.innerHTML = "<h4>" + esc(info.noun) + " " + row.id + ": its row of the table</h4><table>" +
-        cells.join("") + "</table>" + strip(info.values[String(row.id)], info.noun + " " + row.id, row.n_points);
+      detail.innerHTML = "<div><h4>" + esc(info.noun) + " " + row.id + ": its row of the table</h4><table>" +
+        cells.join("") + "</table></div><div>" + strip(info.values[String(row.id)], info.noun + " " + row.id, row.n_points) +
+        "</div>";
     }
 
     function strip(values, title, points) {
@@ -368,11 +369,13 @@
       });
       out.push("</svg>");
       return out.join("") + '<p class="xp-strip-note">Dots: subjects (n = ' + n + "); bar: group mean. " +
-        "Selected by the same data as the test: descriptive only (see the note below).</p>";
+        "<b>Circular:</b> these points were selected by the same data as the test, so the values overstate the " +
+        "effect; plot them, never test them again (note below).</p>";
     }
 
     function drawAll() {
       drawHead(); drawMap(); drawList(); drawDetail();
+      readout.innerHTML = describePoint(state.sel, state.f, state.t);
       root.dataset.selected = state.sel.map(function (c) { return d.channels[c]; }).join(",");
       root.dataset.correction = correction().info.name;
       root.dataset.cursor = fmt(d.freqs[state.f]) + " Hz," + fmt(d.times[state.t]) + " ms";
@@ -451,7 +454,6 @@
       drawAll();
     });
     drawAll();
-    readout.innerHTML = describePoint(state.sel, state.f, state.t);
     root.classList.add("xp-ready");
   }
 

@@ -160,11 +160,12 @@ CSS = """
 .explorer .xp-tf-fig { width: 620px; }
 .explorer .xp-readout { font-size: 13px; font-variant-numeric: tabular-nums; background: var(--band);
                         padding: 5px 9px; margin: 8px 0; min-height: 1.6em; }
-.explorer .xp-lower { display: flex; flex-wrap: wrap; gap: 18px; align-items: flex-start; }
 .explorer .xp-list table { cursor: pointer; }
 .explorer .xp-list tr.xp-chosen td { background: #f3e7c9; }
 .explorer .xp-list tr:hover td { background: var(--band); }
-.explorer .xp-detail { font-size: 12.5px; max-width: 560px; }
+.explorer .xp-lower { display: block; }
+.explorer .xp-detail { font-size: 12.5px; display: flex; flex-wrap: wrap; gap: 24px; align-items: flex-start; }
+.explorer .xp-strip-note { max-width: 480px; font-size: 12.5px; }
 .explorer .xp-nojs { color: var(--warn); }
 .explorer.xp-ready .xp-nojs { display: none; }
 .explorer:not(.xp-ready) .xp-bar, .explorer:not(.xp-ready) .xp-views,
