@@ -2,6 +2,7 @@
 
 import csv
 import json
+import re
 
 import numpy as np
 import pytest
@@ -52,9 +53,9 @@ def stage(tmp_path):
     settings = {"contrast": {"name": "load", "test": "paired", "conditions": ["high", "low"], "groups": None},
                 "subjects": SUBJECTS}
     out = result.with_name("subject_values.tsv")
-    code = main(["--settings", json.dumps(settings), "--subjects", str(tmp_path / "subjects.npz"),
+    code = main(["clusters", "--settings", json.dumps(settings), "--subjects", str(tmp_path / "subjects.npz"),
                  "--result", str(result), "--out", str(out), *map(str, files)])
-    return {"code": code, "out": out, "files": files, "labels": labels}
+    return {"code": code, "out": out, "files": files, "labels": labels, "settings": settings}
 
 
 def test_values_equal_a_direct_mean_over_each_clusters_points(stage):
@@ -93,7 +94,46 @@ def test_a_label_without_points_is_a_user_error(stage, capsys):
     arrays["cluster_id"] = np.where(arrays["cluster_id"] == -1, 0, arrays["cluster_id"])
     np.savez(result, **arrays)
     settings = {"contrast": {"name": "load", "test": "paired", "conditions": ["high", "low"], "groups": None}}
-    code = main(["--settings", json.dumps(settings), "--subjects", str(result.parent.parent / "subjects.npz"),
+    code = main(["clusters", "--settings", json.dumps(settings), "--subjects", str(result.parent.parent / "subjects.npz"),
                  "--result", str(result), "--out", str(stage["out"]), *map(str, stage["files"])])
     assert code == 2
     assert "cluster -1 has no point" in capsys.readouterr().err
+
+
+def test_planned_regions_are_direct_means_over_their_channels_band_and_window(stage):
+    regions = [{"name": "theta-front", "channels": ["fz", "Cz"], "freq_hz": [4.0, 6.0], "time_ms": [100.0, 300.0]},
+               {"name": "late", "channels": ["Oz"], "freq_hz": [10.0, 25.0], "time_ms": [500.0, 800.0]}]
+    out = stage["out"].with_name("planned_values.tsv")
+    subjects = stage["out"].parent.parent / "subjects.npz"
+    settings = stage["settings"] | {"regions": regions}
+    code = main(["planned", "--settings", json.dumps(settings), "--subjects", str(subjects), "--out", str(out),
+                 *map(str, stage["files"])])
+    assert code == 0
+    with open(out, newline="") as handle:
+        rows = list(csv.DictReader(handle, delimiter="\t"))
+    assert [r["id"] for r in rows] == ["theta-front"] * 6 + ["late"] * 6
+    # direct computation on the full maps: Fz, Cz = channels 0, 1; 4-6 Hz = freqs 0, 1; 100-300 ms = times 3-5
+    cells = {"theta-front": np.ix_([0, 1], [0, 1], [3, 4, 5]), "late": np.ix_([3], [3, 4], [7, 8, 9, 10])}
+    for row in rows:
+        with np.load(stage["files"][SUBJECTS.index(row["subject"])]) as tf:
+            high, low = (tf["values"][k][cells[row["id"]]].mean(dtype=np.float64) for k in (0, 1))
+        assert float(row["high"]) == pytest.approx(high, abs=1e-12)
+        assert float(row["contrast"]) == pytest.approx(high - low, abs=1e-12)
+    assert rows[0]["n_points"] == "12" and rows[-1]["n_points"] == "8"
+    sidecar = json.loads(out.with_suffix(".json").read_text())
+    assert sidecar["id"]["Levels"]["late"] == "Oz; 10 to 25 Hz; 500 to 800 ms"
+
+
+@pytest.mark.parametrize("change, message", [
+    ({"channels": ["Fz", "Qz"]}, r"planned_regions\[0\] \('r'\).channels: unknown channels \['Qz'\]"),
+    ({"freq_hz": [40.0, 50.0]}, r"planned_regions\[0\] \('r'\).freq_hz: no decomposed frequency"),
+    ({"time_ms": [900.0, 950.0]}, r"planned_regions\[0\] \('r'\).time_ms: no time point"),
+])
+def test_planned_region_outside_the_data_is_a_user_error(stage, capsys, change, message):
+    region = {"name": "r", "channels": ["Fz"], "freq_hz": [4.0, 6.0], "time_ms": [0.0, 100.0]} | change
+    settings = stage["settings"] | {"regions": [region]}
+    code = main(["planned", "--settings", json.dumps(settings), "--subjects",
+                 str(stage["out"].parent.parent / "subjects.npz"), "--out", str(stage["out"].with_name("x.tsv")),
+                 *map(str, stage["files"])])
+    assert code == 2
+    assert re.search(message, capsys.readouterr().err)

@@ -13,9 +13,10 @@ the effect and must not be tested again (Kriegeskorte N, Simmons WK,
 Bellgowan PSF, Baker CI (2009). Circular analysis in systems neuroscience:
 the dangers of double dipping. Nature Neuroscience 12:535-540).
 
-Run as ``python -m famwise.subject_values --settings JSON --subjects
-subjects.npz --result result.npz --out subject_values.tsv tf/sub-*.npz``; a
-user error ends with one line ``famwise: error: ...`` and exit status 2.
+Run as ``python -m famwise.subject_values clusters --settings JSON --subjects
+subjects.npz --result result.npz --out subject_values.tsv tf/sub-*.npz`` (or
+``planned ...`` for the spec's planned regions, :mod:`famwise.planned_values`);
+a user error ends with one line ``famwise: error: ...`` and exit status 2.
 """
 
 import argparse
@@ -199,15 +200,21 @@ def measure_text(path: Path) -> str:
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(prog="python -m famwise.subject_values", description=__doc__)
-    parser.add_argument("--settings", required=True, help="the contrast's settings as JSON")
+    parser.add_argument("step", choices=("clusters", "planned"), help="significant clusters or planned regions")
+    parser.add_argument("--settings", required=True, help="the contrast's settings as JSON (planned: with 'regions')")
     parser.add_argument("--subjects", required=True, help="contrasts/<c>/subjects.npz")
-    parser.add_argument("--result", required=True, help="contrasts/<c>/<correction>/result.npz")
-    parser.add_argument("--out", required=True, help="contrasts/<c>/<correction>/subject_values.tsv")
+    parser.add_argument("--result", help="contrasts/<c>/<correction>/result.npz (clusters)")
+    parser.add_argument("--out", required=True, help="the TSV to write")
     parser.add_argument("maps", nargs="+", help="tf/sub-<id>.npz of the contrast's subjects, in order")
     args = parser.parse_args(argv)
+    maps = [Path(p) for p in args.maps]
     try:
-        run(json.loads(args.settings), Path(args.subjects), Path(args.result), [Path(p) for p in args.maps],
-            Path(args.out))
+        if args.step == "clusters":
+            run(json.loads(args.settings), Path(args.subjects), Path(args.result), maps, Path(args.out))
+        else:
+            from famwise.planned_values import run_planned  # the planned regions' own stage
+
+            run_planned(json.loads(args.settings), Path(args.subjects), maps, Path(args.out))
     except UserError as error:
         print(f"famwise: error: {error}", file=sys.stderr, flush=True)
         return 2
