@@ -16,6 +16,7 @@ from scipy import stats
 
 from famwise.design import ContrastData
 from famwise.montage import match_channels, neighbor_graph, save_graph, standard_positions
+from famwise.planned_values import run_planned
 from famwise.subject_values import run as run_subject_values
 from famwise.timefreq.maps import TimeFreqMaps
 
@@ -218,3 +219,6 @@ def _subject_values(folder: Path, contrast: Path, n: int, freqs: np.ndarray, tim
     settings = {"contrast": {"name": "attention", "test": "paired", "conditions": CONDITIONS, "groups": None}}
     run_subject_values(settings, contrast / "subjects.npz", contrast / "clusters" / "result.npz", files,
                        contrast / "clusters" / "subject_values.tsv")
+    regions = [{"name": "parietal-alpha", "channels": ["P3", "Pz", "P4"], "freq_hz": [8.0, 13.0],
+                "time_ms": [200.0, 500.0]}]
+    run_planned(settings | {"regions": regions}, contrast / "subjects.npz", files, contrast / "planned_values.tsv")

@@ -15,7 +15,7 @@ from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import Contrast, Correction, Run, correction_entries
 from famwise.report.scalp import project
 from famwise.report.style import figure_style, save_figure
-from famwise.report.values import values_block
+from famwise.report.values import planned_block, values_block
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
 _OTHER_CLUSTERS = 10
@@ -313,7 +313,9 @@ def contrast_section(run: Run, contrast: Contrast, write: FigureWriter) -> str:
         contrast, run.output_dir / "contrasts" / contrast.name, flat=flat, alpha=alpha,
         stat_label=figures.stat_label(contrast), unit=figures.effect_unit(study),
         positive=direction(spec, True), negative=direction(spec, False)))
-    return head + grid + explorer + "".join(details)
+    planned = planned_block(run.output_dir / "contrasts" / contrast.name, f"{base}__planned__values",
+                            unit=figures.effect_unit(study), write=write)
+    return head + grid + explorer + planned + "".join(details)
 
 
 def _correction_detail(run: Run, contrast: Contrast, correction: Correction, spec: dict,

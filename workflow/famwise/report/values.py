@@ -19,13 +19,14 @@ _MOST = 8
 CAVEAT = ("<b>Circular analysis:</b> these values come from points selected by the same data the test used, "
           "so they overstate the effect (Kriegeskorte et al. 2009, Nature Neuroscience 12:535-540). Use them "
           "to plot the effect, spot outliers or relate it to behaviour descriptively; never test them again. "
-          "An unbiased value comes from a region fixed in advance (from earlier work or independent data), "
-          "not from this result.")
+          "An unbiased value comes from a region fixed in advance (from earlier work or independent data): "
+          "name it in the spec under <code>planned_regions</code> (channels, a frequency band, a time window) "
+          "and the report gives each subject's mean over it.")
 
 
-def read_values(folder: Path) -> tuple[list[str], dict[str, list[dict]]]:
-    """Value columns and rows by cluster id of ``<folder>/subject_values.tsv`` (empty when absent)."""
-    path = Path(folder) / "subject_values.tsv"
+def read_values(folder: Path, name: str = "subject_values.tsv") -> tuple[list[str], dict[str, list[dict]]]:
+    """Value columns and rows by cluster id (or region name) of ``<folder>/<name>`` (empty when absent)."""
+    path = Path(folder) / name
     if not path.is_file():
         return [], {}
     rows = read_tsv(path)
@@ -75,3 +76,23 @@ def values_block(folder: Path, stem: str, *, noun: str, unit: str, write) -> str
                + f"every value is in {esc(Path(folder).parent.name)}/{esc(Path(folder).name)}/subject_values.tsv.")
     return (f"<h4>Per-subject values of the significant {noun}s</h4>" + note(CAVEAT, warning=True)
             + write(fig, stem, caption=caption, alt=f"per-subject values of each {noun}"))
+
+
+def planned_block(folder: Path, stem: str, *, unit: str, write) -> str:
+    """Each subject's mean over the spec's planned regions (``<folder>/planned_values.tsv``); "" when none."""
+    path = Path(folder) / "planned_values.tsv"
+    if not path.is_file():
+        return ""
+    columns, regions = read_values(folder, name=path.name)
+    if not regions:
+        return ""
+    with figure_style():
+        fig = strip_figure(columns, regions, noun="region", unit=unit)
+    caption = ("<b>Planned regions</b>: each subject's mean over each region named in the spec's "
+               "<code>planned_regions</code> (dots), the group mean (bar). Every value is in "
+               f"{esc(Path(folder).name)}/planned_values.tsv, the regions' definitions in its sidecar.")
+    text = ("<p>These regions were named before the analysis, so their values were not selected by this "
+            "result: if the regions really were fixed before looking at the data, they estimate the effect "
+            "without the bias of a significant cluster's values.</p>")
+    return ("<h3>Planned regions</h3>" + text
+            + write(fig, stem, caption=caption, alt="per-subject values of the planned regions"))
