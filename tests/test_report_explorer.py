@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from famwise.report import build_report
-from famwise.report.explorer import P_SCALE, STAT_STEPS, pack_mask, pack_p, pack_stat, unpack
+from famwise.report.explorer import P_SCALE, STAT_STEPS, colour_table, pack_mask, pack_p, pack_stat, unpack
 from famwise.report.results import read_run
 from report_fixture import write_output
 
@@ -144,15 +144,16 @@ def test_explorer_in_a_real_browser(report, browser, tmp_path_factory):
     browser.save_screenshot(str(shots / "1-initial.png"))
 
     head = root.find_element("css selector", ".xp-head")
+    tf = root.find_element("css selector", ".xp-tf")
+    left, top, width, height = (float(tf.get_attribute(f"data-{k}")) for k in ("left", "top", "width", "height"))
     positions = browser.execute_script(
         "var d = JSON.parse(arguments[0].querySelector('.xp-data').textContent); return [d.channels, d.xy];", root)
     names, xy = positions
-    extent = max([1.0] + [1.02 * float(np.hypot(*p)) for p in xy])
-    scale = 118 / extent
+    cx, cy, scale = (float(head.get_attribute(f"data-{k}")) for k in ("cx", "cy", "r"))
 
     def channel_point(name):
         x, y = xy[names.index(name)]
-        return 150 + x * scale, 168 - y * scale
+        return cx + x * scale, cy - y * scale
 
     _click_at(browser, head, *channel_point("Pz"))
     assert root.get_attribute("data-selected") == "Pz"
@@ -178,18 +179,30 @@ def test_explorer_in_a_real_browser(report, browser, tmp_path_factory):
     strip = detail.find_element("css selector", "svg.xp-strip")
     assert len(strip.find_elements("css selector", "circle")) == 3 * run.contrasts[0].n  # 2 conditions + contrast
     assert len(strip.find_elements("css selector", "line.xp-mean")) == 3
+    # pixels at the cluster's peak: its peak channel drawn as a significant ring (white centre), Fz as a plain dot
+    assert _pixel(browser, head, *channel_point(cluster["peak_channel"]))[:3] == [255, 255, 255]
+    assert max(_pixel(browser, head, *channel_point("Fz"))[:3]) < 90
+    # the map's top-right cell has the colour of the mean statistic over the cluster's channels
+    contrast = run.contrasts[0]
+    limit = float(np.nanmax(np.abs(contrast.stat)))
+    members = [contrast.channels.index(c) for c in cluster["channels"].split(",")]
+    quantised = np.round(contrast.stat[members, -1, -1] / limit * STAT_STEPS) / STAT_STEPS * limit
+    index = round((quantised.mean() / limit + 1) / 2 * 63)
+    expected = [int(colour_table()[index][k:k + 2], 16) for k in (1, 3, 5)]
+    shape = contrast.stat.shape
+    drawn = _pixel(browser, tf, left + width * (1 - 0.5 / shape[2]), top + height * 0.5 / shape[1])
+    assert np.abs(np.array(drawn[:3]) - expected).max() <= 2, (drawn, expected)
     browser.execute_script("arguments[0].scrollIntoView()", detail)
     browser.save_screenshot(str(shots / "3-cluster.png"))
 
     # move the cursor: click the map's first cell (lowest frequency, earliest time)
     browser.execute_script("arguments[0].scrollIntoView()", root)
-    tf = root.find_element("css selector", ".xp-tf")
-    _click_at(browser, tf, 62 + 2, 12 + 270 - 2)
+    _click_at(browser, tf, left + 2, top + height - 2)
     times = run.contrasts[0].times * 1000
     assert root.get_attribute("data-cursor") == f"{run.contrasts[0].freqs[0]:.3g} Hz,{times[0]:.0f} ms"
     # pixels: the head map at the centre is painted with a colour of the diverging table, not left blank
-    assert _pixel(browser, head, 150, 168)[3] == 255
-    assert _pixel(browser, tf, 62 + 235, 12 + 135)[3] == 255
+    assert _pixel(browser, head, cx, cy)[3] == 255
+    assert _pixel(browser, tf, left + width / 2, top + height / 2)[3] == 255
     # hover readout names channel, frequency, time, statistic and both p values
     from selenium.webdriver.common.action_chains import ActionChains
 

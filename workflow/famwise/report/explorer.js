@@ -69,8 +69,10 @@
     });
     var extent = 1;
     d.xy.forEach(function (xy) { extent = Math.max(extent, 1.02 * Math.hypot(xy[0], xy[1])); });
-    var HEAD = {cx: 150, cy: 168, r: 118 / extent};
-    var TF = {left: 62, top: 12, width: 470, height: 270};
+    var HEAD = {cx: 160, cy: 178, r: 128 / extent};
+    var TF = {left: 62, top: 24, width: 470, height: 270};
+    head.dataset.cx = HEAD.cx; head.dataset.cy = HEAD.cy; head.dataset.r = HEAD.r;
+    Object.keys(TF).forEach(function (key) { tf.dataset[key] = TF[key]; });
 
     function colour(value) {
       if (!isFinite(value)) return "#ffffff";
@@ -139,14 +141,19 @@
           g.beginPath(); g.arc(xy[0], xy[1], 8.5, 0, 2 * Math.PI);
           g.lineWidth = 2.4; g.strokeStyle = HIGHLIGHT; g.stroke();
         }
-        if (chosen || C <= 40) {
-          g.fillStyle = chosen ? INK : SOFT;
-          g.font = (chosen ? "bold 11px" : "9.5px") + " 'DejaVu Sans', Arial, sans-serif";
-          g.fillText(d.channels[c2], xy[0], xy[1] - (chosen ? 11 : 7));
-        }
+      }
+      g.lineJoin = "round";
+      for (var c3 = 0; c3 < C; c3++) {
+        var at = channelXY(c3), picked = state.sel.indexOf(c3) >= 0;
+        if (!picked && C > 40) continue;
+        g.font = (picked ? "bold 11.5px" : "10.5px") + " 'DejaVu Sans', Arial, sans-serif";
+        g.lineWidth = 3; g.strokeStyle = "rgba(255,255,255,0.85)";
+        g.strokeText(d.channels[c3], at[0], at[1] - (picked ? 12 : 8));
+        g.fillStyle = picked ? INK : SOFT;
+        g.fillText(d.channels[c3], at[0], at[1] - (picked ? 12 : 8));
       }
       root.querySelector(".xp-head-caption").innerHTML = "<b>" + esc(d.statLabel) + " at " + fmt(d.freqs[state.f]) +
-        " Hz, " + fmt(d.times[state.t]) + " ms</b> (the cursor). Rings: channels significant there after " +
+        " Hz, " + fmt(d.times[state.t]) + " ms</b> (the cursor), on the map's colour scale. Rings: channels significant there after " +
         esc(cor.info.name) + ". Orange: selected. Click a channel to select it, shift-click to add.";
     }
 
@@ -241,8 +248,8 @@
         g.beginPath(); g.moveTo(x + w, tick[1]); g.lineTo(x + w + 4, tick[1]); g.stroke();
         g.fillText(fmt(tick[0]), x + w + 6, tick[1]);
       });
-      g.save(); g.translate(x + w + 42, top + h / 2); g.rotate(Math.PI / 2);
-      g.textAlign = "center"; g.fillText(d.statLabel, 0, 0); g.restore();
+      g.textAlign = "center"; g.textBaseline = "bottom"; g.font = "bold 12px 'DejaVu Sans', Arial, sans-serif";
+      g.fillText(d.statLabel, x + w / 2, top - 6);
     }
 
     function clusterAt(c, f, t) {

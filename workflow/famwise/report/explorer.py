@@ -132,14 +132,18 @@ def explorer_block(data: dict) -> str:
                       for k, c in enumerate(data["corrections"]))
     caveat = note(CAVEAT, warning=True)
     return (f'<h3 id="{ident}">Explore {esc(data["contrast"])}</h3>'
+            "<p>Pick a correction, click channels on the head (shift-click adds more) to see their mean "
+            "statistic over time and frequency, and click the map to see the scalp at that point. Selecting "
+            "a cluster or region below shows its channels, its extent, its row of the table and each "
+            "subject's value.</p>"
             f'<div class="explorer" data-explorer="{ident}">'
             '<p class="xp-nojs">The explorer needs JavaScript; the figures above show the same results.</p>'
             '<div class="xp-bar"><label>correction <select class="xp-correction">'
             f'{options}</select></label><span class="xp-selection"></span>'
             '<button type="button" class="xp-clear">clear selection</button></div>'
-            '<div class="xp-views"><figure class="xp-head-fig"><canvas class="xp-head" width="300" height="320">'
+            '<div class="xp-views"><figure class="xp-head-fig"><canvas class="xp-head" width="320" height="340">'
             '</canvas><figcaption class="xp-head-caption"></figcaption></figure>'
-            '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="330"></canvas>'
+            '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="345"></canvas>'
             '<figcaption class="xp-tf-caption"></figcaption></figure></div>'
             '<div class="xp-readout" aria-live="polite">Hover over the map or a channel.</div>'
             '<div class="xp-lower"><div class="xp-list"></div><div class="xp-detail"></div></div>'
@@ -156,7 +160,7 @@ CSS = """
 .explorer .xp-views { display: flex; flex-wrap: wrap; gap: 18px; align-items: flex-start; }
 .explorer canvas { display: block; cursor: crosshair; }
 .explorer figure { margin: 0; }
-.explorer .xp-head-fig { width: 300px; }
+.explorer .xp-head-fig { width: 320px; }
 .explorer .xp-tf-fig { width: 620px; }
 .explorer .xp-readout { font-size: 13px; font-variant-numeric: tabular-nums; background: var(--band);
                         padding: 5px 9px; margin: 8px 0; min-height: 1.6em; }
