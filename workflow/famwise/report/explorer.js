@@ -329,53 +329,52 @@
         "</div>";
     }
 
-    function strip(values, title, points) {
-      if (!values) return "<p>No per-subject values were found for this " + esc(title) + ".</p>";
-      var W = 480, H = 280, L = 64, R = 14, top = 30, bottom = 44, all = [0];
-      values.values.forEach(function (column) { all = all.concat(column); });
+    function strip(strips, title, points) {
+      if (!strips) return "<p>No per-subject values were found for this " + esc(title) + ".</p>";
+      var W = Math.max(300, 110 + 130 * strips.length), H = 280, L = 64, R = 14, top = 30, bottom = 44, all = [0];
+      strips.forEach(function (one) { all = all.concat(one.values); });
       var lo = Math.min.apply(null, all), hi = Math.max.apply(null, all), pad = (hi - lo) * 0.08 || 1;
       lo -= pad; hi += pad;
       var y = function (v) { return top + (hi - v) / (hi - lo) * (H - top - bottom); };
-      var band = (W - L - R) / values.columns.length, out = [];
+      var band = (W - L - R) / strips.length, out = [];
       out.push('<svg class="xp-strip" width="' + W + '" height="' + H + '" viewBox="0 0 ' + W + " " + H +
         '" role="img" aria-label="per-subject values of ' + esc(title) + '" font-family="DejaVu Sans, Arial, sans-serif">');
       out.push('<text x="' + L + '" y="16" font-size="12.5" font-weight="bold" fill="' + INK + '">' +
         "Each subject's mean over the " + points + " points of " + esc(title) + "</text>");
       var tick = niceStep(hi - lo, 5);
       for (var v = Math.ceil(lo / tick) * tick; v <= hi; v += tick) {
+        var zero = Math.abs(v) < tick / 1e6;
         out.push('<line x1="' + (L - 4) + '" x2="' + (W - R) + '" y1="' + y(v) + '" y2="' + y(v) + '" stroke="' +
-          (Math.abs(v) < tick / 1e6 ? SOFT : "#eceef1") + '"' + (Math.abs(v) < tick / 1e6 ? ' stroke-dasharray="3 3"' : "") + "/>");
+          (zero ? SOFT : "#eceef1") + '"' + (zero ? ' stroke-dasharray="3 3"' : "") + "/>");
         out.push('<text x="' + (L - 7) + '" y="' + (y(v) + 4) + '" font-size="11" text-anchor="end" fill="' + INK + '">' +
-          fmt(Math.abs(v) < tick / 1e6 ? 0 : v) + "</text>");
+          fmt(zero ? 0 : v) + "</text>");
       }
       out.push('<text transform="translate(14 ' + ((top + H - bottom) / 2) + ') rotate(-90)" font-size="11.5" ' +
         'text-anchor="middle" fill="' + INK + '">' + esc(d.unit) + "</text>");
-      var n = values.subjects.length, xs = values.columns.map(function (_, k) { return L + band * (k + 0.5); });
+      var xs = strips.map(function (_, k) { return L + band * (k + 0.5); });
       var jitter = function (s) { return ((s * 0.618034) % 1 - 0.5) * band * 0.36; };
-      var conditions = values.columns.filter(function (c) { return c !== "contrast"; });
-      if (conditions.length === 2 && values.columns[0] === conditions[0] && values.columns[1] === conditions[1]) {
-        for (var s = 0; s < n; s++) {
-          out.push('<line x1="' + (xs[0] + jitter(s)) + '" x2="' + (xs[1] + jitter(s)) + '" y1="' + y(values.values[0][s]) +
-            '" y2="' + y(values.values[1][s]) + '" stroke="#b8bcc4" stroke-width="0.8"/>');
-        }
+      if (strips[0].paired) {
+        strips[0].values.forEach(function (value, s) {
+          out.push('<line x1="' + (xs[0] + jitter(s)) + '" x2="' + (xs[1] + jitter(s)) + '" y1="' + y(value) +
+            '" y2="' + y(strips[1].values[s]) + '" stroke="#b8bcc4" stroke-width="0.8"/>');
+        });
       }
-      values.columns.forEach(function (name, k) {
-        var column = values.values[k], mean = column.reduce(function (a, b) { return a + b; }, 0) / n;
-        column.forEach(function (value, s2) {
-          out.push('<circle cx="' + (xs[k] + jitter(s2)) + '" cy="' + y(value) + '" r="3.6" fill="' +
-            (name === "contrast" ? d.colours[d.colours.length - 8] : "#5d6f8f") + '" fill-opacity="0.8" stroke="#fff" ' +
-            'stroke-width="0.6"><title>' + esc(values.subjects[s2]) + (values.groups[s2] ? " (" + esc(values.groups[s2]) + ")" : "") +
-            ": " + fmt(value, 4) + "</title></circle>");
+      strips.forEach(function (one, k) {
+        var mean = one.values.reduce(function (a, b) { return a + b; }, 0) / one.values.length;
+        one.values.forEach(function (value, s) {
+          out.push('<circle cx="' + (xs[k] + jitter(s)) + '" cy="' + y(value) + '" r="3.6" fill="' +
+            (one.label === "contrast" ? d.colours[d.colours.length - 8] : "#5d6f8f") + '" fill-opacity="0.8" ' +
+            'stroke="#fff" stroke-width="0.6"><title>' + esc(one.subjects[s]) + ": " + fmt(value, 4) + "</title></circle>");
         });
         out.push('<line class="xp-mean" x1="' + (xs[k] - band * 0.3) + '" x2="' + (xs[k] + band * 0.3) + '" y1="' +
           y(mean) + '" y2="' + y(mean) + '" stroke="' + INK + '" stroke-width="2.4"/>');
         out.push('<text x="' + xs[k] + '" y="' + (H - bottom + 18) + '" font-size="12" text-anchor="middle" fill="' + INK +
-          '">' + esc(name === "contrast" ? "contrast" : name) + "</text>");
+          '">' + esc(one.label) + "</text>");
         out.push('<text x="' + xs[k] + '" y="' + (H - bottom + 33) + '" font-size="10.5" text-anchor="middle" fill="' +
-          SOFT + '">mean ' + fmt(mean, 3) + "</text>");
+          SOFT + '">mean ' + fmt(mean, 3) + " (n = " + one.values.length + ")</text>");
       });
       out.push("</svg>");
-      return out.join("") + '<p class="xp-strip-note">Dots: subjects (n = ' + n + "); bar: group mean. " +
+      return out.join("") + '<p class="xp-strip-note">Dots: subjects; bar: group mean. ' +
         "<b>Circular:</b> these points were selected by the same data as the test, so the values overstate the " +
         "effect; plot them, never test them again (note below).</p>";
     }

@@ -24,7 +24,7 @@ import numpy as np
 from famwise.report.html import anchor, esc, note
 from famwise.report.results import Contrast, Correction
 from famwise.report.style import DIVERGING, symmetric_limit
-from famwise.report.values import CAVEAT, read_values
+from famwise.report.values import CAVEAT, categories, read_values
 
 P_SCALE = 1000.0
 """Quantisation steps per decade of p."""
@@ -79,13 +79,12 @@ def _correction_data(correction: Correction, alpha: float, folder: Path) -> dict
         significant = [row for row in correction.clusters if float(row["p"]) <= alpha]
         data["clusters"] = [{k: row.get(k) for k in _TABLE_COLUMNS} for row in significant]
         columns, values = read_values(folder / correction.name)
-        data["values"] = {ident: _value_columns(columns, rows) for ident, rows in values.items()}
+        data["values"] = {ident: _strips(columns, rows) for ident, rows in values.items()}
     return data
 
 
-def _value_columns(columns: list[str], rows: list[dict]) -> dict:
-    return {"subjects": [r["subject"] for r in rows], "groups": [r.get("group", "") for r in rows],
-            "columns": columns, "values": [[round(float(r[c]), 6) for r in rows] for c in columns]}
+def _strips(columns: list[str], rows: list[dict]) -> list[dict]:
+    return [dict(strip, values=[round(v, 6) for v in strip["values"]]) for strip in categories(columns, rows)]
 
 
 def explorer_data(contrast: Contrast, folder: Path, *, flat: np.ndarray, alpha: float, stat_label: str,

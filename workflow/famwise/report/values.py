@@ -39,24 +39,46 @@ def read_values(folder: Path, name: str = "subject_values.tsv") -> tuple[list[st
     return columns, found
 
 
+def categories(columns: list[str], rows: list[dict]) -> list[dict]:
+    """The strips of one cluster: per value column (per group for two-sample), subjects and values.
+
+    The contrast column is left out when it repeats the only condition (one-sample, two-sample and
+    correlation tests). Each entry: ``label``, ``subjects``, ``values`` (floats) and ``paired``
+    (True for the strips of a paired contrast, whose subjects are joined by lines).
+    """
+    shown = columns[:1] if len(columns) == 2 and columns[1] == "contrast" else columns
+    groups = list(dict.fromkeys(r.get("group", "") for r in rows if r.get("group")))
+    out = []
+    for name in shown:
+        for group in groups or [None]:
+            mine = [r for r in rows if group is None or r.get("group") == group]
+            out.append({"label": name if group is None else f"{name} ({group})",
+                        "subjects": [r["subject"] for r in mine], "values": [float(r[name]) for r in mine],
+                        "paired": not groups and len(shown) == 3 and shown[2] == "contrast"})
+    return out
+
+
 def strip_figure(columns: list[str], clusters: dict[str, list[dict]], *, noun: str, unit: str):
-    """Small multiples: per cluster, each subject's value per column as dots, the group mean as a bar."""
+    """Small multiples: per cluster, each subject's value per strip as dots, the group mean as a bar."""
     shown = list(clusters.items())[:_MOST]
-    figure, axes = plt.subplots(1, len(shown), figsize=(0.9 + 1.05 * len(columns) * len(shown), 2.9),
+    width = len(categories(columns, shown[0][1]))
+    figure, axes = plt.subplots(1, len(shown), figsize=(0.9 + max(2.1, 1.05 * width) * len(shown), 2.9),
                                 layout="constrained", squeeze=False)
     for ax, (ident, rows) in zip(axes[0], shown):
-        values = np.array([[float(r[c]) for c in columns] for r in rows])
-        spread = (np.arange(len(rows)) * 0.618034 % 1 - 0.5) * 0.36
-        if len(columns) == 3 and columns[2] == "contrast":
-            ax.plot(np.array([0, 1])[:, None] + spread, values[:, :2].T, color="#b8bcc4", lw=0.7)
-        for k, name in enumerate(columns):
-            colour = DIVERGING(0.93) if name == "contrast" else "#5d6f8f"
-            ax.scatter(k + spread, values[:, k], s=14, color=colour, alpha=0.85, edgecolor="white", lw=0.4,
-                       zorder=3)
-            ax.plot([k - 0.3, k + 0.3], [values[:, k].mean()] * 2, color=ACCENT, lw=2.2, zorder=4)
+        strips = categories(columns, rows)
+        if strips[0]["paired"]:
+            spread = (np.arange(len(rows)) * 0.618034 % 1 - 0.5) * 0.36
+            ax.plot(np.array([0, 1])[:, None] + spread, np.array([strips[0]["values"], strips[1]["values"]]),
+                    color="#b8bcc4", lw=0.7)
+        for k, strip in enumerate(strips):
+            values = np.array(strip["values"])
+            spread = (np.arange(len(values)) * 0.618034 % 1 - 0.5) * 0.36
+            colour = DIVERGING(0.93) if strip["label"] == "contrast" else "#5d6f8f"
+            ax.scatter(k + spread, values, s=14, color=colour, alpha=0.85, edgecolor="white", lw=0.4, zorder=3)
+            ax.plot([k - 0.3, k + 0.3], [values.mean()] * 2, color=ACCENT, lw=2.2, zorder=4)
         ax.axhline(0, color=MUTED, lw=0.6, ls="--")
-        ax.set_xticks(range(len(columns)), columns, rotation=20 if len(columns) > 2 else 0)
-        ax.set_xlim(-0.6, len(columns) - 0.4)
+        ax.set_xticks(range(len(strips)), [s["label"] for s in strips], rotation=20 if len(strips) > 2 else 0)
+        ax.set_xlim(-0.6, len(strips) - 0.4)
         ax.set_title(f"{noun} {ident} ({rows[0]['n_points']} points)", fontsize=8.5)
     axes[0][0].set_ylabel(f"mean over the {noun} ({unit})")
     return figure
