@@ -130,8 +130,8 @@ def explorer_block(data: dict) -> str:
     options = "".join(f'<option value="{k}">{esc(c["name"])} ({esc(c["method"])})</option>'
                       for k, c in enumerate(data["corrections"]))
     caveat = note(CAVEAT, warning=True)
-    return (f'<h3 id="{ident}">Explore {esc(data["contrast"])}</h3>'
-            "<p>Pick a correction, click channels on the head (shift-click adds more) to see their mean "
+    return (f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'
+            '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see their mean "
             "statistic over time and frequency, and click the map to see the scalp at that point. Selecting "
             "a cluster or region below shows its channels, its extent, its row of the table and each "
             "subject's value.</p>"
@@ -173,7 +173,6 @@ CSS = """
 .explorer.xp-ready .xp-nojs { display: none; }
 .explorer:not(.xp-ready) .xp-bar, .explorer:not(.xp-ready) .xp-views,
 .explorer:not(.xp-ready) .xp-readout, .explorer:not(.xp-ready) .xp-lower { display: none; }
-@media print { .explorer .xp-bar, .explorer .xp-views, .explorer .xp-readout, .explorer .xp-lower,
-               .explorer .xp-nojs { display: none; } .explorer { border: none; padding: 0; } }
+@media print { .explorer, .xp-title, .xp-intro { display: none; } }
 """
 """Styles of the explorer (added to the page's style sheet)."""
