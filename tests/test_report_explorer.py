@@ -77,8 +77,8 @@ def _shots(tmp_path_factory) -> Path:
     return folder
 
 
-@pytest.fixture(scope="module")
-def browser():
+def _driver(*, javascript: bool = True):
+    """Debian's chromium through its chromedriver (selenium never downloads a browser here)."""
     if CHROMIUM is None or DRIVER is None:
         pytest.skip("Debian's chromium and chromium-driver are not installed "
                     "(apt-get install -y chromium chromium-driver; .ci/run installs them)")
@@ -90,10 +90,31 @@ def browser():
     for argument in ("--headless=new", "--no-sandbox", "--disable-gpu", "--window-size=1300,1000",
                      "--force-device-scale-factor=1", "--disable-background-networking", "--no-first-run"):
         options.add_argument(argument)
+    if not javascript:
+        options.add_experimental_option("prefs", {"profile.managed_default_content_settings.javascript": 2})
     options.set_capability("goog:loggingPrefs", {"browser": "ALL"})
-    driver = webdriver.Chrome(options=options, service=Service(DRIVER))
+    return webdriver.Chrome(options=options, service=Service(DRIVER))
+
+
+@pytest.fixture(scope="module")
+def browser():
+    driver = _driver()
     yield driver
     driver.quit()
+
+
+def test_without_javascript_the_explorer_says_so_and_hides_its_controls(report, tmp_path_factory):
+    driver = _driver(javascript=False)
+    try:
+        driver.get(report["index"].as_uri())
+        root = driver.find_element("css selector", ".explorer")
+        assert root.find_element("css selector", ".xp-nojs").is_displayed()
+        assert not root.find_element("css selector", ".xp-views").is_displayed()
+        assert "xp-ready" not in root.get_attribute("class")
+        driver.get(report["index"].as_uri() + "#explore--attention")
+        driver.save_screenshot(str(_shots(tmp_path_factory) / "0-without-javascript.png"))
+    finally:
+        driver.quit()
 
 
 def _errors(driver) -> list[dict]:

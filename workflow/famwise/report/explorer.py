@@ -131,7 +131,8 @@ def explorer_block(data: dict) -> str:
                       for k, c in enumerate(data["corrections"]))
     caveat = note(CAVEAT, warning=True)
     return (f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'
-            '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see their mean "
+            '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see '
+            "their mean "
             "statistic over time and frequency, and click the map to see the scalp at that point. Selecting "
             "a cluster or region below shows its channels, its extent, its row of the table and each "
             "subject's value.</p>"
