@@ -131,13 +131,12 @@ def explorer_block(data: dict) -> str:
                       for k, c in enumerate(data["corrections"]))
     caveat = note(CAVEAT, warning=True)
     return (f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'
-            '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see '
-            "their mean "
-            "statistic over time and frequency, and click the map to see the scalp at that point. Selecting "
-            "a cluster or region below shows its channels, its extent, its row of the table and each "
-            "subject's value.</p>"
             f'<div class="explorer" data-explorer="{ident}">'
             '<p class="xp-nojs">The explorer needs JavaScript; the figures above show the same results.</p>'
+            '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see '
+            "their mean statistic over time and frequency, and click the map to see the scalp at that point. "
+            "Selecting a cluster or region below shows its channels, its extent, its row of the table and each "
+            "subject's value.</p>"
             '<div class="xp-bar"><label>correction <select class="xp-correction">'
             f'{options}</select></label><span class="xp-selection"></span>'
             '<button type="button" class="xp-clear">clear selection</button></div>'
@@ -171,9 +170,10 @@ CSS = """
 .explorer .xp-detail { font-size: 12.5px; display: flex; flex-wrap: wrap; gap: 24px; align-items: flex-start; }
 .explorer .xp-strip-note { max-width: 480px; font-size: 12.5px; }
 .explorer .xp-nojs { color: var(--warn); }
+.explorer .xp-intro { margin-top: 0; }
 .explorer.xp-ready .xp-nojs { display: none; }
-.explorer:not(.xp-ready) .xp-bar, .explorer:not(.xp-ready) .xp-views,
+.explorer:not(.xp-ready) .xp-intro, .explorer:not(.xp-ready) .xp-bar, .explorer:not(.xp-ready) .xp-views,
 .explorer:not(.xp-ready) .xp-readout, .explorer:not(.xp-ready) .xp-lower { display: none; }
-@media print { .explorer, .xp-title, .xp-intro { display: none; } }
+@media print { .explorer, .xp-title { display: none; } }
 """
 """Styles of the explorer (added to the page's style sheet)."""
