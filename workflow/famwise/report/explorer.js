@@ -43,7 +43,8 @@
     return 10 * power;
   }
 
-  function Explorer(root) {
+  /* The explorer's data, state, geometry and shared helpers for one contrast. */
+  function model(root) {
     var d = JSON.parse(root.querySelector(".xp-data").textContent);
     var C = d.shape[0], F = d.shape[1], T = d.shape[2], FT = F * T;
     var steps = int16(d.stat), stat = new Float64Array(steps.length);
@@ -99,6 +100,28 @@
       g.font = "12px 'DejaVu Sans', Arial, sans-serif";
       return g;
     }
+
+    function cellRect(f, t) {
+      var w = TF.width / T, h = TF.height / F;
+      return [TF.left + t * w, TF.top + (F - 1 - f) * h, w, h];
+    }
+    function nearest(axis, value) {
+      var best = 0;
+      axis.forEach(function (x, k) { if (Math.abs(x - value) < Math.abs(axis[best] - value)) best = k; });
+      return best;
+    }
+
+    return {root: root, d: d, C: C, F: F, T: T, FT: FT, stat: stat, p: p, corrections: corrections, peak: peak,
+            state: state, head: head, tf: tf, select: select, readout: readout, list: list, detail: detail,
+            extent: extent, HEAD: HEAD, TF: TF, colour: colour, correction: correction, meanAt: meanAt,
+            anySelected: anySelected, channelXY: channelXY, context: context, cellRect: cellRect, nearest: nearest};
+  }
+
+  /* The head: interpolated statistic at the cursor, channels, significant rings, selection. */
+  function headPainter(v) {
+    var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
+    var root = v.root, colour = v.colour, correction = v.correction;
+    var extent = v.extent, stat = v.stat, channelXY = v.channelXY, context = v.context, head = v.head;
 
     function drawHead() {
       var g = context(head), cor = correction(), step = 3, base = state.f * T + state.t;
@@ -156,11 +179,16 @@
         " Hz, " + fmt(d.times[state.t]) + " ms</b> (the cursor), on the map's colour scale. Rings: channels significant there after " +
         esc(cor.info.name) + ". Orange: selected. Click a channel to select it, shift-click to add.";
     }
+    return drawHead;
+  }
 
-    function cellRect(f, t) {
-      var w = TF.width / T, h = TF.height / F;
-      return [TF.left + t * w, TF.top + (F - 1 - f) * h, w, h];
-    }
+  /* The time-frequency map of the selected channels with its outlines and the cursor. */
+  function mapPainter(v) {
+    var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
+    var root = v.root, colour = v.colour, correction = v.correction;
+    var cellRect = v.cellRect, context = v.context, meanAt = v.meanAt, anySelected = v.anySelected, tf = v.tf;
+    var frame = framePainter(v);
+
     function outlineCells(g, inside, colourName, width) {
       var w = TF.width / T, h = TF.height / F;
       g.strokeStyle = colourName; g.lineWidth = width; g.beginPath();
@@ -204,8 +232,8 @@
       g.beginPath(); g.moveTo(cr[0] + cr[2] / 2, TF.top); g.lineTo(cr[0] + cr[2] / 2, TF.top + TF.height);
       g.moveTo(TF.left, cr[1] + cr[3] / 2); g.lineTo(TF.left + TF.width, cr[1] + cr[3] / 2); g.stroke();
       g.setLineDash([]); g.lineWidth = 2; g.strokeRect(cr[0], cr[1], cr[2], cr[3]);
-      drawAxes(g);
-      drawColourBar(g);
+      frame.axes(g);
+      frame.colourBar(g);
       var names = state.sel.map(function (c) { return d.channels[c]; });
       root.querySelector(".xp-tf-caption").innerHTML = "<b>" + esc(d.statLabel) + ", mean over " +
         (names.length === 1 ? esc(names[0]) : names.length + " channels (" + esc(names.join(", ")) + ")") +
@@ -213,6 +241,12 @@
         (state.cluster !== null ? "; orange: the " + esc(cor.info.noun) + "'s extent" : "") +
         ". Click or use the arrow keys to move the cursor.";
     }
+    return drawMap;
+  }
+
+  /* Axes and colour bar of the time-frequency map. */
+  function framePainter(v) {
+    var d = v.d, F = v.F, T = v.T, TF = v.TF, cellRect = v.cellRect, colour = v.colour;
 
     function drawAxes(g) {
       g.strokeStyle = INK; g.lineWidth = 1; g.fillStyle = INK; g.font = "12px 'DejaVu Sans', Arial, sans-serif";
@@ -251,6 +285,14 @@
       g.textAlign = "center"; g.textBaseline = "bottom"; g.font = "bold 12px 'DejaVu Sans', Arial, sans-serif";
       g.fillText(d.statLabel, x + w / 2, top - 6);
     }
+    return {axes: drawAxes, colourBar: drawColourBar};
+  }
+
+  /* Hover text, the cluster list, a cluster's row of the table and its per-subject values. */
+  function panels(v) {
+    var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
+    var root = v.root, colour = v.colour, correction = v.correction;
+    var stat = v.stat, p = v.p, list = v.list, detail = v.detail, nearest = v.nearest;
 
     function clusterAt(c, f, t) {
       var cor = correction();
@@ -309,14 +351,8 @@
       state.sel = names.map(function (n) { return d.channels.indexOf(n); }).filter(function (c) { return c >= 0; });
       state.f = nearest(d.freqs, row.peak_freq_hz);
       state.t = nearest(d.times, row.peak_time_ms);
-      drawAll();
+      v.redraw();
     }
-    function nearest(axis, value) {
-      var best = 0;
-      axis.forEach(function (x, k) { if (Math.abs(x - value) < Math.abs(axis[best] - value)) best = k; });
-      return best;
-    }
-
     function drawDetail() {
       var info = correction().info;
       var row = state.cluster === null ? null : info.clusters.find(function (r) { return r.id === state.cluster; });
@@ -325,70 +361,80 @@
         return "<tr><th>" + esc(k) + "</th><td>" + esc(typeof row[k] === "number" ? fmt(row[k], 4) : row[k]) + "</td></tr>";
       });
       detail.innerHTML = "<div><h4>" + esc(info.noun) + " " + row.id + ": its row of the table</h4><table>" +
-        cells.join("") + "</table></div><div>" + strip(info.values[String(row.id)], info.noun + " " + row.id, row.n_points) +
+        cells.join("") + "</table></div><div>" + stripSvg(d, info.values[String(row.id)], info.noun + " " + row.id, row.n_points) +
         "</div>";
     }
+    return {describePoint: describePoint, list: drawList, detail: drawDetail};
+  }
 
-    function strip(strips, title, points) {
-      if (!strips) return "<p>No per-subject values were found for this " + esc(title) + ".</p>";
-      var W = Math.max(300, 110 + 130 * strips.length), H = 280, L = 64, R = 14, top = 30, bottom = 44, all = [0];
-      strips.forEach(function (one) { all = all.concat(one.values); });
-      var lo = Math.min.apply(null, all), hi = Math.max.apply(null, all), pad = (hi - lo) * 0.08 || 1;
-      lo -= pad; hi += pad;
-      var y = function (v) { return top + (hi - v) / (hi - lo) * (H - top - bottom); };
-      var band = (W - L - R) / strips.length, out = [];
-      out.push('<svg class="xp-strip" width="' + W + '" height="' + H + '" viewBox="0 0 ' + W + " " + H +
-        '" role="img" aria-label="per-subject values of ' + esc(title) + '" font-family="DejaVu Sans, Arial, sans-serif">');
-      out.push('<text x="' + L + '" y="16" font-size="12.5" font-weight="bold" fill="' + INK + '">' +
-        "Each subject's mean over the " + points + " points of " + esc(title) + "</text>");
-      var tick = niceStep(hi - lo, 5);
-      for (var v = Math.ceil(lo / tick) * tick; v <= hi; v += tick) {
-        var zero = Math.abs(v) < tick / 1e6;
-        out.push('<line x1="' + (L - 4) + '" x2="' + (W - R) + '" y1="' + y(v) + '" y2="' + y(v) + '" stroke="' +
-          (zero ? SOFT : "#eceef1") + '"' + (zero ? ' stroke-dasharray="3 3"' : "") + "/>");
-        out.push('<text x="' + (L - 7) + '" y="' + (y(v) + 4) + '" font-size="11" text-anchor="end" fill="' + INK + '">' +
-          fmt(zero ? 0 : v) + "</text>");
-      }
-      out.push('<text transform="translate(14 ' + ((top + H - bottom) / 2) + ') rotate(-90)" font-size="11.5" ' +
-        'text-anchor="middle" fill="' + INK + '">' + esc(d.unit) + "</text>");
-      var xs = strips.map(function (_, k) { return L + band * (k + 0.5); });
-      var jitter = function (s) { return ((s * 0.618034) % 1 - 0.5) * band * 0.36; };
-      if (strips[0].paired) {
-        strips[0].values.forEach(function (value, s) {
-          out.push('<line x1="' + (xs[0] + jitter(s)) + '" x2="' + (xs[1] + jitter(s)) + '" y1="' + y(value) +
-            '" y2="' + y(strips[1].values[s]) + '" stroke="#b8bcc4" stroke-width="0.8"/>');
-        });
-      }
-      strips.forEach(function (one, k) {
-        var mean = one.values.reduce(function (a, b) { return a + b; }, 0) / one.values.length;
-        one.values.forEach(function (value, s) {
-          out.push('<circle cx="' + (xs[k] + jitter(s)) + '" cy="' + y(value) + '" r="3.6" fill="' +
-            (one.label === "contrast" ? d.colours[d.colours.length - 8] : "#5d6f8f") + '" fill-opacity="0.8" ' +
-            'stroke="#fff" stroke-width="0.6"><title>' + esc(one.subjects[s]) + ": " + fmt(value, 4) + "</title></circle>");
-        });
-        out.push('<line class="xp-mean" x1="' + (xs[k] - band * 0.3) + '" x2="' + (xs[k] + band * 0.3) + '" y1="' +
-          y(mean) + '" y2="' + y(mean) + '" stroke="' + INK + '" stroke-width="2.4"/>');
-        out.push('<text x="' + xs[k] + '" y="' + (H - bottom + 18) + '" font-size="12" text-anchor="middle" fill="' + INK +
-          '">' + esc(one.label) + "</text>");
-        out.push('<text x="' + xs[k] + '" y="' + (H - bottom + 33) + '" font-size="10.5" text-anchor="middle" fill="' +
-          SOFT + '">mean ' + fmt(mean, 3) + " (n = " + one.values.length + ")</text>");
+  /* SVG strip plot: each subject's value per strip, the group mean as a bar. */
+  function stripSvg(d, strips, title, points) {
+    if (!strips) return "<p>No per-subject values were found for this " + esc(title) + ".</p>";
+    var W = Math.max(300, 110 + 130 * strips.length), H = 280, L = 64, R = 14, top = 30, bottom = 44, all = [0];
+    strips.forEach(function (one) { all = all.concat(one.values); });
+    var lo = Math.min.apply(null, all), hi = Math.max.apply(null, all), pad = (hi - lo) * 0.08 || 1;
+    lo -= pad; hi += pad;
+    var y = function (v) { return top + (hi - v) / (hi - lo) * (H - top - bottom); };
+    var band = (W - L - R) / strips.length, out = [];
+    out.push('<svg class="xp-strip" width="' + W + '" height="' + H + '" viewBox="0 0 ' + W + " " + H +
+      '" role="img" aria-label="per-subject values of ' + esc(title) + '" font-family="DejaVu Sans, Arial, sans-serif">');
+    out.push('<text x="' + L + '" y="16" font-size="12.5" font-weight="bold" fill="' + INK + '">' +
+      "Each subject's mean over the " + points + " points of " + esc(title) + "</text>");
+    var tick = niceStep(hi - lo, 5);
+    for (var v = Math.ceil(lo / tick) * tick; v <= hi; v += tick) {
+      var zero = Math.abs(v) < tick / 1e6;
+      out.push('<line x1="' + (L - 4) + '" x2="' + (W - R) + '" y1="' + y(v) + '" y2="' + y(v) + '" stroke="' +
+        (zero ? SOFT : "#eceef1") + '"' + (zero ? ' stroke-dasharray="3 3"' : "") + "/>");
+      out.push('<text x="' + (L - 7) + '" y="' + (y(v) + 4) + '" font-size="11" text-anchor="end" fill="' + INK + '">' +
+        fmt(zero ? 0 : v) + "</text>");
+    }
+    out.push('<text transform="translate(14 ' + ((top + H - bottom) / 2) + ') rotate(-90)" font-size="11.5" ' +
+      'text-anchor="middle" fill="' + INK + '">' + esc(d.unit) + "</text>");
+    var xs = strips.map(function (_, k) { return L + band * (k + 0.5); });
+    var jitter = function (s) { return ((s * 0.618034) % 1 - 0.5) * band * 0.36; };
+    if (strips[0].paired) {
+      strips[0].values.forEach(function (value, s) {
+        out.push('<line x1="' + (xs[0] + jitter(s)) + '" x2="' + (xs[1] + jitter(s)) + '" y1="' + y(value) +
+          '" y2="' + y(strips[1].values[s]) + '" stroke="#b8bcc4" stroke-width="0.8"/>');
       });
-      out.push("</svg>");
-      return out.join("") + '<p class="xp-strip-note">Dots: subjects; bar: group mean. ' +
-        "<b>Circular:</b> these points were selected by the same data as the test, so the values overstate the " +
-        "effect; plot them, never test them again (note below).</p>";
     }
+    strips.forEach(function (one, k) {
+      var mean = one.values.reduce(function (a, b) { return a + b; }, 0) / one.values.length;
+      one.values.forEach(function (value, s) {
+        out.push('<circle cx="' + (xs[k] + jitter(s)) + '" cy="' + y(value) + '" r="3.6" fill="' +
+          (one.label === "contrast" ? d.colours[d.colours.length - 8] : "#5d6f8f") + '" fill-opacity="0.8" ' +
+          'stroke="#fff" stroke-width="0.6"><title>' + esc(one.subjects[s]) + ": " + fmt(value, 4) + "</title></circle>");
+      });
+      out.push('<line class="xp-mean" x1="' + (xs[k] - band * 0.3) + '" x2="' + (xs[k] + band * 0.3) + '" y1="' +
+        y(mean) + '" y2="' + y(mean) + '" stroke="' + INK + '" stroke-width="2.4"/>');
+      out.push('<text x="' + xs[k] + '" y="' + (H - bottom + 18) + '" font-size="12" text-anchor="middle" fill="' + INK +
+        '">' + esc(one.label) + "</text>");
+      out.push('<text x="' + xs[k] + '" y="' + (H - bottom + 33) + '" font-size="10.5" text-anchor="middle" fill="' +
+        SOFT + '">mean ' + fmt(mean, 3) + " (n = " + one.values.length + ")</text>");
+    });
+    out.push("</svg>");
+    return out.join("") + '<p class="xp-strip-note">Dots: subjects; bar: group mean. ' +
+      "<b>Circular:</b> these points were selected by the same data as the test, so the values overstate the " +
+      "effect; plot them, never test them again (note below).</p>";
+  }
 
-    function drawAll() {
-      drawHead(); drawMap(); drawList(); drawDetail();
-      readout.innerHTML = describePoint(state.sel, state.f, state.t);
-      root.dataset.selected = state.sel.map(function (c) { return d.channels[c]; }).join(",");
-      root.dataset.correction = correction().info.name;
-      root.dataset.cursor = fmt(d.freqs[state.f]) + " Hz," + fmt(d.times[state.t]) + " ms";
-      root.dataset.cluster = state.cluster === null ? "" : String(state.cluster);
-      root.querySelector(".xp-selection").textContent = "selected: " +
-        state.sel.map(function (c) { return d.channels[c]; }).join(", ");
-    }
+  /* Everything drawn again from the state; the state mirrored on the root for tests and scripts. */
+  function redraw(v) {
+    v.drawHead(); v.drawMap(); v.panels.list(); v.panels.detail();
+    v.readout.innerHTML = v.panels.describePoint(v.state.sel, v.state.f, v.state.t);
+    v.root.dataset.selected = v.state.sel.map(function (c) { return v.d.channels[c]; }).join(",");
+    v.root.dataset.correction = v.correction().info.name;
+    v.root.dataset.cursor = fmt(v.d.freqs[v.state.f]) + " Hz," + fmt(v.d.times[v.state.t]) + " ms";
+    v.root.dataset.cluster = v.state.cluster === null ? "" : String(v.state.cluster);
+    v.root.querySelector(".xp-selection").textContent = "selected: " +
+      v.state.sel.map(function (c) { return v.d.channels[c]; }).join(", ");
+  }
+
+  /* Clicks, shift-clicks, hover, cursor moves, keys, the correction selector and the reset. */
+  function bind(v) {
+    var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
+    var root = v.root, colour = v.colour, correction = v.correction;
+    var head = v.head, tf = v.tf, select = v.select, readout = v.readout, channelXY = v.channelXY, peak = v.peak;
 
     function position(canvas, event) {
       var box = canvas.getBoundingClientRect();
@@ -419,24 +465,24 @@
       } else {
         state.sel = [c];
       }
-      drawAll();
+      v.redraw();
     });
     head.addEventListener("mousemove", function (event) {
       var c = channelNear(event);
       head.style.cursor = c < 0 ? "default" : "pointer";
-      if (c >= 0) readout.innerHTML = describePoint([c], state.f, state.t);
+      if (c >= 0) readout.innerHTML = v.describePoint([c], state.f, state.t);
     });
     function moveCursor(event) {
       var cell = cellNear(event);
       if (!cell) return;
       state.f = cell[0]; state.t = cell[1];
-      drawHead(); drawMap();
+      v.drawHead(); v.drawMap();
       root.dataset.cursor = fmt(d.freqs[state.f]) + " Hz," + fmt(d.times[state.t]) + " ms";
     }
     tf.addEventListener("click", moveCursor);
     tf.addEventListener("mousemove", function (event) {
       var cell = cellNear(event);
-      if (cell) readout.innerHTML = describePoint(state.sel, cell[0], cell[1]);
+      if (cell) readout.innerHTML = v.describePoint(state.sel, cell[0], cell[1]);
       if (event.buttons === 1) moveCursor(event);
     });
     tf.tabIndex = 0;
@@ -446,20 +492,30 @@
       event.preventDefault();
       state.f = Math.max(0, Math.min(F - 1, state.f + moves[0]));
       state.t = Math.max(0, Math.min(T - 1, state.t + moves[1]));
-      readout.innerHTML = describePoint(state.sel, state.f, state.t);
-      drawAll();
+      readout.innerHTML = v.describePoint(state.sel, state.f, state.t);
+      v.redraw();
     });
     select.addEventListener("change", function () {
       state.corr = Number(select.value);
       state.cluster = null;
-      drawAll();
+      v.redraw();
     });
     root.querySelector(".xp-clear").addEventListener("click", function () {
       state.sel = [Math.floor(peak / FT)];
       state.cluster = null;
-      drawAll();
+      v.redraw();
     });
-    drawAll();
+  }
+
+  function Explorer(root) {
+    var v = model(root);
+    v.drawHead = headPainter(v);
+    v.drawMap = mapPainter(v);
+    v.panels = panels(v);
+    v.describePoint = v.panels.describePoint;
+    v.redraw = function () { redraw(v); };
+    bind(v);
+    v.redraw();
     root.classList.add("xp-ready");
   }
 
