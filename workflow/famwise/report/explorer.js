@@ -2,25 +2,42 @@
    Data layout and quantisation: famwise/report/explorer.py. */
 (function () {
   "use strict";
-  var INK = "#1d1d1f", SOFT = "#5b5f66", RULE = "#c9ccd2", HIGHLIGHT = "#c77700";
+  var INK = "#1d1d1f", SOFT = "#5b5f66", HIGHLIGHT = "#c77700";
 
   function bytes(b64) {
     var text = atob(b64), out = new Uint8Array(text.length);
     for (var i = 0; i < text.length; i++) out[i] = text.charCodeAt(i);
     return out;
   }
-  function int16(b64) {
-    var raw = bytes(b64), view = new DataView(raw.buffer), out = new Int16Array(raw.length / 2);
+  /* base64 of zlib-compressed bytes -> Promise of the bytes (the browser's own inflater, no network). */
+  function inflate(b64) {
+    var stream = new Blob([bytes(b64)]).stream().pipeThrough(new DecompressionStream("deflate"));
+    return new Response(stream).arrayBuffer().then(function (buffer) { return new Uint8Array(buffer); });
+  }
+  /* Every packed array of one contrast, inflated: {stat, p, corrections: [{p, mask, ids}]}. */
+  function unpack(d) {
+    var jobs = [inflate(d.stat), inflate(d.p)];
+    d.corrections.forEach(function (c) {
+      jobs.push(inflate(c.p), inflate(c.mask), c.ids ? inflate(c.ids) : Promise.resolve(null));
+    });
+    return Promise.all(jobs).then(function (found) {
+      return {stat: found[0], p: found[1], corrections: d.corrections.map(function (_, k) {
+        return {p: found[2 + 3 * k], mask: found[3 + 3 * k], ids: found[4 + 3 * k]};
+      })};
+    });
+  }
+  function int16(raw) {
+    var view = new DataView(raw.buffer), out = new Int16Array(raw.length / 2);
     for (var i = 0; i < out.length; i++) out[i] = view.getInt16(2 * i, true);
     return out;
   }
-  function pvalues(b64) {
-    var raw = bytes(b64), view = new DataView(raw.buffer), out = new Float64Array(raw.length / 2);
+  function pvalues(raw) {
+    var view = new DataView(raw.buffer), out = new Float64Array(raw.length / 2);
     for (var i = 0; i < out.length; i++) out[i] = Math.pow(10, -view.getUint16(2 * i, true) / 1000);
     return out;
   }
-  function bits(b64, n) {
-    var raw = bytes(b64), out = new Uint8Array(n);
+  function bits(raw, n) {
+    var out = new Uint8Array(n);
     for (var i = 0; i < n; i++) out[i] = (raw[i >> 3] >> (7 - (i & 7))) & 1;
     return out;
   }
@@ -44,14 +61,14 @@
   }
 
   /* The explorer's data, state, geometry and shared helpers for one contrast. */
-  function model(root) {
-    var d = JSON.parse(root.querySelector(".xp-data").textContent);
+  function model(root, d, raw) {
     var C = d.shape[0], F = d.shape[1], T = d.shape[2], FT = F * T;
-    var steps = int16(d.stat), stat = new Float64Array(steps.length);
+    var steps = int16(raw.stat), stat = new Float64Array(steps.length);
     for (var i = 0; i < steps.length; i++) stat[i] = steps[i] === -32768 ? NaN : steps[i] / 32767 * d.limit;
-    var p = pvalues(d.p);
-    var corrections = d.corrections.map(function (c) {
-      return {info: c, p: pvalues(c.p), mask: bits(c.mask, C * FT), ids: c.ids ? int16(c.ids) : null};
+    var p = pvalues(raw.p);
+    var corrections = d.corrections.map(function (c, k) {
+      var packed = raw.corrections[k];
+      return {info: c, p: pvalues(packed.p), mask: bits(packed.mask, C * FT), ids: packed.ids ? int16(packed.ids) : null};
     });
     var peak = 0;
     for (i = 0; i < stat.length; i++) if (Math.abs(stat[i]) > Math.abs(stat[peak]) || isNaN(stat[peak])) peak = i;
@@ -508,15 +525,23 @@
   }
 
   function Explorer(root) {
-    var v = model(root);
-    v.drawHead = headPainter(v);
-    v.drawMap = mapPainter(v);
-    v.panels = panels(v);
-    v.describePoint = v.panels.describePoint;
-    v.redraw = function () { redraw(v); };
-    bind(v);
-    v.redraw();
-    root.classList.add("xp-ready");
+    var d = JSON.parse(root.querySelector(".xp-data").textContent);
+    if (typeof DecompressionStream === "undefined") {
+      root.querySelector(".xp-nojs").textContent = "The explorer needs a browser from 2023 or later; " +
+        "the figures above show the same results.";
+      return;
+    }
+    unpack(d).then(function (raw) {
+      var v = model(root, d, raw);
+      v.drawHead = headPainter(v);
+      v.drawMap = mapPainter(v);
+      v.panels = panels(v);
+      v.describePoint = v.panels.describePoint;
+      v.redraw = function () { redraw(v); };
+      bind(v);
+      v.redraw();
+      root.classList.add("xp-ready");
+    });
   }
 
   function start() {
