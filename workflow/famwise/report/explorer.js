@@ -387,7 +387,7 @@
   /* SVG strip plot: each subject's value per strip, the group mean as a bar. */
   function stripSvg(d, strips, title, points) {
     if (!strips) return "<p>No per-subject values were found for this " + esc(title) + ".</p>";
-    var W = Math.max(300, 110 + 130 * strips.length), H = 280, L = 64, R = 14, top = 30, bottom = 44, all = [0];
+    var W = Math.max(420, 110 + 130 * strips.length), H = 280, L = 64, R = 14, top = 30, bottom = 44, all = [0];
     strips.forEach(function (one) { all = all.concat(one.values); });
     var lo = Math.min.apply(null, all), hi = Math.max.apply(null, all), pad = (hi - lo) * 0.08 || 1;
     lo -= pad; hi += pad;
@@ -396,7 +396,7 @@
     out.push('<svg class="xp-strip" width="' + W + '" height="' + H + '" viewBox="0 0 ' + W + " " + H +
       '" role="img" aria-label="per-subject values of ' + esc(title) + '" font-family="DejaVu Sans, Arial, sans-serif">');
     out.push('<text x="' + L + '" y="16" font-size="12.5" font-weight="bold" fill="' + INK + '">' +
-      "Each subject's mean over the " + points + " points of " + esc(title) + "</text>");
+      "Each subject's mean over " + esc(title) + " (" + points + " points)</text>");
     var tick = niceStep(hi - lo, 5);
     for (var v = Math.ceil(lo / tick) * tick; v <= hi; v += tick) {
       var zero = Math.abs(v) < tick / 1e6;
