@@ -137,3 +137,27 @@ def test_planned_region_outside_the_data_is_a_user_error(stage, capsys, change, 
                  *map(str, stage["files"])])
     assert code == 2
     assert re.search(message, capsys.readouterr().err)
+
+
+def test_workflow_writes_cluster_and_planned_values_and_the_report_shows_them(tmp_path):
+    from conftest import write_tiny_study
+    from famwise.cli import main as famwise
+
+    spec = write_tiny_study(tmp_path, corrections="- method: cluster\n  forming_p: 0.05\n- method: tfce\n")
+    spec.write_text(spec.read_text() + "planned_regions:\n  - {name: burst, channels: [Fz, FC1], freq_hz: [6, 8], "
+                                       "time_ms: [200, 600]}\n")
+    assert famwise(["run", str(spec), "--cores", "2"]) == 0
+    folder = tmp_path / "results" / "contrasts" / "high-vs-low"
+    for label in ("cluster", "tfce"):
+        with open(folder / label / "clusters.tsv", newline="") as handle:
+            significant = [r["id"] for r in csv.DictReader(handle, delimiter="\t") if float(r["p"]) <= 0.05]
+        with open(folder / label / "subject_values.tsv", newline="") as handle:
+            rows = list(csv.DictReader(handle, delimiter="\t"))
+        assert significant, label  # the injected 7 Hz burst
+        assert [r["id"] for r in rows] == [i for i in significant for _ in range(6)]
+    with open(folder / "planned_values.tsv", newline="") as handle:
+        planned = list(csv.DictReader(handle, delimiter="\t"))
+    assert [r["id"] for r in planned] == ["burst"] * 6
+    assert np.mean([float(r["contrast"]) for r in planned]) > 0  # high above low over the burst
+    html = (tmp_path / "results" / "report" / "index.html").read_text(encoding="utf-8")
+    assert html.count('class="explorer"') == 1 and "Planned regions" in html
