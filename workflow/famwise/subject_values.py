@@ -20,6 +20,7 @@ a user error ends with one line ``famwise: error: ...`` and exit status 2.
 """
 
 import argparse
+import csv
 import json
 import sys
 from pathlib import Path
@@ -111,8 +112,6 @@ def significant_ids(result: Path, alpha: float | None = None) -> tuple[np.ndarra
 
     ``alpha`` defaults to the one stored in the result's settings.
     """
-    from famwise.report.results import read_clusters  # the table reader the report uses
-
     with np.load(result, allow_pickle=False) as archive:
         if "cluster_id" not in archive.files:
             raise UserError(f"subject values: {result} has no cluster_id map (only cluster and TFCE results do)")
@@ -120,8 +119,13 @@ def significant_ids(result: Path, alpha: float | None = None) -> tuple[np.ndarra
         stored = json.loads(str(archive["settings"])) if "settings" in archive.files else {}
         method = str(archive["method"]) if "method" in archive.files else "cluster"
     alpha = float(stored.get("alpha", 0.05)) if alpha is None else alpha
-    rows, _ = read_clusters(result.parent)
-    return labels, [row for row in rows if float(row["p"]) <= alpha], method
+    table = result.with_name("clusters.tsv")
+    if not table.is_file():
+        raise UserError(f"subject values: expected the cluster table at {table}; rerun the correction")
+    with open(table, newline="", encoding="utf-8") as handle:
+        rows = [{"id": int(row["id"]), "sign": row["sign"], "p": float(row["p"]), "n_points": int(row["n_points"])}
+                for row in csv.DictReader(handle, delimiter="\t")]
+    return labels, [row for row in rows if row["p"] <= alpha], method
 
 
 def subject_value_rows(data: ContrastData, condition_values: np.ndarray, conditions: list[str],
