@@ -8,8 +8,8 @@ import numpy as np
 import pytest
 
 from famwise.correct.clusters import write_cluster_table
-from famwise.design import build_contrast
-from famwise.subject_values import CAVEAT, main, region_means
+from famwise.design import ContrastData, build_contrast
+from famwise.subject_values import CAVEAT, main, region_means, sidecar, subject_value_rows
 from famwise.timefreq.maps import TimeFreqMaps
 
 CHANNELS = ("Fz", "Cz", "Pz", "Oz")
@@ -161,3 +161,16 @@ def test_workflow_writes_cluster_and_planned_values_and_the_report_shows_them(tm
     assert np.mean([float(r["contrast"]) for r in planned]) > 0  # high above low over the burst
     html = (tmp_path / "results" / "report" / "index.html").read_text(encoding="utf-8")
     assert html.count('class="explorer"') == 1 and "Planned regions" in html
+
+
+def test_a_correlation_keeps_each_subjects_covariate_beside_the_values():
+    data = ContrastData(x=np.arange(12, dtype=np.float32).reshape(3, 4), test="correlation", subjects=("a", "b", "c"),
+                        channels=("Cz",), freqs=np.array([6.0]), times=np.array([0.0, 0.1, 0.2, 0.3]),
+                        covariate=np.array([31.0, 24.0, 27.5]))
+    labels = np.array([1, 1, 0, 0])
+    lines = subject_value_rows(data, np.zeros((3, 1, 1)), ["high"], [{"id": 1, "sign": "+", "p": 0.01, "n_points": 2}],
+                               labels, None)
+    assert [line["covariate"] for line in lines] == [31.0, 24.0, 27.5]
+    assert [line["contrast"] for line in lines] == [0.5, 4.5, 8.5]
+    assert "age" in sidecar("correlation", ["high"], "power", noun="cluster", grouped=False,
+                            covariate="age")["covariate"]["Description"]

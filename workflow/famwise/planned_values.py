@@ -88,12 +88,15 @@ def run_planned(settings: dict, subjects: Path, files: list[Path], out: Path) ->
             line = {"id": region["name"], "n_points": size, "subject": subject}
             if test == "two-sample":
                 line["group"] = contrast["groups"][int(data.groups[s])]
+            if data.covariate is not None:
+                line["covariate"] = float(data.covariate[s])
             line |= {name: float(means[s, k, r]) for k, name in enumerate(conditions)}
             if test != "repeated-measures":
                 line["contrast"] = float(means[s, 0, r] - means[s, 1, r]) if test == "paired" else float(means[s, 0, r])
             lines.append(line)
     write_subject_values(out, lines, _sidecar(test, conditions, regions, measure_text(files[0]),
-                                              grouped=test == "two-sample"))
+                                              grouped=test == "two-sample",
+                                              covariate=contrast.get("covariate") if data.covariate is not None else None))
 
 
 def _count(path: Path, region: dict, number: int) -> int:
@@ -104,7 +107,8 @@ def _count(path: Path, region: dict, number: int) -> int:
     return f.size * t.size
 
 
-def _sidecar(test: str, conditions: list[str], regions: list[dict], measure: str, *, grouped: bool) -> dict:
+def _sidecar(test: str, conditions: list[str], regions: list[dict], measure: str, *, grouped: bool,
+             covariate: str | None) -> dict:
     described = {
         "id": {"Description": "Planned region name (spec key planned_regions).",
                "Levels": {r["name"]: f"{','.join(r['channels'])}; {r['freq_hz'][0]:g} to {r['freq_hz'][1]:g} Hz; "
@@ -114,6 +118,8 @@ def _sidecar(test: str, conditions: list[str], regions: list[dict], measure: str
     }
     if grouped:
         described["group"] = {"Description": "The subject's group."}
+    if covariate:
+        described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the region."}
     if test != "repeated-measures":

@@ -130,7 +130,7 @@ def significant_ids(result: Path, alpha: float | None = None) -> tuple[np.ndarra
 
 def subject_value_rows(data: ContrastData, condition_values: np.ndarray, conditions: list[str],
                        rows: list[dict], labels: np.ndarray, groups: list[str] | None) -> list[dict]:
-    """One row per (cluster, subject): id, sign, p, n_points, subject, [group], conditions, contrast."""
+    """One row per (cluster, subject): id, sign, p, n_points, subject, [group], [covariate], conditions, contrast."""
     ids = [int(row["id"]) for row in rows]
     contrast = None if data.x.ndim == 3 else region_means(data.x, labels, ids)
     out = []
@@ -140,6 +140,8 @@ def subject_value_rows(data: ContrastData, condition_values: np.ndarray, conditi
                     "subject": subject}
             if groups is not None:
                 line["group"] = groups[int(data.groups[s])]
+            if data.covariate is not None:
+                line["covariate"] = float(data.covariate[s])
             line |= {name: float(condition_values[s, c, k]) for c, name in enumerate(conditions)}
             if contrast is not None:
                 line["contrast"] = float(contrast[s, k])
@@ -147,7 +149,8 @@ def subject_value_rows(data: ContrastData, condition_values: np.ndarray, conditi
     return out
 
 
-def sidecar(test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool) -> dict:
+def sidecar(test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool,
+            covariate: str | None = None) -> dict:
     """Column descriptions of subject_values.tsv; ``measure`` describes the maps' values and unit."""
     described = {
         "id": {"Description": f"{noun.capitalize()} number as in clusters.tsv and the cluster_id map."},
@@ -158,6 +161,8 @@ def sidecar(test: str, conditions: list[str], measure: str, *, noun: str, groupe
     }
     if grouped:
         described["group"] = {"Description": "The subject's group."}
+    if covariate:
+        described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the {noun}'s "
                                           "points."}
@@ -192,7 +197,8 @@ def run(settings: dict, subjects: Path, result: Path, tf_files: list[Path], out:
     groups = list(contrast["groups"]) if contrast["test"] == "two-sample" else None
     lines = subject_value_rows(data, values, conditions, rows, labels, groups)
     columns = sidecar(contrast["test"], conditions, measure_text(tf_files[0]),
-                      noun="region" if method == "tfce" else "cluster", grouped=groups is not None)
+                      noun="region" if method == "tfce" else "cluster", grouped=groups is not None,
+                      covariate=contrast.get("covariate") if data.covariate is not None else None)
     write_subject_values(out, lines, columns)
 
 

@@ -32,7 +32,7 @@ def read_values(folder: Path, name: str = "subject_values.tsv") -> tuple[list[st
     rows = read_tsv(path)
     if not rows:
         return [], {}
-    columns = [k for k in rows[0] if k not in {"id", "sign", "p", "n_points", "subject", "group"}]
+    columns = [k for k in rows[0] if k not in {"id", "sign", "p", "n_points", "subject", "group", "covariate"}]
     found: dict[str, list[dict]] = {}
     for row in rows:
         found.setdefault(row["id"], []).append(row)
