@@ -14,7 +14,11 @@ from pathlib import Path
 import numpy as np
 from scipy import stats
 
+from famwise.design import ContrastData
 from famwise.montage import match_channels, neighbor_graph, save_graph, standard_positions
+from famwise.planned_values import run_planned
+from famwise.subject_values import run as run_subject_values
+from famwise.timefreq.maps import TimeFreqMaps
 
 CHANNELS = ["Fp1", "Fp2", "F7", "F3", "Fz", "F4", "F8", "T7", "C3", "Cz", "C4", "T8",
             "P7", "P3", "Pz", "P4", "P8", "O1", "Oz", "O2"]
@@ -191,4 +195,30 @@ def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
             sidecar["time_start_ms"]["Units"] = "ms"
             (contrast / name / "clusters.json").write_text(json.dumps(sidecar))
         _save(contrast / name / "result.npz", **arrays)
+    _subject_values(folder, contrast, n, freqs, times)
     return study
+
+
+def _subject_values(folder: Path, contrast: Path, n: int, freqs: np.ndarray, times: np.ndarray) -> None:
+    """Per-subject maps (invented) and the real subject-values stage on the cluster result."""
+    rng = np.random.default_rng(17)
+    subjects = tuple(f"{i + 1:02d}" for i in range(n))
+    files = []
+    for subject in subjects:
+        values = rng.normal(size=(2, len(CHANNELS), len(freqs), len(times))).astype(np.float32)
+        values[0] += 0.3
+        files.append(folder / "tf" / f"sub-{subject}.npz")
+        files[-1].parent.mkdir(parents=True, exist_ok=True)
+        TimeFreqMaps(values=values, conditions=tuple(CONDITIONS), channels=tuple(CHANNELS), freqs=freqs,
+                     times=times, measure="power", baseline="dB change from -400 to -100 ms",
+                     n_trials=np.array([40, 40]), valid=np.ones((len(freqs), len(times)), bool)).save(files[-1])
+    stacked = np.stack([np.load(f)["values"] for f in files])
+    data = ContrastData(x=(stacked[:, 0] - stacked[:, 1]).reshape(n, -1), test="paired", subjects=subjects,
+                        channels=tuple(CHANNELS), freqs=freqs, times=times)
+    data.save(contrast / "subjects.npz")
+    settings = {"contrast": {"name": "attention", "test": "paired", "conditions": CONDITIONS, "groups": None}}
+    run_subject_values(settings, contrast / "subjects.npz", contrast / "clusters" / "result.npz", files,
+                       contrast / "clusters" / "subject_values.tsv")
+    regions = [{"name": "parietal-alpha", "channels": ["P3", "Pz", "P4"], "freq_hz": [8.0, 13.0],
+                "time_ms": [200.0, 500.0]}]
+    run_planned(settings | {"regions": regions}, contrast / "subjects.npz", files, contrast / "planned_values.tsv")

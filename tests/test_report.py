@@ -82,7 +82,7 @@ def test_report_writes_every_file_with_stable_names(built):
     stems = ["channel_graph", "attention__uncorrected__map", "attention__holm__map",
              "attention__fdr__map", "attention__max-stat__map", "attention__max-stat__null",
              "attention__clusters__map", "attention__clusters__null",
-             "attention__clusters__cluster-pos1", "attention__tfce__map", "attention__tfce__null"]
+             "attention__clusters__cluster-pos1", "attention__clusters__values", "attention__planned__values", "attention__tfce__map", "attention__tfce__null"]
     for stem in stems:
         assert (report / "figures" / f"{stem}.png").stat().st_size > 1000
         assert (report / "figures" / f"{stem}.svg").read_text().lstrip().startswith("<?xml")
@@ -93,11 +93,11 @@ def test_report_writes_every_file_with_stable_names(built):
 
 def test_report_is_self_contained(built):
     images = [src for tag, src in built["page"].links if tag == "img"]
-    assert len(images) == 11  # the figures listed in the test above
+    assert len(images) == 13  # the figures listed in the test above
     assert all(src.startswith("data:image/png;base64,") for src in images)
     for _, target in built["page"].links:
         assert not re.match(r"^(https?:)?//", target), target
-    assert "<script" not in built["html"]
+    assert "<script src" not in built["html"]  # the explorer's script is inline
     assert "@media print" in built["html"]
 
 

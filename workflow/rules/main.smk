@@ -15,6 +15,7 @@ include: "timefreq.smk"
 include: "group.smk"
 include: "nulls.smk"
 include: "correct.smk"
+include: "values.smk"
 include: "report.smk"
 include: "calibrate.smk"
 

@@ -6,6 +6,7 @@ rule report:
         "subjects.tsv",
         graph_files,
         PLAN.result_files(),
+        subject_value_files(),
         null_info_files,
     output:
         "report/index.html",

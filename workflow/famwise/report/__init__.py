@@ -7,6 +7,7 @@ DESIGN.md, "Data contracts") and never recomputes statistics.
 from datetime import datetime, timezone
 from pathlib import Path
 
+from famwise.report.explorer import assets as explorer_assets
 from famwise.report.html import anchor, markdown, page
 from famwise.report.methods import methods_from_run, methods_text
 from famwise.report.provenance import write_provenance
@@ -72,6 +73,8 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     paragraph = markdown(methods.removeprefix("## Methods\n"))
     body += [f'<h2 id="methods">Methods</h2><div class="methods">{paragraph}</div>',
              provenance_section(record)]
+    if any('class="explorer"' in part for part in body):
+        body.append(explorer_assets())
     nav = [("study", "Study"), ("subjects", "Subjects"), ("channels", "Channel graph")]
     nav += [(anchor("contrast", c.name), f"Contrast {c.name}") for c in run.contrasts]
     if calibration:

@@ -9,11 +9,13 @@ from pathlib import Path
 import numpy as np
 
 from famwise.report import figures
+from famwise.report.explorer import explorer_block, explorer_data
 from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import Contrast, Correction, Run, correction_entries
 from famwise.report.scalp import project
 from famwise.report.style import figure_style, save_figure
+from famwise.report.values import planned_block, values_block
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
 _OTHER_CLUSTERS = 10
@@ -306,7 +308,14 @@ def contrast_section(run: Run, contrast: Contrast, write: FigureWriter) -> str:
             "channel, points not significant there faded, significant ones outlined. Bottom: "
             "number of significant channels at each time and frequency.</p>"
             f'<div class="grid">{"".join(cards)}</div>')
-    return head + grid + "".join(details)
+    flat = channel_flat(run, contrast)
+    explorer = "" if flat is None else explorer_block(explorer_data(
+        contrast, run.output_dir / "contrasts" / contrast.name, flat=flat, alpha=alpha,
+        stat_label=figures.stat_label(contrast), unit=figures.effect_unit(study),
+        positive=direction(spec, True), negative=direction(spec, False)))
+    planned = planned_block(run.output_dir / "contrasts" / contrast.name, f"{base}__planned__values",
+                            unit=figures.effect_unit(study), write=write)
+    return head + grid + explorer + planned + "".join(details)
 
 
 def _correction_detail(run: Run, contrast: Contrast, correction: Correction, spec: dict,
@@ -335,6 +344,9 @@ def _correction_detail(run: Run, contrast: Contrast, correction: Correction, spe
     if correction.clusters:
         flat = channel_flat(run, contrast)
         html += cluster_block(contrast, correction, spec, study, flat, write)
+        html += values_block(run.output_dir / "contrasts" / contrast.name / correction.name,
+                             f"{anchor(contrast.name)}__{anchor(correction.name)}__values",
+                             noun=correction.table_noun, unit=figures.effect_unit(study), write=write)
     return html
 
 

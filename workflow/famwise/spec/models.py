@@ -259,6 +259,25 @@ class Analysis(SpecModel):
         return _check_window(value, "Hz")
 
 
+class PlannedRegion(SpecModel):
+    """A region fixed before the analysis: each subject's mean over it is reported (not tested)."""
+
+    name: str = Field(pattern=r"^[A-Za-z0-9_.-]+$", description="Region name (letters, digits, '-', '_', '.').")
+    channels: list[str] = Field(min_length=1, description="Channels averaged over.")
+    freq_hz: tuple[float, float] = Field(description="Frequency band [low, high] in Hz.")
+    time_ms: tuple[float, float] = Field(description="Time window [start, end] in ms.")
+
+    @field_validator("time_ms")
+    @classmethod
+    def _time_ordered(cls, value):
+        return _check_window(value, "ms")
+
+    @field_validator("freq_hz")
+    @classmethod
+    def _freq_ordered(cls, value):
+        return _check_window(value, "Hz")
+
+
 class Neighbors(SpecModel):
     """How the channel neighbor graph is built."""
 
@@ -468,6 +487,11 @@ class Study(SpecModel):
     channels: Channels = Field(default_factory=Channels, description="Electrode positions and neighbor graph (cluster and TFCE corrections).")
     contrasts: list[Contrast] = Field(min_length=1, description="Group-level contrasts.")
     inference: Inference = Field(description="Statistics, resampling and corrections.")
+    planned_regions: list[PlannedRegion] = Field(
+        default_factory=list,
+        description="Regions named before looking at the data; the report gives each subject's mean over each, "
+        "per condition and contrast: unbiased values, unlike those of a significant cluster.",
+    )
 
     @field_validator("output")
     @classmethod

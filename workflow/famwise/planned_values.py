@@ -1,0 +1,128 @@
+"""Each subject's mean over the spec's planned regions (``planned_regions``), per condition and contrast.
+
+A planned region (channels, a frequency band, a time window) is named in the
+spec before looking at the data, so its values are not selected by the test's
+result: unlike the values of a significant cluster they are unbiased estimates
+of the effect there (Kriegeskorte et al. 2009, Nature Neuroscience 12:535-540).
+Written to ``contrasts/<c>/planned_values.tsv`` with a JSON sidecar.
+"""
+
+from pathlib import Path
+
+import numpy as np
+
+from famwise.design import load_contrast
+from famwise.errors import UserError
+from famwise.subject_values import measure_text, write_subject_values
+
+
+def region_index(region: dict, number: int, channels, freqs: np.ndarray, times: np.ndarray,
+                 valid: np.ndarray) -> tuple:
+    """Index arrays (channels, frequencies, times) of one planned region in a time-frequency grid.
+
+    Parameters
+    ----------
+    region : dict
+        ``name``, ``channels``, ``freq_hz`` [low, high] and ``time_ms`` [start, end].
+    number : int
+        Position in ``planned_regions`` (for messages).
+    channels : sequence of str
+    freqs, times : ndarray
+        Hz and s.
+    valid : ndarray of bool, shape (n_freqs, n_times)
+        False in the cone of influence.
+    """
+    where = f"planned_regions[{number}] ('{region['name']}')"
+    lookup = {c.lower(): i for i, c in enumerate(channels)}
+    unknown = [c for c in region["channels"] if c.lower() not in lookup]
+    if unknown:
+        raise UserError(f"{where}.channels: unknown channels {unknown} (the data have {', '.join(channels)})")
+    low, high = region["freq_hz"]
+    f = np.flatnonzero((freqs >= low - 1e-9) & (freqs <= high + 1e-9))
+    if f.size == 0:
+        raise UserError(f"{where}.freq_hz: no decomposed frequency lies in [{low:g}, {high:g}] Hz "
+                        f"(frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)")
+    start, stop = region["time_ms"]
+    t = np.flatnonzero((times >= start / 1e3 - 1e-9) & (times <= stop / 1e3 + 1e-9))
+    if t.size == 0:
+        raise UserError(f"{where}.time_ms: no time point lies in [{start:g}, {stop:g}] ms "
+                        f"(maps cover {times[0] * 1e3:.0f} to {times[-1] * 1e3:.0f} ms)")
+    if not valid[np.ix_(f, t)].all():
+        raise UserError(f"{where}: the window reaches into the edge-affected cells (cone of influence); "
+                        "shorten it or use longer epochs")
+    return np.array([lookup[c.lower()] for c in region["channels"]]), f, t
+
+
+def planned_means(files: list[Path], regions: list[dict], conditions: list[str]) -> np.ndarray:
+    """Each subject's mean over each region per condition, shape (n_subjects, n_conditions, n_regions)."""
+    from famwise.timefreq import load_timefreq  # numba-backed package: loaded only here
+
+    out = np.empty((len(files), len(conditions), len(regions)))
+    for s, path in enumerate(files):
+        tf = load_timefreq(path)
+        for r, region in enumerate(regions):
+            index = np.ix_(*region_index(region, r, tf.channels, tf.freqs, tf.times, tf.valid))
+            for k, name in enumerate(conditions):
+                if name not in tf.conditions:
+                    raise UserError(f"{path}: condition '{name}' has no maps")
+                out[s, k, r] = tf.values[tf.conditions.index(name)][index].astype(np.float64).mean()
+    return out
+
+
+def run_planned(settings: dict, subjects: Path, files: list[Path], out: Path) -> None:
+    """The stage: the contrast's subjects' maps -> planned_values.tsv and .json."""
+    contrast, regions = settings["contrast"], settings["regions"]
+    names = [r["name"] for r in regions]
+    if len(set(names)) != len(names):
+        raise UserError(f"planned_regions: names must differ (found {names})")
+    conditions = list(contrast["conditions"])
+    data = load_contrast(subjects)
+    if len(files) != len(data.subjects):
+        raise UserError(f"planned values: {len(files)} time-frequency files for {len(data.subjects)} subjects")
+    means = planned_means(files, regions, conditions)
+    test = contrast["test"]
+    lines = []
+    for r, region in enumerate(regions):
+        size = len(region["channels"]) * _count(files[0], region, r)
+        for s, subject in enumerate(data.subjects):
+            line = {"id": region["name"], "n_points": size, "subject": subject}
+            if test == "two-sample":
+                line["group"] = contrast["groups"][int(data.groups[s])]
+            if data.covariate is not None:
+                line["covariate"] = float(data.covariate[s])
+            line |= {name: float(means[s, k, r]) for k, name in enumerate(conditions)}
+            if test != "repeated-measures":
+                line["contrast"] = float(means[s, 0, r] - means[s, 1, r]) if test == "paired" else float(means[s, 0, r])
+            lines.append(line)
+    write_subject_values(out, lines, _sidecar(test, conditions, regions, measure_text(files[0]),
+                                              grouped=test == "two-sample",
+                                              covariate=contrast.get("covariate") if data.covariate is not None else None))
+
+
+def _count(path: Path, region: dict, number: int) -> int:
+    """Frequencies x times of a region in one file's grid."""
+    with np.load(path, allow_pickle=False) as tf:
+        valid = tf["valid"] if "valid" in tf.files else np.ones((len(tf["freqs"]), len(tf["times"])), bool)
+        _, f, t = region_index(region, number, [str(c) for c in tf["channels"]], tf["freqs"], tf["times"], valid)
+    return f.size * t.size
+
+
+def _sidecar(test: str, conditions: list[str], regions: list[dict], measure: str, *, grouped: bool,
+             covariate: str | None) -> dict:
+    described = {
+        "id": {"Description": "Planned region name (spec key planned_regions).",
+               "Levels": {r["name"]: f"{','.join(r['channels'])}; {r['freq_hz'][0]:g} to {r['freq_hz'][1]:g} Hz; "
+                                     f"{r['time_ms'][0]:g} to {r['time_ms'][1]:g} ms" for r in regions}},
+        "n_points": {"Description": "Number of (channel, frequency, time) points averaged over."},
+        "subject": {"Description": "Subject id."},
+    }
+    if grouped:
+        described["group"] = {"Description": "The subject's group."}
+    if covariate:
+        described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
+    for name in conditions:
+        described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the region."}
+    if test != "repeated-measures":
+        what = f"{conditions[0]} minus {conditions[1]}" if test == "paired" else conditions[0]
+        described["contrast"] = {"Description": f"Mean over the region of the value the test used ({what}; {measure})."}
+    return described
