@@ -95,7 +95,7 @@ def test_nan_in_data(tmp_path):
 def test_too_few_epochs(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     spec.write_text(spec.read_text().replace("min_epochs: 5", "min_epochs: 30"))
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 0", "30")
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subjects.min_epochs", "30")
 
 
 def test_baseline_outside_epoch(tmp_path):

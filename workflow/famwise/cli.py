@@ -82,11 +82,13 @@ def _parser() -> argparse.ArgumentParser:
 
 def command_check(args) -> int:
     from famwise.plan import Plan
+    from famwise.preflight import preflight
     from famwise.summary import describe_plan
 
     plan = Plan.from_spec(args.spec)
+    found = preflight(plan)
     print(describe_plan(plan))
-    _warn(plan.attainability_warnings())
+    _warn(found + plan.attainability_warnings())
     print()
     print("What would run and why:")
     jobs = planned_jobs(plan)
@@ -127,9 +129,10 @@ def planned_jobs(plan) -> dict[str, tuple[int, set[str]]]:
 
 def command_run(args) -> int:
     from famwise.plan import Plan
+    from famwise.preflight import preflight
 
     plan = Plan.from_spec(args.spec)
-    _warn(plan.attainability_warnings())
+    _warn(preflight(plan) + plan.attainability_warnings())
     options = ["--cores", str(args.cores)]
     if args.profile:
         if not args.profile.is_dir():

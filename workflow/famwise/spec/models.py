@@ -202,6 +202,13 @@ class Timefreq(SpecModel):
     trim: float = Field(default=0.2, ge=0, lt=0.5, description="Proportion trimmed from each end for the trimmed mean.")
     baseline: Baseline = Field(default_factory=Baseline, description="Baseline normalisation.")
 
+    @field_validator("cycles", "fwhm_ms")
+    @classmethod
+    def _positive_width(cls, value):
+        if value is not None and any(v <= 0 for v in (value if isinstance(value, tuple) else (value,))):
+            raise ValueError(f"a wavelet width must be positive, got {list(value) if isinstance(value, tuple) else value}")
+        return value
+
     @model_validator(mode="after")
     def _width(self) -> "Timefreq":
         if self.method == "morlet":
