@@ -24,7 +24,7 @@ _PROGRESS = re.compile(r"calibration (\S+): chunk (\d+): (\d+)/(\d+) datasets")
 def add_parser(commands) -> None:
     """Add ``calibrate`` to the CLI's subcommands (the ``add_subparsers`` object)."""
     parser = commands.add_parser("calibrate", help="check each correction's false-positive rate on null datasets made from the study's own maps")
-    parser.add_argument("spec", type=Path)
+    parser.add_argument("spec", type=Path, help="the study spec (YAML)")
     parser.add_argument("--datasets", type=int, default=100, help="null datasets per contrast (default 100)")
     parser.add_argument("--permutations", type=int, help="permutations per null dataset (default: the study's inference.permutations)")
     parser.add_argument("--chunks", type=int, help="pieces the datasets are computed in, one job and one file each (default: min(10, datasets))")

@@ -209,6 +209,12 @@ def _decomposition(study: dict) -> str:
     return text
 
 
+def _baseline_caveat(run: Run) -> str:
+    """A sentence for each baseline window that reached into the edge zone (from the jobs' warnings)."""
+    return "".join(f" Caveat: the {line}; baseline values at those frequencies include edge-affected points."
+                   for line in run.warnings if line.startswith("baseline window"))
+
+
 def _window(study: dict, run: Run) -> str:
     analysis = study.get("analysis") or {}
     channels = analysis.get("channels")
@@ -305,7 +311,7 @@ def methods_from_run(run: Run) -> str:
     inference = study.get("inference") or {}
     entries = correction_entries(study)
     specs = {c["name"]: c for c in study.get("contrasts", [])}
-    parts = ["## Methods", "", _subjects(run, study), "", _decomposition(study), "",
+    parts = ["## Methods", "", _subjects(run, study), "", _decomposition(study) + _baseline_caveat(run), "",
              _window(study, run)]
     for contrast in run.contrasts:
         parts += ["", _contrast(contrast, specs.get(contrast.name, {}), study)

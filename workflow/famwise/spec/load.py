@@ -2,7 +2,7 @@
 
 import typing
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 import yaml
 from pydantic import BaseModel, ValidationError
@@ -40,8 +40,14 @@ class LoadedStudy:
         return (self.folder / self.study.output).resolve()
 
     def resolve(self, relative: str) -> Path:
-        """Absolute path of a spec path."""
+        """Absolute path of a spec path (relative to the spec's folder, or absolute)."""
         return (self.folder / relative).resolve()
+
+    def outside_paths(self) -> list[str]:
+        """The spec's absolute paths (inputs or output): they tie the spec to one machine."""
+        s = self.study
+        given = [s.output, s.subjects.path, s.channels.positions, s.channels.neighbors.edges_file]
+        return [p for p in given if p is not None and PurePosixPath(p.replace("\\", "/")).is_absolute()]
 
 
 def load_study(path: str | Path) -> LoadedStudy:

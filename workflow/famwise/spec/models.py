@@ -51,14 +51,14 @@ def _check_name(value: str, what: str) -> str:
 
 
 def _check_relative(value: str | None) -> str | None:
-    """Paths are relative to the spec's folder and must stay inside it."""
+    """Relative paths start at the spec's folder and stay inside it; absolute paths are taken as given."""
     if value is None:
         return value
     path = PurePosixPath(value.replace("\\", "/"))
-    if path.is_absolute() or ".." in path.parts:
+    if not path.is_absolute() and ".." in path.parts:
         raise ValueError(
             f"path {value!r} leaves the study folder; give a path relative to the "
-            "spec file's folder, without '..'"
+            "spec file's folder without '..', or an absolute path"
         )
     return value
 
