@@ -8,6 +8,7 @@ internal error.
 
 import argparse
 import os
+import re
 import shutil
 import signal
 import subprocess
@@ -201,9 +202,9 @@ def command_run(args) -> int:
     message = _job_error(plan, started)
     if message:
         raise UserError(message)
-    refused = [line for line in lines if line.startswith("snakemake: error:")]
+    refused = [line.split(" error: ", 1)[1] for line in lines if re.match(r"[\w.-]+: error: ", line)]
     if refused:
-        raise UserError(f"Snakemake: {refused[-1].removeprefix('snakemake: error:').strip()} (arguments after --: {' '.join(args.snakemake_args)})")
+        raise UserError(f"Snakemake: {refused[-1]} (arguments after --: {' '.join(args.snakemake_args)})")
     tail = [line for line in lines if line.strip()][-10:]
     print("\n".join(tail), file=sys.stderr)
     print(f"famwise: the run failed; Snakemake's last lines are above, the jobs' logs under {plan.loaded.output / 'logs'}", file=sys.stderr)
