@@ -33,4 +33,5 @@ def test_baseline_in_the_edge_zone_is_reported_everywhere(tmp_path, capsys):
     report = (tmp_path / "results" / "report" / "index.html").read_text()
     assert "baseline window -500 to -200 ms reaches into the edge zone" in report and "subjects 01, 02, 03, 04" in report
     methods = (tmp_path / "results" / "report" / "methods.md").read_text()
-    assert "Caveat: the baseline window -500 to -200 ms reaches into the edge zone" in methods
+    assert ("Caveat: in subjects 01, 02, 03, 04, the baseline window -500 to -200 ms reached into the edge zone "
+            "(cone of influence) at 6 Hz, so the baseline there includes edge-affected values.") in methods
