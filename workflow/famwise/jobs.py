@@ -62,10 +62,10 @@ def _decompose_subject(args, settings: dict):
     labels = {label: name for name, group in settings["conditions"].items() for label in group}
     rejected, sfreq = {}, None
     if source == "timefreq":
-        maps = load_timefreq(subject_file(Path("/"), settings["path"], subject))
+        maps = load_timefreq(subject_file(Path("."), settings["path"], subject))
     else:
         if source == "epochs":
-            epochs = load_epochs(subject_file(Path("/"), settings["path"], subject), subject=subject)
+            epochs = load_epochs(subject_file(Path("."), settings["path"], subject), subject=subject)
         else:
             ep = settings["epochs"]
             epochs = bids.read_subject(

@@ -1,5 +1,6 @@
 """Loading a study spec from YAML, with errors that name file, line and key."""
 
+import os
 import typing
 from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
@@ -43,11 +44,27 @@ class LoadedStudy:
         """Absolute path of a spec path (relative to the spec's folder, or absolute)."""
         return (self.folder / relative).resolve()
 
+    def run_path(self, path: str | Path) -> str:
+        """A path as the run's jobs and Snakemake see it (their working folder is the output folder).
+
+        Relative to the output folder when the path and the output folder both
+        lie in the spec's folder, so that a study folder moved or copied whole
+        (spec, data and results) reruns nothing; absolute otherwise.
+        """
+        path = Path(path)
+        if _inside(path, self.folder) and _inside(self.output, self.folder):
+            return Path(os.path.relpath(path, self.output)).as_posix()
+        return str(path)
+
     def outside_paths(self) -> list[str]:
         """The spec's absolute paths (inputs or output): they tie the spec to one machine."""
         s = self.study
         given = [s.output, s.subjects.path, s.channels.positions, s.channels.neighbors.edges_file]
         return [p for p in given if p is not None and PurePosixPath(p.replace("\\", "/")).is_absolute()]
+
+
+def _inside(path: Path, folder: Path) -> bool:
+    return path.resolve().is_relative_to(folder.resolve())
 
 
 def load_study(path: str | Path) -> LoadedStudy:

@@ -78,7 +78,7 @@ class Subjects(SpecModel):
     )
     path: str = Field(
         description="For 'epochs' and 'timefreq': a file pattern with '{subject}', relative to "
-        "the spec's folder (e.g. 'data/sub-{subject}.npz'). For 'bids': the BIDS root folder."
+        "the spec's folder (e.g. 'data/sub-{subject}.npz') or absolute. For 'bids': the BIDS root folder.",
     )
     task: str | None = Field(default=None, description="BIDS task label (the 'task-<label>' part); required when the folder holds several tasks. A subject's runs and sessions of the task are pooled.")
     ids: list[str] | None = Field(
@@ -465,7 +465,7 @@ class Study(SpecModel):
 
     version: Literal[1] = Field(description="Spec format version; always 1.")
     name: str = Field(description="Study name (shown in the report).")
-    output: str = Field(default="results", description="Output folder, relative to the spec's folder.")
+    output: str = Field(default="results", description="Output folder, relative to the spec's folder, or an absolute path (e.g. a scratch disk; `check` notes that the spec is then tied to this machine).")
     seed: int = Field(default=1, ge=0, description="Seed of the permutation table; the same seed gives the same masks.")
     subjects: Subjects = Field(description="Subject inputs.")
     conditions: dict[str, list[str]] = Field(min_length=1, description="Condition name -> event labels pooled into it.")
