@@ -88,8 +88,11 @@ def test_nan_in_data(tmp_path):
     arrays["data"][3, 1, 10] = np.nan
     famwise.io.save_epochs(path, arrays["data"], sfreq=float(arrays["sfreq"]), tmin=float(arrays["tmin"]),
                            channels=list(arrays["channels"]), conditions=list(arrays["conditions"]))
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02", "NaN or inf")
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02", "sub-02.npz", "NaN or inf", "epoch 3, channel FC1")
     assert not (tmp_path / "results" / "tf" / "sub-02.npz").exists()
+    # the run stops: nothing after the decompositions, and no half-written file anywhere
+    assert not [p for p in _result_files(tmp_path) if p.parts[-2] != "tf"]
+    assert not [p for p in _result_files(tmp_path) if p.name.startswith(".") or p.suffix not in (".npz", ".json")]
 
 
 def test_too_few_epochs(tmp_path):

@@ -41,6 +41,9 @@ def command_calibrate(args) -> int:
     from famwise.plan import Plan
 
     plan = Plan.from_spec(args.spec)
+    from famwise.preflight import preflight
+
+    preflight(plan)  # the mistakes `run` catches before its first job
     chunks = args.chunks if args.chunks is not None else min(10, max(args.datasets, 1))
     contrasts = [c.name for c in plan.study.contrasts]
     settings = {  # checks the options here, before Snakemake sees them
