@@ -1,6 +1,5 @@
 """Exit statuses, messages and help of the command line (in-process where Snakemake is not needed)."""
 
-import io
 import subprocess
 import sys
 

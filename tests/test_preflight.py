@@ -7,7 +7,6 @@ Snakemake starts, so no result file exists.
 """
 
 import gzip
-import os
 from pathlib import Path
 
 import numpy as np
@@ -95,8 +94,8 @@ CASES = [
     ("group-of-one", lambda f: [_edit(TWO_SAMPLE[0][:15], TWO_SAMPLE[0])(f), _edit("inference:", TWO_SAMPLE[1])(f)],
      ["study.yaml:27 contrasts[1].groups: group 'b' has 1 analysed subject (06)"]),
     ("channels-differ", _subject("03", channels=["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "POz"]),
-     ["subject 03: channels differ from subject 01", "extra: POz; missing: Oz"]),
-    ("sampling-rates-differ", _subject("02", sfreq=200.0), ["subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz)"]),
+     ["subject 03: channels differ from subject 01", "extra: POz; missing: Oz", "sub-03.npz"]),
+    ("sampling-rates-differ", _subject("02", sfreq=200.0), ["subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz) in ", "sub-02.npz"]),
     ("epochs-file-missing-key", _nan_free_but_missing_key, ["subject 03", "sub-03.npz", "missing key(s) sfreq"]),
     ("wrong-type", _edit("alpha: 0.05", "alpha: lots"), ["study.yaml:23 inference.alpha"]),
     ("unknown-condition", _edit("conditions: [high, low]", "conditions: [high, lo]"), ["study.yaml:21 contrasts[0].conditions: unknown condition 'lo'"]),

@@ -35,6 +35,8 @@ class SubjectHeader:
         Number of epochs per event label (after ``bad`` epochs are dropped).
     beyond : str or None
         The first event whose epoch window runs beyond its recording (BIDS).
+    source : str
+        The file (epochs) or folder (BIDS) read, for messages.
     """
 
     sfreq: float | None
@@ -43,6 +45,7 @@ class SubjectHeader:
     channels: list[str]
     labels: Counter = field(default_factory=Counter)
     beyond: str | None = None
+    source: str = ""
 
 
 def npz_epochs_header(path: Path, subject: str) -> SubjectHeader:
@@ -66,7 +69,7 @@ def npz_epochs_header(path: Path, subject: str) -> SubjectHeader:
         raise UserError(f"{where}: {len(channels)} channel names and {labels.size} condition labels for data of shape {shape}")
     if not sfreq > 0:
         raise UserError(f"{where}: sfreq must be positive, got {sfreq}")
-    return SubjectHeader(sfreq, tmin, shape[2], channels, Counter(labels[~bad].tolist()))
+    return SubjectHeader(sfreq, tmin, shape[2], channels, Counter(labels[~bad].tolist()), source=str(path))
 
 
 def _npy_shape(path: Path, member: str) -> tuple[int, ...]:
@@ -98,7 +101,8 @@ def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[
     sfreq = rates.pop()
     first = int(round(window_ms[0] * sfreq / 1000.0))
     n_samples = int(round(window_ms[1] * sfreq / 1000.0)) - first + 1
-    return SubjectHeader(sfreq, first / sfreq, n_samples, bids._shared(channels), labels, beyond)
+    return SubjectHeader(sfreq, first / sfreq, n_samples, bids._shared(channels), labels, beyond,
+                         source=str(recordings[0].parent))
 
 
 def _recording_signals(path: Path, subject: str) -> tuple[dict[str, float], float]:
