@@ -29,7 +29,9 @@ def main(argv: list[str] | None = None) -> int:
         parser.error(f"unrecognized arguments: {' '.join(extra)}")
     args.snakemake_args = [a for a in extra if a != "--"]
     try:
-        return args.handler(args) or 0
+        code = args.handler(args) or 0
+        sys.stdout.flush()  # a closed pipe shows here, not in the interpreter's exit
+        return code
     except BrokenPipeError:
         # the reader of our output went away (`| head`): stop quietly, as a killed pipe writer would
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
