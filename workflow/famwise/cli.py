@@ -147,12 +147,19 @@ def _warn(messages: list[str]) -> None:
 def planned_jobs(plan) -> dict[str, tuple[int, set[str]]]:
     """Jobs Snakemake would run now: rule -> (count, reasons), from a dry run that leaves no file behind."""
     output = plan.loaded.output
-    created = output if not output.exists() else output / ".snakemake" if not (output / ".snakemake").exists() else None
+    existed = output.exists()
+    before = set(output.rglob("*")) if existed else set()
     try:
         code, lines = _snakemake(plan, ["--dry-run", "--cores", "1"], capture=True)
     finally:
-        if created is not None:
-            shutil.rmtree(created, ignore_errors=True)
+        if not existed:
+            shutil.rmtree(output, ignore_errors=True)
+        else:  # deepest first, so that a new folder is empty when its turn comes
+            for path in sorted(set(output.rglob("*")) - before, key=lambda p: len(p.parts), reverse=True):
+                if path.is_dir():
+                    shutil.rmtree(path, ignore_errors=True)
+                else:
+                    path.unlink(missing_ok=True)
     if code != 0:
         raise UserError(_job_error(plan, 0.0) or "Snakemake could not plan the run:\n" + "\n".join(lines[-15:]))
     jobs: dict[str, tuple[int, set[str]]] = {}
