@@ -1,5 +1,7 @@
 """Exit statuses, messages and help of the command line (in-process where Snakemake is not needed)."""
 
+import os
+import signal
 import subprocess
 import sys
 
@@ -129,3 +131,17 @@ def test_reasons_name_the_changed_setting(tmp_path):
     assert describe_reasons("decompose", {reason}, changes) == "settings changed"
     assert describe_reasons("report", {"Missing output files: report/index.html", "Input files updated by another job: a"}, []) == \
         "an input is remade first; no result yet"
+
+
+@pytest.mark.workflow
+def test_ctrl_c_during_a_real_run_exits_130(tiny_study):
+    process = subprocess.Popen([sys.executable, "-m", "famwise.cli", "run", str(tiny_study), "--cores", "1"],
+                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=True)
+    for line in process.stdout:
+        if line.strip().startswith("- decompose"):
+            break
+    os.killpg(process.pid, signal.SIGINT)  # what Ctrl-C does: SIGINT to famwise and Snakemake alike
+    process.stdout.read()
+    err = process.stderr.read()
+    assert process.wait(timeout=120) == 130
+    assert "famwise: interrupted" in err and "the run failed" not in err and "Traceback" not in err
