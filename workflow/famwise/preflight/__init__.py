@@ -38,7 +38,8 @@ def preflight(plan) -> list[str]:
         check_epoch_counts(plan, headers, where)
         check_windows_fit(headers, where)
         found += check_timing(plan, headers, where)
-    first = next(iter(headers.values())).channels if headers else plan.first_subject_channels()
+    first = next(iter(headers.values())).channels if headers else None
+    first = first if first is not None else plan.first_subject_channels()
     found += check_channels(plan, first, where)
     return found
 

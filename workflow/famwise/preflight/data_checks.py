@@ -53,7 +53,7 @@ def check_consistent(headers: dict[str, SubjectHeader]) -> None:
     """Every subject has the first one's channels and sampling rate."""
     (reference, first), *others = headers.items()
     for subject, header in others:
-        if header.channels != first.channels:
+        if header.channels is not None and first.channels is not None and header.channels != first.channels:
             extra = sorted(set(header.channels) - set(first.channels))
             missing = sorted(set(first.channels) - set(header.channels))
             detail = f"extra: {', '.join(extra) or 'none'}; missing: {', '.join(missing) or 'none'}" if extra or missing else "same names in a different order"

@@ -24,13 +24,13 @@ class SubjectHeader:
     Attributes
     ----------
     sfreq : float or None
-        Sampling rate in Hz (None when the input format is not read here).
+        Sampling rate in Hz (None when the recording format's header is not read here).
     tmin : float
         Time of the first epoch sample relative to the event, in s.
     n_samples : int
         Samples per epoch.
-    channels : list of str
-        Channels the decomposition keeps, in order.
+    channels : list of str or None
+        Channels the decomposition keeps, in order (None when not read here).
     labels : Counter
         Number of epochs per event label (after ``bad`` epochs are dropped).
     beyond : str or None
@@ -42,7 +42,7 @@ class SubjectHeader:
     sfreq: float | None
     tmin: float
     n_samples: int
-    channels: list[str]
+    channels: list[str] | None
     labels: Counter = field(default_factory=Counter)
     beyond: str | None = None
     source: str = ""
@@ -87,6 +87,9 @@ def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[
     channels, labels, rates, beyond = [], Counter(), set(), None
     for recording in recordings:
         stem = recording.name.rsplit("_eeg.", 1)[0]
+        if recording.suffix.lower() not in (".edf", ".bdf"):  # other formats: events only, the job checks the rest
+            labels.update(label for _, label in _events(recording.parent / f"{stem}_events.tsv", subject))
+            continue
         table = bids._read_channels(recording.parent / f"{stem}_channels.tsv", subject)
         signals, duration = _recording_signals(recording, subject)
         kept = _kept(signals, table, recording, subject)
@@ -96,6 +99,8 @@ def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[
         labels.update(label for _, label in events)
         rate = next(iter(kept.values()))
         beyond = beyond or _first_beyond(events, wanted, window_ms, duration, rate, recording)
+    if len(channels) < len(recordings):
+        return SubjectHeader(None, 0.0, 0, None, labels, source=str(recordings[0].parent))
     if len(rates) != 1:
         raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} have different sampling rates {sorted(rates)} Hz")
     sfreq = rates.pop()
