@@ -23,11 +23,11 @@ def check_exclusions(plan, where: Where) -> None:
 
 def check_group_sizes(plan, where: Where) -> None:
     """Each group of a two-sample contrast holds enough analysed subjects for the test."""
-    from famwise.stats.group import MIN_SUBJECTS
-
     for index, contrast in enumerate(plan.study.contrasts):
         if contrast.test != "two-sample":
             continue
+        from famwise.stats.group import MIN_SUBJECTS  # imports scipy.stats (2 s): only when needed
+
         for group in contrast.groups:
             members = [s for s, g in plan.groups.items() if g == group]
             if 0 < len(members) < MIN_SUBJECTS:
