@@ -139,7 +139,8 @@ def _describe(error: ValidationError, root, file_name: str) -> str:
     if first["type"] == "missing":
         parent = tuple(first["loc"])[:-1]
         typos = [e for e in errors if e["type"] == "extra_forbidden" and tuple(e["loc"])[:-1] == parent]
-        first = typos[0] if typos else first
+        close = [e for e in typos if did_you_mean(e["loc"][-1], [first["loc"][-1]])]
+        first = (close or typos or [first])[0]
     loc = tuple(first["loc"])
     message = first["msg"]
     cause = (first.get("ctx") or {}).get("error")
