@@ -320,5 +320,6 @@ def test_calibrate_warns_when_the_interval_is_too_wide_for_a_conclusion():
     many = {"correction": "holm", "fwer": 0.05, "fwer_ci_low": 0.016, "fwer_ci_high": 0.113, "nominal": 0.05, "datasets": 100}
     tight = {"correction": "holm", "fwer": 0.05, "fwer_ci_low": 0.031, "fwer_ci_high": 0.076, "nominal": 0.05, "datasets": 400}
     (message,) = wide_interval_warnings([few])
+    # 4 * 1.96^2 * (1 - 0.05) / 0.05 = 291.9 datasets (normal approximation, common practice)
     assert "correction holm: the 95% interval [0.067, 0.652]" in message and "--datasets 292 (now 10)" in message
     assert wide_interval_warnings([many]) == [] and wide_interval_warnings([tight]) == []
