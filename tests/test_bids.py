@@ -173,7 +173,8 @@ def test_nan_samples(tmp_path):
     physical_min = 256 + n_signals * (16 + 80 + 8)  # EDF header layout (Kemp et al. 1992)
     raw[physical_min + 8: physical_min + 16] = b"nan     "  # Cz: calibration gives NaN
     path.write_bytes(bytes(raw))
-    with pytest.raises(UserError, match=r"subject 01: channel Cz holds NaN or infinite samples"):
+    with pytest.raises(UserError, match=r"subject 01: channel Cz holds NaN or infinite samples \(first at 0 s, epoch 0 "
+                                        r"\(event at [\d.]+ s\)\) in .*sub-01_task-view_eeg.edf"):
         _read(tmp_path)
 
 

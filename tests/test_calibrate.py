@@ -311,3 +311,15 @@ def test_summarize_refuses_chunks_from_other_settings(tmp_path):
     with pytest.raises(UserError, match=r"chunk-0.npz was computed with other calibration settings; delete it and rerun"):
         summarize([tmp_path / "chunk-0.npz"], tmp_path / "c1.tsv", settings=_settings(plan, datasets=2, chunks=1, permutations=7),
                   subjects=tmp_path / "subjects.npz", observed=tmp_path / "observed.npz")
+
+
+def test_calibrate_warns_when_the_interval_is_too_wide_for_a_conclusion():
+    from famwise.calibrate_command import wide_interval_warnings
+
+    few = {"correction": "holm", "fwer": 0.3, "fwer_ci_low": 0.067, "fwer_ci_high": 0.652, "nominal": 0.05, "datasets": 10}
+    many = {"correction": "holm", "fwer": 0.05, "fwer_ci_low": 0.016, "fwer_ci_high": 0.113, "nominal": 0.05, "datasets": 100}
+    tight = {"correction": "holm", "fwer": 0.05, "fwer_ci_low": 0.031, "fwer_ci_high": 0.076, "nominal": 0.05, "datasets": 400}
+    (message,) = wide_interval_warnings([few])
+    # 4 * 1.96^2 * (1 - 0.05) / 0.05 = 291.9 datasets (normal approximation, common practice)
+    assert "correction holm: the 95% interval [0.067, 0.652]" in message and "--datasets 292 (now 10)" in message
+    assert wide_interval_warnings([many]) == [] and wide_interval_warnings([tight]) == []

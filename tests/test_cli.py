@@ -96,15 +96,18 @@ def test_nan_in_data(tmp_path):
     arrays["data"][3, 1, 10] = np.nan
     famwise.io.save_epochs(path, arrays["data"], sfreq=float(arrays["sfreq"]), tmin=float(arrays["tmin"]),
                            channels=list(arrays["channels"]), conditions=list(arrays["conditions"]))
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02", "NaN or inf")
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02", "sub-02.npz", "NaN or inf", "epoch 3, channel FC1")
     assert not (tmp_path / "results" / "tf" / "sub-02.npz").exists()
+    # the run stops: nothing after the decompositions, and no half-written file anywhere
+    assert not [p for p in _result_files(tmp_path) if p.parts[-2] != "tf"]
+    assert not [p for p in _result_files(tmp_path) if p.name.startswith(".") or p.suffix not in (".npz", ".json")]
 
 
 @pytest.mark.workflow
 def test_too_few_epochs(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     spec.write_text(spec.read_text().replace("min_epochs: 5", "min_epochs: 30"))
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 0", "30")
+    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subjects.min_epochs", "30")
 
 
 @pytest.mark.workflow
@@ -143,7 +146,7 @@ def test_check_prints_plan(tiny_study):
     result = famwise_cli("check", tiny_study)
     assert result.returncode == 0, result.stderr
     assert "Subjects: 6 analysed" in result.stdout
-    assert "decompose" in result.stdout and "Missing output files" in result.stdout
+    assert "decompose" in result.stdout and "no result yet" in result.stdout
 
 
 @pytest.mark.workflow

@@ -18,3 +18,10 @@ def test_ratio_of_a_row_against_a_floor_is_famwise_over_the_floor():
     against_floor = BenchRow("t", "s", famwise_s=2.0, reference_s=0.8, target="<= 3x the matmul", met=True,
                              slower_is_ratio=True)
     assert against_reference.ratio == 5.0 and against_floor.ratio == 2.5
+
+
+def test_a_skipped_row_says_skipped_not_yes():
+    from famwise.benchmarks.run import format_row, pipeline_noop
+
+    line = format_row(pipeline_noop(quick=True)).splitlines()[0]
+    assert " skipped " in line and " yes " not in line

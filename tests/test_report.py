@@ -211,7 +211,7 @@ def test_methods_sentences_match_each_result(built):
             assert int(count) == int(data["n_significant"]) == int(data["mask"].sum())
             assert int(total) == data["mask"].size
             assert float(threshold) == pytest.approx(float(data["threshold"]), rel=6e-4)
-    assert "in 2 clusters" in text
+    assert "in 1 of the 2 clusters formed" in text
     assert "Data of 10 participants" in text and "11: left the session early" in text
     # the references of exactly the methods used
     for cited in ("Holm S (1979)", "Benjamini Y, Hochberg Y (1995)", "Westfall PH, Young SS (1993)",
@@ -348,3 +348,28 @@ def test_report_shows_the_results_fingerprint(built):
     assert f"results fingerprint {fingerprint[:12]}" in head  # at a glance, under the title
     rows = {row[0]: row[1] for table in built["page"].tables for row in table["rows"] if len(row) == 2}
     assert rows["results fingerprint (SHA-256)"] == fingerprint
+
+
+@pytest.mark.parametrize(("kind", "ids", "significant", "expected"), [
+    ("cluster", [], [], "declared 0 of 12 points significant; no cluster formed at the forming threshold."),
+    ("cluster", [1], [], "declared 0 of 12 points significant; the one cluster formed was not significant."),
+    ("cluster", [1, -2], [], "declared 0 of 12 points significant; none of the 2 clusters formed was significant."),
+    ("cluster", [1], [1], "declared 3 of 12 points significant, in 1 cluster."),
+    ("cluster", [1, -2], [1, -2], "declared 6 of 12 points significant, in 2 clusters."),
+    ("cluster", [1, -2, 3], [1], "declared 3 of 12 points significant, in 1 of the 3 clusters formed."),
+    ("tfce", [1], [1], "declared 3 of 12 points significant, in 1 connected region."),
+    ("tfce", [1, 2], [1, 2], "declared 6 of 12 points significant, in 2 connected regions."),
+])
+def test_methods_count_clusters_exactly_and_grammatically(kind, ids, significant, expected):
+    from famwise.report.methods import _correction
+    from famwise.report.results import Correction
+
+    cluster_id = np.zeros(12, dtype=int)
+    for k, ident in enumerate(ids):
+        cluster_id[3 * k:3 * k + 3] = ident
+    mask = np.isin(cluster_id, significant) & (cluster_id != 0)
+    correction = Correction(name=kind, method=kind, p_corrected=np.ones(12), mask=mask, threshold=float("nan"),
+                            threshold_kind=kind, settings={}, n_significant=int(mask.sum()), cluster_id=cluster_id,
+                            clusters=[{"id": i} for i in (significant if kind == "tfce" else ids)])
+    contrast = type("C", (), {"name": "c"})()
+    assert _correction(contrast, correction, {"method": kind}).endswith(expected)

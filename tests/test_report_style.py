@@ -74,3 +74,24 @@ def test_number_format_and_symmetric_limit():
         ["999", "0.001278", "150", "-0.5", "True"]
     assert symmetric_limit(np.array([-3.0, 2.0, np.nan])) == 3.0
     assert symmetric_limit(np.zeros(3)) == 1.0
+
+
+@pytest.mark.parametrize("observed", [0.5, 3.0, 5.9])
+def test_null_histogram_legend_covers_no_data(observed):
+    from types import SimpleNamespace
+
+    from famwise.report.figures import null_figure
+    from famwise.report.results import Correction
+
+    null = np.random.default_rng(0).gamma(4.0, 0.5, 1000)
+    stat = np.array([[[observed, -observed / 2]]])
+    correction = Correction(name="max-stat", method="max-stat", p_corrected=np.ones(stat.shape), mask=np.zeros(stat.shape, bool),
+                            threshold=float(np.quantile(null, 0.95)), threshold_kind="stat", settings={}, n_significant=0, null=null)
+    contrast = SimpleNamespace(stat=stat, statistic="t", test="paired", name="c")
+    figure = null_figure(correction, contrast)
+    figure.canvas.draw()
+    ax = figure.axes[0]
+    legend = ax.get_legend().get_window_extent()
+    plot = ax.get_window_extent()
+    assert legend.x0 >= plot.x1 or legend.y1 <= plot.y0  # beside or below the axes, never on the bars or lines
+    plt.close(figure)

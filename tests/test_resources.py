@@ -109,7 +109,9 @@ def test_decompose_estimate_covers_the_measured_peak(tiny_study):
     out = tiny_study.parent / "tf-01.npz"
     job = [sys.executable, "-m", "famwise.jobs", "decompose", "--subject", "01", "--settings", plan.decompose_settings(), "--out", str(out)]
     measure = "import resource, subprocess, sys; subprocess.run(sys.argv[1:], check=True, capture_output=True); print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)"
-    peak_kb = int(subprocess.run([sys.executable, "-c", measure, *job], check=True, capture_output=True, text=True).stdout)
+    plan.loaded.output.mkdir()  # jobs run in the output folder, as Snakemake runs them
+    peak_kb = int(subprocess.run([sys.executable, "-c", measure, *job], check=True, capture_output=True, text=True,
+                                 cwd=plan.loaded.output).stdout)
     assert out.is_file()
     assert 20 < peak_kb / 1024 < resources.decompose_mem_mb(plan, "01")
 

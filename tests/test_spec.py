@@ -153,3 +153,11 @@ def test_example_study_spec_is_valid_and_packaged():
     example = root / "example_study" / "study.yaml"
     load_study(example)
     assert example.read_text() == (root / "workflow" / "famwise" / "data" / "example_study.yaml").read_text()
+
+
+def test_a_misspelt_required_key_is_reported_at_the_typo(tmp_path):
+    # an unrelated unknown key earlier in the file does not hide the typo of the missing key
+    text = VALID.replace("contrasts:", "contrast:").replace("\n", "\nsead: 3\n", 1)
+    message = _error(tmp_path, text)
+    line = text.splitlines().index("contrast:") + 1
+    assert f"study.yaml:{line} contrast: unknown key 'contrast' (did you mean 'contrasts'?)" in message

@@ -294,6 +294,8 @@ def test_bad_inputs():
         compute(x, test="two-sample", groups=np.zeros(6, int))
     with pytest.raises(UserError, match=r"group 0 has 2 subjects; the two-sample test needs at least 3 per group"):
         compute(x, test="two-sample", groups=np.r_[0, 0, 1, 1, 1, 1])
+    with pytest.raises(UserError, match=r"group 0 has 1 subject; the two-sample"):
+        compute(x, test="two-sample", groups=np.r_[0, 1, 1, 1, 1, 1])
     with pytest.raises(UserError, match=r"`groups` must hold labels 0 and 1, found \[0, 2\]"):
         compute(x, test="two-sample", groups=g * 2)
     with pytest.raises(UserError, match=r"`groups` must hold one label per subject \(6\), got shape \(5,\)"):

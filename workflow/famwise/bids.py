@@ -195,8 +195,10 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
         bad = ~np.isfinite(samples)
         if bad.any():
             first_bad = np.flatnonzero(bad)[0] / sfreq
+            hit = np.flatnonzero(bad[window].any(axis=1))
+            epoch = f", epoch {hit[0]} (event at {events[hit[0]][0]:g} s)" if hit.size else ", outside every epoch"
             raise UserError(f"subject {subject}: channel {signal.label} holds NaN or infinite "
-                            f"samples (first at {first_bad:g} s) in {path}")
+                            f"samples (first at {first_bad:g} s{epoch}) in {path}")
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
     return _Cut(data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))

@@ -9,6 +9,7 @@ rebuilt afterwards so that it shows the calibration.
 """
 
 import json
+import math
 import os
 import re
 import sys
@@ -24,7 +25,7 @@ _PROGRESS = re.compile(r"calibration (\S+): chunk (\d+): (\d+)/(\d+) datasets")
 def add_parser(commands) -> None:
     """Add ``calibrate`` to the CLI's subcommands (the ``add_subparsers`` object)."""
     parser = commands.add_parser("calibrate", help="check each correction's false-positive rate on null datasets made from the study's own maps")
-    parser.add_argument("spec", type=Path)
+    parser.add_argument("spec", type=Path, help="the study spec (YAML)")
     parser.add_argument("--datasets", type=int, default=100, help="null datasets per contrast (default 100)")
     parser.add_argument("--permutations", type=int, help="permutations per null dataset (default: the study's inference.permutations)")
     parser.add_argument("--chunks", type=int, help="pieces the datasets are computed in, one job and one file each (default: min(10, datasets))")
@@ -40,6 +41,9 @@ def command_calibrate(args) -> int:
     from famwise.plan import Plan
 
     plan = Plan.from_spec(args.spec)
+    from famwise.preflight import preflight
+
+    preflight(plan)  # the mistakes `run` catches before its first job
     chunks = args.chunks if args.chunks is not None else min(10, max(args.datasets, 1))
     contrasts = [c.name for c in plan.study.contrasts]
     settings = {  # checks the options here, before Snakemake sees them
@@ -71,7 +75,10 @@ def command_calibrate(args) -> int:
     for name in contrasts:
         path = plan.loaded.output / "calibration" / f"{name}.tsv"
         print(f"\n{name} ({path}):")
-        print(format_rows(read_table(path)))
+        rows = read_table(path)
+        print(format_rows(rows))
+        for message in wide_interval_warnings(rows):
+            print(f"famwise: warning: contrast {name}: {message}", file=sys.stderr)
     report = plan.loaded.output / "report" / "index.html"
     if report.is_file():
         print("\nfamwise: updating the report with the calibration")
@@ -82,6 +89,27 @@ def command_calibrate(args) -> int:
         print(f"\nfamwise: `famwise run {args.spec}` builds the report, which will include the calibration")
     print(f"famwise: done in {time.time() - started:.1f} s")
     return 0
+
+
+def wide_interval_warnings(rows: list[dict]) -> list[str]:
+    """One line per correction whose 95% FWER interval is wider than twice its nominal level.
+
+    Such an interval (e.g. [0.07, 0.65] from 10 datasets at alpha 0.05) supports
+    no conclusion about the correction. The suggested number of datasets gives
+    an interval about as wide as the nominal level when the rate equals it
+    (normal approximation, common practice).
+    """
+    messages = []
+    for row in rows:
+        nominal = float(row["nominal"])
+        low, high = float(row["fwer_ci_low"]), float(row["fwer_ci_high"])
+        if high - low > 2 * nominal:
+            needed = math.ceil(4 * 1.96**2 * (1 - nominal) / nominal)
+            messages.append(
+                f"correction {row['correction']}: the 95% interval [{low:.3f}, {high:.3f}] of its error rate is wider than "
+                f"twice the nominal {nominal:g}, too wide to support a conclusion; use about --datasets {needed} (now {int(row['datasets'])})"
+            )
+    return messages
 
 
 def format_rows(rows: list[dict]) -> str:

@@ -32,6 +32,11 @@ EXCLUDED = "07"
 SEED = 20261201
 
 
+def data_complete(folder: Path) -> bool:
+    """Whether ``folder`` already holds the example study's complete data (`write_demo` then writes nothing)."""
+    return (Path(folder) / "data" / ".complete").exists() and (Path(folder) / "study.yaml").exists()
+
+
 def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = None) -> Path:
     """Write the example study (spec + BIDS data) into ``folder``; return the spec path.
 

@@ -116,7 +116,10 @@ def subject_file(folder: Path, pattern: str, subject: str) -> Path:
 
 
 def discover_pattern(folder: Path, pattern: str) -> list[str]:
-    """Subject ids whose files match a ``{subject}`` pattern, sorted."""
+    """Subject ids whose files match a ``{subject}`` pattern (relative to ``folder``, or absolute), sorted."""
+    anchor = Path(pattern).anchor
+    if anchor:
+        folder, pattern = Path(anchor), pattern[len(anchor):]
     before, _, after = pattern.partition("{subject}")
     glob = before + "*" + after
     regex = re.compile(re.escape(before) + r"([A-Za-z0-9]+)" + re.escape(after) + "$")

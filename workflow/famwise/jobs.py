@@ -34,20 +34,38 @@ def _say(message: str) -> None:
 
 
 def run_decompose(args, settings: dict) -> None:
-    """Subject input -> ``tf/sub-<id>.npz`` and ``tf/sub-<id>.json``."""
+    """Subject input -> ``tf/sub-<id>.npz`` and ``tf/sub-<id>.json`` (with the warnings raised on the way)."""
+    import warnings
+
+    from famwise.errors import FamwiseWarning
+
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", FamwiseWarning)
+        maps, info = _decompose_subject(args, settings)
+    info["warnings"] = list(dict.fromkeys(str(w.message) for w in caught if issubclass(w.category, FamwiseWarning)))
+    for message in info["warnings"]:
+        print(f"famwise: warning: {message}", file=sys.stderr, flush=True)
+    out = Path(args.out)
+    maps.save(out)
+    write_json(out.with_suffix(".json"), info)
+    _say(f"subject {args.subject}: wrote {out}")
+
+
+def _decompose_subject(args, settings: dict):
+    """The subject's maps and sidecar record."""
     from famwise import bids
     from famwise.io import load_epochs, subject_file
     from famwise.timefreq import decompose, frequency_grid, load_timefreq
 
-    subject, out = args.subject, Path(args.out)
+    subject = args.subject
     source = settings["source"]
     labels = {label: name for name, group in settings["conditions"].items() for label in group}
     rejected, sfreq = {}, None
     if source == "timefreq":
-        maps = load_timefreq(subject_file(Path("/"), settings["path"], subject))
+        maps = load_timefreq(subject_file(Path("."), settings["path"], subject))
     else:
         if source == "epochs":
-            epochs = load_epochs(subject_file(Path("/"), settings["path"], subject), subject=subject)
+            epochs = load_epochs(subject_file(Path("."), settings["path"], subject), subject=subject)
         else:
             ep = settings["epochs"]
             epochs = bids.read_subject(
@@ -81,9 +99,7 @@ def run_decompose(args, settings: dict) -> None:
         "n_trials": {c: int(n) for c, n in zip(maps.conditions, maps.n_trials)},
         "rejected": {c: rejected.get(c, 0) for c in maps.conditions},
     }
-    maps.save(out)
-    write_json(out.with_suffix(".json"), info)
-    _say(f"subject {subject}: wrote {out}")
+    return maps, info
 
 
 def _pair(value):

@@ -201,7 +201,7 @@ class Plan:
         return _json(
             {
                 "source": s.subjects.source,
-                "path": str(self.loaded.resolve(s.subjects.path)),
+                "path": self.loaded.run_path(self.loaded.resolve(s.subjects.path)),
                 "task": s.subjects.task,
                 "min_epochs": s.subjects.min_epochs,
                 "conditions": s.conditions,
@@ -215,9 +215,9 @@ class Plan:
         channels = s.channels.model_dump(mode="json")
         positions = s.channels.positions
         if positions not in ("standard-10-10", "standard-10-20", "bids"):
-            channels["positions"] = str(self.loaded.resolve(positions))
+            channels["positions"] = self.loaded.run_path(self.loaded.resolve(positions))
         if s.channels.neighbors.edges_file:
-            channels["neighbors"]["edges_file"] = str(self.loaded.resolve(s.channels.neighbors.edges_file))
+            channels["neighbors"]["edges_file"] = self.loaded.run_path(self.loaded.resolve(s.channels.neighbors.edges_file))
         return _json({"channels": channels, "analysis_channels": s.analysis.channels, "bids_root": self._bids_root(), "task": s.subjects.task})
 
     def graph_inputs(self) -> list[str]:
@@ -225,15 +225,15 @@ class Plan:
         s = self.study.channels
         files = []
         if s.positions not in ("standard-10-10", "standard-10-20", "bids"):
-            files.append(str(self.loaded.resolve(s.positions)))
+            files.append(self.loaded.run_path(self.loaded.resolve(s.positions)))
         if s.neighbors.method == "edges":
-            files.append(str(self.loaded.resolve(s.neighbors.edges_file)))
+            files.append(self.loaded.run_path(self.loaded.resolve(s.neighbors.edges_file)))
         return files
 
     def _bids_root(self) -> str | None:
         if self.study.subjects.source != "bids":
             return None
-        return str(self.loaded.resolve(self.study.subjects.path))
+        return self.loaded.run_path(self.loaded.resolve(self.study.subjects.path))
 
     def subjects_table_settings(self) -> str:
         s = self.study
@@ -317,7 +317,7 @@ class Plan:
                       "contrasts": [x.name for x in self.study.contrasts], **({"forming": c.forming} if c.method == "cluster" else {})})
 
     def report_settings(self) -> str:
-        return _json({"study": self.study.model_dump(mode="json"), "spec": str(self.loaded.path), "subjects": list(self.subjects)})
+        return _json({"study": self.study.model_dump(mode="json"), "spec": self.loaded.run_path(self.loaded.path), "subjects": list(self.subjects)})
 
     # ---- files -------------------------------------------------------------------
 

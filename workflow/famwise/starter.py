@@ -39,7 +39,22 @@ def write_starter_spec(data: Path, out: Path) -> None:
         pattern = _epochs_pattern(data)
         subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
         source, path, task, labels = "epochs", f"{relative}/{pattern}", None, _epochs_labels(out.parent, f"{relative}/{pattern}", subjects)
-    write_text(out, _starter_text(source, path, task, subjects, labels, name=data.name, found=found))
+    write_text(out, _starter_text(source, path, task, subjects, labels, name=data.name, found=found, timing=_timing(source, data, out.parent, path, task, subjects)))
+
+
+def _timing(source: str, data: Path, folder: Path, path: str, task: str | None, subjects: list[str]) -> dict:
+    """Epoch, frequency and baseline settings that fit the first subject's sampling rate and epochs."""
+    from famwise.preflight.headers import bids_header, npz_epochs_header
+    from famwise.preflight.starter_fit import starter_timing
+
+    if not subjects:
+        raise UserError(f"{data}: no subject found")
+    if source == "bids":
+        header = bids_header(data, subjects[0], task=task, window_ms=(-500.0, 1500.0), wanted=set())
+        return starter_timing(header.sfreq, None)
+    header = npz_epochs_header(folder / path.replace("{subject}", subjects[0]), subjects[0])
+    last = header.tmin + (header.n_samples - 1) / header.sfreq
+    return starter_timing(header.sfreq, (header.tmin * 1000.0, last * 1000.0))
 
 
 def _bids_task(recording: Path) -> str | None:
@@ -90,12 +105,16 @@ def _condition_name(label: str) -> str:
     return re.sub(r"[^A-Za-z0-9_.-]+", "-", label).strip("-._") or "condition"
 
 
-def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, found: str) -> str:
+def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict) -> str:
     conditions = "\n".join(
         f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects" for label, count in sorted(labels.items())
     ) or "  condition-a: [label-a]"
     first = [_condition_name(label) for label in sorted(labels)[:2]] if len(labels) >= 2 else ["condition-a", "condition-b"]
     task_line = f"  task: {task}\n" if task else ""
+    epoch = timing["epoch_ms"] or (-500, 1500)
+    baseline = timing["baseline_ms"]
+    baseline_text = (f"{{mode: db, window_ms: [{baseline[0]:g}, {baseline[1]:g}]}}   # free of edge effects at every frequency"
+                     if baseline else "{mode: none}   # the epochs leave no edge-free time before the event")
     return f"""# famwise study spec, written by `famwise init` from {len(subjects)} subject(s) found.
 # Check it with `famwise check <this file>`, run it with `famwise run <this file>`.
 # Every key is described in the README's spec reference.
@@ -115,13 +134,14 @@ conditions:              # condition name -> event labels pooled into it
 {conditions}
 
 epochs:
-  window_ms: [-500, 1500]
+  window_ms: [{epoch[0]:g}, {epoch[1]:g}]
 
 timefreq:
   method: morlet
-  freqs_hz: {{start_hz: 4, stop_hz: 40, count: 20, spacing: log}}
+  freqs_hz: {{start_hz: 4, stop_hz: {timing["stop_hz"]:g}, count: 20, spacing: log}}
   cycles: [3, 10]
-  baseline: {{mode: db, window_ms: [-400, -100]}}
+  time_step_ms: {timing["time_step_ms"]:.10g}
+  baseline: {baseline_text}
 
 analysis:                # choose the region before looking at the data
   time_ms: null          # null: the widest window free of edge effects

@@ -13,7 +13,7 @@ wildcard_constraints:
 
 
 def subject_input_files(wildcards):
-    return PLAN.input_files(wildcards.subject)
+    return [PLAN.loaded.run_path(f) for f in PLAN.input_files(wildcards.subject)]
 
 
 def first_subject_map(wildcards):

@@ -20,8 +20,8 @@ class BenchRow:
         linearly when ``extrapolated`` says so).
     target : str
         The target, e.g. ``">= 30x"``.
-    met : bool
-        Whether the target was met.
+    met : bool or None
+        Whether the target was met; None when the row was skipped.
     peak_memory_mb : float or None
         Peak resident memory of famwise's run in MB, when measured.
     note : str
@@ -38,7 +38,7 @@ class BenchRow:
     famwise_s: float
     reference_s: float
     target: str
-    met: bool
+    met: bool | None
     peak_memory_mb: float | None = None
     note: str = ""
     slower_is_ratio: bool = False

@@ -157,7 +157,7 @@ def observed_maxima(correction: Correction, contrast: Contrast) -> dict[str, flo
 
 def null_figure(correction: Correction, contrast: Contrast):
     """Histogram of a permutation null with the observed maxima and the critical value."""
-    figure, ax = plt.subplots(figsize=(4.6, 2.6), layout="constrained")
+    figure, ax = plt.subplots(figsize=(6.4, 2.6), layout="constrained")
     null = correction.null[np.isfinite(correction.null)]
     ax.hist(null, bins=min(60, max(10, len(null) // 20)), color="#b9c3d6", edgecolor="#7d8aa3",
             lw=0.4)
@@ -171,7 +171,8 @@ def null_figure(correction: Correction, contrast: Contrast):
         color, line = styles[sign]
         word = "positive" if sign == "+" else "negative"
         ax.axvline(value, color=color, lw=1.4, ls=line, label=f"observed largest {word} {value:.4g}")
-    ax.legend(frameon=False, fontsize=7, loc="upper right")
+    # beside the axes, so that it never covers the histogram or an observed-value line
+    ax.legend(frameon=False, fontsize=7, loc="upper left", bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
     ax.set_title(f"{correction.name}: permutation null ({len(null)} rows)")
     return figure
 

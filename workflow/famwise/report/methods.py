@@ -1,10 +1,12 @@
 """The methods paragraph: what was done, with every setting, from the spec and the run."""
 
+import re
 from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
 
+from famwise import stage_warnings
 from famwise.report.provenance import package_versions
 from famwise.report.results import Contrast, Correction, Run, correction_entries, read_run
 
@@ -209,6 +211,19 @@ def _decomposition(study: dict) -> str:
     return text
 
 
+def _baseline_caveat(run: Run) -> str:
+    """A sentence for each baseline window that reached into the edge zone (from the jobs' warnings)."""
+    sentences = []
+    for line in run.warnings:
+        if line.startswith("baseline window"):
+            message = stage_warnings.message_of(line)
+            who = line[len(message):].strip(" ()")
+            message = re.sub(r"\[([^\]]*)\] Hz", lambda m: _hz_list(m.group(1)), message)
+            sentences.append(f" Caveat: in {who}, the {message.replace(' reaches ', ' reached ')}, so the baseline "
+                             "there includes edge-affected values.")
+    return "".join(sentences)
+
+
 def _window(study: dict, run: Run) -> str:
     analysis = study.get("analysis") or {}
     channels = analysis.get("channels")
@@ -272,10 +287,34 @@ def _correction(contrast: Contrast, correction: Correction, entry: dict) -> str:
         what = {"p": "p threshold", "stat": "critical |statistic|",
                 "cluster": "critical cluster statistic", "tfce": "critical TFCE value"}
         text += f" ({what.get(correction.threshold_kind, 'threshold')} {fmt(correction.threshold)})"
-    if correction.clusters:
-        noun = "connected regions" if correction.table_noun == "region" else "clusters"
-        text += f", in {len(correction.clusters)} {noun}"
-    return text + "."
+    return text + _cluster_count(correction) + "."
+
+
+def _hz_list(values: str) -> str:
+    """'4.0, 4.59' -> '4 and 4.59 Hz'."""
+    numbers = [f"{float(v):g}" for v in values.split(",") if v.strip()]
+    return (", ".join(numbers[:-1]) + " and " + numbers[-1] if len(numbers) > 1 else numbers[0]) + " Hz"
+
+
+def _plural(count: int, noun: str) -> str:
+    return f"{count} {noun}" + ("" if count == 1 else "s")
+
+
+def _cluster_count(correction: Correction) -> str:
+    """How many clusters (or TFCE regions) hold the significant points, exact and grammatical."""
+    if correction.threshold_kind == "tfce":
+        return f", in {_plural(len(correction.clusters), 'connected region')}" if correction.clusters else ""
+    if correction.cluster_id is None or correction.threshold_kind != "cluster":
+        return ""
+    formed = len(correction.clusters)
+    significant = np.unique(correction.cluster_id[correction.mask & (correction.cluster_id != 0)]).size
+    if formed == 0:
+        return "; no cluster formed at the forming threshold"
+    if significant == 0:
+        return "; the one cluster formed was not significant" if formed == 1 else f"; none of the {formed} clusters formed was significant"
+    if significant == formed:
+        return f", in {_plural(formed, 'cluster')}"
+    return f", in {significant} of the {formed} clusters formed"
 
 
 def kinds_used(run: Run) -> list[str]:
@@ -305,7 +344,7 @@ def methods_from_run(run: Run) -> str:
     inference = study.get("inference") or {}
     entries = correction_entries(study)
     specs = {c["name"]: c for c in study.get("contrasts", [])}
-    parts = ["## Methods", "", _subjects(run, study), "", _decomposition(study), "",
+    parts = ["## Methods", "", _subjects(run, study), "", _decomposition(study) + _baseline_caveat(run), "",
              _window(study, run)]
     for contrast in run.contrasts:
         parts += ["", _contrast(contrast, specs.get(contrast.name, {}), study)

@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise import stage_warnings
 from famwise.errors import UserError
 from famwise.montage import ChannelGraph, Positions, load_graph
 
@@ -132,6 +133,8 @@ class Run:
     positions : Positions or None
         Positions (mm) of the graph's channels.
     contrasts : list of Contrast
+    warnings : list of str
+        Warnings the decomposition jobs raised, one line per message naming its subjects.
     """
 
     output_dir: Path
@@ -140,6 +143,7 @@ class Run:
     graph: ChannelGraph | None
     positions: Positions | None
     contrasts: list[Contrast]
+    warnings: list[str] = field(default_factory=list)
 
 
 def _text(value) -> str:
@@ -261,5 +265,6 @@ def read_run(output_dir: Path) -> Run:
                  for c in study.get("contrasts", [])]
     graph_path = output_dir / "channels" / "graph.npz"
     graph, positions = load_graph(graph_path) if graph_path.is_file() else (None, None)
+    included = [row["subject"] for row in subjects if row.get("status", "included") == "included"]
     return Run(output_dir=output_dir, study=study, subjects=subjects, graph=graph,
-               positions=positions, contrasts=contrasts)
+               positions=positions, contrasts=contrasts, warnings=stage_warnings.gather(output_dir, included))

@@ -120,6 +120,9 @@ def study_section(run: Run, spec_text: str) -> str:
                   "have been chosen before looking at the data. A window picked after seeing "
                   "where the effect is makes every p-value in this report too small, whatever "
                   "the correction.")
+    if run.warnings:
+        window += note("Warnings raised while the subjects were decomposed: "
+                       + "; ".join(esc(line) for line in run.warnings) + ".", warning=True)
     return (f'<h2 id="study">Study</h2>{table(["setting", "value"], rows)}{window}'
             f"<details><summary>Full spec as written</summary><pre>{esc(spec_text)}</pre></details>")
 

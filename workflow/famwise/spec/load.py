@@ -1,8 +1,9 @@
 """Loading a study spec from YAML, with errors that name file, line and key."""
 
+import os
 import typing
 from dataclasses import dataclass
-from pathlib import Path
+from pathlib import Path, PurePosixPath
 
 import yaml
 from pydantic import BaseModel, ValidationError
@@ -40,8 +41,30 @@ class LoadedStudy:
         return (self.folder / self.study.output).resolve()
 
     def resolve(self, relative: str) -> Path:
-        """Absolute path of a spec path."""
+        """Absolute path of a spec path (relative to the spec's folder, or absolute)."""
         return (self.folder / relative).resolve()
+
+    def run_path(self, path: str | Path) -> str:
+        """A path as the run's jobs and Snakemake see it (their working folder is the output folder).
+
+        Relative to the output folder when the path and the output folder both
+        lie in the spec's folder, so that a study folder moved or copied whole
+        (spec, data and results) reruns nothing; absolute otherwise.
+        """
+        path = Path(path)
+        if _inside(path, self.folder) and _inside(self.output, self.folder):
+            return Path(os.path.relpath(path, self.output)).as_posix()
+        return str(path)
+
+    def outside_paths(self) -> list[str]:
+        """The spec's absolute paths (inputs or output): they tie the spec to one machine."""
+        s = self.study
+        given = [s.output, s.subjects.path, s.channels.positions, s.channels.neighbors.edges_file]
+        return [p for p in given if p is not None and PurePosixPath(p.replace("\\", "/")).is_absolute()]
+
+
+def _inside(path: Path, folder: Path) -> bool:
+    return path.resolve().is_relative_to(folder.resolve())
 
 
 def load_study(path: str | Path) -> LoadedStudy:
@@ -55,18 +78,19 @@ def load_study(path: str | Path) -> LoadedStudy:
     path = Path(path).resolve()
     if not path.is_file():
         raise UserError(f"{path}: spec file not found")
-    text = path.read_text(encoding="utf-8")
     name = path.name
+    text = _read_text(path)
     try:
         root = yaml.compose(text)
         data = yaml.safe_load(text)
     except yaml.YAMLError as error:
         mark = getattr(error, "problem_mark", None)
         where = f"{name}:{mark.line + 1}" if mark else name
-        problem = getattr(error, "problem", None) or str(error).splitlines()[0]
+        problem = getattr(error, "problem", None) or getattr(error, "reason", None) or str(error).splitlines()[0]
         raise UserError(f"{where}: not valid YAML: {problem}") from None
     if not isinstance(data, dict):
         raise UserError(f"{name}:1: a study spec is a YAML mapping of keys (version, name, subjects, ...)")
+    _refuse_duplicate_keys(root, name, ())
     try:
         study = Study.model_validate(data)
     except ValidationError as error:
@@ -74,9 +98,49 @@ def load_study(path: str | Path) -> LoadedStudy:
     return LoadedStudy(study=study, path=path, text=text)
 
 
+def _read_text(path: Path) -> str:
+    """The spec's text; a binary file (an EDF, a gzip archive, ...) is a user error."""
+    raw = path.read_bytes()
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as error:
+        raise UserError(f"{path.name}: not a text file (byte {error.start} is not UTF-8); give the study's YAML spec") from None
+    if "\0" in text:
+        raise UserError(f"{path.name}: not a text file (it holds NUL bytes); give the study's YAML spec")
+    return text
+
+
+def _refuse_duplicate_keys(node, file_name: str, loc: tuple) -> None:
+    """A key given twice in one mapping is an error naming both lines (YAML would keep the last silently)."""
+    if isinstance(node, yaml.MappingNode):
+        seen = {}
+        for key, value in node.value:
+            here = loc + (key.value,)
+            if key.value in seen:
+                raise UserError(
+                    f"{file_name}:{key.start_mark.line + 1} {_format_loc(here)}: key given twice "
+                    f"(lines {seen[key.value]} and {key.start_mark.line + 1}); keep one"
+                )
+            seen[key.value] = key.start_mark.line + 1
+            _refuse_duplicate_keys(value, file_name, here)
+    elif isinstance(node, yaml.SequenceNode):
+        for index, item in enumerate(node.value):
+            _refuse_duplicate_keys(item, file_name, loc + (index,))
+
+
 def _describe(error: ValidationError, root, file_name: str) -> str:
-    """The first validation problem as ``file:line key.path: message``."""
-    first = error.errors(include_url=False)[0]
+    """The first validation problem as ``file:line key.path: message``.
+
+    A missing key that sits beside an unknown key is most likely that key
+    misspelt: the unknown key (the user's typo, at its own line) is reported.
+    """
+    errors = error.errors(include_url=False)
+    first = errors[0]
+    if first["type"] == "missing":
+        parent = tuple(first["loc"])[:-1]
+        typos = [e for e in errors if e["type"] == "extra_forbidden" and tuple(e["loc"])[:-1] == parent]
+        close = [e for e in typos if did_you_mean(e["loc"][-1], [first["loc"][-1]])]
+        first = (close or typos or [first])[0]
     loc = tuple(first["loc"])
     message = first["msg"]
     cause = (first.get("ctx") or {}).get("error")

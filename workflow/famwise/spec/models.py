@@ -51,14 +51,14 @@ def _check_name(value: str, what: str) -> str:
 
 
 def _check_relative(value: str | None) -> str | None:
-    """Paths are relative to the spec's folder and must stay inside it."""
+    """Relative paths start at the spec's folder and stay inside it; absolute paths are taken as given."""
     if value is None:
         return value
     path = PurePosixPath(value.replace("\\", "/"))
-    if path.is_absolute() or ".." in path.parts:
+    if not path.is_absolute() and ".." in path.parts:
         raise ValueError(
             f"path {value!r} leaves the study folder; give a path relative to the "
-            "spec file's folder, without '..'"
+            "spec file's folder without '..', or an absolute path"
         )
     return value
 
@@ -78,7 +78,7 @@ class Subjects(SpecModel):
     )
     path: str = Field(
         description="For 'epochs' and 'timefreq': a file pattern with '{subject}', relative to "
-        "the spec's folder (e.g. 'data/sub-{subject}.npz'). For 'bids': the BIDS root folder."
+        "the spec's folder (e.g. 'data/sub-{subject}.npz') or absolute. For 'bids': the BIDS root folder.",
     )
     task: str | None = Field(default=None, description="BIDS task label (the 'task-<label>' part); required when the folder holds several tasks. A subject's runs and sessions of the task are pooled.")
     ids: list[str] | None = Field(
@@ -201,6 +201,13 @@ class Timefreq(SpecModel):
     average: Literal["mean", "trimmed"] = Field(default="mean", description="Average over epochs: mean or trimmed mean.")
     trim: float = Field(default=0.2, ge=0, lt=0.5, description="Proportion trimmed from each end for the trimmed mean.")
     baseline: Baseline = Field(default_factory=Baseline, description="Baseline normalisation.")
+
+    @field_validator("cycles", "fwhm_ms")
+    @classmethod
+    def _positive_width(cls, value):
+        if value is not None and any(v <= 0 for v in (value if isinstance(value, tuple) else (value,))):
+            raise ValueError(f"a wavelet width must be positive, got {list(value) if isinstance(value, tuple) else value}")
+        return value
 
     @model_validator(mode="after")
     def _width(self) -> "Timefreq":
@@ -477,7 +484,7 @@ class Study(SpecModel):
 
     version: Literal[1] = Field(description="Spec format version; always 1.")
     name: str = Field(description="Study name (shown in the report).")
-    output: str = Field(default="results", description="Output folder, relative to the spec's folder.")
+    output: str = Field(default="results", description="Output folder, relative to the spec's folder, or an absolute path (e.g. a scratch disk; `check` notes that the spec is then tied to this machine).")
     seed: int = Field(default=1, ge=0, description="Seed of the permutation table; the same seed gives the same masks.")
     subjects: Subjects = Field(description="Subject inputs.")
     conditions: dict[str, list[str]] = Field(min_length=1, description="Condition name -> event labels pooled into it.")

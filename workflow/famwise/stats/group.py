@@ -266,7 +266,7 @@ def _check_groups(groups, n: int) -> np.ndarray:
             raise UserError(f"the two-sample test needs subjects in groups 0 and 1; group {label} has none")
         if size < MIN_SUBJECTS:
             raise UserError(
-                f"group {label} has {size} subjects; the two-sample test needs at least {MIN_SUBJECTS} per group"
+                f"group {label} has {size} subject{'' if size == 1 else 's'}; the two-sample test needs at least {MIN_SUBJECTS} per group"
             )
     return groups
 

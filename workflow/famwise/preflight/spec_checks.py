@@ -1,0 +1,60 @@
+"""Checks of the spec against the subjects found: exclusions, group sizes, shards."""
+
+import json
+
+import numpy as np
+
+from famwise.errors import UserError
+from famwise.preflight.where import Where
+from famwise.spec.models import did_you_mean
+
+
+def check_exclusions(plan, where: Where) -> None:
+    """Every id in ``subjects.exclude`` names a subject that was found."""
+    found = plan.found_subjects
+    for subject in plan.study.subjects.exclude:
+        if subject not in found:
+            listing = ", ".join(found[:30]) + (" ..." if len(found) > 30 else "")
+            raise UserError(
+                f"{where('subjects', 'exclude', subject)}: no subject '{subject}' was found, so it cannot be excluded "
+                f"(subjects found: {listing}){did_you_mean(subject, found)}"
+            )
+
+
+def check_group_sizes(plan, where: Where) -> None:
+    """Each group of a two-sample contrast holds enough analysed subjects for the test."""
+    for index, contrast in enumerate(plan.study.contrasts):
+        if contrast.test != "two-sample":
+            continue
+        from famwise.stats.group import MIN_SUBJECTS  # imports scipy.stats (2 s): only when needed
+
+        for group in contrast.groups:
+            members = [s for s, g in plan.groups.items() if g == group]
+            if 0 < len(members) < MIN_SUBJECTS:
+                noun = "subject" if len(members) == 1 else "subjects"
+                raise UserError(
+                    f"{where('contrasts', index, 'groups')}: group '{group}' has {len(members)} analysed {noun} "
+                    f"({', '.join(members)}); the two-sample test needs at least {MIN_SUBJECTS} per group"
+                )
+
+
+def check_shards(plan, where: Where) -> None:
+    """``inference.shards`` is at most the number of permutation rows of every contrast."""
+    from famwise.resample import make_table
+
+    inference = plan.study.inference
+    if not inference.needs_null or inference.shards == 1:
+        return
+    for contrast in plan.study.contrasts:
+        settings = json.loads(plan.contrast_settings(contrast.name))
+        groups = settings.get("groups")
+        table = make_table(
+            contrast.test, n_subjects=len(settings["subjects"]), permutations=inference.permutations, seed=plan.study.seed,
+            groups=None if groups is None else np.asarray(groups),
+            n_conditions=len(contrast.conditions) if contrast.test == "repeated-measures" else None,
+        )
+        if inference.shards > table.n_rows:
+            raise UserError(
+                f"{where('inference', 'shards')}: {inference.shards} shards for the {table.n_rows} rows of contrast "
+                f"{contrast.name}'s permutation table; give at most {table.n_rows} (each shard is one job)"
+            )
