@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import bids
+from famwise import bids, brainvision
 from famwise.errors import UserError
 
 
@@ -83,19 +83,15 @@ def _npy_shape(path: Path, member: str) -> tuple[int, ...]:
 
 def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float], wanted: set[str]) -> SubjectHeader:
     """Header of one BIDS subject: the recordings pooled as `famwise.bids.read_subject` pools them."""
-    recordings = bids._find_recordings(Path(root), subject, task)
+    recordings = bids.find_recordings(Path(root), subject, task)
     channels, labels, rates, beyond = [], Counter(), set(), None
     for recording in recordings:
-        stem = recording.name.rsplit("_eeg.", 1)[0]
-        if recording.suffix.lower() not in (".edf", ".bdf"):  # other formats: events only, the job checks the rest
-            labels.update(label for _, label in _events(recording.parent / f"{stem}_events.tsv", subject))
-            continue
-        table = bids._read_channels(recording.parent / f"{stem}_channels.tsv", subject)
+        table = bids.read_channels(bids.sidecar(recording, "channels.tsv"), subject)
         signals, duration = _recording_signals(recording, subject)
         kept = _kept(signals, table, recording, subject)
         channels.append(list(kept))
         rates.update(kept.values())
-        events = _events(recording.parent / f"{stem}_events.tsv", subject)
+        events = _events(bids.sidecar(recording, "events.tsv"), subject)
         labels.update(label for _, label in events)
         rate = next(iter(kept.values()))
         beyond = beyond or _first_beyond(events, wanted, window_ms, duration, rate, recording)
@@ -111,7 +107,13 @@ def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[
 
 
 def _recording_signals(path: Path, subject: str) -> tuple[dict[str, float], float]:
-    """Signal label -> sampling rate (Hz), and the duration (s), from an EDF/BDF header."""
+    """Signal label -> sampling rate (Hz), and the duration (s), from an EDF/BDF or BrainVision header."""
+    if path.suffix.lower() == ".vhdr":
+        try:
+            header = brainvision.read_header(path)
+        except UserError as error:
+            raise UserError(f"subject {subject}: {error}") from None
+        return {c.name: header.sfreq for c in header.channels}, header.n_samples / header.sfreq
     try:
         with path.open("rb") as stream:
             fixed = stream.read(256)
@@ -134,7 +136,8 @@ def _kept(signals: dict[str, float], table, recording: Path, subject: str) -> di
     if table is None:
         kept = signals
     else:
-        names = [n for n, row in table.items() if row["type"].upper() == "EEG" and row.get("status", "good").lower() != "bad"]
+        left_out = bids.left_out_channels(table)
+        names = [n for n in table if n not in left_out]
         missing = [n for n in names if n not in signals]
         if missing:
             raise UserError(f"subject {subject}: channels {missing} of the channels file are not in {recording}, which holds {list(signals)}")
@@ -150,7 +153,7 @@ def _events(path: Path, subject: str) -> list[tuple[float, str]]:
     """(onset s, trial_type) of every labelled event of an events file."""
     if not path.is_file():
         raise UserError(f"subject {subject}: events file {path} is missing")
-    rows = bids._read_tsv(path)
+    rows = bids.read_tsv(path)
     columns = list(rows[0]) if rows else []
     for column in ("onset", "trial_type"):
         if column not in columns:

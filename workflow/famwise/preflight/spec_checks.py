@@ -40,7 +40,7 @@ def check_group_sizes(plan, where: Where) -> None:
 
 def check_shards(plan, where: Where) -> None:
     """``inference.shards`` is at most the number of permutation rows of every contrast."""
-    from famwise.resample import make_table
+    from famwise.nulls.tables import make_table
 
     inference = plan.study.inference
     if not inference.needs_null or inference.shards == 1:
