@@ -341,14 +341,29 @@ def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
         writer.writerows(rows)
 
 
+RECORDING_FOLDERS = ("eeg", "ses-*/eeg")
+"""Where a subject's recordings are, relative to ``sub-<id>/``: without sessions, and in each session."""
+
+
+def subject_files(root: Path, subject: str, *, task: str | None) -> list[Path]:
+    """Every file of a subject in its recording folders (of one task when given), sorted.
+
+    The planner declares these as the subject's inputs; the reader picks its
+    recordings among them (:func:`read_subject`).
+    """
+    sub_dir = root / f"sub-{subject}"
+    found = [p for folder in RECORDING_FOLDERS for p in sub_dir.glob(f"{folder}/sub-{subject}_*")]
+    return sorted(p for p in found if task is None or f"_task-{task}_" in p.name)
+
+
 def _find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
     """The subject's EDF/BDF recordings of one task: one, or several runs or sessions (pooled).
 
     Without a task, the recordings must all belong to one task.
     """
     sub_dir = root / f"sub-{subject}"
-    found = [p for pattern in ("eeg/*_eeg.edf", "eeg/*_eeg.bdf", "ses-*/eeg/*_eeg.edf",
-                               "ses-*/eeg/*_eeg.bdf") for p in sorted(sub_dir.glob(pattern))]
+    found = [p for folder in RECORDING_FOLDERS for suffix in ("edf", "bdf")
+             for p in sorted(sub_dir.glob(f"{folder}/*_eeg.{suffix}"))]
     if task is not None:
         found = [p for p in found if f"_task-{task}_" in p.name]
     where = f" for task {task!r}" if task is not None else ""

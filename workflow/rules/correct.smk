@@ -5,9 +5,9 @@ rule correct_points:
     input:
         correction_input_files,
     output:
-        "contrasts/{contrast}/{correction}/result.npz",
+        layout.result("{contrast}", "{correction}"),
     log:
-        "logs/correct/{contrast}-{correction}.log",
+        layout.log("correct", "{contrast}-{correction}"),
     params:
         settings=correction_settings,
     wildcard_constraints:
@@ -25,10 +25,11 @@ rule correct_clusters:
     input:
         correction_input_files,
     output:
-        result="contrasts/{contrast}/{correction}/result.npz",
-        table="contrasts/{contrast}/{correction}/clusters.tsv",
+        result=layout.result("{contrast}", "{correction}"),
+        table=layout.cluster_table("{contrast}", "{correction}"),
+        sidecar=layout.cluster_sidecar("{contrast}", "{correction}"),
     log:
-        "logs/correct/{contrast}-{correction}.log",
+        layout.log("correct", "{contrast}-{correction}"),
     params:
         settings=correction_settings,
     wildcard_constraints:

@@ -8,13 +8,13 @@ THREADED_JOB = "NUMBA_NUM_THREADS={threads} OMP_NUM_THREADS={threads} OPENBLAS_N
 
 rule null_shard:
     input:
-        subjects="contrasts/{contrast}/subjects.npz",
-        observed="contrasts/{contrast}/observed.npz",
+        subjects=layout.contrast_data("{contrast}"),
+        observed=layout.observed("{contrast}"),
         graph=graph_files,
     output:
-        "contrasts/{contrast}/nulls/shard-{shard}.npz",
+        layout.null_shard("{contrast}", "{shard}"),
     log:
-        "logs/null_shard/{contrast}-{shard}.log",
+        layout.log("null_shard", "{contrast}-{shard}"),
     params:
         settings=null_settings,
     threads: NULL_THREADS
@@ -29,11 +29,11 @@ rule null_shard:
 
 rule null_info:
     input:
-        "contrasts/{contrast}/subjects.npz",
+        layout.contrast_data("{contrast}"),
     output:
-        "contrasts/{contrast}/nulls/info.json",
+        layout.null_info("{contrast}"),
     log:
-        "logs/null_info/{contrast}.log",
+        layout.log("null_info", "{contrast}"),
     params:
         settings=null_settings,
     resources:
@@ -47,9 +47,9 @@ rule family_stepdown_shard:
     input:
         unpack(family_shard_inputs),
     output:
-        "family/{correction}/shard-{shard}.npz",
+        layout.family_shard("{correction}", "{shard}"),
     log:
-        "logs/family_stepdown_shard/{correction}-{shard}.log",
+        layout.log("family_stepdown_shard", "{correction}-{shard}"),
     params:
         settings=null_settings,
     threads: 1

@@ -22,9 +22,11 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.atomic import write_json, write_text
 from famwise.calibrate.settings import UNCORRECTED
 from famwise.errors import UserError
-from famwise.atomic import write_json, write_text
+from famwise.settings import CalibrationSettings
+from famwise.settings_codec import to_json, to_plain
 
 COLUMNS = ("correction", "method", "datasets", "detections", "fwer", "fwer_ci_low", "fwer_ci_high", "mean_fdp",
            "nominal", "permutations")
@@ -87,26 +89,26 @@ def merge_chunks(chunks: list[dict[str, np.ndarray]], *, datasets: int) -> dict[
     return {"labels": labels, "n_significant": np.concatenate([c["n_significant"] for c in chunks])[order]}
 
 
-def calibration_rows(merged: dict[str, np.ndarray], *, settings: dict, table_rows: int | None) -> list[CalibrationRow]:
+def calibration_rows(merged: dict[str, np.ndarray], *, settings: CalibrationSettings, table_rows: int | None) -> list[CalibrationRow]:
     """The table rows from merged chunks.
 
     Parameters
     ----------
     merged : dict
         From :func:`merge_chunks`.
-    settings : dict
+    settings : CalibrationSettings
         The calibration settings.
     table_rows : int or None
         Rows of the permutation table each dataset used (identity included);
         None when no correction needs the permutation null.
     """
-    entries = {c["correction"]["label"]: c["correction"] for c in settings["corrections"]}
+    entries = {c.correction.label: to_plain(c.correction) for c in settings.corrections}
     detected = merged["n_significant"] > 0
     rows = []
     for column, label in enumerate(str(x) for x in merged["labels"]):
         entry = entries.get(label, {"method": UNCORRECTED})
         method = entry["method"]
-        nominal = entry.get("level") or settings["alpha"]
+        nominal = entry.get("level") or settings.alpha
         uses_null = method in ("max-stat", "cluster", "tfce") or entry.get("pvalues") == "permutation"
         hits = int(detected[:, column].sum())
         n = int(detected.shape[0])
@@ -119,7 +121,7 @@ def calibration_rows(merged: dict[str, np.ndarray], *, settings: dict, table_row
     return rows
 
 
-def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table_rows: int | None,
+def write_table(path: Path, rows: list[CalibrationRow], *, settings: CalibrationSettings, table_rows: int | None,
                 basis: dict) -> None:
     """``<contrast>.tsv`` and its JSON sidecar (columns, the run's settings and its ``calibration_basis``)."""
     lines = ["\t".join(COLUMNS)]
@@ -127,18 +129,18 @@ def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table
         values = [getattr(row, c) for c in COLUMNS]
         lines.append("\t".join("n/a" if v is None else f"{v:.6g}" if isinstance(v, float) else str(v) for v in values))
     write_text(path, "\n".join(lines) + "\n")
-    reduced = settings["permutations"] < settings["study_permutations"]
+    reduced = settings.nulls.permutations < settings.study_permutations
     sidecar = dict(SIDECAR)
     sidecar["Calibration"] = {
-        "contrast": settings["contrast"],
-        "datasets": settings["datasets"],
-        "seed": settings["seed"],
+        "contrast": settings.contrast,
+        "datasets": settings.datasets,
+        "seed": settings.nulls.seed,
         "random_stream": "numpy SeedSequence([seed, 0xCA11, crc32(contrast), dataset index])",
-        "permutations": settings["permutations"],
-        "study_permutations": settings["study_permutations"],
+        "permutations": settings.nulls.permutations,
+        "study_permutations": settings.study_permutations,
         "permutations_reduced": reduced,
         "permutation_table_rows": table_rows,
-        "alpha": settings["alpha"],
+        "alpha": settings.alpha,
         "family": "each contrast on its own (per-contrast), whatever inference.family says",
         "null_datasets": "subjects' own maps with random sign flips (one-sample, paired), shuffled subject order "
                          "against fixed labels or covariate (two-sample, correlation), or conditions shuffled within "
@@ -159,7 +161,7 @@ def read_table(path: Path) -> list[dict]:
     return rows
 
 
-def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: Path, observed: Path) -> list[CalibrationRow]:
+def summarize(chunk_files: list[Path], out: Path, *, settings: CalibrationSettings, subjects: Path, observed: Path) -> list[CalibrationRow]:
     """Merge the chunk files and write ``<contrast>.tsv``, ``.json``, ``.png`` and ``.svg``.
 
     Parameters
@@ -168,7 +170,7 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: P
         Every ``chunk-<k>.npz`` of the contrast.
     out : path
         The TSV to write; the others are written beside it.
-    settings : dict
+    settings : CalibrationSettings
         The calibration settings.
     subjects, observed : path
         The contrast's ``subjects.npz`` and ``observed.npz``: their contents'
@@ -179,15 +181,15 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: P
     for path in chunk_files:
         with np.load(path, allow_pickle=False) as archive:
             chunks.append({key: archive[key] for key in archive.files})
-            if json.loads(str(archive["settings"])) != settings:
+            if str(archive["settings"]) != to_json(settings):
                 raise UserError(f"{path} was computed with other calibration settings; delete it and rerun")
-    merged = merge_chunks(chunks, datasets=settings["datasets"])
+    merged = merge_chunks(chunks, datasets=settings.datasets)
     table_rows = int(chunks[0]["table_rows"]) or None
     rows = calibration_rows(merged, settings=settings, table_rows=table_rows)
     out = Path(out)
-    basis = calibration_basis(Path(subjects).parent, settings["corrections"])
+    basis = calibration_basis(Path(subjects).parent, [to_plain(c) for c in settings.corrections])
     write_table(out, rows, settings=settings, table_rows=table_rows, basis=basis)
-    calibration_figure(read_table(out), contrast=settings["contrast"], folder=out.parent, stem=out.stem)
+    calibration_figure(read_table(out), contrast=settings.contrast, folder=out.parent, stem=out.stem)
     return rows
 
 

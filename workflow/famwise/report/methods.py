@@ -6,7 +6,7 @@ from pathlib import Path
 import numpy as np
 
 from famwise.report.provenance import package_versions
-from famwise.report.results import Contrast, Correction, Run, correction_entries, read_run
+from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries, read_run
 
 REFERENCES = {
     "bonferroni": "Dunn OJ (1961). Multiple comparisons among means. J Am Stat Assoc 56(293):52-64.",
@@ -105,14 +105,14 @@ def _range(value) -> str:
     return fmt(value)
 
 
-def correction_parameters(spec_entry: dict, correction: Correction | None) -> dict:
+def correction_parameters(spec_entry: dict, correction: ReportedCorrection | None) -> dict:
     """Every parameter of a correction: the spec's entry, then what the run resolved.
 
     Parameters
     ----------
     spec_entry : dict
         The correction's entry in the spec.
-    correction : Correction or None
+    correction : ReportedCorrection or None
         The stored result; its settings add the cluster-forming threshold the
         run used (``forming``) and the method's own run settings (``result``).
     """
@@ -230,7 +230,7 @@ def _window(study: dict, run: Run) -> str:
     return text
 
 
-def _contrast(contrast: Contrast, spec: dict, study: dict) -> str:
+def _contrast(contrast: ReportedContrast, spec: dict, study: dict) -> str:
     inference = study.get("inference") or {}
     if contrast.statistic == "yuen":
         trim = inference.get("trim")
@@ -246,7 +246,7 @@ def _contrast(contrast: Contrast, spec: dict, study: dict) -> str:
             f"{test}, {contrast.tail}, across n = {contrast.n} participants.")
 
 
-def _resampling(contrast: Contrast, study: dict) -> str:
+def _resampling(contrast: ReportedContrast, study: dict) -> str:
     info = contrast.nulls
     if not info:
         return ""
@@ -262,7 +262,7 @@ def _resampling(contrast: Contrast, study: dict) -> str:
     return text + f"; the smallest attainable p was {fmt(info.get('smallest_p'))}."
 
 
-def _correction(contrast: Contrast, correction: Correction, entry: dict) -> str:
+def _correction(contrast: ReportedContrast, correction: ReportedCorrection, entry: dict) -> str:
     kind = method_kind(correction.method)
     described = _DESCRIPTIONS.get(kind, f"the '{correction.method}' correction")
     text = (f"In contrast {contrast.name}, correction {correction.name} ({described}; "

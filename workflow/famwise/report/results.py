@@ -17,7 +17,7 @@ from famwise.montage import ChannelGraph, Positions, load_graph
 
 
 @dataclass(frozen=True)
-class Correction:
+class ReportedCorrection:
     """One correction of one contrast, as stored in ``<correction>/result.npz``.
 
     Attributes
@@ -71,7 +71,7 @@ class Correction:
 
 
 @dataclass(frozen=True)
-class Contrast:
+class ReportedContrast:
     """One contrast: its observed maps, null summary and corrections.
 
     Attributes
@@ -95,7 +95,7 @@ class Contrast:
     nulls : dict
         ``nulls/info.json`` (n_rows, exact, scheme, permutations,
         smallest_p); empty when the contrast has no permutation null.
-    corrections : list of Correction
+    corrections : list of ReportedCorrection
         In spec order.
     """
 
@@ -113,7 +113,7 @@ class Contrast:
     tail: str
     n: int
     nulls: dict
-    corrections: list[Correction]
+    corrections: list[ReportedCorrection]
 
 
 @dataclass(frozen=True)
@@ -131,7 +131,7 @@ class Run:
         The channel neighbor graph, None when the run has no graph file.
     positions : Positions or None
         Positions (mm) of the graph's channels.
-    contrasts : list of Contrast
+    contrasts : list of ReportedContrast
     """
 
     output_dir: Path
@@ -139,7 +139,7 @@ class Run:
     subjects: list[dict]
     graph: ChannelGraph | None
     positions: Positions | None
-    contrasts: list[Contrast]
+    contrasts: list[ReportedContrast]
 
 
 def _text(value) -> str:
@@ -185,12 +185,12 @@ def read_clusters(folder: Path) -> tuple[list[dict], dict]:
     return rows, columns
 
 
-def _read_correction(folder: Path, name: str) -> Correction:
+def _read_correction(folder: Path, name: str) -> ReportedCorrection:
     with np.load(_need(folder / "result.npz", f"the result of correction '{name}'")) as data:
         keys = set(data.files)
         settings = _text(data["settings"]) if "settings" in keys else "{}"
         rows, columns = read_clusters(folder)
-        return Correction(
+        return ReportedCorrection(
             name=name,
             method=_text(data["method"]) if "method" in keys else name,
             p_corrected=np.asarray(data["p_corrected"], dtype=float),
@@ -208,7 +208,7 @@ def _read_correction(folder: Path, name: str) -> Correction:
         )
 
 
-def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> Contrast:
+def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> ReportedContrast:
     observed = _need(folder / "observed.npz", f"the observed statistics of contrast '{name}'")
     info_path = folder / "nulls" / "info.json"
     nulls = json.loads(info_path.read_text(encoding="utf-8")) if info_path.is_file() else {}
@@ -237,7 +237,7 @@ def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> Cont
             raise UserError(f"report: expected the mask of correction '{correction.name}' of "
                             f"contrast '{name}' to have shape {stat.shape}, found "
                             f"{correction.mask.shape}; rerun the corrections")
-    return Contrast(nulls=nulls, corrections=corrections, **contrast)
+    return ReportedContrast(nulls=nulls, corrections=corrections, **contrast)
 
 
 def read_run(output_dir: Path) -> Run:
