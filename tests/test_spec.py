@@ -156,8 +156,7 @@ def test_example_study_spec_is_valid_and_packaged():
 
 def test_spec_defaults_live_in_the_model_fields(tmp_path):
     """The Morlet width (7 cycles) and forming_p (0.01) defaults are resolved by the model, not later."""
-    from famwise.spec.inference import ClusterCorrection
-    from famwise.spec.models import Timefreq
+    from famwise.spec.models import ClusterCorrection, Timefreq
 
     assert Timefreq().cycles == 7.0 and Timefreq().fwhm_ms is None
     assert Timefreq(fwhm_ms=300.0).cycles is None
