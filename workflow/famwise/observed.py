@@ -49,7 +49,7 @@ def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSetting
                      tail=settings.tail, **statistic)
     # The stored map is the permutation engine's identity row (equal to result.stat up to
     # float32 rounding), so that every correction compares the null with the same bits.
-    stat = identity_statistic(replace(data, x=x), settings=statistic)
+    stat = identity_statistic(replace(data, x=x), settings=settings)
     shape = data.shape
     arrays = {
         "stat": stat.reshape(shape), "p": result.p.reshape(shape), "df": np.asarray(result.df),
