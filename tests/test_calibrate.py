@@ -9,7 +9,8 @@ import pytest
 import scipy.stats
 from scipy.ndimage import gaussian_filter
 
-from famwise.calibrate import calibration_section_html, calibration_settings, fwer_interval, summarize
+from famwise.calibrate import calibration_settings, fwer_interval, summarize
+from famwise.report.calibration import calibration_section_html
 from famwise.calibrate.datasets import calibration_chunk, dataset_rng, null_dataset
 from famwise.calibrate.table import merge_chunks, read_table
 from famwise.settings_codec import to_plain

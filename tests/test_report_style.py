@@ -11,7 +11,7 @@ import pytest  # noqa: E402
 from famwise.montage import match_channels, standard_positions  # noqa: E402
 from famwise.report.methods import fmt, method_kind  # noqa: E402
 from famwise.report.scalp import project, topography  # noqa: E402
-from famwise.report.style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
+from famwise.figure_style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
 
 
 def _lightness(rgb: np.ndarray) -> np.ndarray:

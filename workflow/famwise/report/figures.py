@@ -1,7 +1,7 @@
 """Report figures: time-frequency maps, null histograms, cluster views, channel graph.
 
 Every function draws from stored results only and returns a matplotlib
-figure; :func:`famwise.report.style.save_figure` writes it.
+figure; :func:`famwise.figure_style.save_figure` writes it.
 """
 
 import matplotlib.pyplot as plt
@@ -10,7 +10,7 @@ import numpy as np
 from famwise.montage import ChannelGraph, Positions, plot_graph
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.scalp import topography
-from famwise.report.style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
+from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
 
 _FINE = 4
 

@@ -14,7 +14,7 @@ import numpy as np
 
 from famwise.errors import UserError
 from famwise.report.results import correction_entries
-from famwise.report.style import write_atomic
+from famwise.figure_style import write_atomic
 
 PACKAGES = ("famwise", "numpy", "scipy", "numba", "snakemake", "matplotlib", "pydantic")
 """Packages whose versions are recorded (those not installed are left out)."""

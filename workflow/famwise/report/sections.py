@@ -13,7 +13,7 @@ from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
-from famwise.report.style import figure_style, save_figure
+from famwise.figure_style import figure_style, save_figure
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
 _OTHER_CLUSTERS = 10
