@@ -190,7 +190,7 @@ def run_correct(args, settings: types.CorrectionSettings) -> None:
     _say(f"{settings.correction.label}: {result.n_significant} significant points")
 
 
-def run_study_record(args, settings: types.ReportSettings) -> None:
+def run_study_record(args, settings: types.StudyRecordSettings) -> None:
     """The validated spec -> ``study.json`` (read by the report)."""
     write_json(Path(args.out), settings.study)
 
@@ -233,7 +233,7 @@ STAGES = {
     "null-info": (run_null_info, types.NullSettings),
     "family-stepdown-shard": (run_family_stepdown_shard, types.NullSettings),
     "correct": (run_correct, types.CorrectionSettings),
-    "study-record": (run_study_record, types.ReportSettings),
+    "study-record": (run_study_record, types.StudyRecordSettings),
     "report": (run_report, types.ReportSettings),
     "calibrate-chunk": (run_calibrate_chunk, types.CalibrationSettings),
     "calibrate-table": (run_calibrate_table, types.CalibrationSettings),

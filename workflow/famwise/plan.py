@@ -19,7 +19,7 @@ from famwise.io import discover_pattern, subject_file
 from famwise.settings import (
     ClusterNullSettings, ContrastSettings, CorrectionEntry, CorrectionSettings, DecomposeSettings, ExceedanceNullSettings,
     FormingSettings, GraphSettings, MaxStatNullSettings, NullSettings, ObservedSettings, ReportSettings, StepDownNullSettings,
-    SubjectsTableSettings, TFCENullSettings,
+    StudyRecordSettings, SubjectsTableSettings, TFCENullSettings,
 )
 from famwise.settings_codec import from_plain
 from famwise.spec import LoadedStudy, load_study
@@ -300,9 +300,12 @@ class Plan:
         return CorrectionSettings(correction=entry, alpha=i.alpha, tail=i.tail, family=i.family,
                                   contrasts=tuple(x.name for x in self.study.contrasts))
 
+    def study_record_settings(self) -> StudyRecordSettings:
+        return StudyRecordSettings(study=self.study.model_dump(mode="json"))
+
     def report_settings(self) -> ReportSettings:
         inputs = tuple(f for subject in self.subjects for f in self.input_files(subject))
-        return ReportSettings(study=self.study.model_dump(mode="json"), spec=str(self.loaded.path), input_files=inputs)
+        return ReportSettings(spec=str(self.loaded.path), input_files=inputs)
 
     # ---- files -------------------------------------------------------------------
 

@@ -286,10 +286,16 @@ class CorrectionSettings:
 
 
 @dataclass(frozen=True)
-class ReportSettings:
-    """Every result -> ``report/``: the validated spec, the spec's path and the subjects' input files."""
+class StudyRecordSettings:
+    """The validated spec (``model_dump(mode="json")``) -> ``study.json``, which the report reads."""
 
     study: dict
+
+
+@dataclass(frozen=True)
+class ReportSettings:
+    """Every result -> ``report/``: the spec's path (its text is shown) and the subjects' input files (hashed)."""
+
     spec: str
     input_files: tuple[str, ...]
 

@@ -73,6 +73,10 @@ def correction_settings(wildcards):
     return to_json(PLAN.correction_settings(wildcards.correction))
 
 
+def study_record_settings(wildcards):
+    return to_json(PLAN.study_record_settings())
+
+
 def report_settings(wildcards):
     return to_json(PLAN.report_settings())
 

@@ -7,7 +7,7 @@ rule study_record:
     log:
         layout.log("study_record", "all"),
     params:
-        settings=report_settings,
+        settings=study_record_settings,
     resources:
         mem_mb=small_job_mem_mb,
         runtime=small_job_runtime,
