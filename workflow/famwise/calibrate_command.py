@@ -78,7 +78,7 @@ def command_calibrate(args) -> int:
     report = plan.loaded.output / "report" / "index.html"
     if report.is_file():
         print("\nfamwise: updating the report with the calibration")
-        code, _ = run_snakemake(plan, ["--cores", str(args.cores), "report/index.html"], capture=False)
+        code, _ = run_snakemake(plan, ["--cores", str(args.cores), layout.REPORT_PAGE], capture=False, config=config)
         if code != 0:
             raise UserError(job_error(plan, started) or f"the report could not be updated; see the logs under {plan.loaded.output / 'logs'}")
     else:

@@ -17,7 +17,7 @@ from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.atomic import save_npz
-from famwise.observed import stored_forming_threshold
+from famwise.observed import load_observed, stored_forming_threshold
 from famwise.settings import CorrectionSettings
 from famwise.settings_codec import to_plain
 
@@ -65,7 +65,7 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
     observed, shards, graph, family_shards = {}, {}, None, []
     for path in inputs:
         if path.name == "observed.npz":
-            observed[_contrast_of(path)] = _load(path)
+            observed[_contrast_of(path)] = load_observed(path)
         elif path.name == "graph.npz":
             graph = _load(path)
         elif path.parts[0] == "family":

@@ -14,6 +14,7 @@ import numpy as np
 
 from famwise.errors import UserError
 from famwise.montage import ChannelGraph, Positions, load_graph
+from famwise.observed import load_observed
 
 
 @dataclass(frozen=True)
@@ -212,25 +213,25 @@ def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> Repo
     observed = _need(folder / "observed.npz", f"the observed statistics of contrast '{name}'")
     info_path = folder / "nulls" / "info.json"
     nulls = json.loads(info_path.read_text(encoding="utf-8")) if info_path.is_file() else {}
-    with np.load(observed) as data:
-        stat = np.asarray(data["stat"], dtype=float)
-        if stat.ndim != 3:
-            raise UserError(f"report: expected 'stat' in {observed} with shape (channels, "
-                            f"frequencies, times), found shape {stat.shape}")
-        contrast = dict(
-            name=name, stat=stat,
-            p=np.asarray(data["p"], dtype=float),
-            effect=np.asarray(data["effect"], dtype=float),
-            effect_size=np.asarray(data["effect_size"], dtype=float),
-            df=np.asarray(data["df"], dtype=float),
-            channels=[str(c) for c in data["channels"]],
-            freqs=np.asarray(data["freqs"], dtype=float),
-            times=np.asarray(data["times"], dtype=float),
-            test=_text(data["test"]),
-            statistic=_text(data["statistic"]) if "statistic" in data.files else "t",
-            tail=_text(data["tail"]) if "tail" in data.files else "two-sided",
-            n=int(data["n"]),
-        )
+    data = load_observed(observed)
+    stat = np.asarray(data["stat"], dtype=float)
+    if stat.ndim != 3:
+        raise UserError(f"report: expected 'stat' in {observed} with shape (channels, "
+                        f"frequencies, times), found shape {stat.shape}")
+    contrast = dict(
+        name=name, stat=stat,
+        p=np.asarray(data["p"], dtype=float),
+        effect=np.asarray(data["effect"], dtype=float),
+        effect_size=np.asarray(data["effect_size"], dtype=float),
+        df=np.asarray(data["df"], dtype=float),
+        channels=[str(c) for c in data["channels"]],
+        freqs=np.asarray(data["freqs"], dtype=float),
+        times=np.asarray(data["times"], dtype=float),
+        test=_text(data["test"]),
+        statistic=_text(data["statistic"]) if "statistic" in data else "t",
+        tail=_text(data["tail"]) if "tail" in data else "two-sided",
+        n=int(data["n"]),
+    )
     corrections = [_read_correction(folder / c, c) for c in correction_names]
     for correction in corrections:
         if correction.mask.shape != stat.shape:
