@@ -7,6 +7,7 @@ import numpy as np
 import yaml
 
 from famwise import bids, scheduler_sizing as sizing
+from famwise.settings_codec import to_json
 from famwise.plan import Plan
 
 from conftest import write_tiny_study, write_tiny_subject
@@ -107,7 +108,7 @@ def test_decompose_estimate_covers_the_measured_peak(tiny_study):
     # Measured: the job's peak resident memory (getrusage of a fresh parent's only child) stays under the request.
     plan = Plan.from_spec(tiny_study)
     out = tiny_study.parent / "tf-01.npz"
-    job = [sys.executable, "-m", "famwise.jobs", "decompose", "--subject", "01", "--settings", plan.decompose_settings(), "--out", str(out)]
+    job = [sys.executable, "-m", "famwise.jobs", "decompose", "--subject", "01", "--settings", to_json(plan.decompose_settings()), "--out", str(out)]
     measure = "import resource, subprocess, sys; subprocess.run(sys.argv[1:], check=True, capture_output=True); print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)"
     peak_kb = int(subprocess.run([sys.executable, "-c", measure, *job], check=True, capture_output=True, text=True).stdout)
     assert out.is_file()
