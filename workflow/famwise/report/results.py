@@ -12,6 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise import layout
 from famwise.errors import UserError
 from famwise.montage import ChannelGraph, Positions, load_graph
 from famwise.observed import load_observed
@@ -186,11 +187,11 @@ def read_clusters(folder: Path) -> tuple[list[dict], dict]:
     return rows, columns
 
 
-def _read_correction(folder: Path, name: str) -> ReportedCorrection:
-    with np.load(_need(folder / "result.npz", f"the result of correction '{name}'")) as data:
+def _read_correction(result_file: Path, name: str) -> ReportedCorrection:
+    with np.load(_need(result_file, f"the result of correction '{name}'")) as data:
         keys = set(data.files)
         settings = _text(data["settings"]) if "settings" in keys else "{}"
-        rows, columns = read_clusters(folder)
+        rows, columns = read_clusters(result_file.parent)
         return ReportedCorrection(
             name=name,
             method=_text(data["method"]) if "method" in keys else name,
@@ -209,9 +210,9 @@ def _read_correction(folder: Path, name: str) -> ReportedCorrection:
         )
 
 
-def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> ReportedContrast:
-    observed = _need(folder / "observed.npz", f"the observed statistics of contrast '{name}'")
-    info_path = folder / "nulls" / "info.json"
+def _read_contrast(output_dir: Path, name: str, correction_names: list[str]) -> ReportedContrast:
+    observed = _need(output_dir / layout.observed(name), f"the observed statistics of contrast '{name}'")
+    info_path = output_dir / layout.null_info(name)
     nulls = json.loads(info_path.read_text(encoding="utf-8")) if info_path.is_file() else {}
     data = load_observed(observed)
     stat = np.asarray(data["stat"], dtype=float)
@@ -232,7 +233,7 @@ def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> Repo
         tail=_text(data["tail"]) if "tail" in data else "two-sided",
         n=int(data["n"]),
     )
-    corrections = [_read_correction(folder / c, c) for c in correction_names]
+    corrections = [_read_correction(output_dir / layout.result(name, c), c) for c in correction_names]
     for correction in corrections:
         if correction.mask.shape != stat.shape:
             raise UserError(f"report: expected the mask of correction '{correction.name}' of "
@@ -254,13 +255,13 @@ def read_run(output_dir: Path) -> Run:
     Run
     """
     output_dir = Path(output_dir)
-    study = json.loads(_need(output_dir / "study.json", "the study spec").read_text(encoding="utf-8"))
-    subjects_path = output_dir / "subjects.tsv"
+    study = json.loads(_need(output_dir / layout.STUDY_RECORD, "the study spec").read_text(encoding="utf-8"))
+    subjects_path = output_dir / layout.SUBJECTS_TABLE
     subjects = read_tsv(subjects_path) if subjects_path.is_file() else []
     names = list(correction_entries(study))
-    contrasts = [_read_contrast(output_dir / "contrasts" / c["name"], c["name"], names)
+    contrasts = [_read_contrast(output_dir, c["name"], names)
                  for c in study.get("contrasts", [])]
-    graph_path = output_dir / "channels" / "graph.npz"
+    graph_path = output_dir / layout.CHANNEL_GRAPH
     graph, positions = load_graph(graph_path) if graph_path.is_file() else (None, None)
     return Run(output_dir=output_dir, study=study, subjects=subjects, graph=graph,
                positions=positions, contrasts=contrasts)
