@@ -358,12 +358,12 @@ class Plan:
         return [c.label for c in self.study.inference.corrections if c.method in ("cluster", "tfce")]
 
     def report_inputs(self) -> list[str]:
-        """Every file the report reads, calibration files included when they exist at planning time.
+        """Every file the report reads (the spec, whose text it shows, included), and the calibration files when they exist.
 
         ``famwise calibrate`` plans the workflow again after the calibration, so
         the report then reruns because its inputs changed.
         """
-        files = [layout.STUDY_RECORD, layout.SUBJECTS_TABLE, *self.report_settings().input_files]
+        files = [str(self.loaded.path), layout.STUDY_RECORD, layout.SUBJECTS_TABLE, *self.report_settings().input_files]
         if self.needs_graph:
             files.append(layout.CHANNEL_GRAPH)
         with_table = set(self.labels_with_cluster_table())
