@@ -13,7 +13,6 @@ from famwise.calibrate import calibration_settings, fwer_interval, summarize
 from famwise.report.calibration import calibration_section_html
 from famwise.calibrate.datasets import calibration_chunk, dataset_rng, null_dataset
 from famwise.calibrate.table import merge_chunks, read_table
-from famwise.settings_codec import to_plain
 from famwise.design import ContrastData
 from famwise.errors import UserError
 from famwise.atomic import save_npz
@@ -239,7 +238,7 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
     contrast.mkdir(parents=True)
     _contrast(_smooth_maps(np.random.default_rng(6), 8)).save(contrast / "subjects.npz")  # the same maps
     save_npz(contrast / "observed.npz", stat=np.arange(6.0))
-    current = {"c1": [to_plain(c) for c in settings.corrections]}  # as the result files record them
+    current = {"c1": [c.record() for c in settings.corrections]}  # as the result files record them
     assert calibration_section_html(tmp_path / "output", current) is None
     rows = summarize(files, out, settings=settings, subjects=contrast / "subjects.npz", observed=contrast / "observed.npz")
     table = read_table(out)

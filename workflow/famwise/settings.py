@@ -13,6 +13,8 @@ This module is light on purpose: the Snakefile imports it through the plan.
 from dataclasses import dataclass
 from typing import Literal
 
+from famwise.settings_codec import to_plain
+
 
 # ---- decomposition (famwise.timefreq via the decompose job) --------------------
 
@@ -280,6 +282,12 @@ class CorrectionSettings:
     tail: str
     family: str
     contrasts: tuple[str, ...]
+
+    def record(self) -> dict:
+        """The settings as stored with the result (plain JSON values; the entry without the keys its method leaves unset)."""
+        plain = to_plain(self)
+        plain["correction"] = {key: value for key, value in plain["correction"].items() if value is not None or key == "name"}
+        return plain
 
 
 # ---- report and calibration ---------------------------------------------------------

@@ -25,7 +25,7 @@ from famwise.atomic import write_json, write_text
 from famwise.calibrate.settings import UNCORRECTED
 from famwise.errors import UserError
 from famwise.settings import CalibrationSettings
-from famwise.settings_codec import to_json, to_plain
+from famwise.settings_codec import to_json
 
 COLUMNS = ("correction", "method", "datasets", "detections", "fwer", "fwer_ci_low", "fwer_ci_high", "mean_fdp",
            "nominal", "permutations")
@@ -101,7 +101,7 @@ def calibration_rows(merged: dict[str, np.ndarray], *, settings: CalibrationSett
         Rows of the permutation table each dataset used (identity included);
         None when no correction needs the permutation null.
     """
-    entries = {c.correction.label: to_plain(c.correction) for c in settings.corrections}
+    entries = {c.correction.label: c.record()["correction"] for c in settings.corrections}
     detected = merged["n_significant"] > 0
     rows = []
     for column, label in enumerate(str(x) for x in merged["labels"]):
@@ -186,7 +186,7 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: CalibrationSettin
     table_rows = int(chunks[0]["table_rows"]) or None
     rows = calibration_rows(merged, settings=settings, table_rows=table_rows)
     out = Path(out)
-    basis = calibration_basis(Path(subjects).parent, [to_plain(c) for c in settings.corrections])
+    basis = calibration_basis(Path(subjects).parent, [c.record() for c in settings.corrections])
     write_table(out, rows, settings=settings, table_rows=table_rows, basis=basis)
     calibration_figure(read_table(out), contrast=settings.contrast, folder=out.parent, stem=out.stem)
     return rows

@@ -19,7 +19,6 @@ from famwise.errors import UserError
 from famwise.atomic import save_npz
 from famwise.observed import load_observed, stored_forming_threshold
 from famwise.settings import CorrectionSettings
-from famwise.settings_codec import to_plain
 
 
 def _load(path: Path) -> dict[str, np.ndarray]:
@@ -157,7 +156,7 @@ def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings:
         "threshold": np.array(np.nan if result.threshold is None else result.threshold, dtype=np.float64),
         "threshold_kind": result.threshold_kind,
         "method": settings.correction.method,
-        "settings": json.dumps(to_plain(settings) | {"result": result.settings}, default=float),
+        "settings": json.dumps(settings.record() | {"result": result.settings}, default=float),
         "n_significant": np.array(result.n_significant),
     }
     if result.null is not None:
