@@ -113,20 +113,14 @@ def correction_parameters(spec_entry: dict, correction: ReportedCorrection | Non
     spec_entry : dict
         The correction's entry in the spec.
     correction : ReportedCorrection or None
-        The stored result; its settings add the cluster-forming threshold the
-        run used (``forming``) and the method's own run settings (``result``).
+        The stored result; its settings add the method's own run settings
+        (``result``), e.g. the cluster-forming threshold in statistic units.
     """
     settings = correction.settings if correction is not None else {}
     parameters = dict(settings.get("correction") or {})
     parameters.update(spec_entry)
     parameters = {k: v for k, v in parameters.items()
                   if k not in {"name", "method", "label"} and v is not None}
-    forming = settings.get("forming")
-    if isinstance(forming, dict):
-        for key, value in forming.items():
-            parameters.setdefault(key if key.startswith("forming") else f"forming {key}", value)
-    elif forming is not None:
-        parameters.setdefault("forming threshold", forming)
     for key, value in (settings.get("result") or {}).items():
         if key == "threshold" and method_kind(correction.method) == "cluster":
             key = "forming threshold (statistic)"
