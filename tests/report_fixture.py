@@ -17,6 +17,8 @@ from scipy import stats
 from famwise.design import ContrastData
 from famwise.montage import match_channels, neighbor_graph, save_graph, standard_positions
 from famwise.planned_values import run_planned
+from famwise.settings import SubjectValuesSettings
+from famwise.settings_codec import from_plain
 from famwise.subject_values import run as run_subject_values
 from famwise.timefreq.maps import TimeFreqMaps
 
@@ -216,9 +218,10 @@ def _subject_values(folder: Path, contrast: Path, n: int, freqs: np.ndarray, tim
     data = ContrastData(x=(stacked[:, 0] - stacked[:, 1]).reshape(n, -1), test="paired", subjects=subjects,
                         channels=tuple(CHANNELS), freqs=freqs, times=times)
     data.save(contrast / "subjects.npz")
-    settings = {"contrast": {"name": "attention", "test": "paired", "conditions": CONDITIONS, "groups": None}}
-    run_subject_values(settings, contrast / "subjects.npz", contrast / "clusters" / "result.npz", files,
-                       contrast / "clusters" / "subject_values.tsv")
     regions = [{"name": "parietal-alpha", "channels": ["P3", "Pz", "P4"], "freq_hz": [8.0, 13.0],
                 "time_ms": [200.0, 500.0]}]
-    run_planned(settings | {"regions": regions}, contrast / "subjects.npz", files, contrast / "planned_values.tsv")
+    settings = from_plain(SubjectValuesSettings, {"test": "paired", "conditions": CONDITIONS, "group_names": None,
+                                                  "covariate_name": None, "regions": regions})
+    run_subject_values(settings, contrast / "subjects.npz", contrast / "clusters" / "result.npz", files,
+                       contrast / "clusters" / "subject_values.tsv")
+    run_planned(settings, contrast / "subjects.npz", files, contrast / "planned_values.tsv")

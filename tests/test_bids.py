@@ -278,3 +278,25 @@ def test_written_electrodes_are_read_back_in_their_sidecar_units(tmp_path):
         read = read_positions(path)
     assert read.names == tuple(positions)
     np.testing.assert_allclose(read.xyz, np.array(list(positions.values())))
+
+
+def test_planner_finds_recordings_stored_in_sessions(tmp_path):
+    # BIDS 1.9: sub-<label>/ses-<label>/eeg/sub-<label>_ses-<label>_task-<label>_eeg.<ext> (BIDS-EEG: Pernet et al. 2019)
+    from famwise.plan import Plan
+
+    root = tmp_path / "data"
+    _write(root)
+    session = root / "sub-01" / "ses-1" / "eeg"
+    session.mkdir(parents=True)
+    for path in sorted((root / "sub-01" / "eeg").iterdir()):
+        path.rename(session / path.name.replace("sub-01_", "sub-01_ses-1_"))
+    (root / "sub-01" / "eeg").rmdir()
+    spec = tmp_path / "study.yaml"
+    spec.write_text("version: 1\nname: sessions\nsubjects: {source: bids, path: data, task: view}\n"
+                    "conditions: {face: [face]}\ncontrasts: [{name: face, test: one-sample, conditions: [face]}]\n"
+                    "inference: {corrections: [{method: holm}]}\n")
+    plan = Plan.from_spec(spec)
+    files = plan.input_files("01")
+    assert str(session / "sub-01_ses-1_task-view_eeg.edf") in files
+    assert all("/ses-1/eeg/" in f for f in files)
+    assert len(_read(root).labels) == 17  # the reader reads what the planner declared (8 + 6 + 3 events)

@@ -9,7 +9,8 @@ import pytest
 import scipy.stats
 from scipy.ndimage import gaussian_filter
 
-from famwise.calibrate import calibration_section_html, calibration_settings, fwer_interval, summarize
+from famwise.calibrate import calibration_settings, fwer_interval, summarize
+from famwise.report.calibration import calibration_section_html
 from famwise.calibrate.datasets import calibration_chunk, dataset_rng, null_dataset
 from famwise.calibrate.table import merge_chunks, read_table
 from famwise.design import ContrastData
@@ -53,7 +54,7 @@ def _plan(folder, *, corrections="- method: bonferroni\n", permutations=99, seed
 
 
 def _settings(plan, *, datasets, chunks=1, permutations=None):
-    return json.loads(calibration_settings(plan, "c1", datasets=datasets, permutations=permutations, chunks=chunks))
+    return calibration_settings(plan, "c1", datasets=datasets, permutations=permutations, chunks=chunks)
 
 
 def _smooth_maps(rng, n, shape=(4, 5, 12), *, test="one-sample", k=None):
@@ -84,8 +85,8 @@ def _chain_graph(path, n_channels):
 
 def _run(subjects, graph, settings):
     """Every chunk of a calibration, merged."""
-    chunks = [calibration_chunk(subjects, graph, chunk=k, settings=settings) for k in range(settings["chunks"])]
-    return chunks, merge_chunks(chunks, datasets=settings["datasets"])
+    chunks = [calibration_chunk(subjects, graph, chunk=k, settings=settings) for k in range(settings.chunks)]
+    return chunks, merge_chunks(chunks, datasets=settings.datasets)
 
 
 def _upper_bound_holds(detections, datasets, alpha, confidence=0.99):
@@ -237,7 +238,7 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
     contrast.mkdir(parents=True)
     _contrast(_smooth_maps(np.random.default_rng(6), 8)).save(contrast / "subjects.npz")  # the same maps
     save_npz(contrast / "observed.npz", stat=np.arange(6.0))
-    current = {"c1": settings["corrections"]}
+    current = {"c1": [c.record() for c in settings.corrections]}  # as the result files record them
     assert calibration_section_html(tmp_path / "output", current) is None
     rows = summarize(files, out, settings=settings, subjects=contrast / "subjects.npz", observed=contrast / "observed.npz")
     table = read_table(out)
@@ -263,7 +264,7 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
     save_npz(contrast / "observed.npz", stat=np.arange(6.0))
     assert stale not in calibration_section_html(tmp_path / "output", current)
     # other statistics, or other corrections, than the calibration saw: the report says so
-    assert stale in calibration_section_html(tmp_path / "output", {"c1": settings["corrections"][:2]})
+    assert stale in calibration_section_html(tmp_path / "output", {"c1": current["c1"][:2]})
     save_npz(contrast / "observed.npz", stat=np.arange(6.0) + 1)
     assert stale in calibration_section_html(tmp_path / "output", current)
 
@@ -295,7 +296,7 @@ def test_uncorrected_reference_is_parametric_p_at_alpha(tmp_path):
     settings = _settings(_plan(tmp_path), datasets=3)
     part = calibration_chunk(tmp_path / "subjects.npz", None, chunk=0, settings=settings)
     for row, index in enumerate(part["datasets"]):
-        x = null_dataset(data, dataset_rng(settings["seed"], "c1", int(index))).astype(np.float64)
+        x = null_dataset(data, dataset_rng(settings.nulls.seed, "c1", int(index))).astype(np.float64)
         p = scipy.stats.ttest_1samp(x, 0.0).pvalue  # reference: scipy.stats.ttest_1samp
         assert part["n_significant"][row, 0] == np.count_nonzero(p <= 0.05)
         assert part["n_significant"][row, 1] == np.count_nonzero(p <= 0.05 / 20)  # Bonferroni (common practice)

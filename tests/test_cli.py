@@ -172,7 +172,7 @@ def test_shard_jobs_share_the_cores_on_this_machine(tmp_path, monkeypatch, cores
     # a study with fewer shards than cores still uses every core; cluster jobs keep one thread each
     spec = write_tiny_study(tmp_path)  # shards: 2
     calls = []
-    monkeypatch.setattr(famwise.cli, "_snakemake", lambda plan, options, **kw: calls.append(kw) or (0, []))
+    monkeypatch.setattr(famwise.cli, "run_snakemake", lambda plan, options, **kw: calls.append(kw) or (0, []))
     argv = ["run", str(spec), "--cores", str(cores)]
     if profile:
         argv += ["--profile", str(Path(__file__).parents[1] / "configs" / "profiles" / profile)]

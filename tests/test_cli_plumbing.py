@@ -8,6 +8,7 @@ import sys
 import pytest
 
 import famwise.cli
+import famwise.launch
 import famwise.demo
 from famwise.check_reasons import changed_settings, describe_reasons
 from famwise.cli import main
@@ -66,21 +67,21 @@ class _FakeSnakemake:
 
 
 def test_interrupted_run_exits_130(tiny_study, monkeypatch, capsys):
-    monkeypatch.setattr(famwise.cli.subprocess, "Popen", _FakeSnakemake)
+    monkeypatch.setattr(famwise.launch.subprocess, "Popen", _FakeSnakemake)
     assert main(["run", str(tiny_study), "--cores", "1"]) == 130
     err = capsys.readouterr().err
     assert "famwise: interrupted" in err and "failed" not in err
 
 
 def test_no_op_run_says_nothing_needed_to_run(tiny_study, monkeypatch, capsys):
-    monkeypatch.setattr(famwise.cli, "_snakemake", lambda plan, options, **kw: (0, ["Building DAG of jobs...", "Nothing to be done (all requested files are present and up to date)."]))
+    monkeypatch.setattr(famwise.cli, "run_snakemake", lambda plan, options, **kw: (0, ["Building DAG of jobs...", "Nothing to be done (all requested files are present and up to date)."]))
     assert main(["run", str(tiny_study), "--cores", "1"]) == 0
     assert "famwise: nothing needed to run: every result is up to date" in capsys.readouterr().out
 
 
 def test_refused_snakemake_argument_shows_snakemake_message(tiny_study, monkeypatch, capsys):
     lines = ["usage: snakemake [-h] ...", "snakemake: error: unrecognized arguments: --bogus-flag"]
-    monkeypatch.setattr(famwise.cli, "_snakemake", lambda plan, options, **kw: (2, lines))
+    monkeypatch.setattr(famwise.cli, "run_snakemake", lambda plan, options, **kw: (2, lines))
     assert main(["run", str(tiny_study), "--cores", "1", "--", "--bogus-flag"]) == 2
     assert "famwise: error: Snakemake: unrecognized arguments: --bogus-flag" in capsys.readouterr().err
 

@@ -14,11 +14,11 @@ def test_every_package_folder_is_listed_in_pyproject():
 
 
 def test_workflow_entry_is_the_packaged_rules():
-    from famwise.cli import workflow_entry
+    from famwise.launch import workflow_entry
 
     entry = workflow_entry()
     assert entry.name == "main.smk" and entry.is_file()
-    includes = [line.split('"')[1] for line in entry.read_text().splitlines() if line.startswith("include:")]
+    includes = [line.split('"')[1] for line in entry.read_text().splitlines() if line.strip().startswith("include:")]
     assert all((entry.parent / name).is_file() for name in includes)
 
 

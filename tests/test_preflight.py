@@ -131,7 +131,7 @@ def _no_snakemake(*args, **kwargs):
 @pytest.mark.parametrize("broken", CASES, ids=[c[0] for c in CASES], indirect=True)
 def test_check_names_each_mistake_in_one_line(broken, capsys, monkeypatch):
     folder, fragments = broken
-    monkeypatch.setattr(famwise.cli, "_snakemake", _no_snakemake)
+    monkeypatch.setattr(famwise.cli, "run_snakemake", _no_snakemake)
     before = _files(folder)
     assert main(["check", str(folder / "study.yaml")]) == 2
     out, err = capsys.readouterr()
@@ -146,7 +146,7 @@ def test_check_names_each_mistake_in_one_line(broken, capsys, monkeypatch):
 @pytest.mark.parametrize("broken", CASES, ids=[c[0] for c in CASES], indirect=True)
 def test_run_stops_each_mistake_before_the_first_job(broken, capsys, monkeypatch):
     folder, _ = broken
-    monkeypatch.setattr(famwise.cli, "_snakemake", _no_snakemake)
+    monkeypatch.setattr(famwise.cli, "run_snakemake", _no_snakemake)
     assert main(["run", str(folder / "study.yaml"), "--cores", "1"]) == 2
     assert not (folder / "results").exists()
     assert "Traceback" not in capsys.readouterr().err

@@ -362,7 +362,7 @@ def test_report_shows_the_results_fingerprint(built):
 ])
 def test_methods_count_clusters_exactly_and_grammatically(kind, ids, significant, expected):
     from famwise.report.methods import _correction
-    from famwise.report.results import Correction
+    from famwise.report.results import ReportedCorrection as Correction
 
     cluster_id = np.zeros(12, dtype=int)
     for k, ident in enumerate(ids):

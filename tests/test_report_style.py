@@ -11,7 +11,7 @@ import pytest  # noqa: E402
 from famwise.montage import match_channels, standard_positions  # noqa: E402
 from famwise.report.methods import fmt, method_kind  # noqa: E402
 from famwise.report.scalp import project, topography  # noqa: E402
-from famwise.report.style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
+from famwise.figure_style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
 
 
 def _lightness(rgb: np.ndarray) -> np.ndarray:
@@ -81,7 +81,7 @@ def test_null_histogram_legend_covers_no_data(observed):
     from types import SimpleNamespace
 
     from famwise.report.figures import null_figure
-    from famwise.report.results import Correction
+    from famwise.report.results import ReportedCorrection as Correction
 
     null = np.random.default_rng(0).gamma(4.0, 0.5, 1000)
     stat = np.array([[[observed, -observed / 2]]])

@@ -161,3 +161,22 @@ def test_a_misspelt_required_key_is_reported_at_the_typo(tmp_path):
     message = _error(tmp_path, text)
     line = text.splitlines().index("contrast:") + 1
     assert f"study.yaml:{line} contrast: unknown key 'contrast' (did you mean 'contrasts'?)" in message
+
+
+def test_spec_defaults_live_in_the_model_fields(tmp_path):
+    """The Morlet width (7 cycles) and forming_p (0.01) defaults are resolved by the model, not later."""
+    from famwise.spec.models import ClusterCorrection, Timefreq
+
+    assert Timefreq().cycles == 7.0 and Timefreq().fwhm_ms is None
+    assert Timefreq(fwhm_ms=300.0).cycles is None
+    assert Timefreq(method="multitaper", window_ms=400.0, time_bandwidth=2.0).cycles is None
+    assert ClusterCorrection(method="cluster").forming_p == 0.01
+    assert ClusterCorrection(method="cluster", forming_stat=3.0).forming_p is None
+
+
+def test_methods_paragraph_states_the_default_wavelet_width():
+    from famwise.report.methods import _decomposition
+    from famwise.spec.models import Timefreq
+
+    study = {"subjects": {"source": "epochs"}, "timefreq": Timefreq().model_dump(mode="json")}
+    assert "with 7 cycles" in _decomposition(study)

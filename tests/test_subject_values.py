@@ -9,7 +9,10 @@ import pytest
 
 from famwise.correct.clusters import write_cluster_table
 from famwise.design import ContrastData, build_contrast
-from famwise.subject_values import CAVEAT, main, region_means, sidecar, subject_value_rows
+from famwise.jobs import main as job
+from famwise.settings import ContrastSettings, SubjectValuesSettings
+from famwise.settings_codec import from_plain, to_json
+from famwise.subject_values import CAVEAT, region_means, sidecar, subject_value_rows
 from famwise.timefreq.maps import TimeFreqMaps
 
 CHANNELS = ("Fz", "Cz", "Pz", "Oz")
@@ -37,7 +40,9 @@ def stage(tmp_path):
         files.append(tmp_path / f"sub-{subject}.npz")
         maps.save(files[-1])
     analysis = {"time_ms": [0.0, 600.0], "freq_hz": [5.0, 21.0], "channels": ["Cz", "Pz", "Oz"]}
-    data = build_contrast(files, subjects=SUBJECTS, test="paired", conditions=["high", "low"], analysis=analysis)
+    contrast = from_plain(ContrastSettings, {"name": "load", "test": "paired", "conditions": ["high", "low"],
+                                             "subjects": SUBJECTS, "analysis": analysis, "groups": None, "covariate": None})
+    data = build_contrast(files, settings=contrast)
     data.save(tmp_path / "subjects.npz")
     labels = np.zeros(data.shape, np.int32)
     labels[0:2, 0:2, 1:4] = 1          # Cz-Pz, 6-8 Hz, 100-300 ms
@@ -50,12 +55,19 @@ def stage(tmp_path):
     rows = [_row(1, 0.002, (labels == 1).sum()), _row(-1, 0.03, (labels == -1).sum()),
             _row(2, 0.4, (labels == 2).sum())]
     write_cluster_table(result.with_name("clusters.tsv"), rows)
-    settings = {"contrast": {"name": "load", "test": "paired", "conditions": ["high", "low"], "groups": None},
-                "subjects": SUBJECTS}
+    settings = PAIRED
     out = result.with_name("subject_values.tsv")
-    code = main(["clusters", "--settings", json.dumps(settings), "--subjects", str(tmp_path / "subjects.npz"),
+    code = job(["subject-values", "--settings", to_json(settings), "--subjects", str(tmp_path / "subjects.npz"),
                  "--result", str(result), "--out", str(out), *map(str, files)])
     return {"code": code, "out": out, "files": files, "labels": labels, "settings": settings}
+
+
+PAIRED = SubjectValuesSettings(test="paired", conditions=("high", "low"), group_names=None, covariate_name=None, regions=())
+
+
+def _with_regions(regions: list[dict]) -> SubjectValuesSettings:
+    return from_plain(SubjectValuesSettings, {"test": "paired", "conditions": ["high", "low"], "group_names": None,
+                                              "covariate_name": None, "regions": regions})
 
 
 def test_values_equal_a_direct_mean_over_each_clusters_points(stage):
@@ -93,8 +105,7 @@ def test_a_label_without_points_is_a_user_error(stage, capsys):
         arrays = dict(archive)
     arrays["cluster_id"] = np.where(arrays["cluster_id"] == -1, 0, arrays["cluster_id"])
     np.savez(result, **arrays)
-    settings = {"contrast": {"name": "load", "test": "paired", "conditions": ["high", "low"], "groups": None}}
-    code = main(["clusters", "--settings", json.dumps(settings), "--subjects", str(result.parent.parent / "subjects.npz"),
+    code = job(["subject-values", "--settings", to_json(PAIRED), "--subjects", str(result.parent.parent / "subjects.npz"),
                  "--result", str(result), "--out", str(stage["out"]), *map(str, stage["files"])])
     assert code == 2
     assert "cluster -1 has no point" in capsys.readouterr().err
@@ -105,8 +116,8 @@ def test_planned_regions_are_direct_means_over_their_channels_band_and_window(st
                {"name": "late", "channels": ["Oz"], "freq_hz": [10.0, 25.0], "time_ms": [500.0, 800.0]}]
     out = stage["out"].with_name("planned_values.tsv")
     subjects = stage["out"].parent.parent / "subjects.npz"
-    settings = stage["settings"] | {"regions": regions}
-    code = main(["planned", "--settings", json.dumps(settings), "--subjects", str(subjects), "--out", str(out),
+    settings = _with_regions(regions)
+    code = job(["planned-values", "--settings", to_json(settings), "--subjects", str(subjects), "--out", str(out),
                  *map(str, stage["files"])])
     assert code == 0
     with open(out, newline="") as handle:
@@ -131,8 +142,8 @@ def test_planned_regions_are_direct_means_over_their_channels_band_and_window(st
 ])
 def test_planned_region_outside_the_data_is_a_user_error(stage, capsys, change, message):
     region = {"name": "r", "channels": ["Fz"], "freq_hz": [4.0, 6.0], "time_ms": [0.0, 100.0]} | change
-    settings = stage["settings"] | {"regions": [region]}
-    code = main(["planned", "--settings", json.dumps(settings), "--subjects",
+    settings = _with_regions([region])
+    code = job(["planned-values", "--settings", to_json(settings), "--subjects",
                  str(stage["out"].parent.parent / "subjects.npz"), "--out", str(stage["out"].with_name("x.tsv")),
                  *map(str, stage["files"])])
     assert code == 2

@@ -26,7 +26,7 @@ def cached_study(tmp_path_factory):
     spec = write_tiny_study(folder)
     assert _jobs(spec) == {
         "decompose": 6, "subjects_table": 1, "contrast_data": 1, "observed": 1, "null_shard": 2, "null_info": 1,
-        "correct_points": 4, "report": 1,
+        "correct_points": 4, "study_record": 1, "report": 1,
     }
     _run(spec)
     return spec
@@ -112,21 +112,21 @@ def test_reruns_only_what_changed(tmp_path):
     _run(spec)
 
     spec.write_text(spec.read_text().replace("alpha: 0.05", "alpha: 0.01"))
-    assert _jobs(spec) == {"correct_points": 3, "report": 1}
+    assert _jobs(spec) == {"correct_points": 3, "study_record": 1, "report": 1}
     _run(spec)
 
     spec.write_text(spec.read_text().replace("- method: fdr-bh", "- method: fdr-bh\n      level: 0.1"))
-    assert _jobs(spec) == {"correct_points": 1, "report": 1}
+    assert _jobs(spec) == {"correct_points": 1, "study_record": 1, "report": 1}
     _run(spec)
 
     spec.write_text(spec.read_text().replace("seed: 7", "seed: 8"))
-    assert _jobs(spec) == {"null_shard": 2, "null_info": 1, "correct_points": 1, "report": 1}
+    assert _jobs(spec) == {"null_shard": 2, "null_info": 1, "correct_points": 1, "study_record": 1, "report": 1}
     _run(spec)
 
     spec.write_text(spec.read_text().replace("cycles: 3", "cycles: 4"))
     assert _jobs(spec) == {
         "decompose": 6, "subjects_table": 1, "contrast_data": 1, "observed": 1, "null_shard": 2, "null_info": 1,
-        "correct_points": 3, "report": 1,
+        "correct_points": 3, "study_record": 1, "report": 1,
     }
 
 

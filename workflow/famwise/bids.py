@@ -344,10 +344,25 @@ def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
         writer.writerows(rows)
 
 
+RECORDING_FOLDERS = ("eeg", "ses-*/eeg")
+"""Where a subject's recordings are, relative to ``sub-<id>/``: without sessions, and in each session."""
+
+
+def subject_files(root: Path, subject: str, *, task: str | None) -> list[Path]:
+    """Every file of a subject in its recording folders (of one task when given), sorted.
+
+    The planner declares these as the subject's inputs; the reader picks its
+    recordings among them (:func:`find_recordings`).
+    """
+    sub_dir = Path(root) / f"sub-{subject}"
+    found = [p for folder in RECORDING_FOLDERS for p in sub_dir.glob(f"{folder}/sub-{subject}_*")]
+    return sorted(p for p in found if task is None or f"_task-{task}_" in p.name)
+
+
 def recording_files(root: Path, subject: str) -> list[Path]:
     """Every recording of a subject in a format famwise reads (``*_eeg.edf|.bdf|.vhdr`` in eeg/ and ses-*/eeg/)."""
     sub_dir = Path(root) / f"sub-{subject}"
-    return [p for folder in ("eeg", "ses-*/eeg") for suffix in SUFFIXES
+    return [p for folder in RECORDING_FOLDERS for suffix in SUFFIXES
             for p in sorted(sub_dir.glob(f"{folder}/*_eeg{suffix}"))]
 
 

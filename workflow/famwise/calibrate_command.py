@@ -5,7 +5,8 @@ asks Snakemake for ``calibration/<contrast>.tsv`` of every contrast (building
 the contrast data first when needed). Finished chunks are kept, so a run that
 was interrupted resumes where it stopped. While it runs, the number of null
 datasets done is printed on stderr. When the study's report exists, it is
-rebuilt afterwards so that it shows the calibration.
+rebuilt afterwards so that it shows the calibration (the report rule then
+declares the calibration files as inputs, so they trigger the rerun).
 """
 
 import json
@@ -17,7 +18,10 @@ import threading
 import time
 from pathlib import Path
 
+from famwise import layout
 from famwise.errors import UserError
+from famwise.launch import job_error, run_snakemake
+from famwise.settings_codec import to_json
 
 _PROGRESS = re.compile(r"calibration (\S+): chunk (\d+): (\d+)/(\d+) datasets")
 
@@ -37,7 +41,6 @@ def command_calibrate(args) -> int:
     """Handler of ``famwise calibrate``."""
     from famwise.calibrate import calibration_settings
     from famwise.calibrate.table import read_table
-    from famwise.cli import _job_error, _snakemake
     from famwise.plan import Plan
 
     plan = Plan.from_spec(args.spec)
@@ -47,13 +50,13 @@ def command_calibrate(args) -> int:
     chunks = args.chunks if args.chunks is not None else min(10, max(args.datasets, 1))
     contrasts = [c.name for c in plan.study.contrasts]
     settings = {  # checks the options here, before Snakemake sees them
-        name: calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, chunks=chunks)
+        name: to_json(calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, chunks=chunks))
         for name in contrasts
     }
     config = {"calibrate_datasets": args.datasets, "calibrate_chunks": chunks}
     if args.permutations is not None:
         config["calibrate_permutations"] = args.permutations
-    targets = [f"calibration/{name}.tsv" for name in contrasts]
+    targets = [layout.calibration_files(name)["table"] for name in contrasts]
     used = args.permutations or plan.study.inference.permutations
     print(f"famwise: calibrating {len(contrasts)} contrast(s) with {args.datasets} null datasets each, "
           f"{used} permutations per dataset"
@@ -63,11 +66,11 @@ def command_calibrate(args) -> int:
                                kept=_kept_datasets(plan.loaded.output / "calibration", settings), since=started)
     watcher.start()
     try:
-        code, _ = _snakemake(plan, ["--cores", str(args.cores), *targets], capture=False, config=config)
+        code, _ = run_snakemake(plan, ["--cores", str(args.cores), *targets], capture=False, config=config)
     finally:
         watcher.stop()
     if code != 0:
-        message = _job_error(plan, started)
+        message = job_error(plan, started)
         if message:
             raise UserError(message)
         print(f"famwise: the calibration failed; see the logs under {plan.loaded.output / 'logs'}", file=sys.stderr)
@@ -82,9 +85,9 @@ def command_calibrate(args) -> int:
     report = plan.loaded.output / "report" / "index.html"
     if report.is_file():
         print("\nfamwise: updating the report with the calibration")
-        code, _ = _snakemake(plan, ["--cores", str(args.cores), "report/index.html", "--forcerun", "report"], capture=False)
+        code, _ = run_snakemake(plan, ["--cores", str(args.cores), layout.REPORT_PAGE], capture=False, config=config)
         if code != 0:
-            raise UserError(_job_error(plan, started) or f"the report could not be updated; see the logs under {plan.loaded.output / 'logs'}")
+            raise UserError(job_error(plan, started) or f"the report could not be updated; see the logs under {plan.loaded.output / 'logs'}")
     else:
         print(f"\nfamwise: `famwise run {args.spec}` builds the report, which will include the calibration")
     print(f"famwise: done in {time.time() - started:.1f} s")

@@ -11,7 +11,8 @@ import numpy as np
 
 from famwise.errors import UserError
 from famwise.atomic import save_npz
-from famwise.spec.models import did_you_mean
+from famwise.settings import ContrastSettings
+from famwise.spec.base import did_you_mean
 
 
 @dataclass(frozen=True)
@@ -78,44 +79,30 @@ def load_contrast(path: Path) -> ContrastData:
         )
 
 
-def build_contrast(
-    files: list[Path],
-    *,
-    subjects: list[str],
-    sampling_rates: list[float | None] | None = None,
-    test: str,
-    conditions: list[str],
-    analysis: dict,
-    groups: list[int] | None = None,
-    covariate: list[float] | None = None,
-) -> ContrastData:
+def build_contrast(files: list[Path], *, settings: ContrastSettings, sampling_rates: list[float | None] | None = None) -> ContrastData:
     """Stack the subjects' maps for one contrast, restricted to the analysis region.
 
     Parameters
     ----------
     files : list of path
-        ``tf/sub-<id>.npz`` of each subject, in the order of ``subjects``.
-    subjects : list of str
+        ``tf/sub-<id>.npz`` of each subject, in the order of ``settings.subjects``.
+    settings : ContrastSettings
+        The test, its conditions (paired: first minus second), the subjects,
+        the analysis region, and each subject's group index (0/1) or
+        covariate value when the test uses one.
     sampling_rates : list of float or None, optional
         Sampling rate (Hz) each subject's maps were computed from; must agree.
-    test : str
-        one-sample, paired, two-sample, repeated-measures or correlation.
-    conditions : list of str
-        The contrast's conditions (paired: first minus second).
-    analysis : dict
-        The spec's ``analysis`` section (time_ms, freq_hz, channels).
-    groups, covariate : list, optional
-        Group index (0/1) or covariate value of each subject.
     """
     from famwise.timefreq import load_timefreq  # numba-backed package: only the contrast stage needs it
 
+    subjects, test, analysis = settings.subjects, settings.test, settings.analysis
     _check_rates(sampling_rates or [], subjects)
     maps = [load_timefreq(Path(f)) for f in files]
     _check_consistent(maps, subjects)
     first = maps[0]
-    channel_index = _channel_index(first.channels, analysis.get("channels"))
-    freq_index = _freq_index(first.freqs, analysis.get("freq_hz"))
-    time_index = _time_index(first.times, first.valid[freq_index], first.freqs[freq_index], analysis.get("time_ms"))
+    channel_index = _channel_index(first.channels, analysis.channels)
+    freq_index = _freq_index(first.freqs, analysis.freq_hz)
+    time_index = _time_index(first.times, first.valid[freq_index], first.freqs[freq_index], analysis.time_ms)
     region = np.ix_(channel_index, freq_index, time_index)
 
     def condition_values(tf, subject: str, name: str) -> np.ndarray:
@@ -123,7 +110,7 @@ def build_contrast(
             raise UserError(f"subject {subject}: condition '{name}' has no maps (found: {', '.join(tf.conditions)})")
         return tf.values[tf.conditions.index(name)][region].reshape(-1)
 
-    stacks = [np.stack([condition_values(tf, s, c) for c in conditions]) for tf, s in zip(maps, subjects)]
+    stacks = [np.stack([condition_values(tf, s, c) for c in settings.conditions]) for tf, s in zip(maps, subjects)]
     data = np.stack(stacks).astype(np.float64)  # (n, k, P)
     if test == "paired":
         x = data[:, 0] - data[:, 1]
@@ -138,8 +125,8 @@ def build_contrast(
         channels=tuple(first.channels[i] for i in channel_index),
         freqs=first.freqs[freq_index],
         times=first.times[time_index],
-        groups=None if groups is None else np.asarray(groups, dtype=np.int64),
-        covariate=None if covariate is None else np.asarray(covariate, dtype=np.float64),
+        groups=None if settings.groups is None else np.asarray(settings.groups, dtype=np.int64),
+        covariate=None if settings.covariate is None else np.asarray(settings.covariate, dtype=np.float64),
     )
 
 

@@ -1,8 +1,8 @@
 """One entry per Snakemake rule: ``python -m famwise.jobs <stage> ...``.
 
-Each stage reads the rule's inputs, calls the package, and writes its outputs
-atomically. Settings arrive as JSON text from the rule's params: only the spec
-sections the stage depends on. A user error ends the job with one line
+A dispatcher: each entry parses the rule's settings (JSON text from its params)
+back into the stage's settings type (``famwise.settings``), calls the stage,
+and writes the outputs atomically. A user error ends the job with one line
 ``famwise: error: ...`` on stderr (the job's log) and exit status 2.
 """
 
@@ -22,8 +22,10 @@ if __name__ == "__main__":
 
 import numpy as np  # noqa: E402
 
-from famwise.errors import UserError  # noqa: E402
+from famwise import settings as types  # noqa: E402
 from famwise.atomic import save_npz, write_json, write_text  # noqa: E402
+from famwise.errors import UserError  # noqa: E402
+from famwise.settings_codec import from_json  # noqa: E402
 
 # Each stage imports what it needs inside its function: a job is a fresh process,
 # and the numba and scipy.stats imports of other stages would cost it seconds.
@@ -33,7 +35,7 @@ def _say(message: str) -> None:
     print(f"[{time.strftime('%H:%M:%S')}] {message}", file=sys.stderr, flush=True)
 
 
-def run_decompose(args, settings: dict) -> None:
+def run_decompose(args, settings: types.DecomposeSettings) -> None:
     """Subject input -> ``tf/sub-<id>.npz`` and ``tf/sub-<id>.json`` (with the warnings raised on the way)."""
     import warnings
 
@@ -51,46 +53,46 @@ def run_decompose(args, settings: dict) -> None:
     _say(f"subject {args.subject}: wrote {out}")
 
 
-def _decompose_subject(args, settings: dict):
+def _decompose_subject(args, settings: types.DecomposeSettings):
     """The subject's maps and sidecar record."""
     from famwise import bids
     from famwise.io import load_epochs, subject_file
     from famwise.timefreq import decompose, frequency_grid, load_timefreq
 
     subject = args.subject
-    source = settings["source"]
-    labels = {label: name for name, group in settings["conditions"].items() for label in group}
+    source = settings.source
+    labels = {label: name for name, group in settings.conditions.items() for label in group}
     rejected, sfreq = {}, None
     if source == "timefreq":
-        maps = load_timefreq(subject_file(Path("."), settings["path"], subject))
+        maps = load_timefreq(subject_file(Path("."), settings.path, subject))
     else:
         if source == "epochs":
-            epochs = load_epochs(subject_file(Path("."), settings["path"], subject), subject=subject)
+            epochs = load_epochs(subject_file(Path("."), settings.path, subject), subject=subject)
         else:
-            ep = settings["epochs"]
+            ep = settings.epochs
             epochs = bids.read_subject(
-                Path(settings["path"]), subject, task=settings["task"], window_ms=tuple(ep["window_ms"]),
-                reject_peak_to_peak_uv=ep["reject_peak_to_peak_uv"], reference=ep["reference"], labels=set(labels),
+                Path(settings.path), subject, task=settings.task, window_ms=ep.window_ms,
+                reject_peak_to_peak_uv=ep.reject_peak_to_peak_uv, reference=ep.reference, labels=set(labels),
             )
         sfreq = epochs.sfreq
         for label, count in epochs.rejected.items():
             if label in labels:
                 rejected[labels[label]] = rejected.get(labels[label], 0) + int(count)
-        tf = settings["timefreq"]
-        grid = tf["freqs_hz"]
-        baseline = tf["baseline"]
-        _say(f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf['method']} {tf['measure']}")
+        tf = settings.timefreq
+        grid = tf.freqs_hz
+        baseline = tf.baseline
+        _say(f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf.method} {tf.measure}")
         maps = decompose(
-            epochs, subject=subject, conditions=settings["conditions"],
-            freqs_hz=frequency_grid(grid["start_hz"], grid["stop_hz"], grid["count"], grid["spacing"]),
-            method=tf["method"], cycles=_pair(tf["cycles"]), fwhm_ms=_pair(tf["fwhm_ms"]),
-            window_ms=tf["window_ms"], time_bandwidth=tf["time_bandwidth"], measure=tf["measure"],
-            time_step_ms=tf["time_step_ms"], average=tf["average"], trim=tf["trim"],
-            baseline_mode=baseline["mode"], baseline_window_ms=_pair(baseline["window_ms"]),
-            baseline_pooled=baseline["pooled"], baseline_single_trial=baseline["single_trial"],
-            min_epochs=settings["min_epochs"], progress=_say,
+            epochs, subject=subject, conditions={name: list(group) for name, group in settings.conditions.items()},
+            freqs_hz=frequency_grid(grid.start_hz, grid.stop_hz, grid.count, grid.spacing),
+            method=tf.method, cycles=tf.cycles, fwhm_ms=tf.fwhm_ms,
+            window_ms=tf.window_ms, time_bandwidth=tf.time_bandwidth, measure=tf.measure,
+            time_step_ms=tf.time_step_ms, average=tf.average, trim=tf.trim,
+            baseline_mode=baseline.mode, baseline_window_ms=baseline.window_ms,
+            baseline_pooled=baseline.pooled, baseline_single_trial=baseline.single_trial,
+            min_epochs=settings.min_epochs, progress=_say,
         )
-    missing = [c for c in settings["conditions"] if c not in maps.conditions]
+    missing = [c for c in settings.conditions if c not in maps.conditions]
     if missing:
         raise UserError(f"subject {subject}: no maps for condition(s) {', '.join(missing)} (found: {', '.join(maps.conditions)})")
     info = {
@@ -102,95 +104,71 @@ def _decompose_subject(args, settings: dict):
     return maps, info
 
 
-def _pair(value):
-    return tuple(value) if isinstance(value, list) else value
-
-
-def run_subjects_table(args, settings: dict) -> None:
+def run_subjects_table(args, settings: types.SubjectsTableSettings) -> None:
     """Per-subject JSON sidecars -> ``subjects.tsv`` (included and excluded subjects)."""
     info = {}
     for path in args.inputs:
         record = json.loads(Path(path).read_text())
         info[record["subject"]] = record
-    conditions = settings["conditions"]
+    conditions = settings.conditions
     header = ["subject", "status", "reason", "group"] + [f"n_{c}" for c in conditions] + [f"rejected_{c}" for c in conditions]
     lines = ["\t".join(header)]
-    for subject in settings["found"]:
-        reason = settings["exclude"].get(subject, "")
+    for subject in settings.found:
+        reason = settings.exclude.get(subject, "")
         record = info.get(subject)
         counts = [str(record["n_trials"].get(c, 0)) if record else "n/a" for c in conditions]
         rejected = [str(record["rejected"].get(c, 0)) if record else "n/a" for c in conditions]
         status = "excluded" if reason else "included"
-        lines.append("\t".join([subject, status, reason.replace("\t", " "), settings["groups"].get(subject, "n/a"), *counts, *rejected]))
+        lines.append("\t".join([subject, status, reason.replace("\t", " "), settings.groups.get(subject, "n/a"), *counts, *rejected]))
     write_text(Path(args.out), "\n".join(lines) + "\n")
 
 
-def run_channel_graph(args, settings: dict) -> None:
+def run_channel_graph(args, settings: types.GraphSettings) -> None:
     """Channel names of the data + positions -> ``channels/graph.npz``."""
     from famwise import bids, montage
     from famwise.timefreq import load_timefreq
 
     channels = list(load_timefreq(Path(args.maps)).channels)
-    wanted = settings["analysis_channels"]
+    wanted = settings.analysis_channels
     if wanted:
         lookup = {c.lower(): c for c in channels}
         channels = [lookup.get(name.lower(), name) for name in wanted]
-    spec = settings["channels"]
-    source = spec["positions"].removeprefix("standard-")
+    source = settings.positions.removeprefix("standard-")
     if source == "bids":
         subject = Path(args.maps).stem.removeprefix("sub-")
-        source = bids.electrodes_file(Path(settings["bids_root"]), subject, task=settings["task"])
+        source = bids.electrodes_file(Path(settings.bids_root), subject, task=settings.task)
         if source is None:
             raise UserError(f"channels.positions: 'bids' but subject {subject} has no _electrodes.tsv")
-    neighbors = spec["neighbors"]
+    neighbors = settings.neighbors
     graph, positions = montage.channel_graph(
-        channels, positions=source, method=neighbors["method"], max_distance_mm=neighbors["max_distance_mm"],
-        edges_file=Path(neighbors["edges_file"]) if neighbors["edges_file"] else None,
+        channels, positions=source, method=neighbors.method, max_distance_mm=neighbors.max_distance_mm,
+        edges_file=Path(neighbors.edges_file) if neighbors.edges_file else None,
     )
     _say(montage.graph_summary(graph))
     montage.save_graph(Path(args.out), graph, positions)
 
 
-def run_contrast_data(args, settings: dict) -> None:
+def run_contrast_data(args, settings: types.ContrastSettings) -> None:
     """Subjects' maps -> ``contrasts/<c>/subjects.npz``."""
     from famwise.design import build_contrast
 
-    contrast = settings["contrast"]
     files = [Path(p) for p in args.inputs]
     rates = [json.loads(f.with_suffix(".json").read_text()).get("sfreq") for f in files]
-    data = build_contrast(
-        files, sampling_rates=rates, subjects=settings["subjects"], test=contrast["test"],
-        conditions=contrast["conditions"], analysis=settings["analysis"],
-        groups=settings.get("groups"), covariate=settings.get("covariate"),
-    )
-    _say(f"contrast {contrast['name']}: {len(data.subjects)} subjects x {np.prod(data.shape)} points {data.shape}")
+    data = build_contrast(files, sampling_rates=rates, settings=settings)
+    _say(f"contrast {settings.name}: {len(data.subjects)} subjects x {np.prod(data.shape)} points {data.shape}")
     data.save(Path(args.out))
 
 
-def run_observed(args, settings: dict) -> None:
-    """Contrast data -> ``contrasts/<c>/observed.npz``."""
+def run_observed(args, settings: types.ObservedSettings) -> None:
+    """Contrast data -> ``contrasts/<c>/observed.npz`` (with the derived forming thresholds)."""
     from famwise.design import load_contrast
-    from famwise.nulls.shard import identity_statistic
-    from famwise.stats import compute
+    from famwise.observed import observed_arrays, save_observed
 
     data = load_contrast(Path(args.subjects))
-    result = compute(
-        data.x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
-        statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"], tail=settings["tail"],
-    )
-    # The stored map is the permutation engine's identity row (equal to result.stat up to
-    # float32 rounding), so that every correction compares the null with the same bits.
-    stat = identity_statistic(data, settings=settings)
-    shape = data.shape
-    save_npz(
-        Path(args.out), stat=stat.reshape(shape), p=result.p.reshape(shape), df=np.asarray(result.df),
-        effect=result.effect.reshape(shape), effect_size=result.effect_size.reshape(shape),
-        channels=np.array(data.channels), freqs=data.freqs, times=data.times, test=data.test,
-        statistic=result.statistic, n=result.n, tail=result.effective_tail,
-    )
+    save_observed(Path(args.out), observed_arrays(data, data.x, settings))
 
 
-def run_null_shard(args, settings: dict) -> None:
+def run_null_shard(args, settings: types.NullSettings) -> None:
     """Contrast data + observed -> ``contrasts/<c>/nulls/shard-<k>.npz``."""
     from famwise.nulls.shard import null_shard
 
@@ -201,7 +179,7 @@ def run_null_shard(args, settings: dict) -> None:
     save_npz(Path(args.out), **arrays)
 
 
-def run_family_stepdown_shard(args, settings: dict) -> None:
+def run_family_stepdown_shard(args, settings: types.NullSettings) -> None:
     """Every contrast's data + observed -> ``family/<correction>/shard-<k>.npz`` (joint step-down)."""
     from famwise.nulls.shard import family_stepdown_shard
 
@@ -212,47 +190,87 @@ def run_family_stepdown_shard(args, settings: dict) -> None:
     save_npz(Path(args.out), **arrays)
 
 
-def run_null_info(args, settings: dict) -> None:
-    """Contrast data -> ``contrasts/<c>/nulls/info.json`` (size of the permutation table)."""
+def run_null_info(args, settings: types.NullSettings) -> None:
+    """Contrast data -> ``contrasts/<c>/nulls/info.json`` (table size and kind, smallest attainable p)."""
     from famwise.nulls.shard import permutation_info
 
     write_json(Path(args.out), permutation_info(Path(args.subjects), settings=settings))
 
 
-def run_correct(args, settings: dict) -> None:
+def run_correct(args, settings: types.CorrectionSettings) -> None:
     """Observed (+ null shards) -> ``contrasts/<c>/<correction>/result.npz`` (+ clusters.tsv)."""
     from famwise.correct.apply import apply_correction, save_result
 
     result, shape = apply_correction([Path(p) for p in args.inputs], contrast=args.contrast, settings=settings)
     save_result(Path(args.out), result, shape=shape, settings=settings)
-    _say(f"{settings['correction']['label']}: {result.n_significant} significant points")
+    _say(f"{settings.correction.label}: {result.n_significant} significant points")
 
 
-def run_report(args, settings: dict) -> None:
+def run_subject_values(args, settings: types.SubjectValuesSettings) -> None:
+    """Contrast data + a correction's result -> ``subject_values.tsv`` (+ .json): each subject's mean per cluster."""
+    from famwise.subject_values import run
+
+    run(settings, Path(args.subjects), Path(args.result), [Path(p) for p in args.inputs], Path(args.out))
+
+
+def run_planned_values(args, settings: types.SubjectValuesSettings) -> None:
+    """Contrast data -> ``planned_values.tsv`` (+ .json): each subject's mean per planned region."""
+    from famwise.planned_values import run_planned
+
+    run_planned(settings, Path(args.subjects), [Path(p) for p in args.inputs], Path(args.out))
+
+
+def run_study_record(args, settings: types.StudyRecordSettings) -> None:
+    """The validated spec -> ``study.json`` (read by the report)."""
+    write_json(Path(args.out), settings.study)
+
+
+def run_report(args, settings: types.ReportSettings) -> None:
     """Every result -> ``report/`` (index.html, figures, methods.md, provenance.json)."""
-    from famwise.handoff.inputs import study_files
-    from famwise.plan import Plan
     from famwise.report import build_report
 
-    spec_path = Path(settings["spec"])
-    write_json(Path("study.json"), settings["study"])
-    plan = Plan.from_spec(spec_path)
+    spec_path = Path(settings.spec)
     build_report(Path("."), spec_text=spec_path.read_text(encoding="utf-8"), spec_path=spec_path,
-                 input_files=study_files(plan).all)
+                 input_files={name: Path(f) for name, f in settings.input_files.items()})
+
+
+def run_calibrate_chunk(args, settings: types.CalibrationSettings) -> None:
+    """Contrast data -> ``calibration/<c>/chunk-<k>.npz`` (null datasets through every correction)."""
+    from famwise.calibrate.datasets import calibration_chunk
+
+    graph = Path(args.graph) if args.graph.strip() else None
+    save_npz(Path(args.out), **calibration_chunk(Path(args.subjects), graph, chunk=args.chunk, settings=settings, progress=_say))
+
+
+def run_calibrate_table(args, settings: types.CalibrationSettings) -> None:
+    """Chunks -> ``calibration/<c>.tsv`` (+ .json, .png, .svg)."""
+    from famwise.calibrate.table import summarize
+
+    rows = summarize([Path(p) for p in args.inputs], Path(args.out), settings=settings,
+                     subjects=Path(args.subjects), observed=Path(args.observed))
+    for row in rows:
+        _say(f"{settings.contrast}: {row.correction}: FWER {row.fwer:.3f} "
+             f"[{row.fwer_ci_low:.3f}, {row.fwer_ci_high:.3f}] (nominal {row.nominal:g})")
 
 
 STAGES = {
-    "decompose": run_decompose,
-    "subjects-table": run_subjects_table,
-    "channel-graph": run_channel_graph,
-    "contrast-data": run_contrast_data,
-    "observed": run_observed,
-    "null-shard": run_null_shard,
-    "null-info": run_null_info,
-    "family-stepdown-shard": run_family_stepdown_shard,
-    "correct": run_correct,
-    "report": run_report,
+    "decompose": (run_decompose, types.DecomposeSettings),
+    "subjects-table": (run_subjects_table, types.SubjectsTableSettings),
+    "channel-graph": (run_channel_graph, types.GraphSettings),
+    "contrast-data": (run_contrast_data, types.ContrastSettings),
+    "observed": (run_observed, types.ObservedSettings),
+    "null-shard": (run_null_shard, types.NullSettings),
+    "null-info": (run_null_info, types.NullSettings),
+    "family-stepdown-shard": (run_family_stepdown_shard, types.NullSettings),
+    "correct": (run_correct, types.CorrectionSettings),
+    "subject-values": (run_subject_values, types.SubjectValuesSettings),
+    "planned-values": (run_planned_values, types.SubjectValuesSettings),
+    "study-record": (run_study_record, types.StudyRecordSettings),
+    "report": (run_report, types.ReportSettings),
+    "calibrate-chunk": (run_calibrate_chunk, types.CalibrationSettings),
+    "calibrate-table": (run_calibrate_table, types.CalibrationSettings),
 }
+"""Stage name -> (entry, settings type)."""
 
 
 def _parser() -> argparse.ArgumentParser:
@@ -265,8 +283,10 @@ def _parser() -> argparse.ArgumentParser:
     parser.add_argument("--maps")
     parser.add_argument("--subjects")
     parser.add_argument("--observed")
+    parser.add_argument("--result", help="a correction's result.npz (subject values)")
     parser.add_argument("--graph", default="")
     parser.add_argument("--shard", type=int)
+    parser.add_argument("--chunk", type=int, help="calibration chunk index")
     parser.add_argument("--key", help="correction name (joint step-down shards)")
     parser.add_argument("inputs", nargs="*")
     return parser
@@ -274,8 +294,9 @@ def _parser() -> argparse.ArgumentParser:
 
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_intermixed_args(argv)
+    entry, settings_type = STAGES[args.stage]
     try:
-        STAGES[args.stage](args, json.loads(args.settings))
+        entry(args, from_json(settings_type, args.settings))
     except UserError as error:
         print(f"famwise: error: {error}", file=sys.stderr, flush=True)
         return 2

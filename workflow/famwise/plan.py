@@ -1,26 +1,29 @@
 """What a study run consists of: subjects, stages, their settings and files.
 
-The Snakemake rules and ``famwise check`` both read this plan. Each stage's
-settings hold only the spec sections that stage depends on, as plain JSON
-text, so that Snakemake's params trigger reruns exactly what changed.
+The Snakemake rules and ``famwise check`` both read this plan. It is the only
+reader of the spec model: each stage's settings (a type of
+``famwise.settings``) hold only what that stage depends on; the rules pass
+them as JSON text, so that Snakemake's params trigger reruns exactly what
+changed. Paths come from ``famwise.layout``.
 """
 
-import json
 from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
 
 import numpy as np
 
-from famwise import bids
+from famwise import bids, layout
 from famwise.errors import UserError
 from famwise.io import discover_pattern, subject_file
+from famwise.settings import (
+    ClusterNullSettings, ContrastSettings, CorrectionEntry, CorrectionSettings, DecomposeSettings, ExceedanceNullSettings,
+    FormingSettings, GraphSettings, MaxStatNullSettings, NullSettings, ObservedSettings, ReportSettings, StepDownNullSettings,
+    StudyRecordSettings, SubjectsTableSettings, SubjectValuesSettings, TFCENullSettings,
+)
+from famwise.settings_codec import from_plain
 from famwise.spec import LoadedStudy, load_study
-from famwise.spec.models import IDENTIFIER
-
-
-def _json(value) -> str:
-    return json.dumps(value, sort_keys=True, separators=(",", ":"))
+from famwise.spec.base import IDENTIFIER
 
 
 @dataclass(frozen=True)
@@ -106,10 +109,7 @@ class Plan:
         """Absolute input files of one subject's first stage."""
         spec = self.study.subjects
         if spec.source == "bids":
-            root = self.loaded.resolve(spec.path)
-            folder = root / f"sub-{subject}" / "eeg"
-            files = sorted(str(p) for p in folder.glob(f"sub-{subject}_*") if spec.task is None or f"_task-{spec.task}_" in p.name)
-            return files
+            return [str(p) for p in bids.subject_files(self.loaded.resolve(spec.path), subject, task=spec.task)]
         return [str(subject_file(self.loaded.folder, spec.path, subject))]
 
     def check_inputs(self) -> None:
@@ -122,7 +122,8 @@ class Plan:
             files = self.input_files(subject)
             if spec.source == "bids":
                 if not files:
-                    raise UserError(f"subject {subject}: no recording in {self.loaded.resolve(spec.path) / f'sub-{subject}' / 'eeg'}")
+                    folders = " or ".join(f"sub-{subject}/{f}" for f in bids.RECORDING_FOLDERS)
+                    raise UserError(f"subject {subject}: no recording in {folders} of {self.loaded.resolve(spec.path)}")
             elif not Path(files[0]).is_file():
                 raise UserError(f"subject {subject}: file not found: {files[0]} (from {name} subjects.path '{spec.path}')")
         for index, contrast in enumerate(self.study.contrasts):
@@ -143,8 +144,8 @@ class Plan:
         scheme = {"one-sample": "sign-flip", "paired": "sign-flip", "two-sample": "label", "repeated-measures": "within-subject", "correlation": "covariate"}
         first = None
         for contrast in self.study.contrasts:
-            settings = json.loads(self.contrast_settings(contrast.name))
-            design = (scheme[contrast.test], tuple(settings["subjects"]), tuple(settings.get("groups") or ()), len(contrast.conditions) if contrast.test == "repeated-measures" else 0)
+            settings = self.contrast_settings(contrast.name)
+            design = (scheme[contrast.test], settings.subjects, settings.groups or (), len(contrast.conditions) if contrast.test == "repeated-measures" else 0)
             if first is None:
                 first = (contrast.name, design)
             elif design != first[1]:
@@ -171,11 +172,11 @@ class Plan:
             return []
         warnings = []
         for contrast in self.study.contrasts:
-            settings = json.loads(self.contrast_settings(contrast.name))
+            settings = self.contrast_settings(contrast.name)
             n_conditions = len(contrast.conditions) if contrast.test == "repeated-measures" else None
-            groups = settings.get("groups")
+            groups = settings.groups
             table = make_table(
-                contrast.test, n_subjects=len(settings["subjects"]), permutations=inference.permutations,
+                contrast.test, n_subjects=len(settings.subjects), permutations=inference.permutations,
                 seed=self.study.seed, groups=None if groups is None else np.asarray(groups), n_conditions=n_conditions,
             )
             tail = "greater" if contrast.test == "repeated-measures" else inference.tail
@@ -184,41 +185,36 @@ class Plan:
                 kind = "all" if table.exact else "random"
                 warnings.append(
                     f"contrast {contrast.name}: the smallest attainable permutation p is {smallest:.4g} "
-                    f"({table.n_rows} {kind} {table.scheme} rows for {len(settings['subjects'])} subjects), above alpha "
+                    f"({table.n_rows} {kind} {table.scheme} rows for {len(settings.subjects)} subjects), above alpha "
                     f"{inference.alpha:g}: no permutation-based correction can declare anything; add subjects or permutations"
                 )
         return warnings
 
-    # ---- stage settings (plain JSON text for Snakemake params) ---------------
+    # ---- stage settings (famwise.settings types; rules pass them as JSON text) ----
 
     @property
     def needs_graph(self) -> bool:
         """Whether a cluster or TFCE correction connects channels."""
         return any(c.method in ("cluster", "tfce") and "channel" in c.dims for c in self.study.inference.corrections)
 
-    def decompose_settings(self) -> str:
+    def decompose_settings(self) -> DecomposeSettings:
         s = self.study
-        return _json(
-            {
-                "source": s.subjects.source,
-                "path": self.loaded.run_path(self.loaded.resolve(s.subjects.path)),
-                "task": s.subjects.task,
-                "min_epochs": s.subjects.min_epochs,
-                "conditions": s.conditions,
-                "epochs": s.epochs.model_dump(mode="json"),
-                "timefreq": s.timefreq.model_dump(mode="json") | s.timefreq.morlet_width(),
-            }
-        )
+        return from_plain(DecomposeSettings, {
+            "source": s.subjects.source, "path": self.loaded.run_path(self.loaded.resolve(s.subjects.path)), "task": s.subjects.task,
+            "min_epochs": s.subjects.min_epochs, "conditions": s.conditions,
+            "epochs": s.epochs.model_dump(mode="json"), "timefreq": s.timefreq.model_dump(mode="json"),
+        })
 
-    def graph_settings(self) -> str:
+    def graph_settings(self) -> GraphSettings:
         s = self.study
-        channels = s.channels.model_dump(mode="json")
         positions = s.channels.positions
         if positions not in ("standard-10-10", "standard-10-20", "bids"):
-            channels["positions"] = self.loaded.run_path(self.loaded.resolve(positions))
-        if s.channels.neighbors.edges_file:
-            channels["neighbors"]["edges_file"] = self.loaded.run_path(self.loaded.resolve(s.channels.neighbors.edges_file))
-        return _json({"channels": channels, "analysis_channels": s.analysis.channels, "bids_root": self._bids_root(), "task": s.subjects.task})
+            positions = self.loaded.run_path(self.loaded.resolve(positions))
+        neighbors = s.channels.neighbors.model_dump(mode="json")
+        if neighbors["edges_file"]:
+            neighbors["edges_file"] = self.loaded.run_path(self.loaded.resolve(neighbors["edges_file"]))
+        return from_plain(GraphSettings, {"positions": positions, "neighbors": neighbors, "analysis_channels": s.analysis.channels,
+                                          "bids_root": self._bids_root(), "task": s.subjects.task})
 
     def graph_inputs(self) -> list[str]:
         """Files the graph is built from (besides the first subject's map)."""
@@ -235,96 +231,108 @@ class Plan:
             return None
         return self.loaded.run_path(self.loaded.resolve(self.study.subjects.path))
 
-    def subjects_table_settings(self) -> str:
+    def subjects_table_settings(self) -> SubjectsTableSettings:
         s = self.study
-        return _json({"found": list(self.found_subjects), "exclude": s.subjects.exclude, "groups": self.groups, "conditions": list(s.conditions)})
+        return SubjectsTableSettings(found=self.found_subjects, exclude=dict(s.subjects.exclude), groups=self.groups,
+                                     conditions=tuple(s.conditions))
 
     def contrast(self, name: str):
         """The spec's contrast of that name."""
         return next(c for c in self.study.contrasts if c.name == name)
 
-    def contrast_settings(self, name: str) -> str:
+    def contrast_settings(self, name: str) -> ContrastSettings:
         contrast = self.contrast(name)
         subjects = list(self.subjects)
-        extra = {}
+        groups = covariate = None
         if contrast.test == "two-sample":
             subjects = [sub for sub in subjects if self.groups.get(sub) in contrast.groups]
-            extra["groups"] = [contrast.groups.index(self.groups[sub]) for sub in subjects]
+            groups = [contrast.groups.index(self.groups[sub]) for sub in subjects]
         if contrast.test == "correlation":
             values = self.covariate(contrast.covariate)
-            extra["covariate"] = [values[sub] for sub in subjects]
-        return _json(
-            {
-                "contrast": contrast.model_dump(mode="json"),
-                "subjects": subjects,
-                "analysis": self.study.analysis.model_dump(mode="json"),
-                **extra,
-            }
-        )
+            covariate = [values[sub] for sub in subjects]
+        return from_plain(ContrastSettings, {
+            "name": contrast.name, "test": contrast.test, "conditions": contrast.conditions, "subjects": subjects,
+            "analysis": self.study.analysis.model_dump(mode="json"), "groups": groups, "covariate": covariate,
+        })
 
     def contrast_inputs(self, name: str) -> list[str]:
         """Time-frequency files a contrast reads."""
-        chosen = json.loads(self.contrast_settings(name))["subjects"]
-        return [f"tf/sub-{s}.npz" for s in chosen]
+        return [layout.tf_map(s) for s in self.contrast_settings(name).subjects]
 
-    def statistic_settings(self) -> dict:
+    def _statistic(self) -> dict:
         i = self.study.inference
         return {"statistic": i.statistic, "trim": i.trim, "equal_var": i.equal_var, "tail": i.tail}
 
-    def observed_settings(self) -> str:
-        return _json(self.statistic_settings())
+    def observed_settings(self) -> ObservedSettings:
+        forming = tuple(FormingSettings(label=c.label, forming_p=c.forming_p, forming_stat=c.forming_stat)
+                        for c in self.study.inference.corrections if c.method == "cluster")
+        return ObservedSettings(**self._statistic(), forming=forming)
 
-    def null_collectors(self) -> list[dict]:
+    def null_collectors(self) -> tuple:
         """What each correction needs from the permutation null (no levels: those do not change the null)."""
         collectors = []
         for c in self.study.inference.corrections:
             if not c.needs_null:
                 continue
             if c.method == "max-stat":
-                collectors.append({"key": c.label, "kind": "stepdown" if c.step_down else "maxstat"})
+                collectors.append((StepDownNullSettings if c.step_down else MaxStatNullSettings)(key=c.label))
             elif c.method == "cluster":
-                collectors.append(
-                    {"key": c.label, "kind": "cluster", "cluster_stat": c.cluster_stat, "dims": c.dims, "min_neighbor_channels": c.min_neighbor_channels, **c.forming}
-                )
+                collectors.append(ClusterNullSettings(key=c.label, cluster_stat=c.cluster_stat, dims=tuple(c.dims),
+                                                      min_neighbor_channels=c.min_neighbor_channels))
             elif c.method == "tfce":
-                collectors.append({"key": c.label, "kind": "tfce", "E": c.E, "H": c.H, "step": c.step, "dims": c.dims})
+                collectors.append(TFCENullSettings(key=c.label, E=c.E, H=c.H, step=c.step, dims=tuple(c.dims)))
             else:
-                collectors.append({"key": "exceed", "kind": "exceed"})
-        unique = {json.dumps(c, sort_keys=True): c for c in collectors}
-        return list(unique.values())
+                collectors.append(ExceedanceNullSettings(key="exceed"))
+        return tuple(dict.fromkeys(collectors))
 
-    def null_settings(self) -> str:
+    def null_settings(self) -> NullSettings:
         i = self.study.inference
-        return _json(
-            {
-                "seed": self.study.seed,
-                "permutations": i.permutations,
-                "shards": i.shards,
-                "family": i.family,
-                "collectors": self.null_collectors(),
-                **self.statistic_settings(),
-            }
-        )
+        return NullSettings(seed=self.study.seed, permutations=i.permutations, shards=i.shards, family=i.family,
+                            collectors=self.null_collectors(), **self._statistic())
 
     def correction(self, label: str):
         """The spec's correction whose result folder is ``label``."""
         return next(c for c in self.study.inference.corrections if c.label == label)
 
-    def correction_settings(self, label: str) -> str:
+    def correction_settings(self, label: str) -> CorrectionSettings:
         i = self.study.inference
-        c = self.correction(label)
-        return _json({"correction": c.model_dump(mode="json") | {"label": label}, "alpha": i.alpha, "tail": i.tail, "family": i.family,
-                      "contrasts": [x.name for x in self.study.contrasts], **({"forming": c.forming} if c.method == "cluster" else {})})
+        entry = from_plain(CorrectionEntry, self.correction(label).model_dump(mode="json") | {"label": label})
+        return CorrectionSettings(correction=entry, alpha=i.alpha, tail=i.tail, family=i.family,
+                                  contrasts=tuple(x.name for x in self.study.contrasts))
 
-    def report_settings(self) -> str:
-        return _json({"study": self.study.model_dump(mode="json"), "spec": self.loaded.run_path(self.loaded.path), "subjects": list(self.subjects)})
+    def subject_values_settings(self, name: str) -> SubjectValuesSettings:
+        contrast = self.contrast(name)
+        regions = [r.model_dump(mode="json") for r in self.study.planned_regions]
+        return from_plain(SubjectValuesSettings, {
+            "test": contrast.test, "conditions": contrast.conditions,
+            "group_names": contrast.groups if contrast.test == "two-sample" else None,
+            "covariate_name": contrast.covariate if contrast.test == "correlation" else None,
+            "regions": regions,
+        })
+
+    def subject_value_files(self) -> list[str]:
+        """Every subject-values table and sidecar: per cluster or TFCE correction, and per planned regions."""
+        tables = [layout.subject_values(c.name, label) for c in self.study.contrasts for label in self.labels_with_cluster_table()]
+        if self.study.planned_regions:
+            tables += [layout.planned_values(c.name) for c in self.study.contrasts]
+        return [f for table in tables for f in (table, layout.sidecar_of(table))]
+
+    def study_record_settings(self) -> StudyRecordSettings:
+        return StudyRecordSettings(study=self.study.model_dump(mode="json"))
+
+    def report_settings(self) -> ReportSettings:
+        """The spec's path and every file the study reads, by the name the spec gives it (hashed in the provenance)."""
+        from famwise.handoff.inputs import study_files
+
+        inputs = {name: self.loaded.run_path(path) for name, path in study_files(self).all.items()}
+        return ReportSettings(spec=self.loaded.run_path(self.loaded.path), input_files=inputs)
 
     # ---- files -------------------------------------------------------------------
 
     def shard_files(self, contrast: str) -> list[str]:
         if not self.study.inference.needs_null:
             return []
-        return [f"contrasts/{contrast}/nulls/shard-{k}.npz" for k in range(self.study.inference.shards)]
+        return [layout.null_shard(contrast, k) for k in range(self.study.inference.shards)]
 
     def correction_inputs(self, contrast: str, label: str) -> list[str]:
         """Observed maps and null shards a correction reads (every contrast's for all-contrasts)."""
@@ -334,25 +342,25 @@ class Plan:
             contrasts = [x.name for x in self.study.contrasts]
         files = []
         for name in contrasts:
-            files.append(f"contrasts/{name}/observed.npz")
+            files.append(layout.observed(name))
             if c.needs_null:
                 files.extend(self.shard_files(name))
         if c.method in ("cluster", "tfce"):
-            files.append("channels/graph.npz")
+            files.append(layout.CHANNEL_GRAPH)
         if self.study.inference.family == "all-contrasts" and c.method == "max-stat" and c.step_down and len(contrasts) > 1:
             files.extend(self.family_shard_files(label))
         return files
 
     def family_shard_files(self, label: str) -> list[str]:
         """Joint step-down shards of a family over every contrast."""
-        return [f"family/{label}/shard-{k}.npz" for k in range(self.study.inference.shards)]
+        return [layout.family_shard(label, k) for k in range(self.study.inference.shards)]
 
     def family_shard_inputs(self) -> dict[str, list[str]]:
         """Every contrast's data and observed map, in spec order (the order points are ranked in)."""
         names = [c.name for c in self.study.contrasts]
         return {
-            "subjects": [f"contrasts/{n}/subjects.npz" for n in names],
-            "observed": [f"contrasts/{n}/observed.npz" for n in names],
+            "subjects": [layout.contrast_data(n) for n in names],
+            "observed": [layout.observed(n) for n in names],
         }
 
     def stepdown_labels(self) -> list[str]:
@@ -362,14 +370,38 @@ class Plan:
         files = []
         for contrast in self.study.contrasts:
             for c in self.study.inference.corrections:
-                files.append(f"contrasts/{contrast.name}/{c.label}/result.npz")
+                files.append(layout.result(contrast.name, c.label))
         return files
 
     def labels_with_cluster_table(self) -> list[str]:
         """Corrections that also write clusters.tsv: cluster inference and TFCE (its significant regions)."""
         return [c.label for c in self.study.inference.corrections if c.method in ("cluster", "tfce")]
 
+    def report_inputs(self) -> list[str]:
+        """Every file the report reads (the spec, whose text it shows, included), and the calibration files when they exist.
+
+        ``famwise calibrate`` plans the workflow again after the calibration, so
+        the report then reruns because its inputs changed.
+        """
+        report = self.report_settings()
+        files = [report.spec, layout.STUDY_RECORD, layout.SUBJECTS_TABLE, *report.input_files.values(), *self.subject_value_files()]
+        if self.needs_graph:
+            files.append(layout.CHANNEL_GRAPH)
+        with_table = set(self.labels_with_cluster_table())
+        for contrast in self.study.contrasts:
+            files.append(layout.observed(contrast.name))
+            if self.study.inference.needs_null:
+                files.append(layout.null_info(contrast.name))
+            for c in self.study.inference.corrections:
+                files.append(layout.result(contrast.name, c.label))
+                if c.label in with_table:
+                    files += [layout.cluster_table(contrast.name, c.label), layout.cluster_sidecar(contrast.name, c.label)]
+            calibration = layout.calibration_files(contrast.name)
+            if (self.loaded.output / calibration["table"]).is_file():
+                files += [*calibration.values(), layout.contrast_data(contrast.name)]
+        return files
+
     def final_files(self) -> list[str]:
         """Every file ``rule all`` asks for."""
-        return ["report/index.html", "subjects.tsv", *self.result_files()]
+        return [layout.REPORT_PAGE, layout.SUBJECTS_TABLE, *self.result_files()]
 

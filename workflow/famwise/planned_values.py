@@ -13,16 +13,17 @@ import numpy as np
 
 from famwise.design import load_contrast
 from famwise.errors import UserError
+from famwise.settings import PlannedRegionSettings, SubjectValuesSettings
 from famwise.subject_values import measure_text, write_subject_values
 
 
-def region_index(region: dict, number: int, channels, freqs: np.ndarray, times: np.ndarray,
+def region_index(region: PlannedRegionSettings, number: int, channels, freqs: np.ndarray, times: np.ndarray,
                  valid: np.ndarray) -> tuple:
     """Index arrays (channels, frequencies, times) of one planned region in a time-frequency grid.
 
     Parameters
     ----------
-    region : dict
+    region : PlannedRegionSettings
         ``name``, ``channels``, ``freq_hz`` [low, high] and ``time_ms`` [start, end].
     number : int
         Position in ``planned_regions`` (for messages).
@@ -32,17 +33,17 @@ def region_index(region: dict, number: int, channels, freqs: np.ndarray, times: 
     valid : ndarray of bool, shape (n_freqs, n_times)
         False in the cone of influence.
     """
-    where = f"planned_regions[{number}] ('{region['name']}')"
+    where = f"planned_regions[{number}] ('{region.name}')"
     lookup = {c.lower(): i for i, c in enumerate(channels)}
-    unknown = [c for c in region["channels"] if c.lower() not in lookup]
+    unknown = [c for c in region.channels if c.lower() not in lookup]
     if unknown:
         raise UserError(f"{where}.channels: unknown channels {unknown} (the data have {', '.join(channels)})")
-    low, high = region["freq_hz"]
+    low, high = region.freq_hz
     f = np.flatnonzero((freqs >= low - 1e-9) & (freqs <= high + 1e-9))
     if f.size == 0:
         raise UserError(f"{where}.freq_hz: no decomposed frequency lies in [{low:g}, {high:g}] Hz "
                         f"(frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)")
-    start, stop = region["time_ms"]
+    start, stop = region.time_ms
     t = np.flatnonzero((times >= start / 1e3 - 1e-9) & (times <= stop / 1e3 + 1e-9))
     if t.size == 0:
         raise UserError(f"{where}.time_ms: no time point lies in [{start:g}, {stop:g}] ms "
@@ -50,10 +51,10 @@ def region_index(region: dict, number: int, channels, freqs: np.ndarray, times: 
     if not valid[np.ix_(f, t)].all():
         raise UserError(f"{where}: the window reaches into the edge-affected cells (cone of influence); "
                         "shorten it or use longer epochs")
-    return np.array([lookup[c.lower()] for c in region["channels"]]), f, t
+    return np.array([lookup[c.lower()] for c in region.channels]), f, t
 
 
-def planned_means(files: list[Path], regions: list[dict], conditions: list[str]) -> np.ndarray:
+def planned_means(files: list[Path], regions: tuple[PlannedRegionSettings, ...], conditions: list[str]) -> np.ndarray:
     """Each subject's mean over each region per condition, shape (n_subjects, n_conditions, n_regions)."""
     from famwise.timefreq import load_timefreq  # numba-backed package: loaded only here
 
@@ -69,25 +70,25 @@ def planned_means(files: list[Path], regions: list[dict], conditions: list[str])
     return out
 
 
-def run_planned(settings: dict, subjects: Path, files: list[Path], out: Path) -> None:
+def run_planned(settings: SubjectValuesSettings, subjects: Path, files: list[Path], out: Path) -> None:
     """The stage: the contrast's subjects' maps -> planned_values.tsv and .json."""
-    contrast, regions = settings["contrast"], settings["regions"]
-    names = [r["name"] for r in regions]
+    regions = settings.regions
+    names = [r.name for r in regions]
     if len(set(names)) != len(names):
         raise UserError(f"planned_regions: names must differ (found {names})")
-    conditions = list(contrast["conditions"])
+    conditions = list(settings.conditions)
     data = load_contrast(subjects)
     if len(files) != len(data.subjects):
         raise UserError(f"planned values: {len(files)} time-frequency files for {len(data.subjects)} subjects")
     means = planned_means(files, regions, conditions)
-    test = contrast["test"]
+    test = settings.test
     lines = []
     for r, region in enumerate(regions):
-        size = len(region["channels"]) * _count(files[0], region, r)
+        size = len(region.channels) * _count(files[0], region, r)
         for s, subject in enumerate(data.subjects):
-            line = {"id": region["name"], "n_points": size, "subject": subject}
+            line = {"id": region.name, "n_points": size, "subject": subject}
             if test == "two-sample":
-                line["group"] = contrast["groups"][int(data.groups[s])]
+                line["group"] = settings.group_names[int(data.groups[s])]
             if data.covariate is not None:
                 line["covariate"] = float(data.covariate[s])
             line |= {name: float(means[s, k, r]) for k, name in enumerate(conditions)}
@@ -96,10 +97,10 @@ def run_planned(settings: dict, subjects: Path, files: list[Path], out: Path) ->
             lines.append(line)
     write_subject_values(out, lines, _sidecar(test, conditions, regions, measure_text(files[0]),
                                               grouped=test == "two-sample",
-                                              covariate=contrast.get("covariate") if data.covariate is not None else None))
+                                              covariate=settings.covariate_name if data.covariate is not None else None))
 
 
-def _count(path: Path, region: dict, number: int) -> int:
+def _count(path: Path, region: PlannedRegionSettings, number: int) -> int:
     """Frequencies x times of a region in one file's grid."""
     with np.load(path, allow_pickle=False) as tf:
         valid = tf["valid"] if "valid" in tf.files else np.ones((len(tf["freqs"]), len(tf["times"])), bool)
@@ -107,12 +108,12 @@ def _count(path: Path, region: dict, number: int) -> int:
     return f.size * t.size
 
 
-def _sidecar(test: str, conditions: list[str], regions: list[dict], measure: str, *, grouped: bool,
+def _sidecar(test: str, conditions: list[str], regions: tuple[PlannedRegionSettings, ...], measure: str, *, grouped: bool,
              covariate: str | None) -> dict:
     described = {
         "id": {"Description": "Planned region name (spec key planned_regions).",
-               "Levels": {r["name"]: f"{','.join(r['channels'])}; {r['freq_hz'][0]:g} to {r['freq_hz'][1]:g} Hz; "
-                                     f"{r['time_ms'][0]:g} to {r['time_ms'][1]:g} ms" for r in regions}},
+               "Levels": {r.name: f"{','.join(r.channels)}; {r.freq_hz[0]:g} to {r.freq_hz[1]:g} Hz; "
+                                     f"{r.time_ms[0]:g} to {r.time_ms[1]:g} ms" for r in regions}},
         "n_points": {"Description": "Number of (channel, frequency, time) points averaged over."},
         "subject": {"Description": "Subject id."},
     }

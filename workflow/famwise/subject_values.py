@@ -13,16 +13,12 @@ the effect and must not be tested again (Kriegeskorte N, Simmons WK,
 Bellgowan PSF, Baker CI (2009). Circular analysis in systems neuroscience:
 the dangers of double dipping. Nature Neuroscience 12:535-540).
 
-Run as ``python -m famwise.subject_values clusters --settings JSON --subjects
-subjects.npz --result result.npz --out subject_values.tsv tf/sub-*.npz`` (or
-``planned ...`` for the spec's planned regions, :mod:`famwise.planned_values`);
-a user error ends with one line ``famwise: error: ...`` and exit status 2.
+The job ``subject-values`` of :mod:`famwise.jobs` runs it (``planned-values``
+the spec's planned regions, :mod:`famwise.planned_values`).
 """
 
-import argparse
 import csv
 import json
-import sys
 from pathlib import Path
 
 import numpy as np
@@ -30,6 +26,7 @@ import numpy as np
 from famwise.atomic import write_text
 from famwise.design import ContrastData, load_contrast
 from famwise.errors import UserError
+from famwise.settings import SubjectValuesSettings
 
 CAVEAT = ("Selected by the same data the test used (circular analysis; Kriegeskorte et al. 2009, "
           "Nature Neuroscience 12:535-540): these values overstate the effect and must not be tested again.")
@@ -184,21 +181,20 @@ def write_subject_values(path: Path, lines: list[dict], columns: dict) -> None:
     write_text(Path(path).with_suffix(".json"), json.dumps(columns, indent=2) + "\n")
 
 
-def run(settings: dict, subjects: Path, result: Path, tf_files: list[Path], out: Path) -> None:
+def run(settings: SubjectValuesSettings, subjects: Path, result: Path, tf_files: list[Path], out: Path) -> None:
     """The stage: one contrast's data, one correction's result -> subject_values.tsv and .json."""
-    contrast = settings["contrast"]
-    conditions = list(contrast["conditions"])
+    conditions = list(settings.conditions)
     data = load_contrast(subjects)
     labels, rows, method = significant_ids(result)
     if labels.size != int(np.prod(data.shape)):
         raise UserError(f"subject values: {result} has {labels.size} points, the contrast {int(np.prod(data.shape))}; "
                         "rerun the correction")
     values = condition_means(tf_files, data, conditions, labels, [int(r["id"]) for r in rows])
-    groups = list(contrast["groups"]) if contrast["test"] == "two-sample" else None
+    groups = list(settings.group_names) if settings.test == "two-sample" else None
     lines = subject_value_rows(data, values, conditions, rows, labels, groups)
-    columns = sidecar(contrast["test"], conditions, measure_text(tf_files[0]),
+    columns = sidecar(settings.test, conditions, measure_text(tf_files[0]),
                       noun="region" if method == "tfce" else "cluster", grouped=groups is not None,
-                      covariate=contrast.get("covariate") if data.covariate is not None else None)
+                      covariate=settings.covariate_name if data.covariate is not None else None)
     write_subject_values(out, lines, columns)
 
 
@@ -206,30 +202,3 @@ def measure_text(path: Path) -> str:
     """The measure and baseline of a time-frequency file in words, e.g. ``power, dB change ...``."""
     with np.load(path, allow_pickle=False) as archive:
         return f"{archive['measure']}, {archive['baseline']}"
-
-
-def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m famwise.subject_values", description=__doc__)
-    parser.add_argument("step", choices=("clusters", "planned"), help="significant clusters or planned regions")
-    parser.add_argument("--settings", required=True, help="the contrast's settings as JSON (planned: with 'regions')")
-    parser.add_argument("--subjects", required=True, help="contrasts/<c>/subjects.npz")
-    parser.add_argument("--result", help="contrasts/<c>/<correction>/result.npz (clusters)")
-    parser.add_argument("--out", required=True, help="the TSV to write")
-    parser.add_argument("maps", nargs="+", help="tf/sub-<id>.npz of the contrast's subjects, in order")
-    args = parser.parse_args(argv)
-    maps = [Path(p) for p in args.maps]
-    try:
-        if args.step == "clusters":
-            run(json.loads(args.settings), Path(args.subjects), Path(args.result), maps, Path(args.out))
-        else:
-            from famwise.planned_values import run_planned  # the planned regions' own stage
-
-            run_planned(json.loads(args.settings), Path(args.subjects), maps, Path(args.out))
-    except UserError as error:
-        print(f"famwise: error: {error}", file=sys.stderr, flush=True)
-        return 2
-    return 0
-
-
-if __name__ == "__main__":
-    sys.exit(main())

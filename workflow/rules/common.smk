@@ -1,6 +1,9 @@
 # Helpers that compute targets and inputs from the plan (no statistics here).
 import re
 
+from famwise import layout
+from famwise.settings_codec import to_json
+
 
 def _alternatives(names):
     return "|".join(re.escape(name) for name in names) or "(?!)"
@@ -17,7 +20,7 @@ def subject_input_files(wildcards):
 
 
 def first_subject_map(wildcards):
-    return f"tf/sub-{PLAN.subjects[0]}.npz"
+    return layout.tf_map(PLAN.subjects[0])
 
 
 def contrast_map_files(wildcards):
@@ -25,60 +28,62 @@ def contrast_map_files(wildcards):
 
 
 def contrast_info_files(wildcards):
-    return [f.replace(".npz", ".json") for f in PLAN.contrast_inputs(wildcards.contrast)]
-
-
-def contrast_settings(wildcards):
-    return PLAN.contrast_settings(wildcards.contrast)
+    return [layout.tf_sidecar(s) for s in PLAN.contrast_settings(wildcards.contrast).subjects]
 
 
 def correction_input_files(wildcards):
     return PLAN.correction_inputs(wildcards.contrast, wildcards.correction)
 
 
-def correction_settings(wildcards):
-    return PLAN.correction_settings(wildcards.correction)
-
-
 def graph_files(wildcards):
-    return ["channels/graph.npz"] if PLAN.needs_graph else []
+    return [layout.CHANNEL_GRAPH] if PLAN.needs_graph else []
 
 
-def null_info_files(wildcards):
-    if not PLAN.study.inference.needs_null:
-        return []
-    return [f"contrasts/{c.name}/nulls/info.json" for c in PLAN.study.contrasts]
+def report_input_files(wildcards):
+    return PLAN.report_inputs()
 
 
-# Settings are passed through functions: Snakemake would otherwise read the braces
-# of the JSON text as wildcards.
+# Settings travel as deterministic JSON text (famwise.settings_codec), passed through
+# functions: Snakemake would otherwise read the braces of the JSON text as wildcards.
 def decompose_settings(wildcards):
-    return PLAN.decompose_settings()
+    return to_json(PLAN.decompose_settings())
 
 
 def subjects_table_settings(wildcards):
-    return PLAN.subjects_table_settings()
+    return to_json(PLAN.subjects_table_settings())
 
 
 def graph_settings(wildcards):
-    return PLAN.graph_settings()
+    return to_json(PLAN.graph_settings())
+
+
+def contrast_settings(wildcards):
+    return to_json(PLAN.contrast_settings(wildcards.contrast))
 
 
 def observed_settings(wildcards):
-    return PLAN.observed_settings()
+    return to_json(PLAN.observed_settings())
 
 
 def null_settings(wildcards):
-    return PLAN.null_settings()
+    return to_json(PLAN.null_settings())
+
+
+def correction_settings(wildcards):
+    return to_json(PLAN.correction_settings(wildcards.correction))
+
+
+def study_record_settings(wildcards):
+    return to_json(PLAN.study_record_settings())
 
 
 def report_settings(wildcards):
-    return PLAN.report_settings()
+    return to_json(PLAN.report_settings())
 
 
 # Scheduler resources (memory in MB, runtime in minutes) estimated from the study's
-# sizes by famwise.resources; a retried job asks for more memory and time.
-import famwise.resources as sizing
+# sizes by famwise.scheduler_sizing; a retried job asks for more memory and time.
+import famwise.scheduler_sizing as sizing
 
 
 def decompose_mem_mb(wildcards, attempt):

@@ -5,11 +5,11 @@ rule correct_points:
     input:
         correction_input_files,
     output:
-        "contrasts/{contrast}/{correction}/result.npz",
+        layout.result("{contrast}", "{correction}"),
     log:
-        "logs/correct/{contrast}-{correction}.log",
+        layout.log("correct", "{contrast}-{correction}"),
     benchmark:
-        "logs/correct/{contrast}-{correction}.benchmark.tsv",
+        layout.job_benchmark("correct", "{contrast}-{correction}"),
     params:
         settings=correction_settings,
     wildcard_constraints:
@@ -27,12 +27,13 @@ rule correct_clusters:
     input:
         correction_input_files,
     output:
-        result="contrasts/{contrast}/{correction}/result.npz",
-        table="contrasts/{contrast}/{correction}/clusters.tsv",
+        result=layout.result("{contrast}", "{correction}"),
+        table=layout.cluster_table("{contrast}", "{correction}"),
+        sidecar=layout.cluster_sidecar("{contrast}", "{correction}"),
     log:
-        "logs/correct/{contrast}-{correction}.log",
+        layout.log("correct", "{contrast}-{correction}"),
     benchmark:
-        "logs/correct/{contrast}-{correction}.benchmark.tsv",
+        layout.job_benchmark("correct", "{contrast}-{correction}"),
     params:
         settings=correction_settings,
     wildcard_constraints:

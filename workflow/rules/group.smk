@@ -6,11 +6,11 @@ rule contrast_data:
         maps=contrast_map_files,
         info=contrast_info_files,
     output:
-        "contrasts/{contrast}/subjects.npz",
+        layout.contrast_data("{contrast}"),
     log:
-        "logs/contrast_data/{contrast}.log",
+        layout.log("contrast_data", "{contrast}"),
     benchmark:
-        "logs/contrast_data/{contrast}.benchmark.tsv",
+        layout.job_benchmark("contrast_data", "{contrast}"),
     params:
         settings=contrast_settings,
     resources:
@@ -22,13 +22,13 @@ rule contrast_data:
 
 rule observed:
     input:
-        "contrasts/{contrast}/subjects.npz",
+        layout.contrast_data("{contrast}"),
     output:
-        "contrasts/{contrast}/observed.npz",
+        layout.observed("{contrast}"),
     log:
-        "logs/observed/{contrast}.log",
+        layout.log("observed", "{contrast}"),
     benchmark:
-        "logs/observed/{contrast}.benchmark.tsv",
+        layout.job_benchmark("observed", "{contrast}"),
     params:
         settings=observed_settings,
     resources:

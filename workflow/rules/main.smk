@@ -17,7 +17,11 @@ include: "nulls.smk"
 include: "correct.smk"
 include: "values.smk"
 include: "report.smk"
-include: "calibrate.smk"
+# The calibration rules exist only when `famwise calibrate` asks for them: otherwise the
+# calibration files are plain inputs of the report, never rebuilt by `famwise run`.
+if "calibrate_datasets" in config:
+
+    include: "calibrate.smk"
 
 
 rule all:

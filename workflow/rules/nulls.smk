@@ -8,15 +8,15 @@ THREADED_JOB = "NUMBA_NUM_THREADS={threads} OMP_NUM_THREADS={threads} OPENBLAS_N
 
 rule null_shard:
     input:
-        subjects="contrasts/{contrast}/subjects.npz",
-        observed="contrasts/{contrast}/observed.npz",
+        subjects=layout.contrast_data("{contrast}"),
+        observed=layout.observed("{contrast}"),
         graph=graph_files,
     output:
-        "contrasts/{contrast}/nulls/shard-{shard}.npz",
+        layout.null_shard("{contrast}", "{shard}"),
     log:
-        "logs/null_shard/{contrast}-{shard}.log",
+        layout.log("null_shard", "{contrast}-{shard}"),
     benchmark:
-        "logs/null_shard/{contrast}-{shard}.benchmark.tsv",
+        layout.job_benchmark("null_shard", "{contrast}-{shard}"),
     params:
         settings=null_settings,
     threads: NULL_THREADS
@@ -31,13 +31,13 @@ rule null_shard:
 
 rule null_info:
     input:
-        "contrasts/{contrast}/subjects.npz",
+        layout.contrast_data("{contrast}"),
     output:
-        "contrasts/{contrast}/nulls/info.json",
+        layout.null_info("{contrast}"),
     log:
-        "logs/null_info/{contrast}.log",
+        layout.log("null_info", "{contrast}"),
     benchmark:
-        "logs/null_info/{contrast}.benchmark.tsv",
+        layout.job_benchmark("null_info", "{contrast}"),
     params:
         settings=null_settings,
     resources:
@@ -51,11 +51,11 @@ rule family_stepdown_shard:
     input:
         unpack(family_shard_inputs),
     output:
-        "family/{correction}/shard-{shard}.npz",
+        layout.family_shard("{correction}", "{shard}"),
     log:
-        "logs/family_stepdown_shard/{correction}-{shard}.log",
+        layout.log("family_stepdown_shard", "{correction}-{shard}"),
     benchmark:
-        "logs/family_stepdown_shard/{correction}-{shard}.benchmark.tsv",
+        layout.job_benchmark("family_stepdown_shard", "{correction}-{shard}"),
     params:
         settings=null_settings,
     threads: 1

@@ -1,21 +1,33 @@
 # Report stage: every result -> report/index.html, figures, methods.md, provenance.json.
 
 
+rule study_record:
+    output:
+        layout.STUDY_RECORD,
+    log:
+        layout.log("study_record", "all"),
+    benchmark:
+        layout.job_benchmark("study_record", "all"),
+    params:
+        settings=study_record_settings,
+    resources:
+        mem_mb=small_job_mem_mb,
+        runtime=small_job_runtime,
+    shell:
+        "{JOB} study-record --settings {params.settings:q} --out {output} > {log} 2>&1"
+
+
 rule report:
     input:
-        "subjects.tsv",
-        graph_files,
-        PLAN.result_files(),
-        subject_value_files(),
-        null_info_files,
+        report_input_files,
     output:
-        "report/index.html",
-        "report/methods.md",
-        "report/provenance.json",
+        layout.REPORT_PAGE,
+        layout.REPORT_METHODS,
+        layout.REPORT_PROVENANCE,
     log:
-        "logs/report/all.log",
+        layout.log("report", "all"),
     benchmark:
-        "logs/report/all.benchmark.tsv",
+        layout.job_benchmark("report", "all"),
     params:
         settings=report_settings,
     resources:

@@ -5,12 +5,12 @@ rule decompose:
     input:
         subject_input_files,
     output:
-        maps="tf/sub-{subject}.npz",
-        info="tf/sub-{subject}.json",
+        maps=layout.tf_map("{subject}"),
+        info=layout.tf_sidecar("{subject}"),
     log:
-        "logs/decompose/{subject}.log",
+        layout.log("decompose", "{subject}"),
     benchmark:
-        "logs/decompose/{subject}.benchmark.tsv",
+        layout.job_benchmark("decompose", "{subject}"),
     params:
         settings=decompose_settings,
     resources:
@@ -23,13 +23,13 @@ rule decompose:
 
 rule subjects_table:
     input:
-        expand("tf/sub-{subject}.json", subject=PLAN.subjects),
+        [layout.tf_sidecar(subject) for subject in PLAN.subjects],
     output:
-        "subjects.tsv",
+        layout.SUBJECTS_TABLE,
     log:
-        "logs/subjects_table/all.log",
+        layout.log("subjects_table", "all"),
     benchmark:
-        "logs/subjects_table/all.benchmark.tsv",
+        layout.job_benchmark("subjects_table", "all"),
     params:
         settings=subjects_table_settings,
     resources:
@@ -44,11 +44,11 @@ rule channel_graph:
         first_subject_map,
         PLAN.graph_inputs(),
     output:
-        "channels/graph.npz",
+        layout.CHANNEL_GRAPH,
     log:
-        "logs/channel_graph/all.log",
+        layout.log("channel_graph", "all"),
     benchmark:
-        "logs/channel_graph/all.benchmark.tsv",
+        layout.job_benchmark("channel_graph", "all"),
     params:
         settings=graph_settings,
     resources:

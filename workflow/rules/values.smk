@@ -1,59 +1,52 @@
 # Per-subject values: each subject's mean over every significant cluster or TFCE region,
 # and over each planned region of the spec.
-import json as _json_values
 
 
-def subject_value_files(wildcards=None):
-    files = [f"contrasts/{c.name}/{label}/subject_values.tsv"
-             for c in PLAN.study.contrasts for label in PLAN.labels_with_cluster_table()]
-    if PLAN.study.planned_regions:
-        files += [f"contrasts/{c.name}/planned_values.tsv" for c in PLAN.study.contrasts]
-    return files
-
-
-def planned_settings(wildcards):
-    settings = _json_values.loads(PLAN.contrast_settings(wildcards.contrast))
-    settings["regions"] = [r.model_dump(mode="json") for r in PLAN.study.planned_regions]
-    return _json_values.dumps(settings, sort_keys=True, separators=(",", ":"))
+def subject_values_settings(wildcards):
+    return to_json(PLAN.subject_values_settings(wildcards.contrast))
 
 
 rule subject_values:
     input:
-        subjects="contrasts/{contrast}/subjects.npz",
-        result="contrasts/{contrast}/{correction}/result.npz",
-        table="contrasts/{contrast}/{correction}/clusters.tsv",
+        subjects=layout.contrast_data("{contrast}"),
+        result=layout.result("{contrast}", "{correction}"),
+        table=layout.cluster_table("{contrast}", "{correction}"),
         maps=contrast_map_files,
     output:
-        table="contrasts/{contrast}/{correction}/subject_values.tsv",
-        sidecar="contrasts/{contrast}/{correction}/subject_values.json",
+        table=layout.subject_values("{contrast}", "{correction}"),
+        sidecar=layout.sidecar_of(layout.subject_values("{contrast}", "{correction}")),
     log:
-        "logs/subject_values/{contrast}-{correction}.log",
+        layout.log("subject_values", "{contrast}-{correction}"),
+    benchmark:
+        layout.job_benchmark("subject_values", "{contrast}-{correction}"),
     params:
-        settings=contrast_settings,
+        settings=subject_values_settings,
     wildcard_constraints:
         correction=_alternatives(PLAN.labels_with_cluster_table()),
     resources:
         mem_mb=contrast_data_mem_mb,
         runtime=group_job_runtime,
     shell:
-        "{PYTHON} -m famwise.subject_values clusters --settings {params.settings:q} --subjects {input.subjects} "
+        "{JOB} subject-values --settings {params.settings:q} --subjects {input.subjects} "
         "--result {input.result} --out {output.table} {input.maps} > {log} 2>&1"
 
 
 rule planned_values:
     input:
-        subjects="contrasts/{contrast}/subjects.npz",
+        subjects=layout.contrast_data("{contrast}"),
         maps=contrast_map_files,
     output:
-        table="contrasts/{contrast}/planned_values.tsv",
-        sidecar="contrasts/{contrast}/planned_values.json",
+        table=layout.planned_values("{contrast}"),
+        sidecar=layout.sidecar_of(layout.planned_values("{contrast}")),
     log:
-        "logs/planned_values/{contrast}.log",
+        layout.log("planned_values", "{contrast}"),
+    benchmark:
+        layout.job_benchmark("planned_values", "{contrast}"),
     params:
-        settings=planned_settings,
+        settings=subject_values_settings,
     resources:
         mem_mb=contrast_data_mem_mb,
         runtime=group_job_runtime,
     shell:
-        "{PYTHON} -m famwise.subject_values planned --settings {params.settings:q} --subjects {input.subjects} "
+        "{JOB} planned-values --settings {params.settings:q} --subjects {input.subjects} "
         "--out {output.table} {input.maps} > {log} 2>&1"

@@ -10,11 +10,12 @@ the number of chunks.
 
 Modules: `famwise.calibrate.settings` (the settings, light enough for the
 Snakefile), `famwise.calibrate.datasets` (null datasets and chunks),
-`famwise.calibrate.table` (table, figure, report section); ``python -m
-famwise.calibrate`` is the job entry of the calibration rules.
+`famwise.calibrate.table` (table, figure); the report's section is
+`famwise.report.calibration`; the jobs are ``calibrate-chunk`` and
+``calibrate-table`` of ``famwise.jobs``.
 """
 
 from famwise.calibrate.settings import UNCORRECTED, calibration_settings
-from famwise.calibrate.table import CalibrationRow, calibration_section_html, fwer_interval, summarize
+from famwise.calibrate.table import CalibrationRow, fwer_interval, summarize
 
-__all__ = ["UNCORRECTED", "CalibrationRow", "calibration_section_html", "calibration_settings", "fwer_interval", "summarize"]
+__all__ = ["UNCORRECTED", "CalibrationRow", "calibration_settings", "fwer_interval", "summarize"]

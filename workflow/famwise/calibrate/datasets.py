@@ -32,11 +32,9 @@ Nichols TE, Holmes AP (2002). Nonparametric permutation tests for functional
 neuroimaging. Hum Brain Mapp 15:1-25.
 """
 
-import json
 import tempfile
 import zlib
 from collections.abc import Callable
-from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -46,9 +44,11 @@ from famwise.calibrate.settings import UNCORRECTED
 from famwise.correct.apply import apply_correction
 from famwise.design import ContrastData, load_contrast
 from famwise.nulls.engine import run_shard
-from famwise.nulls.shard import identity_statistic, load_graph_arrays, make_collectors, table_for
+from famwise.nulls.shard import load_graph_arrays, make_collectors, table_for
 from famwise.nulls.tables import shard_bounds
-from famwise.stats import compute
+from famwise.observed import observed_arrays, save_observed
+from famwise.settings import CalibrationSettings
+from famwise.settings_codec import to_json
 
 STREAM = 0xCA11
 """Tag of the calibration's random streams (apart from the permutation table's)."""
@@ -92,7 +92,7 @@ def calibration_chunk(
     graph_file: Path | None,
     *,
     chunk: int,
-    settings: dict,
+    settings: CalibrationSettings,
     progress: Callable[[str], None] | None = None,
 ) -> dict[str, np.ndarray]:
     """Run the null datasets of chunk ``chunk`` through every correction.
@@ -106,7 +106,7 @@ def calibration_chunk(
     chunk : int
         Chunk index; it holds datasets [k m, (k + 1) m) with
         m = ceil(datasets / chunks).
-    settings : dict
+    settings : CalibrationSettings
         From :func:`calibration_settings`.
     progress : callable, optional
         Called with a line of text after each dataset.
@@ -122,16 +122,16 @@ def calibration_chunk(
         settings as JSON text.
     """
     data = load_contrast(Path(subjects_file))
-    start, stop = shard_bounds(settings["datasets"], settings["chunks"], chunk)
-    labels = [UNCORRECTED] + [c["correction"]["label"] for c in settings["corrections"]]
-    table = table_for(data, settings=settings) if settings["collectors"] else None
+    start, stop = shard_bounds(settings.datasets, settings.chunks, chunk)
+    labels = [UNCORRECTED] + [c.correction.label for c in settings.corrections]
+    table = table_for(data, settings=settings.nulls) if settings.nulls.collectors else None
     graph = load_graph_arrays(graph_file, len(data.channels))
     counts = np.zeros((stop - start, len(labels)), dtype=np.int64)
-    name = settings["contrast"]
+    name = settings.contrast
     with tempfile.TemporaryDirectory(prefix="famwise-calibrate-") as scratch:
         folder = Path(scratch) / "contrasts" / name
         for row, index in enumerate(range(start, stop)):
-            x = null_dataset(data, dataset_rng(settings["seed"], name, index))
+            x = null_dataset(data, dataset_rng(settings.nulls.seed, name, index))
             counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings)
             if progress:
                 progress(f"calibration {name}: chunk {chunk}: {row + 1}/{stop - start} datasets")
@@ -141,38 +141,29 @@ def calibration_chunk(
         "n_significant": counts,
         "detected": counts > 0,
         "table_rows": np.array(0 if table is None else table.n_rows),
-        "settings": np.array(json.dumps(settings, sort_keys=True)),
+        "settings": np.array(to_json(settings)),
     }
 
 
-def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: dict) -> list[int]:
+def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings) -> list[int]:
     """Significant points of one null dataset: uncorrected, then each correction."""
-    statistic = {key: settings[key] for key in ("statistic", "trim", "equal_var")}
-    result = compute(x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
-                     tail=settings["tail"], **statistic)
-    shape = data.shape
-    # As in the observed stage: the stored map is the permutation engine's identity row.
-    stat = identity_statistic(replace(data, x=x), settings=settings)
-    observed = {
-        "stat": stat.reshape(shape), "p": result.p.reshape(shape), "df": np.asarray(result.df),
-        "channels": np.array(data.channels), "freqs": data.freqs, "times": data.times, "test": data.test,
-        "statistic": result.statistic, "n": result.n, "tail": result.effective_tail,
-    }
+    observed = observed_arrays(data, x, settings.observed)  # the observed stage's own record, forming thresholds included
     inputs = [folder / "observed.npz"]
-    save_npz(inputs[0], **observed)
+    save_observed(inputs[0], observed)
     if table is not None:
-        collectors = make_collectors(settings["collectors"], observed=observed, shape=shape, graph=graph)
+        collectors = make_collectors(settings.nulls.collectors, observed=observed, shape=data.shape, graph=graph)
+        statistic = {"statistic": settings.nulls.statistic, "trim": settings.nulls.trim, "equal_var": settings.nulls.equal_var}
         arrays = run_shard(x, table.rows, collectors=collectors, test=data.test, groups=data.groups,
                            covariate=data.covariate, **statistic)
         arrays["rows"] = np.array([0, table.n_rows])
         arrays["n_rows.total"] = np.array(table.n_rows)
         inputs.append(folder / "nulls" / "shard-0.npz")
         save_npz(inputs[1], **arrays)
-    counts = [int(np.count_nonzero(result.p <= settings["alpha"]))]
-    for correction in settings["corrections"]:
+    counts = [int(np.count_nonzero(observed["p"] <= settings.alpha))]
+    for correction in settings.corrections:
         files = list(inputs)
-        if correction["correction"]["method"] in ("cluster", "tfce") and graph_file is not None:
+        if correction.correction.method in ("cluster", "tfce") and graph_file is not None:
             files.append(Path(graph_file))
-        outcome, _ = apply_correction(files, contrast=settings["contrast"], settings=correction)
+        outcome, _ = apply_correction(files, contrast=settings.contrast, settings=correction)
         counts.append(outcome.n_significant)
     return counts

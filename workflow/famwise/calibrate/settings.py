@@ -1,15 +1,16 @@
 """Settings of one contrast's calibration (kept light: the Snakefile imports this module)."""
 
-import json
+from dataclasses import replace
 
 from famwise.errors import UserError
+from famwise.settings import CalibrationSettings
 
 UNCORRECTED = "uncorrected"
 """Label of the reference row: parametric p <= alpha at any point, no correction."""
 
 
-def calibration_settings(plan, contrast: str, *, datasets: int, permutations: int | None, chunks: int) -> str:
-    """Settings of one contrast's calibration as JSON text (the Snakemake params).
+def calibration_settings(plan, contrast: str, *, datasets: int, permutations: int | None, chunks: int) -> CalibrationSettings:
+    """Settings of one contrast's calibration (the rules pass them as JSON text).
 
     Parameters
     ----------
@@ -31,16 +32,9 @@ def calibration_settings(plan, contrast: str, *, datasets: int, permutations: in
         raise UserError(f"--permutations must be a whole number of at least 1, got {permutations}")
     if int(chunks) != chunks or not 1 <= chunks <= datasets:
         raise UserError(f"--chunks must be between 1 and the number of datasets ({datasets}), got {chunks}")
-    settings = {
-        "contrast": contrast,
-        "seed": plan.study.seed,
-        "datasets": int(datasets),
-        "chunks": int(chunks),
-        "permutations": int(permutations if permutations is not None else inference.permutations),
-        "study_permutations": inference.permutations,
-        "alpha": inference.alpha,
-        "collectors": plan.null_collectors() if inference.needs_null else [],
-        "corrections": [json.loads(plan.correction_settings(c.label)) for c in inference.corrections],
-        **plan.statistic_settings(),
-    }
-    return json.dumps(settings, sort_keys=True, separators=(",", ":"))
+    nulls = replace(plan.null_settings(), permutations=int(permutations if permutations is not None else inference.permutations))
+    return CalibrationSettings(
+        contrast=contrast, datasets=int(datasets), chunks=int(chunks), study_permutations=inference.permutations,
+        alpha=inference.alpha, observed=plan.observed_settings(), nulls=nulls,
+        corrections=tuple(plan.correction_settings(c.label) for c in inference.corrections),
+    )

@@ -16,15 +16,16 @@ illustrated in the case of the binomial. Biometrika 26(4):404-413.
 
 import csv
 import hashlib
-import json
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
+from famwise.atomic import write_json, write_text
 from famwise.calibrate.settings import UNCORRECTED
 from famwise.errors import UserError
-from famwise.atomic import write_json, write_text
+from famwise.settings import CalibrationSettings
+from famwise.settings_codec import to_json
 
 COLUMNS = ("correction", "method", "datasets", "detections", "fwer", "fwer_ci_low", "fwer_ci_high", "mean_fdp",
            "nominal", "permutations")
@@ -87,26 +88,26 @@ def merge_chunks(chunks: list[dict[str, np.ndarray]], *, datasets: int) -> dict[
     return {"labels": labels, "n_significant": np.concatenate([c["n_significant"] for c in chunks])[order]}
 
 
-def calibration_rows(merged: dict[str, np.ndarray], *, settings: dict, table_rows: int | None) -> list[CalibrationRow]:
+def calibration_rows(merged: dict[str, np.ndarray], *, settings: CalibrationSettings, table_rows: int | None) -> list[CalibrationRow]:
     """The table rows from merged chunks.
 
     Parameters
     ----------
     merged : dict
         From :func:`merge_chunks`.
-    settings : dict
+    settings : CalibrationSettings
         The calibration settings.
     table_rows : int or None
         Rows of the permutation table each dataset used (identity included);
         None when no correction needs the permutation null.
     """
-    entries = {c["correction"]["label"]: c["correction"] for c in settings["corrections"]}
+    entries = {c.correction.label: c.record()["correction"] for c in settings.corrections}
     detected = merged["n_significant"] > 0
     rows = []
     for column, label in enumerate(str(x) for x in merged["labels"]):
         entry = entries.get(label, {"method": UNCORRECTED})
         method = entry["method"]
-        nominal = entry.get("level") or settings["alpha"]
+        nominal = entry.get("level") or settings.alpha
         uses_null = method in ("max-stat", "cluster", "tfce") or entry.get("pvalues") == "permutation"
         hits = int(detected[:, column].sum())
         n = int(detected.shape[0])
@@ -119,7 +120,7 @@ def calibration_rows(merged: dict[str, np.ndarray], *, settings: dict, table_row
     return rows
 
 
-def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table_rows: int | None,
+def write_table(path: Path, rows: list[CalibrationRow], *, settings: CalibrationSettings, table_rows: int | None,
                 basis: dict) -> None:
     """``<contrast>.tsv`` and its JSON sidecar (columns, the run's settings and its ``calibration_basis``)."""
     lines = ["\t".join(COLUMNS)]
@@ -127,18 +128,18 @@ def write_table(path: Path, rows: list[CalibrationRow], *, settings: dict, table
         values = [getattr(row, c) for c in COLUMNS]
         lines.append("\t".join("n/a" if v is None else f"{v:.6g}" if isinstance(v, float) else str(v) for v in values))
     write_text(path, "\n".join(lines) + "\n")
-    reduced = settings["permutations"] < settings["study_permutations"]
+    reduced = settings.nulls.permutations < settings.study_permutations
     sidecar = dict(SIDECAR)
     sidecar["Calibration"] = {
-        "contrast": settings["contrast"],
-        "datasets": settings["datasets"],
-        "seed": settings["seed"],
+        "contrast": settings.contrast,
+        "datasets": settings.datasets,
+        "seed": settings.nulls.seed,
         "random_stream": "numpy SeedSequence([seed, 0xCA11, crc32(contrast), dataset index])",
-        "permutations": settings["permutations"],
-        "study_permutations": settings["study_permutations"],
+        "permutations": settings.nulls.permutations,
+        "study_permutations": settings.study_permutations,
         "permutations_reduced": reduced,
         "permutation_table_rows": table_rows,
-        "alpha": settings["alpha"],
+        "alpha": settings.alpha,
         "family": "each contrast on its own (per-contrast), whatever inference.family says",
         "null_datasets": "subjects' own maps with random sign flips (one-sample, paired), shuffled subject order "
                          "against fixed labels or covariate (two-sample, correlation), or conditions shuffled within "
@@ -159,7 +160,7 @@ def read_table(path: Path) -> list[dict]:
     return rows
 
 
-def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: Path, observed: Path) -> list[CalibrationRow]:
+def summarize(chunk_files: list[Path], out: Path, *, settings: CalibrationSettings, subjects: Path, observed: Path) -> list[CalibrationRow]:
     """Merge the chunk files and write ``<contrast>.tsv``, ``.json``, ``.png`` and ``.svg``.
 
     Parameters
@@ -168,7 +169,7 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: P
         Every ``chunk-<k>.npz`` of the contrast.
     out : path
         The TSV to write; the others are written beside it.
-    settings : dict
+    settings : CalibrationSettings
         The calibration settings.
     subjects, observed : path
         The contrast's ``subjects.npz`` and ``observed.npz``: their contents'
@@ -179,15 +180,15 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict, subjects: P
     for path in chunk_files:
         with np.load(path, allow_pickle=False) as archive:
             chunks.append({key: archive[key] for key in archive.files})
-            if json.loads(str(archive["settings"])) != settings:
+            if str(archive["settings"]) != to_json(settings):
                 raise UserError(f"{path} was computed with other calibration settings; delete it and rerun")
-    merged = merge_chunks(chunks, datasets=settings["datasets"])
+    merged = merge_chunks(chunks, datasets=settings.datasets)
     table_rows = int(chunks[0]["table_rows"]) or None
     rows = calibration_rows(merged, settings=settings, table_rows=table_rows)
     out = Path(out)
-    basis = calibration_basis(Path(subjects).parent, settings["corrections"])
+    basis = calibration_basis(Path(subjects).parent, [c.record() for c in settings.corrections])
     write_table(out, rows, settings=settings, table_rows=table_rows, basis=basis)
-    calibration_figure(read_table(out), contrast=settings["contrast"], folder=out.parent, stem=out.stem)
+    calibration_figure(read_table(out), contrast=settings.contrast, folder=out.parent, stem=out.stem)
     return rows
 
 
@@ -195,7 +196,7 @@ def calibration_figure(rows: list[dict], *, contrast: str, folder: Path, stem: s
     """FWER of each correction with its 95% interval and nominal level; writes PNG and SVG, returns the PNG."""
     import matplotlib.pyplot as plt
 
-    from famwise.report.style import ACCENT, MUTED, figure_style, save_figure
+    from famwise.figure_style import ACCENT, MUTED, figure_style, save_figure
 
     fwer = np.array([r["fwer"] for r in rows])
     low = np.array([r["fwer_ci_low"] for r in rows])
@@ -225,55 +226,6 @@ def calibration_figure(rows: list[dict], *, contrast: str, folder: Path, stem: s
         ax.text(1.0, 1.0, "dashes: nominal level\nbars: 95% interval\n\u25b2 off scale (value shown)", transform=ax.transAxes,
                 ha="right", va="bottom", fontsize=7, color=MUTED)
         return save_figure(figure, folder, stem)
-
-
-def calibration_section_html(output_dir: Path, corrections: dict[str, list[dict]]) -> str | None:
-    """Report section: every contrast's calibration table and figure, or None when none has been run.
-
-    Reads ``<output>/calibration/<contrast>.tsv`` (+ .json, .png); recomputes
-    nothing. ``corrections`` maps each contrast to the settings of its
-    current correction results (the ``settings`` of their ``result.npz``); a
-    table whose ``calibration_basis`` differs from the current one gets a
-    warning that it describes earlier data or corrections.
-    """
-    from famwise.report.html import anchor, esc, figure, note, table
-
-    folder = Path(output_dir) / "calibration"
-    files = sorted(folder.glob("*.tsv")) if folder.is_dir() else []
-    if not files:
-        return None
-    parts = ['<section id="calibration"><h2>Error-rate calibration</h2>', note(
-        "Null datasets were made from the subjects' own maps (random sign flips, or shuffled labels, covariate or "
-        "conditions), which keeps the data's real smoothness; each went through every configured correction. "
-        "FWER = share of null datasets with any significant point, with its exact binomial 95% interval. "
-        "In a null dataset every detection is false, so the mean false discovery proportion equals the FWER. "
-        "Rows in bold: the whole interval lies above the nominal level (the correction is liberal on these data).")]
-    titles = {c: SIDECAR[c]["Description"] for c in COLUMNS}
-    for path in files:
-        contrast = path.stem
-        info = json.loads(path.with_suffix(".json").read_text(encoding="utf-8")).get("Calibration", {})
-        rows = read_table(path)
-        cells = [[int(v) if k in ("datasets", "detections") or (k == "permutations" and v != "n/a") else v
-                  for k, v in row.items()] for row in rows]
-        classes = ["significant" if r["method"] != UNCORRECTED and r["fwer_ci_low"] > r["nominal"] else "" for r in rows]
-        parts.append(f'<h3 id="{anchor("calibration", contrast)}">{esc(contrast)}</h3>')
-        recorded = info.get("basis")
-        current = calibration_basis(Path(output_dir) / "contrasts" / contrast, corrections.get(contrast, []))
-        if recorded != current:
-            parts.append(note("This calibration was computed before the latest change to this contrast's data or "
-                              "corrections, so it may not describe the results above: run famwise calibrate "
-                              "again.", warning=True))
-        if info.get("permutations_reduced"):
-            parts.append(note(f"Each null dataset was tested with {info['permutations']} permutations "
-                              f"(the study uses {info['study_permutations']}).", warning=True))
-        parts.append(table(list(COLUMNS), cells, titles=titles, row_classes=classes))
-        png = path.with_suffix(".png")
-        if png.is_file():
-            parts.append(figure(png.read_bytes(), caption=f"<b>{esc(contrast)}</b>: empirical FWER per correction "
-                                f"(points, 95% interval) and its nominal level (dashes).", alt=f"calibration {contrast}",
-                                link=f"../calibration/{contrast}.svg"))
-    parts.append("</section>")
-    return "".join(parts)
 
 
 def calibration_basis(contrast_folder: Path, corrections: list[dict]) -> dict:

@@ -17,6 +17,8 @@ from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.atomic import save_npz
 from famwise.nulls.collectors.protocol import merge_shard_arrays
+from famwise.observed import load_observed, stored_forming_threshold
+from famwise.settings import CorrectionSettings
 
 
 def _load(path: Path) -> dict[str, np.ndarray]:
@@ -36,7 +38,7 @@ def _merged_nulls(files: list[Path]) -> tuple[dict[str, np.ndarray], int]:
     return merged, n_rows
 
 
-def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tuple[CorrectionResult, tuple]:
+def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionSettings) -> tuple[CorrectionResult, tuple]:
     """Run one correction for one contrast.
 
     Parameters
@@ -47,7 +49,7 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
         cluster and TFCE corrections.
     contrast : str
         The contrast whose result is returned.
-    settings : dict
+    settings : CorrectionSettings
         The correction's settings (see ``famwise.plan.Plan.correction_settings``).
 
     Returns
@@ -56,31 +58,31 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
     shape : tuple
         (n_channels, n_freqs, n_times) of the contrast's points.
     """
-    correction = settings["correction"]
-    method = correction["method"]
-    alpha = settings["alpha"]
+    correction = settings.correction
+    method = correction.method
+    alpha = settings.alpha
     observed, shards, graph, family_shards = {}, {}, None, []
     for path in inputs:
         if path.name == "observed.npz":
-            observed[_contrast_of(path)] = _load(path)
+            observed[_contrast_of(path)] = load_observed(path)
         elif path.name == "graph.npz":
             graph = _load(path)
         elif path.parts[0] == "family":
             family_shards.append(path)
         else:
             shards.setdefault(_contrast_of(path), []).append(path)
-    names = [c for c in settings["contrasts"] if c in observed]
+    names = [c for c in settings.contrasts if c in observed]
     nulls = {name: _merged_nulls(files) for name, files in shards.items()}
     if len({n for _, n in nulls.values()}) > 1:
         raise UserError("inference.family: all-contrasts needs contrasts that share one permutation table (same test design and subjects)")
     mine = observed[contrast]
     shape = mine["stat"].shape
     tail = str(mine["tail"])
-    key = correction["label"]
+    key = correction.label
 
     if method in pvalues.METHODS:
-        level = correction.get("level") or alpha
-        if correction["pvalues"] == "permutation":
+        level = correction.level or alpha
+        if correction.pvalues == "permutation":
             ps = [nulls[c][0]["exceed.count"] / nulls[c][1] for c in names]
         else:
             ps = [observed[c]["p"].reshape(-1) for c in names]
@@ -91,14 +93,14 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
         n_rows = nulls[contrast][1]
         max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
         stat = mine["stat"].reshape(-1)
-        if correction["step_down"] and len(names) > 1:
+        if correction.step_down and len(names) > 1:
             family, family_rows = _merged_nulls(family_shards)
             results = maxstat.step_down_family(
                 [observed[c]["stat"].reshape(-1) for c in names], family[f"{key}.count"], family_rows,
                 tail=tail, alpha=alpha, max_null=max_null,
             )
             result = results[names.index(contrast)]
-        elif correction["step_down"]:
+        elif correction.step_down:
             result = maxstat.step_down(stat, nulls[contrast][0][f"{key}.count"], n_rows, tail=tail, alpha=alpha, max_null=max_null)
         else:
             result = maxstat.single_step(stat, max_null, tail=tail, alpha=alpha)
@@ -108,14 +110,13 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
             indptr, indices = np.zeros(shape[0] + 1, np.int32), np.zeros(0, np.int32)
         else:
             indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
-        dims = tuple(correction["dims"])
+        dims = correction.dims
         if method == "cluster":
             from famwise.correct import clusters  # numba kernels: imported only when used
-            from famwise.stats.forming import cluster_threshold
 
             result = clusters.cluster_inference(
-                mine["stat"], max_null, threshold=cluster_threshold(settings["forming"], mine), indptr=indptr, indices=indices,
-                dims=dims, cluster_stat=correction["cluster_stat"], min_neighbor_channels=correction["min_neighbor_channels"],
+                mine["stat"], max_null, threshold=stored_forming_threshold(mine, key), indptr=indptr, indices=indices,
+                dims=dims, cluster_stat=correction.cluster_stat, min_neighbor_channels=correction.min_neighbor_channels,
                 tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
             )
         else:
@@ -124,8 +125,8 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: dict) -> tu
             from famwise.correct.regions import significant_regions
 
             result = tfce.tfce_inference(
-                mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction["E"], H=correction["H"],
-                step=correction["step"], tail=tail, alpha=alpha,
+                mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction.E, H=correction.H,
+                step=correction.step, tail=tail, alpha=alpha,
             )
             region_id, rows = significant_regions(
                 result.maps["tfce"], result.p_corrected, result.mask, mine["stat"], indptr=indptr, indices=indices,
@@ -147,26 +148,26 @@ def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionR
     )
 
 
-def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings: dict) -> None:
+def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings: CorrectionSettings) -> None:
     """Write ``result.npz`` (and ``clusters.tsv`` + sidecar for cluster and TFCE results) atomically."""
     arrays = {
         "p_corrected": np.asarray(result.p_corrected, dtype=np.float64).reshape(shape),
         "mask": np.asarray(result.mask, dtype=bool).reshape(shape),
         "threshold": np.array(np.nan if result.threshold is None else result.threshold, dtype=np.float64),
         "threshold_kind": result.threshold_kind,
-        "method": settings["correction"]["method"],
-        "settings": json.dumps(settings | {"result": result.settings}, default=float),
+        "method": settings.correction.method,
+        "settings": json.dumps(settings.record() | {"result": result.settings}, default=float),
         "n_significant": np.array(result.n_significant),
     }
     if result.null is not None:
         arrays["null"] = np.asarray(result.null, dtype=np.float64)
     for name, values in result.maps.items():
         arrays[name] = np.asarray(values).reshape(shape)
-    if settings["correction"]["method"] == "cluster":
+    if settings.correction.method == "cluster":
         from famwise.correct import clusters
 
         clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters)
-    elif settings["correction"]["method"] == "tfce":
+    elif settings.correction.method == "tfce":
         from famwise.correct import clusters, regions
 
         clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters, sidecar=regions.REGION_SIDECAR)

@@ -15,35 +15,38 @@ from famwise.nulls.collectors.exceedance import ExceedanceCollector
 from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
 from famwise.nulls.engine import iter_null_blocks, run_shard
 from famwise.nulls.tables import make_table, shard_bounds, smallest_attainable_p
-from famwise.stats.forming import cluster_threshold
+from famwise.observed import stored_forming_threshold
+from famwise.settings import CollectorSettings, NullSettings, ObservedSettings
 
 
-def table_for(data: ContrastData, *, settings: dict):
+def table_for(data: ContrastData, *, settings: NullSettings):
     """The study's permutation table for one contrast."""
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
     return make_table(
-        data.test, n_subjects=len(data.subjects), permutations=settings["permutations"], seed=settings["seed"],
+        data.test, n_subjects=len(data.subjects), permutations=settings.permutations, seed=settings.seed,
         groups=data.groups, n_conditions=n_conditions,
     )
 
 
-def identity_statistic(data: ContrastData, *, settings: dict) -> np.ndarray:
+def identity_statistic(data: ContrastData, *, settings: ObservedSettings | NullSettings) -> np.ndarray:
     """The observed statistic computed by the permutation engine (row 0, the identity).
 
     The corrections compare every permutation with this map, so it must be the
     same bits the null's identity row gets, whatever the block or shard.
     """
-    identity = table_for(data, settings={"permutations": 1, "seed": 0}).rows[:1]
+    n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
+    identity = make_table(data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups,
+                          n_conditions=n_conditions).rows[:1]
     block = next(
         iter_null_blocks(
             data.x, identity, test=data.test, groups=data.groups, covariate=data.covariate,
-            statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"],
+            statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
         )
     )
     return np.asarray(block[0], dtype=np.float64)
 
 
-def permutation_info(subjects_file: Path, *, settings: dict) -> dict:
+def permutation_info(subjects_file: Path, *, settings: NullSettings) -> dict:
     """Size and kind of a contrast's permutation table (for the report)."""
     data = load_contrast(subjects_file)
     table = table_for(data, settings=settings)
@@ -51,8 +54,8 @@ def permutation_info(subjects_file: Path, *, settings: dict) -> dict:
         "n_rows": int(table.n_rows),
         "exact": bool(table.exact),
         "scheme": table.scheme,
-        "permutations": settings["permutations"],
-        "smallest_p": float(smallest_attainable_p(table, tail=settings["tail"])),
+        "permutations": settings.permutations,
+        "smallest_p": float(smallest_attainable_p(table, tail=settings.tail)),
     }
 
 
@@ -64,14 +67,18 @@ def load_graph_arrays(path: Path | None, n_channels: int) -> tuple[np.ndarray, n
         return archive["indptr"].astype(np.int32), archive["indices"].astype(np.int32)
 
 
-def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: tuple) -> list:
-    """One collector per entry of the null settings' ``collectors`` list."""
+def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, shape: tuple, graph: tuple) -> list:
+    """One collector per entry of the null settings' ``collectors``.
+
+    A cluster collector's forming threshold is the one the observed stage
+    stored in ``observed`` (``forming_threshold.<label>``).
+    """
     stat = observed["stat"].reshape(-1)
     tail = str(observed["tail"])
     indptr, indices = graph
     collectors = []
     for spec in specs:
-        kind, key = spec["kind"], spec["key"]
+        kind, key = spec.kind, spec.key
         if kind == "exceed":
             collectors.append(ExceedanceCollector(stat, tail=tail, key=key))
         elif kind == "maxstat":
@@ -84,16 +91,16 @@ def make_collectors(specs: list[dict], *, observed: dict, shape: tuple, graph: t
 
             collectors.append(
                 ClusterCollector(
-                    threshold=cluster_threshold(spec, observed), shape=shape, indptr=indptr, indices=indices,
-                    dims=tuple(spec["dims"]), cluster_stat=spec["cluster_stat"],
-                    min_neighbor_channels=spec["min_neighbor_channels"], tail=tail, key=key,
+                    threshold=stored_forming_threshold(observed, key), shape=shape, indptr=indptr, indices=indices,
+                    dims=spec.dims, cluster_stat=spec.cluster_stat,
+                    min_neighbor_channels=spec.min_neighbor_channels, tail=tail, key=key,
                 )
             )
         elif kind == "tfce":
             from famwise.nulls.collectors.largest_tfce import TFCECollector
 
             collectors.append(
-                TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=tuple(spec["dims"]), E=spec["E"], H=spec["H"], step=spec["step"], tail=tail, key=key)
+                TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=spec.dims, E=spec.E, H=spec.H, step=spec.step, tail=tail, key=key)
             )
         else:
             raise ValueError(f"unknown collector kind {kind!r}")
@@ -106,7 +113,7 @@ def null_shard(
     graph_file: Path | None,
     *,
     shard: int,
-    settings: dict,
+    settings: NullSettings,
     progress: Callable[[str], None] | None = None,
 ) -> dict[str, np.ndarray]:
     """Run shard ``shard`` of the contrast's permutation table.
@@ -117,15 +124,15 @@ def null_shard(
     with np.load(observed_file, allow_pickle=False) as archive:
         observed = {key: archive[key] for key in archive.files}
     table = table_for(data, settings=settings)
-    start, stop = shard_bounds(table.n_rows, settings["shards"], shard)
+    start, stop = shard_bounds(table.n_rows, settings.shards, shard)
     graph = load_graph_arrays(graph_file, len(data.channels))
-    collectors = make_collectors(settings["collectors"], observed=observed, shape=data.shape, graph=graph)
+    collectors = make_collectors(settings.collectors, observed=observed, shape=data.shape, graph=graph)
     if progress:
         kind = "exact enumeration" if table.exact else "Monte Carlo"
         progress(f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points")
     arrays = run_shard(
         data.x, table.rows[start:stop], collectors=collectors, test=data.test, groups=data.groups, covariate=data.covariate,
-        statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"],
+        statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
     )
     arrays["rows"] = np.array([start, stop])
     arrays["n_rows.total"] = np.array(table.n_rows)
@@ -139,7 +146,7 @@ def family_stepdown_shard(
     observed_files: list[Path],
     *,
     shard: int,
-    settings: dict,
+    settings: NullSettings,
     key: str,
     progress: Callable[[str], None] | None = None,
 ) -> dict[str, np.ndarray]:
@@ -156,12 +163,12 @@ def family_stepdown_shard(
         with np.load(path, allow_pickle=False) as archive:
             observed.append((archive["stat"].reshape(-1), str(archive["tail"])))
     table = table_for(datas[0], settings=settings)
-    start, stop = shard_bounds(table.n_rows, settings["shards"], shard)
+    start, stop = shard_bounds(table.n_rows, settings.shards, shard)
     collector = StepDownCollector(np.concatenate([stat for stat, _ in observed]), tail=observed[0][1], key=key)
     streams = [
         iter_null_blocks(
             data.x, table.rows[start:stop], test=data.test, groups=data.groups, covariate=data.covariate,
-            statistic=settings["statistic"], trim=settings["trim"], equal_var=settings["equal_var"],
+            statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
         )
         for data in datas
     ]

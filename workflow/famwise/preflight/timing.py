@@ -43,8 +43,7 @@ def _check_span(plan, where: Where, sfreq: float, tmin: float, n_samples: int, s
             f"{nyquist:g} Hz of subject {subject}'s data (sampled at {sfreq:g} Hz)"
         )
     freqs = dec.frequency_grid(grid.start_hz, grid.stop_hz, grid.count, grid.spacing)
-    width = tf.morlet_width()
-    kernels = dec._build_kernels(freqs, sfreq, method=tf.method, cycles=_pair(width["cycles"]), fwhm_ms=_pair(width["fwhm_ms"]),
+    kernels = dec._build_kernels(freqs, sfreq, method=tf.method, cycles=_pair(tf.cycles), fwhm_ms=_pair(tf.fwhm_ms),
                                  window_ms=tf.window_ms, time_bandwidth=tf.time_bandwidth)
     epochs = SimpleNamespace(data=np.empty((0, 0, n_samples)), sfreq=sfreq, tmin=tmin)
     try:

@@ -14,8 +14,8 @@ from famwise.report.provenance import write_provenance
 from famwise.report.results import read_run
 from famwise.report.sections import (FigureWriter, contrast_section, graph_section,
                                      provenance_section, study_section, subjects_section)
-from famwise.report.style import write_atomic
-from famwise.calibrate.table import calibration_section_html
+from famwise.figure_style import write_atomic
+from famwise.report.calibration import calibration_section_html
 
 __all__ = ["build_report", "methods_text", "write_provenance"]
 

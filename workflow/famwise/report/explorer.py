@@ -24,8 +24,8 @@ from pathlib import Path
 import numpy as np
 
 from famwise.report.html import anchor, esc, note
-from famwise.report.results import Contrast, Correction
-from famwise.report.style import DIVERGING, symmetric_limit
+from famwise.report.results import ReportedContrast, ReportedCorrection
+from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.values import CAVEAT, categories, read_values
 
 P_SCALE = 1000.0
@@ -72,7 +72,7 @@ def colour_table(steps: int = 64) -> list[str]:
     return ["#" + "".join(f"{round(v * 255):02x}" for v in colour) for colour in rgb]
 
 
-def _correction_data(correction: Correction, alpha: float, folder: Path) -> dict:
+def _correction_data(correction: ReportedCorrection, alpha: float, folder: Path) -> dict:
     data = {"name": correction.name, "method": correction.method, "noun": correction.table_noun,
             "n_significant": correction.n_significant, "p": pack_p(correction.p_corrected),
             "mask": pack_mask(correction.mask), "clusters": [], "values": {}}
@@ -89,13 +89,13 @@ def _strips(columns: list[str], rows: list[dict]) -> list[dict]:
     return [dict(strip, values=[round(v, 6) for v in strip["values"]]) for strip in categories(columns, rows)]
 
 
-def explorer_data(contrast: Contrast, folder: Path, *, flat: np.ndarray, alpha: float, stat_label: str,
+def explorer_data(contrast: ReportedContrast, folder: Path, *, flat: np.ndarray, alpha: float, stat_label: str,
                   unit: str, positive: str, negative: str) -> dict:
     """Everything the script draws for one contrast, as JSON-ready values.
 
     Parameters
     ----------
-    contrast : Contrast
+    contrast : ReportedContrast
     folder : Path
         The contrast's result folder ``contrasts/<c>`` (for ``subject_values.tsv``).
     flat : ndarray of float, shape (C, 2)

@@ -1,21 +1,21 @@
 """Report figures: time-frequency maps, null histograms, cluster views, channel graph.
 
 Every function draws from stored results only and returns a matplotlib
-figure; :func:`famwise.report.style.save_figure` writes it.
+figure; :func:`famwise.figure_style.save_figure` writes it.
 """
 
 import matplotlib.pyplot as plt
 import numpy as np
 
 from famwise.montage import ChannelGraph, Positions, plot_graph
-from famwise.report.results import Contrast, Correction
+from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.scalp import topography
-from famwise.report.style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
+from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
 
 _FINE = 4
 
 
-def stat_label(contrast: Contrast) -> str:
+def stat_label(contrast: ReportedContrast) -> str:
     """Axis label of the contrast's statistic."""
     if contrast.test == "repeated-measures" or contrast.statistic.upper() == "F":
         return "F"
@@ -78,13 +78,13 @@ def tf_image(ax, image: np.ndarray, freqs: np.ndarray, times_ms: np.ndarray, *,
     return shown
 
 
-def peak_channel(contrast: Contrast) -> int:
+def peak_channel(contrast: ReportedContrast) -> int:
     """Index of the channel holding the largest |statistic|."""
     stat = np.where(np.isfinite(contrast.stat), np.abs(contrast.stat), -np.inf)
     return int(np.unravel_index(np.argmax(stat), stat.shape)[0])
 
 
-def map_figure(contrast: Contrast, mask: np.ndarray, *, count_limit: int, title: str,
+def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int, title: str,
                subtitle: str):
     """A correction's (or the uncorrected) significant points on one contrast.
 
@@ -94,7 +94,7 @@ def map_figure(contrast: Contrast, mask: np.ndarray, *, count_limit: int, title:
 
     Parameters
     ----------
-    contrast : Contrast
+    contrast : ReportedContrast
     mask : ndarray of bool, shape (C, F, T)
     count_limit : int
         Top of the channel-count colour scale (shared by the panels of a
@@ -123,7 +123,7 @@ def map_figure(contrast: Contrast, mask: np.ndarray, *, count_limit: int, title:
     return figure
 
 
-def null_axis_label(correction: Correction, contrast: Contrast) -> str:
+def null_axis_label(correction: ReportedCorrection, contrast: ReportedContrast) -> str:
     """What one value of a correction's permutation null is, with its unit."""
     label = stat_label(contrast)
     if correction.threshold_kind == "cluster":
@@ -135,7 +135,7 @@ def null_axis_label(correction: Correction, contrast: Contrast) -> str:
     return f"largest |{label}| per permutation ({label} units)"
 
 
-def observed_maxima(correction: Correction, contrast: Contrast) -> dict[str, float]:
+def observed_maxima(correction: ReportedCorrection, contrast: ReportedContrast) -> dict[str, float]:
     """The observed largest positive and negative values the null is compared with."""
     if correction.threshold_kind == "cluster":
         values = {"+": [], "-": []}
@@ -155,7 +155,7 @@ def observed_maxima(correction: Correction, contrast: Contrast) -> dict[str, flo
     return result
 
 
-def null_figure(correction: Correction, contrast: Contrast):
+def null_figure(correction: ReportedCorrection, contrast: ReportedContrast):
     """Histogram of a permutation null with the observed maxima and the critical value."""
     figure, ax = plt.subplots(figsize=(6.4, 2.6), layout="constrained")
     null = correction.null[np.isfinite(correction.null)]
@@ -177,7 +177,7 @@ def null_figure(correction: Correction, contrast: Contrast):
     return figure
 
 
-def cluster_points(correction: Correction, contrast: Contrast, row: dict) -> np.ndarray:
+def cluster_points(correction: ReportedCorrection, contrast: ReportedContrast, row: dict) -> np.ndarray:
     """Boolean (C, F, T) map of the points of one cluster of the table."""
     ident = int(row["id"])
     sign = -1 if str(row.get("sign", "+")).strip().lower() in {"-", "negative", "-1"} else 1
@@ -196,7 +196,7 @@ def cluster_points(correction: Correction, contrast: Contrast, row: dict) -> np.
     return correction.mask & in_channels & in_time & in_freq & (np.sign(contrast.stat) == sign)
 
 
-def cluster_figure(contrast: Contrast, correction: Correction, row: dict, flat: np.ndarray,
+def cluster_figure(contrast: ReportedContrast, correction: ReportedCorrection, row: dict, flat: np.ndarray,
                    *, unit: str):
     """Three views of one cluster: TF image, scalp map at its peak, time course.
 

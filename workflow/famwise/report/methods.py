@@ -8,7 +8,7 @@ import numpy as np
 
 from famwise import stage_warnings
 from famwise.report.provenance import package_versions
-from famwise.report.results import Contrast, Correction, Run, correction_entries, read_run
+from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries, read_run
 
 REFERENCES = {
     "bonferroni": "Dunn OJ (1961). Multiple comparisons among means. J Am Stat Assoc 56(293):52-64.",
@@ -107,28 +107,22 @@ def _range(value) -> str:
     return fmt(value)
 
 
-def correction_parameters(spec_entry: dict, correction: Correction | None) -> dict:
+def correction_parameters(spec_entry: dict, correction: ReportedCorrection | None) -> dict:
     """Every parameter of a correction: the spec's entry, then what the run resolved.
 
     Parameters
     ----------
     spec_entry : dict
         The correction's entry in the spec.
-    correction : Correction or None
-        The stored result; its settings add the cluster-forming threshold the
-        run used (``forming``) and the method's own run settings (``result``).
+    correction : ReportedCorrection or None
+        The stored result; its settings add the method's own run settings
+        (``result``), e.g. the cluster-forming threshold in statistic units.
     """
     settings = correction.settings if correction is not None else {}
     parameters = dict(settings.get("correction") or {})
     parameters.update(spec_entry)
     parameters = {k: v for k, v in parameters.items()
                   if k not in {"name", "method", "label"} and v is not None}
-    forming = settings.get("forming")
-    if isinstance(forming, dict):
-        for key, value in forming.items():
-            parameters.setdefault(key if key.startswith("forming") else f"forming {key}", value)
-    elif forming is not None:
-        parameters.setdefault("forming threshold", forming)
     for key, value in (settings.get("result") or {}).items():
         if key == "threshold" and method_kind(correction.method) == "cluster":
             key = "forming threshold (statistic)"
@@ -245,7 +239,7 @@ def _window(study: dict, run: Run) -> str:
     return text
 
 
-def _contrast(contrast: Contrast, spec: dict, study: dict) -> str:
+def _contrast(contrast: ReportedContrast, spec: dict, study: dict) -> str:
     inference = study.get("inference") or {}
     if contrast.statistic == "yuen":
         trim = inference.get("trim")
@@ -261,7 +255,7 @@ def _contrast(contrast: Contrast, spec: dict, study: dict) -> str:
             f"{test}, {contrast.tail}, across n = {contrast.n} participants.")
 
 
-def _resampling(contrast: Contrast, study: dict) -> str:
+def _resampling(contrast: ReportedContrast, study: dict) -> str:
     info = contrast.nulls
     if not info:
         return ""
@@ -277,7 +271,7 @@ def _resampling(contrast: Contrast, study: dict) -> str:
     return text + f"; the smallest attainable p was {fmt(info.get('smallest_p'))}."
 
 
-def _correction(contrast: Contrast, correction: Correction, entry: dict) -> str:
+def _correction(contrast: ReportedContrast, correction: ReportedCorrection, entry: dict) -> str:
     kind = method_kind(correction.method)
     described = _DESCRIPTIONS.get(kind, f"the '{correction.method}' correction")
     text = (f"In contrast {contrast.name}, correction {correction.name} ({described}; "
@@ -300,7 +294,7 @@ def _plural(count: int, noun: str) -> str:
     return f"{count} {noun}" + ("" if count == 1 else "s")
 
 
-def _cluster_count(correction: Correction) -> str:
+def _cluster_count(correction: ReportedCorrection) -> str:
     """How many clusters (or TFCE regions) hold the significant points, exact and grammatical."""
     if correction.threshold_kind == "tfce":
         return f", in {_plural(len(correction.clusters), 'connected region')}" if correction.clusters else ""

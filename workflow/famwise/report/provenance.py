@@ -12,8 +12,8 @@ from importlib import metadata
 from pathlib import Path
 
 from famwise.errors import UserError
+from famwise.figure_style import write_atomic
 from famwise.report.result_hashes import result_hashes, results_fingerprint
-from famwise.report.style import write_atomic
 
 PACKAGES = ("famwise", "numpy", "scipy", "numba", "snakemake", "matplotlib", "pydantic")
 """Packages whose versions are recorded (those not installed are left out)."""

@@ -12,13 +12,14 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import stage_warnings
+from famwise import layout, stage_warnings
 from famwise.errors import UserError
 from famwise.montage import ChannelGraph, Positions, load_graph
+from famwise.observed import load_observed
 
 
 @dataclass(frozen=True)
-class Correction:
+class ReportedCorrection:
     """One correction of one contrast, as stored in ``<correction>/result.npz``.
 
     Attributes
@@ -72,7 +73,7 @@ class Correction:
 
 
 @dataclass(frozen=True)
-class Contrast:
+class ReportedContrast:
     """One contrast: its observed maps, null summary and corrections.
 
     Attributes
@@ -96,7 +97,7 @@ class Contrast:
     nulls : dict
         ``nulls/info.json`` (n_rows, exact, scheme, permutations,
         smallest_p); empty when the contrast has no permutation null.
-    corrections : list of Correction
+    corrections : list of ReportedCorrection
         In spec order.
     """
 
@@ -114,7 +115,7 @@ class Contrast:
     tail: str
     n: int
     nulls: dict
-    corrections: list[Correction]
+    corrections: list[ReportedCorrection]
 
 
 @dataclass(frozen=True)
@@ -132,7 +133,7 @@ class Run:
         The channel neighbor graph, None when the run has no graph file.
     positions : Positions or None
         Positions (mm) of the graph's channels.
-    contrasts : list of Contrast
+    contrasts : list of ReportedContrast
     warnings : list of str
         Warnings the decomposition jobs raised, one line per message naming its subjects.
     """
@@ -142,7 +143,7 @@ class Run:
     subjects: list[dict]
     graph: ChannelGraph | None
     positions: Positions | None
-    contrasts: list[Contrast]
+    contrasts: list[ReportedContrast]
     warnings: list[str] = field(default_factory=list)
 
 
@@ -189,12 +190,12 @@ def read_clusters(folder: Path) -> tuple[list[dict], dict]:
     return rows, columns
 
 
-def _read_correction(folder: Path, name: str) -> Correction:
-    with np.load(_need(folder / "result.npz", f"the result of correction '{name}'")) as data:
+def _read_correction(result_file: Path, name: str) -> ReportedCorrection:
+    with np.load(_need(result_file, f"the result of correction '{name}'")) as data:
         keys = set(data.files)
         settings = _text(data["settings"]) if "settings" in keys else "{}"
-        rows, columns = read_clusters(folder)
-        return Correction(
+        rows, columns = read_clusters(result_file.parent)
+        return ReportedCorrection(
             name=name,
             method=_text(data["method"]) if "method" in keys else name,
             p_corrected=np.asarray(data["p_corrected"], dtype=float),
@@ -212,36 +213,36 @@ def _read_correction(folder: Path, name: str) -> Correction:
         )
 
 
-def _read_contrast(folder: Path, name: str, correction_names: list[str]) -> Contrast:
-    observed = _need(folder / "observed.npz", f"the observed statistics of contrast '{name}'")
-    info_path = folder / "nulls" / "info.json"
+def _read_contrast(output_dir: Path, name: str, correction_names: list[str]) -> ReportedContrast:
+    observed = _need(output_dir / layout.observed(name), f"the observed statistics of contrast '{name}'")
+    info_path = output_dir / layout.null_info(name)
     nulls = json.loads(info_path.read_text(encoding="utf-8")) if info_path.is_file() else {}
-    with np.load(observed) as data:
-        stat = np.asarray(data["stat"], dtype=float)
-        if stat.ndim != 3:
-            raise UserError(f"report: expected 'stat' in {observed} with shape (channels, "
-                            f"frequencies, times), found shape {stat.shape}")
-        contrast = dict(
-            name=name, stat=stat,
-            p=np.asarray(data["p"], dtype=float),
-            effect=np.asarray(data["effect"], dtype=float),
-            effect_size=np.asarray(data["effect_size"], dtype=float),
-            df=np.asarray(data["df"], dtype=float),
-            channels=[str(c) for c in data["channels"]],
-            freqs=np.asarray(data["freqs"], dtype=float),
-            times=np.asarray(data["times"], dtype=float),
-            test=_text(data["test"]),
-            statistic=_text(data["statistic"]) if "statistic" in data.files else "t",
-            tail=_text(data["tail"]) if "tail" in data.files else "two-sided",
-            n=int(data["n"]),
-        )
-    corrections = [_read_correction(folder / c, c) for c in correction_names]
+    data = load_observed(observed)
+    stat = np.asarray(data["stat"], dtype=float)
+    if stat.ndim != 3:
+        raise UserError(f"report: expected 'stat' in {observed} with shape (channels, "
+                        f"frequencies, times), found shape {stat.shape}")
+    contrast = dict(
+        name=name, stat=stat,
+        p=np.asarray(data["p"], dtype=float),
+        effect=np.asarray(data["effect"], dtype=float),
+        effect_size=np.asarray(data["effect_size"], dtype=float),
+        df=np.asarray(data["df"], dtype=float),
+        channels=[str(c) for c in data["channels"]],
+        freqs=np.asarray(data["freqs"], dtype=float),
+        times=np.asarray(data["times"], dtype=float),
+        test=_text(data["test"]),
+        statistic=_text(data["statistic"]) if "statistic" in data else "t",
+        tail=_text(data["tail"]) if "tail" in data else "two-sided",
+        n=int(data["n"]),
+    )
+    corrections = [_read_correction(output_dir / layout.result(name, c), c) for c in correction_names]
     for correction in corrections:
         if correction.mask.shape != stat.shape:
             raise UserError(f"report: expected the mask of correction '{correction.name}' of "
                             f"contrast '{name}' to have shape {stat.shape}, found "
                             f"{correction.mask.shape}; rerun the corrections")
-    return Contrast(nulls=nulls, corrections=corrections, **contrast)
+    return ReportedContrast(nulls=nulls, corrections=corrections, **contrast)
 
 
 def read_run(output_dir: Path) -> Run:
@@ -257,13 +258,13 @@ def read_run(output_dir: Path) -> Run:
     Run
     """
     output_dir = Path(output_dir)
-    study = json.loads(_need(output_dir / "study.json", "the study spec").read_text(encoding="utf-8"))
-    subjects_path = output_dir / "subjects.tsv"
+    study = json.loads(_need(output_dir / layout.STUDY_RECORD, "the study spec").read_text(encoding="utf-8"))
+    subjects_path = output_dir / layout.SUBJECTS_TABLE
     subjects = read_tsv(subjects_path) if subjects_path.is_file() else []
     names = list(correction_entries(study))
-    contrasts = [_read_contrast(output_dir / "contrasts" / c["name"], c["name"], names)
+    contrasts = [_read_contrast(output_dir, c["name"], names)
                  for c in study.get("contrasts", [])]
-    graph_path = output_dir / "channels" / "graph.npz"
+    graph_path = output_dir / layout.CHANNEL_GRAPH
     graph, positions = load_graph(graph_path) if graph_path.is_file() else (None, None)
     included = [row["subject"] for row in subjects if row.get("status", "included") == "included"]
     return Run(output_dir=output_dir, study=study, subjects=subjects, graph=graph,

@@ -5,7 +5,7 @@ from matplotlib.patches import Circle, Polygon
 from scipy.interpolate import RBFInterpolator
 
 from famwise.montage import azimuthal_projection
-from famwise.report.style import ACCENT, DIVERGING
+from famwise.figure_style import ACCENT, DIVERGING
 
 
 def project(xyz: np.ndarray) -> np.ndarray:

@@ -12,9 +12,9 @@ from famwise.report import figures
 from famwise.report.explorer import explorer_block, explorer_data
 from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
-from famwise.report.results import Contrast, Correction, Run, correction_entries
+from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
-from famwise.report.style import figure_style, save_figure
+from famwise.figure_style import figure_style, save_figure
 from famwise.report.values import planned_block, values_block
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
@@ -60,7 +60,7 @@ def direction(spec: dict, positive: bool) -> str:
     return f"{first} > {second}" if positive else f"{first} < {second}"
 
 
-def describe_mask(contrast: Contrast, mask: np.ndarray, spec: dict) -> str:
+def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> str:
     """One plain sentence on where a mask's significant points lie."""
     if not mask.any():
         return "No point reached significance."
@@ -164,7 +164,7 @@ def graph_section(run: Run, write: FigureWriter) -> str:
             + write(fig, "channel_graph", caption=caption, alt="channel neighbor graph"))
 
 
-def channel_flat(run: Run, contrast: Contrast) -> np.ndarray | None:
+def channel_flat(run: Run, contrast: ReportedContrast) -> np.ndarray | None:
     """Projected positions of the contrast's channels, None when some have no position."""
     if run.positions is None:
         return None
@@ -174,7 +174,7 @@ def channel_flat(run: Run, contrast: Contrast) -> np.ndarray | None:
     return project(run.positions.xyz)[[index[c] for c in contrast.channels]]
 
 
-def permutation_notes(contrast: Contrast, study: dict) -> str:
+def permutation_notes(contrast: ReportedContrast, study: dict) -> str:
     """Notes (HTML) on how the permutation count limits the smallest attainable p."""
     info = contrast.nulls
     if not info or info.get("smallest_p") is None:
@@ -195,7 +195,7 @@ def permutation_notes(contrast: Contrast, study: dict) -> str:
     return note(text)
 
 
-def correction_notes(correction: Correction, contrast: Contrast, study: dict) -> str:
+def correction_notes(correction: ReportedCorrection, contrast: ReportedContrast, study: dict) -> str:
     """What a correction's result supports, in plain words (HTML), and its warnings."""
     kind = method_kind(correction.method)
     alpha = alpha_of(study)
@@ -225,7 +225,7 @@ def correction_notes(correction: Correction, contrast: Contrast, study: dict) ->
     return note(text) + warning
 
 
-def cluster_block(contrast: Contrast, correction: Correction, spec: dict, study: dict,
+def cluster_block(contrast: ReportedContrast, correction: ReportedCorrection, spec: dict, study: dict,
                   flat: np.ndarray | None, write: FigureWriter | None) -> str:
     """Cluster table (significant clusters and the largest others) and one figure per
     significant cluster; figures are skipped when ``flat`` (projected positions) is None."""
@@ -271,7 +271,7 @@ def cluster_block(contrast: Contrast, correction: Correction, spec: dict, study:
     return html
 
 
-def contrast_section(run: Run, contrast: Contrast, write: FigureWriter) -> str:
+def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) -> str:
     """Uncorrected map, every correction side by side, nulls, clusters and notes."""
     study = run.study
     spec = next((c for c in study.get("contrasts", []) if c["name"] == contrast.name), {})
@@ -321,7 +321,7 @@ def contrast_section(run: Run, contrast: Contrast, write: FigureWriter) -> str:
     return head + grid + explorer + planned + "".join(details)
 
 
-def _correction_detail(run: Run, contrast: Contrast, correction: Correction, spec: dict,
+def _correction_detail(run: Run, contrast: ReportedContrast, correction: ReportedCorrection, spec: dict,
                        write: FigureWriter) -> str:
     study = run.study
     entry = correction_entries(study).get(correction.name, {})

@@ -11,7 +11,7 @@ import numpy as np
 
 from famwise.report.html import esc, note
 from famwise.report.results import read_tsv
-from famwise.report.style import ACCENT, DIVERGING, MUTED, figure_style
+from famwise.figure_style import ACCENT, DIVERGING, MUTED, figure_style
 
 _MOST = 8
 """Clusters drawn in the static figure (the TSV has every significant one)."""

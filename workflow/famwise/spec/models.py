@@ -1,72 +1,27 @@
 """The study spec: one pydantic model tree, the single source of truth.
 
-Choice types first, then one model per concern, then the root ``Study``.
+Choice types first, then one model per concern, then the root ``Study``;
+the inference section's models live in ``famwise.spec.inference``, the
+building blocks in ``famwise.spec.base``.
 Every model rejects unknown keys and is frozen; every field has a
 description. Checks across sections live in ``Study``'s after-validators and
 raise ``LocatedError`` so that the message names the offending key.
 """
 
-import re
-from pathlib import PurePosixPath
-from typing import Annotated, Literal, Union
+from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
+from pydantic import Field, field_validator, model_validator
+
+from famwise.spec.base import IDENTIFIER, LocatedError, SpecModel, check_name, check_relative, check_window, did_you_mean
+from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's models in one namespace)
+    ClusterCorrection, Correction, Dimension, Family, Inference, MaxStatCorrection, PValueCorrection, StatisticName, Tail,
+    TFCECorrection,
+)
 
 SubjectSource = Literal["epochs", "timefreq", "bids"]
 TestName = Literal["one-sample", "paired", "two-sample", "repeated-measures", "correlation"]
-Tail = Literal["two-sided", "greater", "less"]
-StatisticName = Literal["t", "yuen"]
-Family = Literal["per-contrast", "all-contrasts"]
-PValueMethod = Literal["bonferroni", "sidak", "holm", "hochberg", "fdr-bh", "fdr-by"]
 BaselineMode = Literal["db", "percent", "zscore", "ratio", "none"]
 Measure = Literal["power", "induced", "itpc"]
-Dimension = Literal["channel", "freq", "time"]
-
-IDENTIFIER = re.compile(r"^[A-Za-z0-9]+$")
-NAME = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]*$")
-
-
-class LocatedError(ValueError):
-    """A cross-field problem with the key path (relative to the model) it concerns."""
-
-    def __init__(self, loc: tuple, message: str):
-        super().__init__(message)
-        self.loc = loc
-        self.message = message
-
-
-class SpecModel(BaseModel):
-    """Base of every spec model: unknown keys rejected, frozen."""
-
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-
-def _check_name(value: str, what: str) -> str:
-    if not NAME.match(value):
-        raise ValueError(
-            f"{what} {value!r} must start with a letter or digit and contain only "
-            "letters, digits, '-', '_' and '.' (it becomes a folder name)"
-        )
-    return value
-
-
-def _check_relative(value: str | None) -> str | None:
-    """Relative paths start at the spec's folder and stay inside it; absolute paths are taken as given."""
-    if value is None:
-        return value
-    path = PurePosixPath(value.replace("\\", "/"))
-    if not path.is_absolute() and ".." in path.parts:
-        raise ValueError(
-            f"path {value!r} leaves the study folder; give a path relative to the "
-            "spec file's folder without '..', or an absolute path"
-        )
-    return value
-
-
-def _check_window(value: tuple[float, float] | None, unit: str) -> tuple[float, float] | None:
-    if value is not None and not value[0] < value[1]:
-        raise ValueError(f"window must be [start, end] with start < end, got [{value[0]}, {value[1]}] {unit}")
-    return value
 
 
 class Subjects(SpecModel):
@@ -104,7 +59,7 @@ class Subjects(SpecModel):
     @field_validator("path")
     @classmethod
     def _path_inside(cls, value: str) -> str:
-        return _check_relative(value)
+        return check_relative(value)
 
     @field_validator("ids")
     @classmethod
@@ -143,7 +98,7 @@ class EpochWindow(SpecModel):
     @field_validator("window_ms")
     @classmethod
     def _ordered(cls, value):
-        return _check_window(value, "ms")
+        return check_window(value, "ms")
 
 
 class FrequencyGrid(SpecModel):
@@ -172,7 +127,7 @@ class Baseline(SpecModel):
     @field_validator("window_ms")
     @classmethod
     def _ordered(cls, value):
-        return _check_window(value, "ms")
+        return check_window(value, "ms")
 
     @model_validator(mode="after")
     def _window_needed(self) -> "Baseline":
@@ -187,9 +142,9 @@ class Timefreq(SpecModel):
     method: Literal["morlet", "multitaper"] = Field(default="morlet", description="Complex Morlet wavelets or DPSS multitaper.")
     freqs_hz: FrequencyGrid = Field(default_factory=FrequencyGrid, description="Frequency grid.")
     cycles: float | tuple[float, float] | None = Field(
-        default=None,
+        default=7.0,
         description="Morlet width in cycles: a number, or [at lowest, at highest] frequency growing "
-        "log-linearly. Default 7 when neither cycles nor fwhm_ms is given.",
+        "log-linearly. The default applies to method 'morlet' when fwhm_ms is not given.",
     )
     fwhm_ms: float | tuple[float, float] | None = Field(
         default=None, description="Morlet width as temporal full width at half maximum in ms (a number or [at lowest, at highest])."
@@ -208,6 +163,14 @@ class Timefreq(SpecModel):
         if value is not None and any(v <= 0 for v in (value if isinstance(value, tuple) else (value,))):
             raise ValueError(f"a wavelet width must be positive, got {list(value) if isinstance(value, tuple) else value}")
         return value
+
+    @model_validator(mode="before")
+    @classmethod
+    def _cycles_default_only_for_morlet(cls, data):
+        """The cycles default does not apply when the width is given otherwise (fwhm_ms, multitaper)."""
+        if isinstance(data, dict) and "cycles" not in data and (data.get("fwhm_ms") is not None or data.get("method") == "multitaper"):
+            return {**data, "cycles": None}
+        return data
 
     @model_validator(mode="after")
     def _width(self) -> "Timefreq":
@@ -235,14 +198,6 @@ class Timefreq(SpecModel):
             raise LocatedError(("baseline", "single_trial"), "a pooled baseline cannot also be applied trial by trial; choose one")
         return self
 
-    def morlet_width(self) -> dict:
-        """cycles / fwhm_ms as the decomposition expects them (7 cycles by default)."""
-        if self.method != "morlet":
-            return {"cycles": None, "fwhm_ms": None}
-        if self.cycles is None and self.fwhm_ms is None:
-            return {"cycles": 7.0, "fwhm_ms": None}
-        return {"cycles": self.cycles, "fwhm_ms": self.fwhm_ms}
-
 
 class Analysis(SpecModel):
     """The a-priori restriction that defines the family of tests."""
@@ -258,12 +213,12 @@ class Analysis(SpecModel):
     @field_validator("time_ms")
     @classmethod
     def _time_ordered(cls, value):
-        return _check_window(value, "ms")
+        return check_window(value, "ms")
 
     @field_validator("freq_hz")
     @classmethod
     def _freq_ordered(cls, value):
-        return _check_window(value, "Hz")
+        return check_window(value, "Hz")
 
 
 class PlannedRegion(SpecModel):
@@ -277,12 +232,12 @@ class PlannedRegion(SpecModel):
     @field_validator("time_ms")
     @classmethod
     def _time_ordered(cls, value):
-        return _check_window(value, "ms")
+        return check_window(value, "ms")
 
     @field_validator("freq_hz")
     @classmethod
     def _freq_ordered(cls, value):
-        return _check_window(value, "Hz")
+        return check_window(value, "Hz")
 
 
 class Neighbors(SpecModel):
@@ -300,7 +255,7 @@ class Neighbors(SpecModel):
     @field_validator("edges_file")
     @classmethod
     def _inside(cls, value):
-        return _check_relative(value)
+        return check_relative(value)
 
     @model_validator(mode="after")
     def _needs(self) -> "Neighbors":
@@ -326,7 +281,7 @@ class Channels(SpecModel):
     def _inside(cls, value):
         if value in ("standard-10-10", "standard-10-20", "bids"):
             return value
-        return _check_relative(value)
+        return check_relative(value)
 
 
 class Contrast(SpecModel):
@@ -341,7 +296,7 @@ class Contrast(SpecModel):
     @field_validator("name")
     @classmethod
     def _name(cls, value):
-        return _check_name(value, "contrast name")
+        return check_name(value, "contrast name")
 
     @model_validator(mode="after")
     def _shape(self) -> "Contrast":
@@ -361,122 +316,6 @@ class Contrast(SpecModel):
         if self.test != "correlation" and self.covariate is not None:
             raise LocatedError(("covariate",), f"covariate is only used by 'correlation', not '{self.test}'")
         return self
-
-
-class _Correction(SpecModel):
-    name: str | None = Field(default=None, description="Name of this correction's result folder; defaults to the method.")
-
-    @field_validator("name")
-    @classmethod
-    def _name(cls, value):
-        return value if value is None else _check_name(value, "correction name")
-
-    @property
-    def label(self) -> str:
-        """The result folder name."""
-        return self.name or self.method
-
-
-class PValueCorrection(_Correction):
-    """A p-value procedure applied point by point."""
-
-    method: PValueMethod = Field(description="bonferroni, sidak, holm (step-down), hochberg (step-up), fdr-bh (Benjamini-Hochberg) or fdr-by (Benjamini-Yekutieli).")
-    level: float | None = Field(default=None, gt=0, lt=1, description="alpha (FWER methods) or q (FDR methods) for this correction; defaults to inference.alpha.")
-    pvalues: Literal["parametric", "permutation"] = Field(default="parametric", description="Input p-values: from the test's distribution or from the permutation null.")
-
-    @property
-    def needs_null(self) -> bool:
-        return self.pvalues == "permutation"
-
-
-class MaxStatCorrection(_Correction):
-    """Max-statistic inference from the permutation null."""
-
-    method: Literal["max-stat"] = Field(description="Max-statistic (Westfall & Young 1993).")
-    step_down: bool = Field(default=False, description="Step-down (successive maxima) instead of single-step.")
-
-    @property
-    def needs_null(self) -> bool:
-        return True
-
-
-class ClusterCorrection(_Correction):
-    """Cluster-based permutation inference."""
-
-    method: Literal["cluster"] = Field(description="Cluster-based permutation (Maris & Oostenveld 2007).")
-    forming_p: float | None = Field(default=None, gt=0, lt=1, description="Cluster-forming threshold as a p-value of the test's own distribution (two-sided: halved per tail). Default 0.01 unless forming_stat is given.")
-    forming_stat: float | None = Field(default=None, gt=0, description="Cluster-forming threshold as a statistic value.")
-    cluster_stat: Literal["mass", "size"] = Field(default="mass", description="Cluster statistic: mass (sum of |stat|) or size (number of points).")
-    dims: list[Dimension] = Field(default_factory=lambda: ["channel", "freq", "time"], min_length=1, description="Dimensions clusters extend over.")
-    min_neighbor_channels: int = Field(default=0, ge=0, description="Fewest supra-threshold neighbor channels a point needs to join a cluster.")
-
-    @property
-    def needs_null(self) -> bool:
-        return True
-
-    @model_validator(mode="after")
-    def _one_threshold(self) -> "ClusterCorrection":
-        if self.forming_p is not None and self.forming_stat is not None:
-            raise LocatedError(("forming_stat",), "give either forming_p or forming_stat, not both")
-        return self
-
-    @property
-    def forming(self) -> dict:
-        """The forming threshold as given (forming_p defaults to 0.01)."""
-        if self.forming_stat is not None:
-            return {"forming_stat": self.forming_stat}
-        return {"forming_p": self.forming_p if self.forming_p is not None else 0.01}
-
-
-class TFCECorrection(_Correction):
-    """Threshold-free cluster enhancement (Smith & Nichols 2009)."""
-
-    method: Literal["tfce"] = Field(description="Threshold-free cluster enhancement.")
-    E: float = Field(default=0.5, gt=0, description="Extent exponent.")
-    H: float = Field(default=2.0, gt=0, description="Height exponent.")
-    step: float | None = Field(default=None, gt=0, description="Fixed integration step in statistic units; omit for the exact integral.")
-    dims: list[Dimension] = Field(default_factory=lambda: ["channel", "freq", "time"], min_length=1, description="Dimensions clusters extend over.")
-
-    @property
-    def needs_null(self) -> bool:
-        return True
-
-
-Correction = Annotated[
-    Union[PValueCorrection, MaxStatCorrection, ClusterCorrection, TFCECorrection],
-    Field(discriminator="method"),
-]
-
-
-class Inference(SpecModel):
-    """Statistics, resampling and corrections."""
-
-    alpha: float = Field(default=0.05, gt=0, lt=1, description="Significance level (FWER methods) and default FDR level q.")
-    tail: Tail = Field(default="two-sided", description="'two-sided', 'greater' or 'less'.")
-    statistic: StatisticName = Field(default="t", description="'t' or 'yuen' (trimmed-mean t, Yuen 1974) for one-sample, paired and two-sample tests.")
-    trim: float = Field(default=0.2, ge=0, lt=0.5, description="Trimming proportion of the Yuen statistic.")
-    equal_var: bool = Field(default=True, description="Two-sample: Student's t (true) or Welch's t (false).")
-    permutations: int = Field(default=1000, ge=1, description="Number of random permutations; all of them (exact test) when fewer distinct ones exist.")
-    shards: int = Field(default=1, ge=1, description="Number of pieces the permutations are split into (one job each); results do not depend on it.")
-    family: Family = Field(default="per-contrast", description="'per-contrast', or 'all-contrasts' to correct over every contrast of the study together.")
-    corrections: list[Correction] = Field(min_length=1, description="Corrections to apply, each with its own settings and an optional name.")
-
-    @model_validator(mode="after")
-    def _unique_names(self) -> "Inference":
-        seen = {}
-        for index, correction in enumerate(self.corrections):
-            if correction.label in seen:
-                raise LocatedError(
-                    ("corrections", index, "name"),
-                    f"two corrections are named '{correction.label}' (also corrections[{seen[correction.label]}]); give one a name",
-                )
-            seen[correction.label] = index
-        return self
-
-    @property
-    def needs_null(self) -> bool:
-        """Whether any correction uses the permutation null."""
-        return any(c.needs_null for c in self.corrections)
 
 
 class Study(SpecModel):
@@ -503,13 +342,13 @@ class Study(SpecModel):
     @field_validator("output")
     @classmethod
     def _output_inside(cls, value):
-        return _check_relative(value)
+        return check_relative(value)
 
     @field_validator("conditions")
     @classmethod
     def _condition_names(cls, value):
         for name, labels in value.items():
-            _check_name(name, "condition name")
+            check_name(name, "condition name")
             if not labels:
                 raise ValueError(f"condition '{name}' lists no event labels")
         return value
@@ -572,11 +411,3 @@ class Study(SpecModel):
                     f"band [{band[0]}, {band[1]}] Hz lies outside the decomposed frequencies [{grid.start_hz}, {grid.stop_hz}] Hz",
                 )
         return self
-
-
-def did_you_mean(value: str, choices) -> str:
-    """' (did you mean 'x'?)' for a near miss, else ''."""
-    import difflib
-
-    close = difflib.get_close_matches(str(value), [str(c) for c in choices], n=1, cutoff=0.6)
-    return f" (did you mean '{close[0]}'?)" if close else ""

@@ -6,7 +6,8 @@ import sys
 import numpy as np
 import yaml
 
-from famwise import bids, resources
+from famwise import bids, scheduler_sizing as sizing
+from famwise.settings_codec import to_json
 from famwise.plan import Plan
 
 from conftest import write_tiny_study, write_tiny_subject
@@ -22,17 +23,17 @@ def _plan_with(spec, **inference) -> Plan:
 
 def test_sizes_of_an_epochs_study(tiny_study):
     plan = Plan.from_spec(tiny_study)
-    sizes = resources.study_sizes(plan)
+    sizes = sizing.study_sizes(plan)
     # The tiny study (conftest): 6 subjects, 8 channels, 3 frequencies, epochs of 160
     # samples at 100 Hz = 1590 ms, 50 ms steps -> 32 map times; 63 permutations in 2 shards.
     assert (sizes.n_subjects, sizes.n_channels, sizes.n_freqs, sizes.n_map_times) == (6, 8, 3, 32)
     assert sizes.n_times == 32 and sizes.n_points == 8 * 3 * 32
     assert (sizes.n_conditions, sizes.n_contrasts, sizes.permutations, sizes.rows_per_shard) == (2, 1, 63, 32)
-    assert resources.study_sizes(plan) is sizes
+    assert sizing.study_sizes(plan) is sizes
 
-    rec = resources.recording_sizes(plan, "01")
+    rec = sizing.recording_sizes(plan, "01")
     path = tiny_study.parent / "data" / "sub-01.npz"
-    assert rec == resources.RecordingSizes(path.stat().st_size, 8, 24, 160, 100.0)
+    assert rec == sizing.RecordingSizes(path.stat().st_size, 8, 24, 160, 100.0)
 
 
 def test_recording_sizes_from_bids_headers_and_events(tmp_path):
@@ -50,11 +51,11 @@ def test_recording_sizes_from_bids_headers_and_events(tmp_path):
         "inference: {corrections: [{method: holm}]}\n"
     )
     plan = Plan.from_spec(spec)
-    rec = resources.recording_sizes(plan, "01")
+    rec = sizing.recording_sizes(plan, "01")
     # 20 of the 30 events are high or low; 2400 ms at 250 Hz = 600 intervals -> 601 samples.
     assert (rec.n_channels, rec.n_epochs, rec.n_samples, rec.sfreq) == (4, 20, 601, 250.0)
     assert rec.input_bytes == sum(p.stat().st_size for p in (tmp_path / "data" / "sub-01" / "eeg").iterdir())
-    sizes = resources.study_sizes(plan)
+    sizes = sizing.study_sizes(plan)
     # 20 ms default steps over the 2400 ms epoch: 121 times.
     assert (sizes.n_channels, sizes.n_freqs, sizes.n_map_times, sizes.n_times) == (4, 5, 121, 121)
 
@@ -62,25 +63,25 @@ def test_recording_sizes_from_bids_headers_and_events(tmp_path):
 def test_requests_are_rounded_and_at_least_the_minimum(tiny_study):
     plan = Plan.from_spec(tiny_study)
     memories = [
-        resources.decompose_mem_mb(plan, "01"), resources.contrast_data_mem_mb(plan), resources.observed_mem_mb(plan),
-        resources.null_shard_mem_mb(plan), resources.correct_mem_mb(plan, "holm"), resources.report_mem_mb(plan),
-        resources.small_mem_mb(plan),
+        sizing.decompose_mem_mb(plan, "01"), sizing.contrast_data_mem_mb(plan), sizing.observed_mem_mb(plan),
+        sizing.null_shard_mem_mb(plan), sizing.correct_mem_mb(plan, "holm"), sizing.report_mem_mb(plan),
+        sizing.small_mem_mb(plan),
     ]
     for mem in memories:
-        assert mem % 100 == 0 and mem >= resources.MEM_SAFETY * resources.BASE_MEM_MB
+        assert mem % 100 == 0 and mem >= sizing.MEM_SAFETY * sizing.BASE_MEM_MB
     runtimes = [
-        resources.decompose_runtime_min(plan, "01"), resources.group_runtime_min(plan), resources.null_shard_runtime_min(plan),
-        resources.correct_runtime_min(plan, "max-stat"), resources.report_runtime_min(plan), resources.small_runtime_min(plan),
+        sizing.decompose_runtime_min(plan, "01"), sizing.group_runtime_min(plan), sizing.null_shard_runtime_min(plan),
+        sizing.correct_runtime_min(plan, "max-stat"), sizing.report_runtime_min(plan), sizing.small_runtime_min(plan),
     ]
-    assert runtimes == [resources.MIN_RUNTIME_MIN] * 6
+    assert runtimes == [sizing.MIN_RUNTIME_MIN] * 6
 
 
 def test_shard_time_follows_rows_per_shard_and_memory_does_not(tiny_study):
     one = _plan_with(tiny_study, permutations=50_000_000, shards=1)
     ten = _plan_with(tiny_study, permutations=50_000_000, shards=10)
-    assert resources.null_shard_mem_mb(one) == resources.null_shard_mem_mb(ten)
-    long, short = resources.null_shard_runtime_min(one), resources.null_shard_runtime_min(ten)
-    assert short > resources.MIN_RUNTIME_MIN and abs(long / short - 10) < 0.2  # whole minutes
+    assert sizing.null_shard_mem_mb(one) == sizing.null_shard_mem_mb(ten)
+    long, short = sizing.null_shard_runtime_min(one), sizing.null_shard_runtime_min(ten)
+    assert short > sizing.MIN_RUNTIME_MIN and abs(long / short - 10) < 0.2  # whole minutes
 
 
 def test_decompose_memory_grows_with_epochs(tmp_path):
@@ -88,10 +89,10 @@ def test_decompose_memory_grows_with_epochs(tmp_path):
     large = write_tiny_study(tmp_path / "large")
     rng = np.random.default_rng(1)
     write_tiny_subject(large.parent / "data" / "sub-01.npz", rng, n_per_condition=3000)
-    rec = resources.recording_sizes(Plan.from_spec(large), "01")
+    rec = sizing.recording_sizes(Plan.from_spec(large), "01")
     assert rec.n_epochs == 6000
-    assert resources.decompose_mem_mb(Plan.from_spec(large), "01") > resources.decompose_mem_mb(Plan.from_spec(small), "01") + 100
-    assert resources.decompose_mem_mb(Plan.from_spec(large), "02") == resources.decompose_mem_mb(Plan.from_spec(small), "02")
+    assert sizing.decompose_mem_mb(Plan.from_spec(large), "01") > sizing.decompose_mem_mb(Plan.from_spec(small), "01") + 100
+    assert sizing.decompose_mem_mb(Plan.from_spec(large), "02") == sizing.decompose_mem_mb(Plan.from_spec(small), "02")
 
 
 def test_family_of_all_contrasts_needs_more_memory_per_correction(tiny_study):
@@ -100,20 +101,20 @@ def test_family_of_all_contrasts_needs_more_memory_per_correction(tiny_study):
     tiny_study.write_text(yaml.safe_dump(study, sort_keys=False))
     per_contrast = _plan_with(tiny_study, permutations=5_000_000)
     together = _plan_with(tiny_study, family="all-contrasts", permutations=5_000_000)
-    assert resources.correct_mem_mb(together, "max-stat") > resources.correct_mem_mb(per_contrast, "max-stat")
+    assert sizing.correct_mem_mb(together, "max-stat") > sizing.correct_mem_mb(per_contrast, "max-stat")
 
 
 def test_decompose_estimate_covers_the_measured_peak(tiny_study):
     # Measured: the job's peak resident memory (getrusage of a fresh parent's only child) stays under the request.
     plan = Plan.from_spec(tiny_study)
     out = tiny_study.parent / "tf-01.npz"
-    job = [sys.executable, "-m", "famwise.jobs", "decompose", "--subject", "01", "--settings", plan.decompose_settings(), "--out", str(out)]
+    job = [sys.executable, "-m", "famwise.jobs", "decompose", "--subject", "01", "--settings", to_json(plan.decompose_settings()), "--out", str(out)]
     measure = "import resource, subprocess, sys; subprocess.run(sys.argv[1:], check=True, capture_output=True); print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)"
     plan.loaded.output.mkdir()  # jobs run in the output folder, as Snakemake runs them
     peak_kb = int(subprocess.run([sys.executable, "-c", measure, *job], check=True, capture_output=True, text=True,
                                  cwd=plan.loaded.output).stdout)
     assert out.is_file()
-    assert 20 < peak_kb / 1024 < resources.decompose_mem_mb(plan, "01")
+    assert 20 < peak_kb / 1024 < sizing.decompose_mem_mb(plan, "01")
 
 
 def test_cluster_and_tfce_corrections_ask_more_than_point_corrections(tiny_study):
@@ -124,4 +125,4 @@ def test_cluster_and_tfce_corrections_ask_more_than_point_corrections(tiny_study
     study["timefreq"]["time_step_ms"] = 1
     tiny_study.write_text(yaml.safe_dump(study, sort_keys=False))
     plan = Plan.from_spec(tiny_study)
-    assert resources.correct_mem_mb(plan, "tfce") > resources.correct_mem_mb(plan, "holm")
+    assert sizing.correct_mem_mb(plan, "tfce") > sizing.correct_mem_mb(plan, "holm")
