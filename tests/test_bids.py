@@ -7,7 +7,7 @@ import edfio
 import numpy as np
 import pytest
 
-from famwise import bids
+from famwise import bids, bids_writing
 from famwise.errors import FamwiseWarning, UserError
 
 FS = 250.0
@@ -30,7 +30,7 @@ def _events(counts):
 def _write(root, subject="01", data=None, events=None, **options):
     data = _recording() if data is None else data
     events = _events({"face": 8, "house": 6, "catch": 3}) if events is None else events
-    bids.write_subject(root, subject, data=data, sfreq=FS, channels=CHANNELS, events=events,
+    bids_writing.write_subject(root, subject, data=data, sfreq=FS, channels=CHANNELS, events=events,
                        task="view", **options)
     return data, events
 
@@ -74,7 +74,7 @@ def test_round_trip_samples_and_events(tmp_path, fmt, bits):
 def test_folder_gives_epoch_counts_per_condition(tmp_path):
     _write(tmp_path, "01", events=_events({"face": 8, "house": 6, "catch": 3}))
     _write(tmp_path, "02", data=_recording(2), events=_events({"face": 5, "house": 9}))
-    bids.write_participants(tmp_path, [{"participant_id": "01", "group": "young", "age": "23"},
+    bids_writing.write_participants(tmp_path, [{"participant_id": "01", "group": "young", "age": "23"},
                                        {"participant_id": "sub-02", "group": "old"}])
     assert bids.discover_subjects(tmp_path) == ["01", "02"]
     counts = {}
@@ -86,7 +86,7 @@ def test_folder_gives_epoch_counts_per_condition(tmp_path):
     assert bids.read_participants(tmp_path) == {"01": {"group": "young", "age": "23"},
                                                 "02": {"group": "old", "age": "n/a"}}
     description = json.loads((tmp_path / "dataset_description.json").read_text())
-    assert description["BIDSVersion"] == bids.BIDS_VERSION
+    assert description["BIDSVersion"] == bids_writing.BIDS_VERSION
 
 
 def test_channels_file_drops_bad_and_non_eeg(tmp_path):
@@ -203,12 +203,12 @@ def test_recording_and_channel_errors(tmp_path):
 def test_write_errors(tmp_path):
     with pytest.raises(UserError, match=r"subject 01: data must have shape \(n_channels=4, "
                                         r"n_samples\), got \(3, 100\)"):
-        bids.write_subject(tmp_path, "01", data=np.zeros((3, 100)), sfreq=FS, channels=CHANNELS,
+        bids_writing.write_subject(tmp_path, "01", data=np.zeros((3, 100)), sfreq=FS, channels=CHANNELS,
                            events=[], task="view")
     with pytest.raises(UserError, match=r"format must be one of edf, bdf, brainvision, got 'gdf'"):
         _write(tmp_path, fmt="gdf")
     with pytest.raises(UserError, match=r"every participants row needs a 'participant_id'"):
-        bids.write_participants(tmp_path, [{"group": "a"}])
+        bids_writing.write_participants(tmp_path, [{"group": "a"}])
 
 
 def test_more_file_errors(tmp_path):
@@ -232,7 +232,7 @@ def test_more_file_errors(tmp_path):
                                         r"found \['subject', 'group'\]"):
         bids.read_participants(tmp_path)
     with pytest.raises(UserError, match=r"subject 02: cannot write .*sub-02_task-view_eeg.edf"):
-        bids.write_subject(tmp_path, "02", data=np.zeros((1, 500)), sfreq=FS,
+        bids_writing.write_subject(tmp_path, "02", data=np.zeros((1, 500)), sfreq=FS,
                            channels=["a-very-long-channel-name"], events=[], task="view")
 
 

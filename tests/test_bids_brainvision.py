@@ -6,7 +6,7 @@ import numpy as np
 import pybv
 import pytest
 
-from famwise import bids, bids_notes
+from famwise import bids, bids_notes, bids_writing
 from famwise.errors import FamwiseWarning, UserError
 
 FS = 250.0
@@ -24,7 +24,7 @@ def _events(n=12):
 
 def _write(root, fmt, subject="01", data=None, **options):
     data = _recording() if data is None else data
-    bids.write_subject(root, subject, data=data, sfreq=FS, channels=CHANNELS, events=_events(), task="view",
+    bids_writing.write_subject(root, subject, data=data, sfreq=FS, channels=CHANNELS, events=_events(), task="view",
                        fmt=fmt, **options)
     return root / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-view_"
 

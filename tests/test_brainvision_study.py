@@ -7,7 +7,7 @@ import sys
 import numpy as np
 import pytest
 
-from famwise import bids
+from famwise import bids_writing
 from famwise.cli import main
 from famwise.demo import write_demo
 
@@ -52,11 +52,11 @@ def _write_study(folder, n_subjects=5):
             burst = (2.0 if label == "high" else 0.5) * 5e-6 * envelope * np.cos(2 * np.pi * 7 * times + rng.uniform(0, 6.3))
             data[:3] += burst
         subject = f"{number:02d}"
-        bids.write_subject(folder / "data", subject, data=data, sfreq=FS, channels=CHANNELS, task="mem",
+        bids_writing.write_subject(folder / "data", subject, data=data, sfreq=FS, channels=CHANNELS, task="mem",
                            events=[(float(t), 0.0, lab) for t, lab in zip(onsets, labels)], fmt="brainvision")
         channels = folder / "data" / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-mem_channels.tsv"
         channels.write_text(channels.read_text().replace("HEOG\tEEG", "HEOG\tEOG"))
-    bids.write_participants(folder / "data", [{"participant_id": f"{n:02d}"} for n in range(1, n_subjects + 1)])
+    bids_writing.write_participants(folder / "data", [{"participant_id": f"{n:02d}"} for n in range(1, n_subjects + 1)])
     spec = folder / "study.yaml"
     spec.write_text(SPEC)
     return spec

@@ -117,19 +117,19 @@ inference: {corrections: [{method: holm}]}
 
 
 def test_bids_study_files_are_recordings_sidecars_electrodes_and_participants(tmp_path):
-    from famwise import bids
+    from famwise import bids_writing
     from famwise.handoff.inputs import study_files
     from famwise.plan import Plan
 
     rng = np.random.default_rng(0)
     events = [(1.0 + 1.2 * i, 0.0, ("face", "house")[i % 2]) for i in range(10)]
     for subject in ("01", "02", "03"):
-        bids.write_subject(tmp_path / "data", subject, data=rng.normal(0, 2e-5, (2, 4000)), sfreq=250.0,
+        bids_writing.write_subject(tmp_path / "data", subject, data=rng.normal(0, 2e-5, (2, 4000)), sfreq=250.0,
                            channels=["Fz", "Cz"], events=events, task="view",
                            electrodes={"Fz": (0.0, 60.0, 70.0), "Cz": (0.0, 0.0, 95.0)})
-        bids.write_subject(tmp_path / "data", subject, data=rng.normal(0, 2e-5, (2, 4000)), sfreq=250.0,
+        bids_writing.write_subject(tmp_path / "data", subject, data=rng.normal(0, 2e-5, (2, 4000)), sfreq=250.0,
                            channels=["Fz", "Cz"], events=events, task="rest")
-    bids.write_participants(tmp_path / "data", [{"participant_id": f"sub-{s}"} for s in ("01", "02", "03")])
+    bids_writing.write_participants(tmp_path / "data", [{"participant_id": f"sub-{s}"} for s in ("01", "02", "03")])
     (tmp_path / "study.yaml").write_text(BIDS_SPEC)
     files = study_files(Plan.from_spec(tmp_path / "study.yaml"))
     names = sorted(files.data_files)

@@ -5,7 +5,7 @@ import time
 import numpy as np
 import pytest
 
-from famwise import bids
+from famwise import bids, bids_writing
 from famwise.errors import UserError
 from famwise.plan import Plan
 from famwise.preflight import preflight, read_headers
@@ -45,7 +45,7 @@ def write_bids_study(folder, n_subjects: int, *, seconds: float = 40.0):
     for number in range(1, n_subjects + 1):
         data = rng.normal(scale=5e-6, size=(len(CHANNELS), int(seconds * sfreq)))
         events = [(2.0 + 1.8 * k, 0.0, "high" if k % 2 else "low") for k in range(20)]
-        bids.write_subject(folder / "data", f"{number:02d}", data=data, sfreq=sfreq, channels=CHANNELS, events=events, task="lantern")
+        bids_writing.write_subject(folder / "data", f"{number:02d}", data=data, sfreq=sfreq, channels=CHANNELS, events=events, task="lantern")
     spec = folder / "study.yaml"
     spec.write_text(SPEC)
     return spec

@@ -6,7 +6,7 @@ import sys
 import numpy as np
 import yaml
 
-from famwise import bids, scheduler_sizing as sizing
+from famwise import bids_writing, scheduler_sizing as sizing
 from famwise.settings_codec import to_json
 from famwise.plan import Plan
 
@@ -39,7 +39,7 @@ def test_sizes_of_an_epochs_study(tiny_study):
 def test_recording_sizes_from_bids_headers_and_events(tmp_path):
     rng = np.random.default_rng(0)
     events = [(2.0 + 3 * k, 0.0, ["low", "high", "boundary"][k % 3]) for k in range(30)]
-    bids.write_subject(tmp_path / "data", "01", data=rng.normal(scale=1e-5, size=(4, 250 * 100)), sfreq=250.0,
+    bids_writing.write_subject(tmp_path / "data", "01", data=rng.normal(scale=1e-5, size=(4, 250 * 100)), sfreq=250.0,
                        channels=["Fz", "Cz", "Pz", "Oz"], events=events, task="mem")
     spec = tmp_path / "study.yaml"
     spec.write_text(

@@ -1,4 +1,4 @@
-"""BIDS-EEG input and output: EDF, BDF or BrainVision recordings with their events, channels and participants.
+"""BIDS-EEG input: EDF, BDF or BrainVision recordings with their events, channels and participants.
 
 Reading: the recordings ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>[_run-<n>]_eeg.edf|.bdf|.vhdr``
 (`famwise.recordings`), ``_channels.tsv`` (one rule for every format: channels of
@@ -11,15 +11,11 @@ A subject's runs and sessions of the task are pooled, on the channels good in
 all of them; then an optional average reference and peak-to-peak rejection
 apply.
 
-Writing (used by ``famwise demo`` and the tests): EDF, BDF or BrainVision in
-microvolts, events, channels, sidecar JSON, optional electrodes, participants and
-dataset_description.json.
+Writing such folders (the example study, tests) is `famwise.bids_writing`.
 """
 
 import csv
-import json
 import warnings
-from collections.abc import Sequence
 from typing import NamedTuple
 from pathlib import Path
 
@@ -27,10 +23,9 @@ import numpy as np
 
 from famwise.epochs import Epochs
 from famwise.errors import FamwiseWarning, UserError
-from famwise.recordings import FORMATS, SUFFIXES, Recording, open_recording, write_recording
+from famwise.recordings import SUFFIXES, Recording, open_recording
 
 _UNITS_TO_VOLTS = {"v": 1.0, "mv": 1e-3, "uv": 1e-6, "µv": 1e-6, "μv": 1e-6, "nv": 1e-9}
-BIDS_VERSION = "1.9.0"
 
 
 def discover_subjects(root: Path) -> list[str]:
@@ -226,107 +221,6 @@ def _listing(recordings: list[Path]) -> str:
     return str(recordings[0]) if len(recordings) == 1 else ", ".join(p.name for p in recordings)
 
 
-def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
-                  channels: list[str], events: list[tuple[float, float, str]], task: str,
-                  bad_channels: Sequence[str] = (),
-                  electrodes: dict[str, tuple[float, float, float]] | None = None,
-                  fmt: str = "edf", run: int | None = None, resolution_uv: float | None = None) -> None:
-    """Write one subject's continuous recording as BIDS-EEG.
-
-    Parameters
-    ----------
-    root : Path
-        The BIDS folder (created if needed).
-    subject : str
-        Subject id without ``sub-``.
-    data : ndarray, shape (n_channels, n_samples)
-        Samples in volts, stored in µV as `famwise.recordings.write_recording`
-        describes (EDF/BDF: 16 or 24 bit over each channel's range, padded with
-        the last sample to whole 1-s data records; BrainVision: 32-bit floats).
-    sfreq : float
-        Sampling rate in Hz.
-    channels : list of str
-        Channel names (at most 16 characters).
-    events : list of (onset s, duration s, trial_type)
-    task : str
-        Task label.
-    bad_channels : sequence of str
-        Channels written with status "bad" in ``_channels.tsv``.
-    electrodes : dict of str to (x, y, z), optional
-        Electrode positions in mm, written to ``_electrodes.tsv`` with a
-        ``_coordsystem.json``.
-    fmt : {"edf", "bdf", "brainvision"}
-    run : int, optional
-        Run number (``_run-<n>`` in the file names) for a subject recorded in several runs.
-    resolution_uv : float, optional
-        Store whole multiples of this step (µV) in any format, so that the
-        formats hold the same integer samples.
-    """
-    data = np.asarray(data, dtype=float)
-    if data.ndim != 2 or data.shape[0] != len(channels):
-        raise UserError(f"subject {subject}: data must have shape (n_channels={len(channels)}, "
-                        f"n_samples), got {data.shape}")
-    if fmt not in FORMATS:
-        raise UserError(f"subject {subject}: format must be one of {', '.join(FORMATS)}, got {fmt!r}")
-    folder = Path(root) / f"sub-{subject}" / "eeg"
-    folder.mkdir(parents=True, exist_ok=True)
-    stem = folder / (f"sub-{subject}_task-{task}" + (f"_run-{run}" if run is not None else ""))
-
-    markers = [(int(round(onset * sfreq)), label) for onset, _, label in events]
-    try:
-        write_recording(Path(f"{stem}_eeg"), data * 1e6, sfreq=sfreq, channels=channels, fmt=fmt,
-                        markers=markers, resolution_uv=resolution_uv)
-    except ValueError as exc:
-        suffix = "vhdr" if fmt == "brainvision" else fmt
-        raise UserError(f"subject {subject}: cannot write {stem}_eeg.{suffix}: {exc}") from None
-
-    _write_tsv(Path(f"{stem}_events.tsv"), ["onset", "duration", "trial_type", "sample"],
-               [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))]
-                for on, dur, label in events])
-    _write_tsv(Path(f"{stem}_channels.tsv"), ["name", "type", "units", "status"],
-               [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"]
-                for name in channels])
-    Path(f"{stem}_eeg.json").write_text(json.dumps({
-        "TaskName": task, "SamplingFrequency": sfreq, "EEGReference": "n/a",
-        "PowerLineFrequency": "n/a", "SoftwareFilters": "n/a",
-        "EEGChannelCount": len(channels)}, indent=2) + "\n")
-    if electrodes is not None:
-        base = folder / f"sub-{subject}"
-        _write_tsv(Path(f"{base}_electrodes.tsv"), ["name", "x", "y", "z"],
-                   [[name, *(f"{v:.4f}" for v in xyz)] for name, xyz in electrodes.items()])
-        Path(f"{base}_coordsystem.json").write_text(json.dumps({
-            "EEGCoordinateSystem": "Other", "EEGCoordinateUnits": "mm",
-            "EEGCoordinateSystemDescription": "head-centred, x right, y front, z up"},
-            indent=2) + "\n")
-
-
-def write_participants(root: Path, rows: list[dict[str, str]]) -> None:
-    """Write ``participants.tsv`` (and ``dataset_description.json`` if absent).
-
-    Parameters
-    ----------
-    root : Path
-        The BIDS folder (created if needed).
-    rows : list of dict
-        One per subject; ``participant_id`` (with or without ``sub-``) is
-        required, other columns are free (missing values become "n/a").
-    """
-    root = Path(root)
-    root.mkdir(parents=True, exist_ok=True)
-    columns = ["participant_id"]
-    for row in rows:
-        if "participant_id" not in row:
-            raise UserError(f"every participants row needs a 'participant_id', got {row}")
-        columns += [key for key in row if key not in columns]
-    lines = [[f"sub-{_strip_sub(str(row['participant_id']))}"]
-             + [str(row.get(key, "n/a")) for key in columns[1:]] for row in rows]
-    _write_tsv(root / "participants.tsv", columns, lines)
-    description = root / "dataset_description.json"
-    if not description.exists():
-        description.write_text(json.dumps({"Name": root.name, "BIDSVersion": BIDS_VERSION,
-                                           "DatasetType": "raw"}, indent=2) + "\n")
-
-
 def _strip_sub(value: str) -> str:
     return value[4:] if value.startswith("sub-") else value
 
@@ -335,13 +229,6 @@ def read_tsv(path: Path) -> list[dict[str, str]]:
     """Rows of a BIDS tab-separated file as dicts keyed by its header line."""
     with path.open(newline="", encoding="utf-8") as stream:
         return [dict(row) for row in csv.DictReader(stream, delimiter="\t")]
-
-
-def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
-    with path.open("w", newline="", encoding="utf-8") as stream:
-        writer = csv.writer(stream, delimiter="\t", lineterminator="\n")
-        writer.writerow(header)
-        writer.writerows(rows)
 
 
 RECORDING_FOLDERS = ("eeg", "ses-*/eeg")

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import bids
+from famwise import bids_writing
 
 CHANNELS = [
     "Fp1", "Fp2", "AF3", "AF4", "F7", "F3", "Fz", "F4", "F8", "FC5", "FC1", "FC2", "FC6", "T7", "C3", "Cz",
@@ -47,7 +47,7 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
         Format of the recordings (``famwise demo`` writes EDF).
     resolution_uv : float, optional
         Store whole multiples of this step (µV), so that two formats hold the
-        same integer samples (`famwise.bids.write_subject`).
+        same integer samples (`famwise.bids_writing.write_subject`).
     """
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
@@ -68,10 +68,10 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
     for number in range(1, N_PARTICIPANTS + 1):
         subject = f"{number:02d}"
         data, events = simulate_recording(rng, gain=float(rng.normal(1.0, 0.25)), artefacts=subject == "03")
-        bids.write_subject(root, subject, data=data, sfreq=SFREQ, channels=CHANNELS, events=events, task="lantern",
+        bids_writing.write_subject(root, subject, data=data, sfreq=SFREQ, channels=CHANNELS, events=events, task="lantern",
                            fmt=fmt, resolution_uv=resolution_uv)
         rows.append({"participant_id": f"sub-{subject}", "age": str(int(rng.integers(19, 36))), "handedness": "R"})
-    bids.write_participants(root, rows)
+    bids_writing.write_participants(root, rows)
     marker.write_text(written)
     return spec
 
