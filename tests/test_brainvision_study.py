@@ -62,6 +62,7 @@ def _write_study(folder, n_subjects=5):
     return spec
 
 
+@pytest.mark.workflow
 def test_init_check_and_run_a_brainvision_study(tmp_path):
     spec = _write_study(tmp_path)
     assert main(["init", str(tmp_path / "data"), "--out", str(tmp_path / "starter.yaml")]) == 0
@@ -85,6 +86,7 @@ def test_init_check_and_run_a_brainvision_study(tmp_path):
     assert (tmp_path / "results" / "report" / "index.html").is_file()
 
 
+@pytest.mark.workflow
 @pytest.mark.parametrize("damage", ["missing", "short"])
 def test_a_bad_data_file_ends_check_with_one_line_naming_it(tmp_path, damage):
     spec = _write_study(tmp_path, n_subjects=3)
@@ -109,6 +111,7 @@ def test_init_names_what_to_do_with_a_format_it_does_not_read(tmp_path):
     assert "convert the recordings with a general-purpose converter to EDF or BrainVision" in result.stderr
 
 
+@pytest.mark.workflow
 def test_the_example_study_gives_identical_maps_as_edf_and_as_brainvision(tmp_path):
     """The demo written twice from the same integer samples (steps of 2^-4 µV): the maps agree bit for bit."""
     maps = {}

@@ -45,6 +45,7 @@ def two_runs(tmp_path_factory):
     return spec_a, spec_b
 
 
+@pytest.mark.workflow
 def test_two_folders_and_shard_counts_give_identical_results(two_runs, capsys):
     spec_a, spec_b = two_runs
     code, text = _compare(capsys, spec_a.parent / "results" / "report" / "provenance.json", spec_b)
@@ -59,6 +60,7 @@ def test_two_folders_and_shard_counts_give_identical_results(two_runs, capsys):
     assert all(f"results fingerprint {shown}" in page for page in fingerprints)
 
 
+@pytest.mark.workflow
 def test_changed_input_setting_and_seed_are_each_named(two_runs, capsys):
     spec_a, spec_b = two_runs
     before = _keep(spec_b, "b-0")

@@ -150,6 +150,7 @@ def test_planned_region_outside_the_data_is_a_user_error(stage, capsys, change, 
     assert re.search(message, capsys.readouterr().err)
 
 
+@pytest.mark.workflow
 def test_workflow_writes_cluster_and_planned_values_and_the_report_shows_them(tmp_path):
     from conftest import write_tiny_study
     from famwise.cli import main as famwise
