@@ -63,7 +63,8 @@ def test_check_after_a_run_leaves_nothing_behind_and_names_the_changed_setting(f
         assert main(["check", str(finished_study)]) == 0
         out = capsys.readouterr().out
         assert "correct_points    settings changed: inference.alpha 0.05 -> 0.01, inference.permutations 63 -> 127" in out
-        assert "decompose" not in out
+        planned = out.split("What would run and why:")[1].split("\n\n")[0]
+        assert "decompose" not in planned
     finally:
         finished_study.write_text(text)
 
