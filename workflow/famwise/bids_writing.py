@@ -17,11 +17,21 @@ from famwise.recordings import FORMATS, write_recording
 BIDS_VERSION = "1.9.0"
 
 
-def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
-                  channels: list[str], events: list[tuple[float, float, str]], task: str,
-                  bad_channels: Sequence[str] = (),
-                  electrodes: dict[str, tuple[float, float, float]] | None = None,
-                  fmt: str = "edf", run: int | None = None, resolution_uv: float | None = None) -> None:
+def write_subject(
+    root: Path,
+    subject: str,
+    *,
+    data: np.ndarray,
+    sfreq: float,
+    channels: list[str],
+    events: list[tuple[float, float, str]],
+    task: str,
+    bad_channels: Sequence[str] = (),
+    electrodes: dict[str, tuple[float, float, float]] | None = None,
+    fmt: str = "edf",
+    run: int | None = None,
+    resolution_uv: float | None = None,
+) -> None:
     """Write one subject's continuous recording as BIDS-EEG.
 
     Parameters
@@ -55,8 +65,9 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
     """
     data = np.asarray(data, dtype=float)
     if data.ndim != 2 or data.shape[0] != len(channels):
-        raise UserError(f"subject {subject}: data must have shape (n_channels={len(channels)}, "
-                        f"n_samples), got {data.shape}")
+        raise UserError(
+            f"subject {subject}: data must have shape (n_channels={len(channels)}, n_samples), got {data.shape}"
+        )
     if fmt not in FORMATS:
         raise UserError(f"subject {subject}: format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     folder = Path(root) / f"sub-{subject}" / "eeg"
@@ -65,30 +76,61 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
 
     markers = [(int(round(onset * sfreq)), label) for onset, _, label in events]
     try:
-        write_recording(Path(f"{stem}_eeg"), data * 1e6, sfreq=sfreq, channels=channels, fmt=fmt,
-                        markers=markers, resolution_uv=resolution_uv)
+        write_recording(
+            Path(f"{stem}_eeg"),
+            data * 1e6,
+            sfreq=sfreq,
+            channels=channels,
+            fmt=fmt,
+            markers=markers,
+            resolution_uv=resolution_uv,
+        )
     except ValueError as exc:
         suffix = "vhdr" if fmt == "brainvision" else fmt
         raise UserError(f"subject {subject}: cannot write {stem}_eeg.{suffix}: {exc}") from None
 
-    _write_tsv(Path(f"{stem}_events.tsv"), ["onset", "duration", "trial_type", "sample"],
-               [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))]
-                for on, dur, label in events])
-    _write_tsv(Path(f"{stem}_channels.tsv"), ["name", "type", "units", "status"],
-               [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"]
-                for name in channels])
-    Path(f"{stem}_eeg.json").write_text(json.dumps({
-        "TaskName": task, "SamplingFrequency": sfreq, "EEGReference": "n/a",
-        "PowerLineFrequency": "n/a", "SoftwareFilters": "n/a",
-        "EEGChannelCount": len(channels)}, indent=2) + "\n")
+    _write_tsv(
+        Path(f"{stem}_events.tsv"),
+        ["onset", "duration", "trial_type", "sample"],
+        [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))] for on, dur, label in events],
+    )
+    _write_tsv(
+        Path(f"{stem}_channels.tsv"),
+        ["name", "type", "units", "status"],
+        [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"] for name in channels],
+    )
+    Path(f"{stem}_eeg.json").write_text(
+        json.dumps(
+            {
+                "TaskName": task,
+                "SamplingFrequency": sfreq,
+                "EEGReference": "n/a",
+                "PowerLineFrequency": "n/a",
+                "SoftwareFilters": "n/a",
+                "EEGChannelCount": len(channels),
+            },
+            indent=2,
+        )
+        + "\n"
+    )
     if electrodes is not None:
         base = folder / f"sub-{subject}"
-        _write_tsv(Path(f"{base}_electrodes.tsv"), ["name", "x", "y", "z"],
-                   [[name, *(f"{v:.4f}" for v in xyz)] for name, xyz in electrodes.items()])
-        Path(f"{base}_coordsystem.json").write_text(json.dumps({
-            "EEGCoordinateSystem": "Other", "EEGCoordinateUnits": "mm",
-            "EEGCoordinateSystemDescription": "head-centred, x right, y front, z up"},
-            indent=2) + "\n")
+        _write_tsv(
+            Path(f"{base}_electrodes.tsv"),
+            ["name", "x", "y", "z"],
+            [[name, *(f"{v:.4f}" for v in xyz)] for name, xyz in electrodes.items()],
+        )
+        Path(f"{base}_coordsystem.json").write_text(
+            json.dumps(
+                {
+                    "EEGCoordinateSystem": "Other",
+                    "EEGCoordinateUnits": "mm",
+                    "EEGCoordinateSystemDescription": "head-centred, x right, y front, z up",
+                },
+                indent=2,
+            )
+            + "\n"
+        )
 
 
 def write_participants(root: Path, rows: list[dict[str, str]]) -> None:
@@ -109,13 +151,16 @@ def write_participants(root: Path, rows: list[dict[str, str]]) -> None:
         if "participant_id" not in row:
             raise UserError(f"every participants row needs a 'participant_id', got {row}")
         columns += [key for key in row if key not in columns]
-    lines = [[f"sub-{_strip_sub(str(row['participant_id']))}"]
-             + [str(row.get(key, "n/a")) for key in columns[1:]] for row in rows]
+    lines = [
+        [f"sub-{_strip_sub(str(row['participant_id']))}"] + [str(row.get(key, "n/a")) for key in columns[1:]]
+        for row in rows
+    ]
     _write_tsv(root / "participants.tsv", columns, lines)
     description = root / "dataset_description.json"
     if not description.exists():
-        description.write_text(json.dumps({"Name": root.name, "BIDSVersion": BIDS_VERSION,
-                                           "DatasetType": "raw"}, indent=2) + "\n")
+        description.write_text(
+            json.dumps({"Name": root.name, "BIDSVersion": BIDS_VERSION, "DatasetType": "raw"}, indent=2) + "\n"
+        )
 
 
 def _write_tsv(path: Path, header: list[str], rows: list[list[str]]) -> None:
