@@ -14,7 +14,7 @@ import numpy as np
 from famwise.design import load_contrast
 from famwise.errors import UserError
 from famwise.settings import PlannedRegionSettings, SubjectValuesSettings
-from famwise.subject_values import measure_text, write_subject_values
+from famwise.subject_values import measure_text, value_columns, write_subject_values
 
 
 def region_index(
@@ -142,16 +142,5 @@ def _sidecar(
                 for r in regions
             },
         },
-        "n_points": {"Description": "Number of (channel, frequency, time) points averaged over."},
-        "subject": {"Description": "Subject id."},
     }
-    if grouped:
-        described["group"] = {"Description": "The subject's group."}
-    if covariate:
-        described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
-    for name in conditions:
-        described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the region."}
-    if test != "repeated-measures":
-        what = f"{conditions[0]} minus {conditions[1]}" if test == "paired" else conditions[0]
-        described["contrast"] = {"Description": f"Mean over the region of the value the test used ({what}; {measure})."}
-    return described
+    return described | value_columns(test, conditions, measure, over="the region", grouped=grouped, covariate=covariate)

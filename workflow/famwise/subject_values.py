@@ -165,14 +165,12 @@ def subject_value_rows(
     return out
 
 
-def sidecar(
-    test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool, covariate: str | None = None
+def value_columns(
+    test: str, conditions: list[str], measure: str, *, over: str, grouped: bool, covariate: str | None
 ) -> dict:
-    """Column descriptions of subject_values.tsv; ``measure`` describes the maps' values and unit."""
+    """Descriptions of the columns every values table shares, from ``n_points`` on; ``over`` names the
+    averaged points (e.g. "the cluster's points")."""
     described = {
-        "id": {"Description": f"{noun.capitalize()} number as in clusters.tsv and the cluster_id map."},
-        "sign": {"Description": f"Sign of the statistic in the {noun}."},
-        "p": {"Description": f"The {noun}'s p as in clusters.tsv."},
         "n_points": {"Description": "Number of (channel, frequency, time) points averaged over."},
         "subject": {"Description": "Subject id."},
     }
@@ -181,12 +179,25 @@ def sidecar(
     if covariate:
         described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
     for name in conditions:
-        described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the {noun}'s points."}
+        described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over {over}."}
     if test != "repeated-measures":
         what = f"{conditions[0]} minus {conditions[1]}" if test == "paired" else conditions[0]
-        described["contrast"] = {
-            "Description": f"Mean over the {noun}'s points of the value the test used ({what}; {measure})."
-        }
+        described["contrast"] = {"Description": f"Mean over {over} of the value the test used ({what}; {measure})."}
+    return described
+
+
+def sidecar(
+    test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool, covariate: str | None = None
+) -> dict:
+    """Column descriptions of subject_values.tsv; ``measure`` describes the maps' values and unit."""
+    described = {
+        "id": {"Description": f"{noun.capitalize()} number as in clusters.tsv and the cluster_id map."},
+        "sign": {"Description": f"Sign of the statistic in the {noun}."},
+        "p": {"Description": f"The {noun}'s p as in clusters.tsv."},
+    }
+    described |= value_columns(
+        test, conditions, measure, over=f"the {noun}'s points", grouped=grouped, covariate=covariate
+    )
     described["Caveat"] = CAVEAT
     return described
 

@@ -23,6 +23,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.correct.clusters import CLUSTER_COLUMNS
 from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.html import anchor, esc, note
 from famwise.report.results import ReportedContrast, ReportedCorrection
@@ -31,22 +32,6 @@ from famwise.report.values import CAVEAT, categories, read_values
 P_SCALE = 1000.0
 """Quantisation steps per decade of p."""
 STAT_STEPS = 32767
-_TABLE_COLUMNS = (
-    "id",
-    "sign",
-    "statistic",
-    "p",
-    "n_points",
-    "channels",
-    "time_start_ms",
-    "time_end_ms",
-    "freq_low_hz",
-    "freq_high_hz",
-    "peak_stat",
-    "peak_channel",
-    "peak_freq_hz",
-    "peak_time_ms",
-)
 
 
 def _b64(array: np.ndarray) -> str:
@@ -100,7 +85,7 @@ def _correction_data(correction: ReportedCorrection, alpha: float, folder: Path)
     if correction.cluster_id is not None:
         data["ids"] = _b64(np.asarray(correction.cluster_id).astype("<i2").ravel())
         significant = [row for row in correction.clusters if float(row["p"]) <= alpha]
-        data["clusters"] = [{k: row.get(k) for k in _TABLE_COLUMNS} for row in significant]
+        data["clusters"] = [{k: row.get(k) for k in CLUSTER_COLUMNS} for row in significant]
         columns, values = read_values(folder / correction.name)
         data["values"] = {ident: _strips(columns, rows) for ident, rows in values.items()}
     return data
