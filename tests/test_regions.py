@@ -75,4 +75,5 @@ def test_tfce_correction_writes_its_regions_table(tmp_path):
     assert (tmp_path / "results" / "contrasts" / "high-vs-low" / "cluster" / "clusters.tsv").is_file()
     report = (tmp_path / "results" / "report" / "index.html").read_text()
     assert f"Regions: {len(rows)} of {len(rows)} with p" in report and "Clusters: " in report
-    assert f"in {len(rows)} connected regions" in (tmp_path / "results" / "report" / "methods.md").read_text()
+    regions = "connected region" if len(rows) == 1 else "connected regions"
+    assert f"in {len(rows)} {regions}" in (tmp_path / "results" / "report" / "methods.md").read_text()

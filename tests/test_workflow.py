@@ -59,6 +59,7 @@ def test_every_job_records_its_time_and_memory(cached_study, capsys):
         "null_shard": 2,
         "null_info": 1,
         "correct": 4,
+        "study_record": 1,
         "report": 1,
     }
     assert all(cost.wall_s > 0 for cost in stage_costs(logs))
