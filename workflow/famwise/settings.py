@@ -173,6 +173,7 @@ class ObservedSettings:
     equal_var: bool
     tail: str
     forming: tuple[FormingSettings, ...]
+    degenerate_points: str = "stop"
 
 
 # ---- permutation nulls ------------------------------------------------------------

@@ -109,6 +109,12 @@ class Inference(SpecModel):
     equal_var: bool = Field(default=True, description="Two-sample: Student's t (true) or Welch's t (false).")
     permutations: int = Field(default=1000, ge=1, description="Number of random permutations; all of them (exact test) when fewer distinct ones exist.")
     shards: int = Field(default=1, ge=1, description="Number of pieces the permutations are split into (one job each); results do not depend on it.")
+    degenerate_points: Literal["stop", "leave-out"] = Field(
+        default="stop",
+        description="Points where the statistic is undefined (NaN or inf in a subject's value, or a variance that is "
+        "zero or below (1e-6 x the largest |value| of the map)^2): 'stop' ends the run with a message naming them; "
+        "'leave-out' removes them from the family (not counted, never significant, marked in the figures).",
+    )
     family: Family = Field(default="per-contrast", description="'per-contrast', or 'all-contrasts' to correct over every contrast of the study together.")
     corrections: list[Correction] = Field(min_length=1, description="Corrections to apply, each with its own settings and an optional name.")
 
