@@ -24,7 +24,8 @@ FORMING_KEY = "forming_threshold.{label}"
 """Key of a cluster correction's forming threshold (statistic units) in observed.npz."""
 
 
-def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSettings) -> dict[str, np.ndarray]:
+def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSettings,
+                    also_left_out: np.ndarray | None = None) -> dict[str, np.ndarray]:
     """Every array of ``observed.npz`` for the subjects' maps ``x``.
 
     Parameters
@@ -34,6 +35,9 @@ def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSetting
     x : ndarray, shape (n, P) or (n, k, P)
         Subject maps (a calibration null dataset, or ``data.x``).
     settings : ObservedSettings
+    also_left_out : ndarray of bool (P,) or None
+        Points to leave out besides the degenerate ones (calibration: the
+        study's left-out points in each null dataset).
 
     Returns
     -------
@@ -59,6 +63,10 @@ def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSetting
         result = compute(blank(x, nonfinite).astype(np.float64), test=data.test, groups=data.groups,
                          covariate=data.covariate, tail=settings.tail, **statistic)
     left_out = degenerate_points(x, test=data.test, groups=data.groups, stat=result.stat)
+    if also_left_out is not None:
+        left_out |= also_left_out
+    if left_out.all():
+        raise UserError(f"observed statistics: every point is degenerate: {_description(data, x, left_out)}")
     if left_out.any() and settings.degenerate_points == "stop":
         raise UserError(f"observed statistics: {_description(data, x, left_out)}; set inference.degenerate_points: "
                         "leave-out to leave these points out of the family, or fix the maps")

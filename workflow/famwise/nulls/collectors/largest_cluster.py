@@ -11,6 +11,7 @@ from famwise.kernels._jit import thread_count
 from famwise.kernels.components import _cluster_max_block
 from famwise.nulls.collectors.kernel_inputs import DIMS, check_cluster_settings, check_dims, check_graph, \
     statistic_block, tail_code
+from famwise.nulls.screen import infinite_rows
 
 
 class ClusterCollector:
@@ -55,7 +56,7 @@ class ClusterCollector:
 
     def update(self, stats):
         """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = statistic_block(stats, self._shape)
+        stats, infinite = infinite_rows(statistic_block(stats, self._shape))
         n_pts = stats.shape[1]
         out = np.empty(stats.shape[0])
         if stats.shape[0]:
@@ -66,6 +67,8 @@ class ClusterCollector:
             _cluster_max_block(stats, self._threshold, self._tail_code, *self._shape, self._indptr,
                                self._indices, *self._links, self._use_mass, self._min_neighbors, n_chunks,
                                *self._workspace, out)
+            if infinite is not None:  # a point degenerate only after permutation: more extreme than any observed value
+                out[infinite] = np.inf
         self._parts.append(out)
 
     def arrays(self):

@@ -6,11 +6,11 @@ on this null), computed by the same kernel (`famwise.kernels.tfce_sweep`).
 
 import numpy as np
 
-from famwise.errors import UserError
 from famwise.kernels._jit import thread_count
 from famwise.kernels.tfce_sweep import _tfce_max_block, _tfce_workspace
-from famwise.nulls.collectors.kernel_inputs import DIMS, INFINITE_STATISTIC, check_dims, check_graph, \
-    check_tfce_settings, statistic_block, tail_code
+from famwise.nulls.collectors.kernel_inputs import DIMS, check_dims, check_graph, check_tfce_settings, \
+    statistic_block, tail_code
+from famwise.nulls.screen import infinite_rows
 
 
 class TFCECollector:
@@ -38,7 +38,7 @@ class TFCECollector:
 
     def update(self, stats):
         """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = statistic_block(stats, self._shape)
+        stats, infinite = infinite_rows(statistic_block(stats, self._shape))
         n_pts = stats.shape[1]
         out = np.empty(stats.shape[0])
         if stats.shape[0]:
@@ -47,8 +47,8 @@ class TFCECollector:
                 self._workspace = _tfce_workspace(n_chunks, n_pts, self._indptr)
             _tfce_max_block(stats, self._tail_code, self._E, self._H, self._step, *self._shape, self._indptr,
                             self._indices, *self._links, n_chunks, *self._workspace, out)
-            if np.isinf(out).any():
-                raise UserError(INFINITE_STATISTIC)
+            if infinite is not None:  # a point degenerate only after permutation: more extreme than any observed value
+                out[infinite] = np.inf
         self._parts.append(out)
 
     def arrays(self):
