@@ -42,7 +42,6 @@ boundary (on the order of one point in 10^8), and the exceedance counts'
 tolerance covers that case. Under a two-sided tail an exact enumeration
 therefore counts each mirror pair together, and
 `famwise.nulls.tables.smallest_attainable_p` is 2 / n_rows.
-"""
 
 Left-out and degenerate points
 ------------------------------
@@ -58,3 +57,4 @@ an exceedance, and the row's maximum is +inf for max-statistic, step-down,
 cluster and TFCE (the cluster and TFCE kernels never see the infinity: they
 run on the row with it set to 0, and the row's maximum is then set to +inf).
 Calibration uses the same collectors and the same screening.
+"""
