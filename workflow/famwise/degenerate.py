@@ -78,13 +78,18 @@ def describe(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, channels, 
     times : ndarray, s
     """
     grid = np.asarray(mask, dtype=bool).reshape(len(channels), len(freqs), len(times))
-    c, f, t = np.nonzero(grid)
-    names = [str(channels[i]) for i in np.unique(c)]
-    where = (f"{_listed(names, 'channels')}; {_span(freqs[np.unique(f)], 'Hz', '{:g}')}; "
-             f"{_span(times[np.unique(t)] * 1e3, 'ms', '{:.0f}')}")
     count = int(grid.sum())
     return (f"{count} point{'s' if count != 1 else ''} of {grid.size} where the statistic is undefined "
-            f"({where}); likely cause: {likely_cause(grid.reshape(-1), x=x, test=test, subjects=subjects, groups=groups)}")
+            f"({location(grid, channels=channels, freqs=freqs, times=times)}); likely cause: "
+            f"{likely_cause(grid.reshape(-1), x=x, test=test, subjects=subjects, groups=groups)}")
+
+
+def location(grid: np.ndarray, *, channels, freqs, times) -> str:
+    """Where the points of a (C, F, T) mask lie, e.g. ``"Fz, Cz; 4-6 Hz; 200-480 ms"`` (the ranges they span)."""
+    c, f, t = np.nonzero(grid)
+    names = [str(channels[i]) for i in np.unique(c)]
+    return (f"{_listed(names, 'channels')}; {_span(np.asarray(freqs)[np.unique(f)], 'Hz', '{:g}')}; "
+            f"{_span(np.asarray(times)[np.unique(t)] * 1e3, 'ms', '{:.0f}')}")
 
 
 def likely_cause(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, groups=None) -> str:

@@ -13,6 +13,7 @@ from famwise.report.explorer import explorer_block, explorer_data
 from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
+from famwise.degenerate import location
 from famwise.report.scalp import project
 from famwise.figure_style import figure_style, save_figure
 from famwise.report.values import planned_block, values_block
@@ -271,6 +272,17 @@ def cluster_block(contrast: ReportedContrast, correction: ReportedCorrection, sp
     return html
 
 
+def left_out_note(contrast: ReportedContrast) -> str:
+    """The points left out of the family (degenerate points), listed; empty when there are none."""
+    if contrast.left_out is None or not contrast.left_out.any():
+        return ""
+    count = int(contrast.left_out.sum())
+    where = location(contrast.left_out, channels=contrast.channels, freqs=contrast.freqs, times=contrast.times)
+    return note(f"{count} of {contrast.stat.size} points were left out of the family because the statistic is "
+                f"undefined there (a non-finite value, or zero or negligible variance): {esc(where)}. They are not "
+                "counted by any correction, never significant, and hatched in the figures.")
+
+
 def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) -> str:
     """Uncorrected map, every correction side by side, nulls, clusters and notes."""
     study = run.study
@@ -283,7 +295,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
             + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
             f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
             f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
-            f"mean {esc(direction(spec, True))}.</p>" + permutation_notes(contrast, study))
+            f"mean {esc(direction(spec, True))}.</p>" + left_out_note(contrast) + permutation_notes(contrast, study))
     uncorrected = contrast.p <= alpha
     base = anchor(contrast.name)
     counts = max([1] + [int(c.mask.sum(axis=0).max()) for c in contrast.corrections])
