@@ -5,6 +5,7 @@ import json
 import numpy as np
 
 from famwise.report import build_report, methods_text
+
 from report_fixture import write_output
 
 
