@@ -95,3 +95,21 @@ def test_repeated_measures_and_correlation_rules():
     with np.errstate(divide="ignore", invalid="ignore"):
         stat = compute(y, test="correlation", covariate=covariate).stat
     assert degenerate_points(y, test="correlation", stat=stat).tolist() == [True, False]
+
+
+def test_observed_job_stops_with_one_line_naming_the_contrast(tmp_path, capsys):
+    from famwise.jobs import main
+    from famwise.settings_codec import to_json
+
+    x = _maps()
+    x[:, 0, 3, :] = 1.5
+    folder = tmp_path / "contrasts" / "gamma-burst"
+    folder.mkdir(parents=True)
+    _data(x.reshape(8, -1)).save(folder / "subjects.npz")
+    status = main(["observed", "--settings", to_json(_settings()), "--subjects", str(folder / "subjects.npz"),
+                   "--out", str(folder / "observed.npz")])
+    lines = [line for line in capsys.readouterr().err.splitlines() if line.strip()]
+    assert status == 2 and not (folder / "observed.npz").exists()
+    assert len(lines) == 1
+    assert lines[0].startswith("famwise: error: contrast gamma-burst: observed statistics: 5 points of 60")
+    assert "(Fz; 8 Hz; 0-600 ms); likely cause: values identical in all subjects" in lines[0]
