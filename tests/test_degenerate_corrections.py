@@ -191,3 +191,28 @@ def test_a_point_degenerate_only_after_permutation_counts_as_more_extreme(tmp_pa
         u = np.where(degenerate_rows, np.inf, np.abs(np.where(np.isfinite(t), t, 0))[:, below].max(axis=1))
         counts[point] = int(np.count_nonzero(u >= obs[point] * (1 - 1e-5)))
     assert np.array_equal(arrays["max-stat.count"], counts)
+
+
+def test_calibration_leaves_out_the_studys_left_out_points_as_if_removed(tmp_path):
+    from famwise.calibrate import calibration_settings
+    from famwise.calibrate.datasets import calibration_chunk
+
+    corrections = "- method: holm\n- method: max-stat\n- method: cluster\n  forming_p: 0.05\n- method: tfce\n"
+    plan = _plan(tmp_path, corrections=corrections)
+    settings = calibration_settings(plan, "c1", datasets=6, permutations=63, chunks=1)
+    x = _maps(seed=9)
+    x[:, 3] = 0.25  # identical in every subject: sign-flipped null datasets would make it vary
+    counts = {}
+    for name, maps, n_channels in (("left-out", x, 4), ("removed", x[:, :3], 3)):
+        folder = tmp_path / name
+        folder.mkdir()
+        n, shape = maps.shape[0], maps.shape[1:]
+        data = ContrastData(x=maps.reshape(n, -1).astype(np.float32), test="one-sample",
+                            subjects=tuple(f"s{i}" for i in range(n)),
+                            channels=tuple(f"ch{i}" for i in range(n_channels)),
+                            freqs=np.array([4.0, 6.0, 8.0]), times=np.arange(shape[2]) / 50)
+        data.save(folder / "subjects.npz")
+        graph = _chain_graph(folder / "graph.npz", n_channels)
+        counts[name] = calibration_chunk(folder / "subjects.npz", graph, chunk=0, settings=settings)["n_significant"]
+    assert np.array_equal(counts["left-out"], counts["removed"])
+    assert counts["left-out"][:, 0].sum() > 0  # the uncorrected count sees the maps' effect
