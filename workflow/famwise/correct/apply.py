@@ -114,39 +114,46 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
         result = _included(result, keep)
     elif method in ("cluster", "tfce"):
         max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
-        if graph is None:
-            indptr, indices = np.zeros(shape[0] + 1, np.int32), np.zeros(0, np.int32)
-        else:
-            indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
-        dims = correction.dims
-        if method == "cluster":
-            from famwise.correct import clusters  # numba kernels: imported only when used
-
-            result = clusters.cluster_inference(
-                mine["stat"], max_null, threshold=stored_forming_threshold(mine, key), indptr=indptr, indices=indices,
-                dims=dims, cluster_stat=correction.cluster_stat, min_neighbor_channels=correction.min_neighbor_channels,
-                tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
-            )
-        else:
-            from famwise.correct import tfce
-
-            from famwise.correct.regions import significant_regions
-
-            result = tfce.tfce_inference(
-                mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction.E, H=correction.H,
-                step=correction.step, tail=tail, alpha=alpha,
-            )
-            region_id, rows = significant_regions(
-                result.maps["tfce"], result.p_corrected, result.mask, mine["stat"], indptr=indptr, indices=indices,
-                dims=dims, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
-            )
-            result = dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
+        result = _cluster_or_tfce(mine, max_null, graph, settings)
         if not keep.all():  # statistic 0 at left-out points: never in a cluster, never significant
             p_corrected = np.where(keep.reshape(shape), result.p_corrected, np.nan)
             result = dataclasses.replace(result, p_corrected=p_corrected, mask=result.mask & keep.reshape(shape))
     else:
         raise ValueError(f"unknown correction method {method!r}")
     return result, shape
+
+
+def _cluster_or_tfce(mine: dict, max_null: np.ndarray, graph: dict | None,
+                     settings: CorrectionSettings) -> CorrectionResult:
+    """Cluster or TFCE inference on one contrast's observed map against the null maxima."""
+    correction, alpha = settings.correction, settings.alpha
+    shape, tail, key, dims = mine["stat"].shape, str(mine["tail"]), correction.label, correction.dims
+    if graph is None:
+        indptr, indices = np.zeros(shape[0] + 1, np.int32), np.zeros(0, np.int32)
+    else:
+        indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
+    if correction.method == "cluster":
+        from famwise.correct import clusters  # numba kernels: imported only when used
+
+        return clusters.cluster_inference(
+            mine["stat"], max_null, threshold=stored_forming_threshold(mine, key), indptr=indptr, indices=indices,
+            dims=dims, cluster_stat=correction.cluster_stat, min_neighbor_channels=correction.min_neighbor_channels,
+            tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"],
+            times=mine["times"],
+        )
+    from famwise.correct import tfce
+
+    from famwise.correct.regions import significant_regions
+
+    result = tfce.tfce_inference(
+        mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction.E, H=correction.H,
+        step=correction.step, tail=tail, alpha=alpha,
+    )
+    region_id, rows = significant_regions(
+        result.maps["tfce"], result.p_corrected, result.mask, mine["stat"], indptr=indptr, indices=indices,
+        dims=dims, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
+    )
+    return dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
 
 
 def _included(result: CorrectionResult, keep: np.ndarray) -> CorrectionResult:
