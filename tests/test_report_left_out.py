@@ -50,3 +50,17 @@ def test_methods_state_the_default_window_and_a_window_before_the_event(tmp_path
     default = methods_text(study, output)
     assert "the window from the event (0 ms) to 600 ms, where the data free of edge effects end" in default
     assert "pre-event baseline was not tested" in default
+
+
+def test_explorer_leaves_the_left_out_points_blank(tmp_path):
+    from famwise.report.explorer import explorer_data, unpack
+    from famwise.report.results import read_run
+
+    output = tmp_path / "results"
+    write_output(output)
+    left_out, _ = _leave_out_a_channel(output)
+    contrast = read_run(output).contrasts[0]
+    data = explorer_data(contrast, output / "contrasts" / "attention", flat=np.zeros((len(contrast.channels), 2)),
+                         alpha=0.05, stat_label="t", unit="dB", positive="more", negative="less")
+    steps = unpack(data["stat"], "<i2", left_out.size).reshape(left_out.shape)
+    assert np.all(steps[left_out] == -32768) and np.all(steps[~left_out] != -32768)

@@ -93,6 +93,9 @@ def explorer_data(contrast: ReportedContrast, folder: Path, *, flat: np.ndarray,
                   unit: str, positive: str, negative: str) -> dict:
     """Everything the script draws for one contrast, as JSON-ready values.
 
+    Points left out of the family (``contrast.left_out``) go without a
+    statistic (NaN): the page leaves them blank.
+
     Parameters
     ----------
     contrast : ReportedContrast
@@ -107,12 +110,13 @@ def explorer_data(contrast: ReportedContrast, folder: Path, *, flat: np.ndarray,
         Plain words for the two signs of the statistic.
     """
     limit = symmetric_limit(contrast.stat)
+    stat = contrast.stat if contrast.left_out is None else np.where(contrast.left_out, np.nan, contrast.stat)
     return {
         "contrast": contrast.name, "shape": list(contrast.stat.shape), "channels": list(contrast.channels),
         "xy": np.round(np.asarray(flat, dtype=float), 4).tolist(),
         "freqs": [round(float(f), 4) for f in contrast.freqs],
         "times": [round(float(t) * 1000.0, 3) for t in contrast.times],
-        "limit": limit, "stat": pack_stat(contrast.stat, limit), "p": pack_p(contrast.p),
+        "limit": limit, "stat": pack_stat(stat, limit), "p": pack_p(contrast.p),
         "statLabel": stat_label, "unit": unit, "alpha": alpha, "positive": positive, "negative": negative,
         "colours": colour_table(),
         "corrections": [_correction_data(c, alpha, Path(folder)) for c in contrast.corrections],
