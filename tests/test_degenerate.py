@@ -17,13 +17,22 @@ SHAPE = (3, 4, 5)
 
 def _data(x, test="one-sample", groups=None, covariate=None):
     n = x.shape[0]
-    return ContrastData(x=x.astype(np.float32), test=test, subjects=tuple(f"{i:02d}" for i in range(1, n + 1)),
-                        channels=CHANNELS, freqs=FREQS, times=TIMES, groups=groups, covariate=covariate)
+    return ContrastData(
+        x=x.astype(np.float32),
+        test=test,
+        subjects=tuple(f"{i:02d}" for i in range(1, n + 1)),
+        channels=CHANNELS,
+        freqs=FREQS,
+        times=TIMES,
+        groups=groups,
+        covariate=covariate,
+    )
 
 
 def _settings(mode="stop", forming=()):
-    return ObservedSettings(statistic="t", trim=0.2, equal_var=True, tail="two-sided", forming=forming,
-                            degenerate_points=mode)
+    return ObservedSettings(
+        statistic="t", trim=0.2, equal_var=True, tail="two-sided", forming=forming, degenerate_points=mode
+    )
 
 
 def _maps(n=8, seed=1):
@@ -46,7 +55,9 @@ def test_identical_values_stop_with_where_and_why():
 def test_nan_in_one_subject_names_the_subject():
     x = _maps()
     x[2, 2, 3, 4] = np.nan
-    with pytest.raises(UserError, match=r"1 point of 60 .*\(Pz; 8 Hz; 600 ms\); likely cause: NaN or inf in the map of subject 03"):
+    with pytest.raises(
+        UserError, match=r"1 point of 60 .*\(Pz; 8 Hz; 600 ms\); likely cause: NaN or inf in the map of subject 03"
+    ):
         observed_arrays(_data(x.reshape(8, -1)), x.reshape(8, -1), _settings())
 
 
@@ -106,8 +117,17 @@ def test_observed_job_stops_with_one_line_naming_the_contrast(tmp_path, capsys):
     folder = tmp_path / "contrasts" / "gamma-burst"
     folder.mkdir(parents=True)
     _data(x.reshape(8, -1)).save(folder / "subjects.npz")
-    status = main(["observed", "--settings", to_json(_settings()), "--subjects", str(folder / "subjects.npz"),
-                   "--out", str(folder / "observed.npz")])
+    status = main(
+        [
+            "observed",
+            "--settings",
+            to_json(_settings()),
+            "--subjects",
+            str(folder / "subjects.npz"),
+            "--out",
+            str(folder / "observed.npz"),
+        ]
+    )
     lines = [line for line in capsys.readouterr().err.splitlines() if line.strip()]
     assert status == 2 and not (folder / "observed.npz").exists()
     assert len(lines) == 1

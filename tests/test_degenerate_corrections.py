@@ -55,8 +55,19 @@ CORRECTIONS = """\
   forming_p: 0.05
 - method: tfce
 """
-LABELS = ["bonferroni", "sidak", "holm", "hochberg", "fdr-bh", "fdr-by", "holm-perm", "max-stat", "step-down",
-          "cluster", "tfce"]
+LABELS = [
+    "bonferroni",
+    "sidak",
+    "holm",
+    "hochberg",
+    "fdr-bh",
+    "fdr-by",
+    "holm-perm",
+    "max-stat",
+    "step-down",
+    "cluster",
+    "tfce",
+]
 
 
 def _plan(folder, tail="two-sided", corrections=CORRECTIONS):
@@ -76,16 +87,23 @@ def _run(folder, x, plan, n_channels):
     """Every correction's result for one contrast of maps ``x`` (n, C, F, T)."""
     folder.mkdir()
     n, shape = x.shape[0], x.shape[1:]
-    data = ContrastData(x=x.reshape(n, -1).astype(np.float32), test="one-sample",
-                        subjects=tuple(f"s{i}" for i in range(n)), channels=tuple(f"ch{i}" for i in range(n_channels)),
-                        freqs=np.array([4.0, 6.0, 8.0])[: shape[1]], times=np.arange(shape[2]) / 50)
+    data = ContrastData(
+        x=x.reshape(n, -1).astype(np.float32),
+        test="one-sample",
+        subjects=tuple(f"s{i}" for i in range(n)),
+        channels=tuple(f"ch{i}" for i in range(n_channels)),
+        freqs=np.array([4.0, 6.0, 8.0])[: shape[1]],
+        times=np.arange(shape[2]) / 50,
+    )
     contrast = folder / "contrasts" / "c1"
     contrast.mkdir(parents=True)
     data.save(contrast / "subjects.npz")
     save_observed(contrast / "observed.npz", observed_arrays(data, data.x, plan.observed_settings()))
     graph = _chain_graph(folder / "graph.npz", n_channels)
     (contrast / "nulls").mkdir()
-    shard = null_shard(contrast / "subjects.npz", contrast / "observed.npz", graph, shard=0, settings=plan.null_settings())
+    shard = null_shard(
+        contrast / "subjects.npz", contrast / "observed.npz", graph, shard=0, settings=plan.null_settings()
+    )
     save_npz(contrast / "nulls" / "shard-0.npz", **shard)
     results = {}
     for label in LABELS:
@@ -128,16 +146,23 @@ def test_scattered_left_out_points_are_not_counted_in_m(tmp_path):
     folder = tmp_path / "run"
     folder.mkdir()
     flat = x.reshape(9, -1)
-    data = ContrastData(x=flat.astype(np.float32), test="one-sample", subjects=tuple(f"s{i}" for i in range(9)),
-                        channels=("a", "b", "c", "d"), freqs=np.array([4.0, 6.0, 8.0]), times=np.arange(8) / 50)
+    data = ContrastData(
+        x=flat.astype(np.float32),
+        test="one-sample",
+        subjects=tuple(f"s{i}" for i in range(9)),
+        channels=("a", "b", "c", "d"),
+        freqs=np.array([4.0, 6.0, 8.0]),
+        times=np.arange(8) / 50,
+    )
     observed = observed_arrays(data, data.x, plan.observed_settings())
     (folder / "contrasts" / "c1").mkdir(parents=True)
     save_observed(folder / "contrasts" / "c1" / "observed.npz", observed)
     keep = ~observed["left_out"].reshape(-1)
     assert keep.sum() == 94
     for label in ("holm", "fdr-bh"):
-        result, _ = apply_correction([folder / "contrasts" / "c1" / "observed.npz"], contrast="c1",
-                                     settings=plan.correction_settings(label))
+        result, _ = apply_correction(
+            [folder / "contrasts" / "c1" / "observed.npz"], contrast="c1", settings=plan.correction_settings(label)
+        )
         reference = pvalues.adjust(observed["p"].reshape(-1)[keep], method=label)
         assert result.settings["m"] == 94
         assert np.array_equal(np.asarray(result.p_corrected)[keep], reference.p_corrected)
@@ -153,21 +178,35 @@ def _t_rows(x, rows):
 
 
 def test_a_point_degenerate_only_after_permutation_counts_as_more_extreme(tmp_path):
-    plan = _plan(tmp_path, corrections="- method: max-stat\n  step_down: true\n- method: cluster\n  forming_stat: 1.0\n"
-                 "- method: tfce\n- method: holm\n  pvalues: permutation\n")
+    plan = _plan(
+        tmp_path,
+        corrections="- method: max-stat\n  step_down: true\n- method: cluster\n  forming_stat: 1.0\n"
+        "- method: tfce\n- method: holm\n  pvalues: permutation\n",
+    )
     rng = np.random.default_rng(7)
     x = rng.normal(size=(5, 4))
     x[:, 0] = [2.0, 2.0, -2.0, 2.0, 2.0]  # equal |value|: the flips that align every sign leave no variance
-    data = ContrastData(x=x.astype(np.float32), test="one-sample", subjects=tuple("abcde"), channels=("p", "q"),
-                        freqs=np.array([5.0]), times=np.array([0.0, 0.1]))
+    data = ContrastData(
+        x=x.astype(np.float32),
+        test="one-sample",
+        subjects=tuple("abcde"),
+        channels=("p", "q"),
+        freqs=np.array([5.0]),
+        times=np.array([0.0, 0.1]),
+    )
     observed = observed_arrays(data, data.x, plan.observed_settings())
     assert not observed["left_out"].any()
     table = table_for(data, settings=plan.null_settings())
     assert table.exact and table.n_rows == 32
     graph = (np.array([0, 1, 2], np.int32), np.array([1, 0], np.int32))
     collectors = make_collectors(plan.null_settings().collectors, observed=observed, shape=data.shape, graph=graph)
-    arrays = run_shard(data.x, table.rows, collectors=collectors, test="one-sample",
-                       screen=BlockScreen(observed["left_out"], tail="two-sided"))
+    arrays = run_shard(
+        data.x,
+        table.rows,
+        collectors=collectors,
+        test="one-sample",
+        screen=BlockScreen(observed["left_out"], tail="two-sided"),
+    )
 
     t = _t_rows(x, table.rows)  # direct computation
     degenerate_rows = ~np.isfinite(t).all(axis=1)
@@ -207,10 +246,14 @@ def test_calibration_leaves_out_the_studys_left_out_points_as_if_removed(tmp_pat
         folder = tmp_path / name
         folder.mkdir()
         n, shape = maps.shape[0], maps.shape[1:]
-        data = ContrastData(x=maps.reshape(n, -1).astype(np.float32), test="one-sample",
-                            subjects=tuple(f"s{i}" for i in range(n)),
-                            channels=tuple(f"ch{i}" for i in range(n_channels)),
-                            freqs=np.array([4.0, 6.0, 8.0]), times=np.arange(shape[2]) / 50)
+        data = ContrastData(
+            x=maps.reshape(n, -1).astype(np.float32),
+            test="one-sample",
+            subjects=tuple(f"s{i}" for i in range(n)),
+            channels=tuple(f"ch{i}" for i in range(n_channels)),
+            freqs=np.array([4.0, 6.0, 8.0]),
+            times=np.arange(shape[2]) / 50,
+        )
         data.save(folder / "subjects.npz")
         graph = _chain_graph(folder / "graph.npz", n_channels)
         counts[name] = calibration_chunk(folder / "subjects.npz", graph, chunk=0, settings=settings)["n_significant"]

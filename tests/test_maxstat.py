@@ -4,9 +4,9 @@ import numpy as np
 import pytest
 
 from famwise.correct.maxstat import single_step, single_step_family, step_down, step_down_family
+from famwise.errors import UserError
 from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
 from famwise.nulls.collectors.protocol import merge_shard_arrays
-from famwise.errors import UserError
 from famwise.reference.stepdown import step_down_reference
 
 TAILS = ["two-sided", "greater", "less"]

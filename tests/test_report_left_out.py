@@ -28,8 +28,9 @@ def test_left_out_points_are_listed_hatched_and_stated_in_the_methods(tmp_path):
     output = tmp_path / "results"
     write_output(output)
     left_out, arrays = _leave_out_a_channel(output)
-    index = build_report(output, spec_text=spec.read_text(), spec_path=spec, input_files=[],
-                         started="2026-01-01T00:00:00+00:00")
+    index = build_report(
+        output, spec_text=spec.read_text(), spec_path=spec, input_files=[], started="2026-01-01T00:00:00+00:00"
+    )
     html = index.read_text(encoding="utf-8")
     channel = str(arrays["channels"][0])
     freqs, times = arrays["freqs"], arrays["times"]
@@ -60,7 +61,15 @@ def test_explorer_leaves_the_left_out_points_blank(tmp_path):
     write_output(output)
     left_out, _ = _leave_out_a_channel(output)
     contrast = read_run(output).contrasts[0]
-    data = explorer_data(contrast, output / "contrasts" / "attention", flat=np.zeros((len(contrast.channels), 2)),
-                         alpha=0.05, stat_label="t", unit="dB", positive="more", negative="less")
+    data = explorer_data(
+        contrast,
+        output / "contrasts" / "attention",
+        flat=np.zeros((len(contrast.channels), 2)),
+        alpha=0.05,
+        stat_label="t",
+        unit="dB",
+        positive="more",
+        negative="less",
+    )
     steps = unpack(data["stat"], "<i2", left_out.size).reshape(left_out.shape)
     assert np.all(steps[left_out] == -32768) and np.all(steps[~left_out] != -32768)

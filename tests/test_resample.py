@@ -151,7 +151,9 @@ def collectors_for(options):
     ]
 
 
-@pytest.mark.parametrize("name", ["one-sample t", "paired yuen", "two-sample welch", "correlation", "repeated-measures"])
+@pytest.mark.parametrize(
+    "name", ["one-sample t", "paired yuen", "two-sample welch", "correlation", "repeated-measures"]
+)
 def test_null_identical_for_shards_and_block_sizes(name):
     options = DESIGNS[name]
     x, table = design_data(options), design_table(options, permutations=100)
@@ -339,7 +341,9 @@ def test_smallest_attainable_p():
 
 def test_check_attainable_warns_with_the_p():
     table = make_table("one-sample", n_subjects=5, permutations=1000, seed=0)
-    with pytest.warns(FamwiseWarning, match=r"smallest attainable two-sided permutation p is 0.0625 .* above alpha 0.05"):
+    with pytest.warns(
+        FamwiseWarning, match=r"smallest attainable two-sided permutation p is 0.0625 .* above alpha 0.05"
+    ):
         check_attainable(table, tail="two-sided", alpha=0.05)
     with warnings.catch_warnings():
         warnings.simplefilter("error")

@@ -15,7 +15,6 @@ from famwise.reference.tfce import tfce_null_reference, tfce_reference
 
 from conftest import ring
 
-
 NO_CHANNELS = dict(indptr=np.array([0, 0], np.int32), indices=np.zeros(0, np.int32))
 BUMP = np.array([0, 0, 2, 2, 2, 2, 0, 0], dtype=float)[None, None, :]
 

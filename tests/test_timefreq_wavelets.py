@@ -70,8 +70,7 @@ def test_log_linear_cycles():
 
 def _one_channel(signal, sfreq, tmin=0.0, label="a"):
     data = np.atleast_2d(signal)[:, None, :]
-    return Epochs(data=data, sfreq=sfreq, tmin=tmin, channels=("Cz",),
-                  labels=np.array([label] * data.shape[0]))
+    return Epochs(data=data, sfreq=sfreq, tmin=tmin, channels=("Cz",), labels=np.array([label] * data.shape[0]))
 
 
 def test_sinusoid_amplitude_recovered():
@@ -81,8 +80,7 @@ def test_sinusoid_amplitude_recovered():
     fs, amplitude = 1000.0, 3e-6
     t = np.arange(int(4 * fs)) / fs
     epochs = _one_channel(amplitude * np.cos(2 * np.pi * 10.0 * t + 0.7), fs)
-    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]}, freqs_hz=np.array([10.0]),
-                     cycles=7.0)
+    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]}, freqs_hz=np.array([10.0]), cycles=7.0)
     margin = 5 * wl.sigma_t_from_cycles(10.0, 7.0)
     inside = (t >= margin) & (t <= t[-1] - margin)
     np.testing.assert_allclose(np.sqrt(maps.values[0, 0, 0, inside]), amplitude, rtol=1e-4)

@@ -79,17 +79,21 @@ def describe(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, channels, 
     """
     grid = np.asarray(mask, dtype=bool).reshape(len(channels), len(freqs), len(times))
     count = int(grid.sum())
-    return (f"{count} point{'s' if count != 1 else ''} of {grid.size} where the statistic is undefined "
-            f"({location(grid, channels=channels, freqs=freqs, times=times)}); likely cause: "
-            f"{likely_cause(grid.reshape(-1), x=x, test=test, subjects=subjects, groups=groups)}")
+    return (
+        f"{count} point{'s' if count != 1 else ''} of {grid.size} where the statistic is undefined "
+        f"({location(grid, channels=channels, freqs=freqs, times=times)}); likely cause: "
+        f"{likely_cause(grid.reshape(-1), x=x, test=test, subjects=subjects, groups=groups)}"
+    )
 
 
 def location(grid: np.ndarray, *, channels, freqs, times) -> str:
     """Where the points of a (C, F, T) mask lie, e.g. ``"Fz, Cz; 4-6 Hz; 200-480 ms"`` (the ranges they span)."""
     c, f, t = np.nonzero(grid)
     names = [str(channels[i]) for i in np.unique(c)]
-    return (f"{_listed(names, 'channels')}; {_span(np.asarray(freqs)[np.unique(f)], 'Hz', '{:g}')}; "
-            f"{_span(np.asarray(times)[np.unique(t)] * 1e3, 'ms', '{:.0f}')}")
+    return (
+        f"{_listed(names, 'channels')}; {_span(np.asarray(freqs)[np.unique(f)], 'Hz', '{:g}')}; "
+        f"{_span(np.asarray(times)[np.unique(t)] * 1e3, 'ms', '{:.0f}')}"
+    )
 
 
 def likely_cause(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, groups=None) -> str:
@@ -98,8 +102,10 @@ def likely_cause(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, groups
     per_subject = ~np.isfinite(x).reshape(x.shape[0], -1).all(axis=1)
     if per_subject.any():
         names = [str(s) for s in np.asarray(subjects)[per_subject]]
-        return f"NaN or inf in the map{'s' if len(names) > 1 else ''} of subject{'s' if len(names) > 1 else ''} " \
-               f"{_listed(names, 'subjects')}"
+        return (
+            f"NaN or inf in the map{'s' if len(names) > 1 else ''} of subject{'s' if len(names) > 1 else ''} "
+            f"{_listed(names, 'subjects')}"
+        )
     if test == "repeated-measures":
         return "no variance left after removing each subject's and each condition's mean"
     if test == "two-sample":

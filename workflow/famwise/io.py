@@ -57,7 +57,9 @@ def save_epochs(
         raise ValueError(f"{len(conditions)} condition labels for {data.shape[0]} epochs")
     if sfreq <= 0:
         raise ValueError(f"sfreq must be positive, got {sfreq}")
-    arrays = dict(data=data, sfreq=float(sfreq), tmin=float(tmin), channels=np.array(channels), conditions=np.array(conditions))
+    arrays = dict(
+        data=data, sfreq=float(sfreq), tmin=float(tmin), channels=np.array(channels), conditions=np.array(conditions)
+    )
     if bad is not None:
         bad = np.asarray(bad, dtype=bool)
         if bad.shape != (data.shape[0],):
@@ -86,7 +88,9 @@ def load_epochs(path: Path, *, subject: str) -> Epochs:
     with archive:
         missing = [key for key in ("data", "sfreq", "tmin", "channels", "conditions") if key not in archive.files]
         if missing:
-            raise UserError(f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sfreq, tmin, channels, conditions)")
+            raise UserError(
+                f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sfreq, tmin, channels, conditions)"
+            )
         data = archive["data"]
         sfreq = float(archive["sfreq"])
         tmin = float(archive["tmin"])
@@ -119,7 +123,7 @@ def discover_pattern(folder: Path, pattern: str) -> list[str]:
     """Subject ids whose files match a ``{subject}`` pattern (relative to ``folder``, or absolute), sorted."""
     anchor = Path(pattern).anchor
     if anchor:
-        folder, pattern = Path(anchor), pattern[len(anchor):]
+        folder, pattern = Path(anchor), pattern[len(anchor) :]
     before, _, after = pattern.partition("{subject}")
     glob = before + "*" + after
     regex = re.compile(re.escape(before) + r"([A-Za-z0-9]+)" + re.escape(after) + "$")

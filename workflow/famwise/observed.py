@@ -24,8 +24,9 @@ FORMING_KEY = "forming_threshold.{label}"
 """Key of a cluster correction's forming threshold (statistic units) in observed.npz."""
 
 
-def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSettings,
-                    also_left_out: np.ndarray | None = None) -> dict[str, np.ndarray]:
+def observed_arrays(
+    data: ContrastData, x: np.ndarray, settings: ObservedSettings, also_left_out: np.ndarray | None = None
+) -> dict[str, np.ndarray]:
     """Every array of ``observed.npz`` for the subjects' maps ``x``.
 
     Parameters
@@ -60,16 +61,24 @@ def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSetting
     statistic = {"statistic": settings.statistic, "trim": settings.trim, "equal_var": settings.equal_var}
     nonfinite = ~np.isfinite(x).reshape(-1, x.shape[-1]).all(axis=0)
     with np.errstate(divide="ignore", invalid="ignore"):
-        result = compute(blank(x, nonfinite).astype(np.float64), test=data.test, groups=data.groups,
-                         covariate=data.covariate, tail=settings.tail, **statistic)
+        result = compute(
+            blank(x, nonfinite).astype(np.float64),
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            tail=settings.tail,
+            **statistic,
+        )
     left_out = degenerate_points(x, test=data.test, groups=data.groups, stat=result.stat)
     if also_left_out is not None:
         left_out |= also_left_out
     if left_out.all():
         raise UserError(f"observed statistics: every point is degenerate: {_description(data, x, left_out)}")
     if left_out.any() and settings.degenerate_points == "stop":
-        raise UserError(f"observed statistics: {_description(data, x, left_out)}; set inference.degenerate_points: "
-                        "leave-out to leave these points out of the family, or fix the maps")
+        raise UserError(
+            f"observed statistics: {_description(data, x, left_out)}; set inference.degenerate_points: "
+            "leave-out to leave these points out of the family, or fix the maps"
+        )
     # The stored map is the permutation engine's identity row (equal to result.stat up to
     # float32 rounding), so that every correction compares the null with the same bits.
     stat = identity_statistic(replace(data, x=blank(x, left_out)), settings=settings)
@@ -78,21 +87,38 @@ def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSetting
         stat, p = np.where(left_out, 0.0, stat), np.where(left_out, np.nan, p)
     shape = data.shape
     arrays = {
-        "stat": stat.reshape(shape), "p": p.reshape(shape), "df": np.asarray(result.df),
-        "effect": result.effect.reshape(shape), "effect_size": result.effect_size.reshape(shape),
+        "stat": stat.reshape(shape),
+        "p": p.reshape(shape),
+        "df": np.asarray(result.df),
+        "effect": result.effect.reshape(shape),
+        "effect_size": result.effect_size.reshape(shape),
         "left_out": left_out.reshape(shape),
-        "channels": np.array(data.channels), "freqs": data.freqs, "times": data.times, "test": data.test,
-        "statistic": result.statistic, "n": result.n, "tail": result.effective_tail,
+        "channels": np.array(data.channels),
+        "freqs": data.freqs,
+        "times": data.times,
+        "test": data.test,
+        "statistic": result.statistic,
+        "n": result.n,
+        "tail": result.effective_tail,
     }
     for forming in settings.forming:
         arrays[FORMING_KEY.format(label=forming.label)] = np.array(
-            forming_threshold(forming, test=data.test, df=arrays["df"], tail=result.effective_tail))
+            forming_threshold(forming, test=data.test, df=arrays["df"], tail=result.effective_tail)
+        )
     return arrays
 
 
 def _description(data: ContrastData, x: np.ndarray, left_out: np.ndarray) -> str:
-    return describe(left_out, x=x, test=data.test, subjects=data.subjects, channels=data.channels,
-                    freqs=data.freqs, times=data.times, groups=data.groups)
+    return describe(
+        left_out,
+        x=x,
+        test=data.test,
+        subjects=data.subjects,
+        channels=data.channels,
+        freqs=data.freqs,
+        times=data.times,
+        groups=data.groups,
+    )
 
 
 def left_out_points(observed: dict[str, np.ndarray]) -> np.ndarray:

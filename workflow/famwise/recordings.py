@@ -73,8 +73,12 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
     try:
         if path.suffix.lower() == ".vhdr":
             header = brainvision.read_header(path)
-            return Recording(path, tuple(Signal(c.name, header.sfreq, c.unit) for c in header.channels),
-                             header.n_samples / header.sfreq, lambda indices: brainvision.read_samples(header, indices))
+            return Recording(
+                path,
+                tuple(Signal(c.name, header.sfreq, c.unit) for c in header.channels),
+                header.n_samples / header.sfreq,
+                lambda indices: brainvision.read_samples(header, indices),
+            )
         if path.suffix.lower() == ".bdf":
             edf = edfio.read_bdf(path)
         else:
@@ -84,12 +88,24 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
     except Exception as exc:
         raise UserError(f"subject {subject}: cannot read the recording {path}: {exc}") from None
     signals = edf.signals
-    return Recording(path, tuple(Signal(s.label, s.sampling_frequency, s.physical_dimension) for s in signals),
-                     edf.duration, lambda indices: np.stack([signals[i].data for i in indices]))
+    return Recording(
+        path,
+        tuple(Signal(s.label, s.sampling_frequency, s.physical_dimension) for s in signals),
+        edf.duration,
+        lambda indices: np.stack([signals[i].data for i in indices]),
+    )
 
 
-def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: list[str], fmt: str,
-                    markers: list[tuple[int, str]], resolution_uv: float | None = None) -> Path:
+def write_recording(
+    path: Path,
+    data_uv: np.ndarray,
+    *,
+    sfreq: float,
+    channels: list[str],
+    fmt: str,
+    markers: list[tuple[int, str]],
+    resolution_uv: float | None = None,
+) -> Path:
     """Write a continuous recording in µV as EDF, BDF or BrainVision; return the file written.
 
     Parameters
@@ -114,8 +130,7 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: 
     """
     if fmt == "brainvision":
         target = Path(f"{path}.vhdr")
-        brainvision.write(target, data_uv, sfreq=sfreq, channels=channels, markers=markers,
-                          resolution=resolution_uv)
+        brainvision.write(target, data_uv, sfreq=sfreq, channels=channels, markers=markers, resolution=resolution_uv)
         return target
     target = Path(f"{path}.{fmt}")
     signal_class, file_class = (edfio.EdfSignal, edfio.Edf) if fmt == "edf" else (edfio.BdfSignal, edfio.Bdf)
@@ -130,9 +145,16 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: 
         digital = np.round(padded / resolution_uv)
         if bound <= 0 or np.abs(digital).max() > steps:
             raise ValueError(f"samples beyond ±{bound:g} µV cannot be stored at {resolution_uv:g} µV per step")
-        signals = [signal_class.from_digital(row.astype(dtype), sfreq, label=name,
-                                             physical_dimension="uV", physical_range=(-bound, bound),
-                                             digital_range=(-steps, steps))
-                   for row, name in zip(digital, channels)]
+        signals = [
+            signal_class.from_digital(
+                row.astype(dtype),
+                sfreq,
+                label=name,
+                physical_dimension="uV",
+                physical_range=(-bound, bound),
+                digital_range=(-steps, steps),
+            )
+            for row, name in zip(digital, channels)
+        ]
     file_class(signals).write(target)
     return target

@@ -12,7 +12,10 @@ def describe_plan(plan: Plan) -> str:
     i = s.inference
     lines = [f"Study '{s.name}' ({plan.loaded.path.name}) is valid.", ""]
     excluded = s.subjects.exclude
-    lines.append(f"Subjects: {len(plan.subjects)} analysed ({s.subjects.source} input)" + (f", {len(excluded)} excluded:" if excluded else ""))
+    lines.append(
+        f"Subjects: {len(plan.subjects)} analysed ({s.subjects.source} input)"
+        + (f", {len(excluded)} excluded:" if excluded else "")
+    )
     for subject, reason in excluded.items():
         lines.append(f"  - {subject}: {reason}")
     if plan.groups:
@@ -28,14 +31,21 @@ def describe_plan(plan: Plan) -> str:
         grid = tf.freqs_hz
         lines.append(
             f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.start_hz:g}-{grid.stop_hz:g} Hz ({grid.spacing}), "
-            f"baseline {tf.baseline.mode}" + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
+            f"baseline {tf.baseline.mode}"
+            + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
         )
     a = s.analysis
     lines.append(
-        "Analysis region: time " + (f"{list(a.time_ms)} ms" if a.time_ms else
-                                    "from the event (0 ms) to the end of the edge-free data (the baseline is not tested)")
-        + ", frequency " + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
-        + ", channels " + (", ".join(a.channels) if a.channels else "all")
+        "Analysis region: time "
+        + (
+            f"{list(a.time_ms)} ms"
+            if a.time_ms
+            else "from the event (0 ms) to the end of the edge-free data (the baseline is not tested)"
+        )
+        + ", frequency "
+        + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
+        + ", channels "
+        + (", ".join(a.channels) if a.channels else "all")
     )
     note = window_note(a.time_ms)
     if note:
@@ -56,7 +66,10 @@ def describe_plan(plan: Plan) -> str:
     lines.append("Corrections:")
     for c in i.corrections:
         settings = c.model_dump(exclude={"name", "method"}, exclude_none=True)
-        lines.append(f"  - {c.label}: {c.method}" + (f" ({', '.join(f'{k}={v}' for k, v in settings.items())})" if settings else ""))
+        lines.append(
+            f"  - {c.label}: {c.method}"
+            + (f" ({', '.join(f'{k}={v}' for k, v in settings.items())})" if settings else "")
+        )
     if plan.needs_graph:
         lines.append("")
         lines.append(_graph_summary(plan))
@@ -67,8 +80,10 @@ def window_note(time_ms) -> str | None:
     """A one-line note when the analysis window starts before the event (None otherwise)."""
     if time_ms is None or time_ms[0] >= 0:
         return None
-    return (f"Note: analysis.time_ms starts at {time_ms[0]:g} ms, before the event: after baseline normalisation "
-            "those points cannot show an effect, but they count in every family-wise correction and make it stricter.")
+    return (
+        f"Note: analysis.time_ms starts at {time_ms[0]:g} ms, before the event: after baseline normalisation "
+        "those points cannot show an effect, but they count in every family-wise correction and make it stricter."
+    )
 
 
 def input_warnings(plan: Plan) -> list[str]:
@@ -91,12 +106,19 @@ def _graph_summary(plan: Plan) -> str:
         channels = list(plan.study.analysis.channels)
     if s.positions == "bids":
         return "Channel graph: from each subject's _electrodes.tsv when the run starts."
-    positions = s.positions.removeprefix("standard-") if s.positions.startswith("standard-") else plan.loaded.resolve(s.positions)
+    positions = (
+        s.positions.removeprefix("standard-")
+        if s.positions.startswith("standard-")
+        else plan.loaded.resolve(s.positions)
+    )
     n = s.neighbors
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         graph, _ = channel_graph(
-            channels, positions=positions, method=n.method, max_distance_mm=n.max_distance_mm,
+            channels,
+            positions=positions,
+            method=n.method,
+            max_distance_mm=n.max_distance_mm,
             edges_file=plan.loaded.resolve(n.edges_file) if n.edges_file else None,
         )
     text = "Channel graph:\n" + "\n".join("  " + line for line in graph_summary(graph).splitlines())

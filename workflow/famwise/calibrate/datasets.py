@@ -130,7 +130,9 @@ def calibration_chunk(
     table = table_for(data, settings=settings.nulls) if settings.nulls.collectors else None
     graph = load_graph_arrays(graph_file, len(data.channels))
     counts = np.zeros((stop - start, len(labels)), dtype=np.int64)
-    study_left_out = left_out_points(observed_arrays(data, data.x, settings.observed))  # stops as the observed stage does
+    study_left_out = left_out_points(
+        observed_arrays(data, data.x, settings.observed)
+    )  # stops as the observed stage does
     name = settings.contrast
     with tempfile.TemporaryDirectory(prefix="famwise-calibrate-") as scratch:
         folder = Path(scratch) / "contrasts" / name
@@ -149,8 +151,9 @@ def calibration_chunk(
     }
 
 
-def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings,
-                    study_left_out: np.ndarray) -> list[int]:
+def _dataset_counts(
+    x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings, study_left_out: np.ndarray
+) -> list[int]:
     """Significant points of one null dataset: uncorrected, then each correction."""
     # The observed stage's own record (forming thresholds, points left out): the study's left-out points
     # and the null dataset's own degenerate points are left out.
@@ -160,9 +163,21 @@ def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: C
     save_observed(inputs[0], observed)
     if table is not None:
         collectors = make_collectors(settings.nulls.collectors, observed=observed, shape=data.shape, graph=graph)
-        statistic = {"statistic": settings.nulls.statistic, "trim": settings.nulls.trim, "equal_var": settings.nulls.equal_var}
-        arrays = run_shard(blank(x, left_out), table.rows, collectors=collectors, test=data.test, groups=data.groups,
-                           covariate=data.covariate, screen=BlockScreen(left_out, tail=str(observed["tail"])), **statistic)
+        statistic = {
+            "statistic": settings.nulls.statistic,
+            "trim": settings.nulls.trim,
+            "equal_var": settings.nulls.equal_var,
+        }
+        arrays = run_shard(
+            blank(x, left_out),
+            table.rows,
+            collectors=collectors,
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            screen=BlockScreen(left_out, tail=str(observed["tail"])),
+            **statistic,
+        )
         arrays["rows"] = np.array([0, table.n_rows])
         arrays["n_rows.total"] = np.array(table.n_rows)
         inputs.append(folder / "nulls" / "shard-0.npz")

@@ -14,10 +14,10 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.atomic import save_npz
 from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
-from famwise.atomic import save_npz
 from famwise.nulls.collectors.protocol import merge_shard_arrays
 from famwise.observed import left_out_points, load_observed, stored_forming_threshold
 from famwise.settings import CorrectionSettings
@@ -40,7 +40,9 @@ def _merged_nulls(files: list[Path]) -> tuple[dict[str, np.ndarray], int]:
     return merged, n_rows
 
 
-def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionSettings) -> tuple[CorrectionResult, tuple]:
+def apply_correction(
+    inputs: list[Path], *, contrast: str, settings: CorrectionSettings
+) -> tuple[CorrectionResult, tuple]:
     """Run one correction for one contrast.
 
     Parameters
@@ -76,7 +78,9 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
     names = [c for c in settings.contrasts if c in observed]
     nulls = {name: _merged_nulls(files) for name, files in shards.items()}
     if len({n for _, n in nulls.values()}) > 1:
-        raise UserError("inference.family: all-contrasts needs contrasts that share one permutation table (same test design and subjects)")
+        raise UserError(
+            "inference.family: all-contrasts needs contrasts that share one permutation table (same test design and subjects)"
+        )
     mine = observed[contrast]
     shape = mine["stat"].shape
     keeps = {name: ~left_out_points(observed[name]) for name in names}
@@ -102,8 +106,12 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
             family, family_rows = _merged_nulls(family_shards)
             joint_keep = np.concatenate([keeps[c] for c in names])
             results = maxstat.step_down_family(
-                [observed[c]["stat"].reshape(-1)[keeps[c]] for c in names], family[f"{key}.count"][joint_keep],
-                family_rows, tail=tail, alpha=alpha, max_null=max_null,
+                [observed[c]["stat"].reshape(-1)[keeps[c]] for c in names],
+                family[f"{key}.count"][joint_keep],
+                family_rows,
+                tail=tail,
+                alpha=alpha,
+                max_null=max_null,
             )
             result = results[names.index(contrast)]
         elif correction.step_down:
@@ -123,8 +131,9 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
     return result, shape
 
 
-def _cluster_or_tfce(mine: dict, max_null: np.ndarray, graph: dict | None,
-                     settings: CorrectionSettings) -> CorrectionResult:
+def _cluster_or_tfce(
+    mine: dict, max_null: np.ndarray, graph: dict | None, settings: CorrectionSettings
+) -> CorrectionResult:
     """Cluster or TFCE inference on one contrast's observed map against the null maxima."""
     correction, alpha = settings.correction, settings.alpha
     shape, tail, key, dims = mine["stat"].shape, str(mine["tail"]), correction.label, correction.dims
@@ -136,22 +145,46 @@ def _cluster_or_tfce(mine: dict, max_null: np.ndarray, graph: dict | None,
         from famwise.correct import clusters  # numba kernels: imported only when used
 
         return clusters.cluster_inference(
-            mine["stat"], max_null, threshold=stored_forming_threshold(mine, key), indptr=indptr, indices=indices,
-            dims=dims, cluster_stat=correction.cluster_stat, min_neighbor_channels=correction.min_neighbor_channels,
-            tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"],
+            mine["stat"],
+            max_null,
+            threshold=stored_forming_threshold(mine, key),
+            indptr=indptr,
+            indices=indices,
+            dims=dims,
+            cluster_stat=correction.cluster_stat,
+            min_neighbor_channels=correction.min_neighbor_channels,
+            tail=tail,
+            alpha=alpha,
+            channels=[str(c) for c in mine["channels"]],
+            freqs=mine["freqs"],
             times=mine["times"],
         )
     from famwise.correct import tfce
-
     from famwise.correct.regions import significant_regions
 
     result = tfce.tfce_inference(
-        mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction.E, H=correction.H,
-        step=correction.step, tail=tail, alpha=alpha,
+        mine["stat"],
+        max_null,
+        indptr=indptr,
+        indices=indices,
+        dims=dims,
+        E=correction.E,
+        H=correction.H,
+        step=correction.step,
+        tail=tail,
+        alpha=alpha,
     )
     region_id, rows = significant_regions(
-        result.maps["tfce"], result.p_corrected, result.mask, mine["stat"], indptr=indptr, indices=indices,
-        dims=dims, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
+        result.maps["tfce"],
+        result.p_corrected,
+        result.mask,
+        mine["stat"],
+        indptr=indptr,
+        indices=indices,
+        dims=dims,
+        channels=[str(c) for c in mine["channels"]],
+        freqs=mine["freqs"],
+        times=mine["times"],
     )
     return dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
 
@@ -172,8 +205,12 @@ def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionR
     start = sum(sizes[:index])
     stop = start + sizes[index]
     return CorrectionResult(
-        method=joint.method, p_corrected=joint.p_corrected[start:stop], mask=joint.mask[start:stop],
-        threshold=joint.threshold, threshold_kind=joint.threshold_kind, settings=joint.settings,
+        method=joint.method,
+        p_corrected=joint.p_corrected[start:stop],
+        mask=joint.mask[start:stop],
+        threshold=joint.threshold,
+        threshold_kind=joint.threshold_kind,
+        settings=joint.settings,
     )
 
 

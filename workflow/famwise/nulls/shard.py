@@ -25,8 +25,12 @@ def table_for(data: ContrastData, *, settings: NullSettings):
     """The study's permutation table for one contrast."""
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
     return make_table(
-        data.test, n_subjects=len(data.subjects), permutations=settings.permutations, seed=settings.seed,
-        groups=data.groups, n_conditions=n_conditions,
+        data.test,
+        n_subjects=len(data.subjects),
+        permutations=settings.permutations,
+        seed=settings.seed,
+        groups=data.groups,
+        n_conditions=n_conditions,
     )
 
 
@@ -37,12 +41,19 @@ def identity_statistic(data: ContrastData, *, settings: ObservedSettings | NullS
     same bits the null's identity row gets, whatever the block or shard.
     """
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
-    identity = make_table(data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups,
-                          n_conditions=n_conditions).rows[:1]
+    identity = make_table(
+        data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups, n_conditions=n_conditions
+    ).rows[:1]
     block = next(
         iter_null_blocks(
-            data.x, identity, test=data.test, groups=data.groups, covariate=data.covariate,
-            statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
+            data.x,
+            identity,
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            statistic=settings.statistic,
+            trim=settings.trim,
+            equal_var=settings.equal_var,
         )
     )
     return np.asarray(block[0], dtype=np.float64)
@@ -93,20 +104,38 @@ def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, sha
             collectors.append(MaxStatCollector(tail=tail, key=key, keep=keep))
             collectors.append(StepDownCollector(stat, tail=tail, key=key, keep=keep))
         elif kind == "cluster":
-            from famwise.nulls.collectors.largest_cluster import ClusterCollector  # numba kernels: imported only when used
+            from famwise.nulls.collectors.largest_cluster import (
+                ClusterCollector,
+            )  # numba kernels: imported only when used
 
             collectors.append(
                 ClusterCollector(
-                    threshold=stored_forming_threshold(observed, key), shape=shape, indptr=indptr, indices=indices,
-                    dims=spec.dims, cluster_stat=spec.cluster_stat,
-                    min_neighbor_channels=spec.min_neighbor_channels, tail=tail, key=key,
+                    threshold=stored_forming_threshold(observed, key),
+                    shape=shape,
+                    indptr=indptr,
+                    indices=indices,
+                    dims=spec.dims,
+                    cluster_stat=spec.cluster_stat,
+                    min_neighbor_channels=spec.min_neighbor_channels,
+                    tail=tail,
+                    key=key,
                 )
             )
         elif kind == "tfce":
             from famwise.nulls.collectors.largest_tfce import TFCECollector
 
             collectors.append(
-                TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=spec.dims, E=spec.E, H=spec.H, step=spec.step, tail=tail, key=key)
+                TFCECollector(
+                    shape=shape,
+                    indptr=indptr,
+                    indices=indices,
+                    dims=spec.dims,
+                    E=spec.E,
+                    H=spec.H,
+                    step=spec.step,
+                    tail=tail,
+                    key=key,
+                )
             )
         else:
             raise ValueError(f"unknown collector kind {kind!r}")
@@ -135,11 +164,20 @@ def null_shard(
     collectors = make_collectors(settings.collectors, observed=observed, shape=data.shape, graph=graph)
     if progress:
         kind = "exact enumeration" if table.exact else "Monte Carlo"
-        progress(f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points")
+        progress(
+            f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points"
+        )
     left_out = left_out_points(observed)
     arrays = run_shard(
-        blank(data.x, left_out), table.rows[start:stop], collectors=collectors, test=data.test, groups=data.groups,
-        covariate=data.covariate, statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
+        blank(data.x, left_out),
+        table.rows[start:stop],
+        collectors=collectors,
+        test=data.test,
+        groups=data.groups,
+        covariate=data.covariate,
+        statistic=settings.statistic,
+        trim=settings.trim,
+        equal_var=settings.equal_var,
         screen=BlockScreen(left_out, tail=str(observed["tail"])),
     )
     arrays["rows"] = np.array([start, stop])
@@ -172,12 +210,22 @@ def family_stepdown_shard(
     table = table_for(datas[0], settings=settings)
     start, stop = shard_bounds(table.n_rows, settings.shards, shard)
     joint_left_out = np.concatenate(left_out)
-    collector = StepDownCollector(np.concatenate([o["stat"].reshape(-1) for o in observed]), tail=tail, key=key,
-                                  keep=~joint_left_out if joint_left_out.any() else None)
+    collector = StepDownCollector(
+        np.concatenate([o["stat"].reshape(-1) for o in observed]),
+        tail=tail,
+        key=key,
+        keep=~joint_left_out if joint_left_out.any() else None,
+    )
     streams = [
         iter_null_blocks(
-            blank(data.x, mask), table.rows[start:stop], test=data.test, groups=data.groups, covariate=data.covariate,
-            statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
+            blank(data.x, mask),
+            table.rows[start:stop],
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            statistic=settings.statistic,
+            trim=settings.trim,
+            equal_var=settings.equal_var,
         )
         for data, mask in zip(datas, left_out)
     ]

@@ -33,6 +33,7 @@ def check_timing(plan, headers: dict[str, SubjectHeader], where: Where) -> list[
 
 def _check_span(plan, where: Where, sfreq: float, tmin: float, n_samples: int, subject: str) -> list[str]:
     from famwise.design import _freq_index, _time_index
+
     dec = _decomposition()
     tf = plan.study.timefreq
     grid = tf.freqs_hz
@@ -43,8 +44,15 @@ def _check_span(plan, where: Where, sfreq: float, tmin: float, n_samples: int, s
             f"{nyquist:g} Hz of subject {subject}'s data (sampled at {sfreq:g} Hz)"
         )
     freqs = dec.frequency_grid(grid.start_hz, grid.stop_hz, grid.count, grid.spacing)
-    kernels = dec._build_kernels(freqs, sfreq, method=tf.method, cycles=_pair(tf.cycles), fwhm_ms=_pair(tf.fwhm_ms),
-                                 window_ms=tf.window_ms, time_bandwidth=tf.time_bandwidth)
+    kernels = dec._build_kernels(
+        freqs,
+        sfreq,
+        method=tf.method,
+        cycles=_pair(tf.cycles),
+        fwhm_ms=_pair(tf.fwhm_ms),
+        window_ms=tf.window_ms,
+        time_bandwidth=tf.time_bandwidth,
+    )
     epochs = SimpleNamespace(data=np.empty((0, 0, n_samples)), sfreq=sfreq, tmin=tmin)
     try:
         keep = dec._output_samples(epochs, tf.time_step_ms, subject=subject)
@@ -53,7 +61,11 @@ def _check_span(plan, where: Where, sfreq: float, tmin: float, n_samples: int, s
     all_times = tmin + np.arange(n_samples) / sfreq
     times = all_times[keep]
     valid = dec._cone_of_influence(kernels, all_times, times)
-    width_key = ("timefreq", "window_ms") if tf.method == "multitaper" else ("timefreq", "fwhm_ms" if tf.fwhm_ms is not None else "cycles")
+    width_key = (
+        ("timefreq", "window_ms")
+        if tf.method == "multitaper"
+        else ("timefreq", "fwhm_ms" if tf.fwhm_ms is not None else "cycles")
+    )
     try:
         dec._check_fits(kernels, freqs, valid, all_times, subject=subject)
     except UserError as error:

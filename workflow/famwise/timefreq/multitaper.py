@@ -46,8 +46,7 @@ def dpss_tapers(n_samples: int, time_bandwidth: float) -> tuple[np.ndarray, np.n
     ratios : ndarray, shape (K,)
         Spectral concentration of each taper within +-W.
     """
-    return windows.dpss(n_samples, time_bandwidth, Kmax=taper_count(time_bandwidth),
-                        return_ratios=True)
+    return windows.dpss(n_samples, time_bandwidth, Kmax=taper_count(time_bandwidth), return_ratios=True)
 
 
 def psd_scale(sfreq: float) -> float:
