@@ -199,7 +199,11 @@ def _freq_index(freqs: np.ndarray, band: list[float] | None) -> np.ndarray:
 
 
 def _time_index(times: np.ndarray, valid: np.ndarray, freqs: np.ndarray, window_ms: list[float] | None) -> np.ndarray:
-    """Time points of the analysis window; every cell must be free of edge effects."""
+    """Time points of the analysis window; every cell must be free of edge effects.
+
+    Without ``window_ms`` the window starts at the event (0 ms) and ends where
+    the edge-free data end; a window given is used as given.
+    """
     usable = valid.all(axis=0)
     if not usable.any():
         raise UserError(
@@ -207,8 +211,14 @@ def _time_index(times: np.ndarray, valid: np.ndarray, freqs: np.ndarray, window_
         )
     first, last = np.flatnonzero(usable)[[0, -1]]
     fits = f"[{times[first] * 1e3:.0f}, {times[last] * 1e3:.0f}] ms"
-    if window_ms is None:
-        return np.arange(first, last + 1)
+    if window_ms is None:  # from the event (0 ms) to where the edge-free data end: the baseline is not tested
+        after = np.flatnonzero(usable & (times >= -1e-9))
+        if after.size == 0:
+            raise UserError(
+                f"analysis: no time point at or after the event (0 ms) is free of edge effects at "
+                f"{freqs.min():.3g} Hz (the edge-free window is {fits}); give analysis.time_ms"
+            )
+        return np.arange(after[0], last + 1)
     inside = (times >= window_ms[0] / 1e3 - 1e-9) & (times <= window_ms[1] / 1e3 + 1e-9)
     index = np.flatnonzero(inside)
     if index.size == 0:

@@ -196,7 +196,11 @@ def run_observed(args, settings: types.ObservedSettings) -> None:
     from famwise.observed import observed_arrays, save_observed
 
     data = load_contrast(Path(args.subjects))
-    save_observed(Path(args.out), observed_arrays(data, data.x, settings))
+    try:
+        arrays = observed_arrays(data, data.x, settings)
+    except UserError as error:  # degenerate points: name the contrast
+        raise UserError(f"contrast {Path(args.out).parent.name}: {error}") from None
+    save_observed(Path(args.out), arrays)
 
 
 def run_null_shard(args, settings: types.NullSettings) -> None:

@@ -337,7 +337,9 @@ class Plan:
             for c in self.study.inference.corrections
             if c.method == "cluster"
         )
-        return ObservedSettings(**self._statistic(), forming=forming)
+        return ObservedSettings(
+            **self._statistic(), forming=forming, degenerate_points=self.study.inference.degenerate_points
+        )
 
     def null_collectors(self) -> tuple:
         """What each correction needs from the permutation null (no levels: those do not change the null)."""

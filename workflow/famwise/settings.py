@@ -172,6 +172,7 @@ class ObservedSettings:
     equal_var: bool
     tail: str
     forming: tuple[FormingSettings, ...]
+    degenerate_points: str = "stop"
 
 
 # ---- permutation nulls ------------------------------------------------------------

@@ -174,7 +174,8 @@ timefreq:
   baseline: {baseline_text}
 
 analysis:                # choose the region before looking at the data
-  time_ms: null          # null: the widest window free of edge effects
+  time_ms: null          # null: from the event (0 ms) to the end of the edge-free data; a window starting
+                         # before 0 ms adds baseline points that cannot show an effect but make every correction stricter
   freq_hz: null
 
 channels:

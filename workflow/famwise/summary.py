@@ -37,12 +37,19 @@ def describe_plan(plan: Plan) -> str:
     a = s.analysis
     lines.append(
         "Analysis region: time "
-        + (f"{list(a.time_ms)} ms" if a.time_ms else "widest window free of edge effects")
+        + (
+            f"{list(a.time_ms)} ms"
+            if a.time_ms
+            else "from the event (0 ms) to the end of the edge-free data (the baseline is not tested)"
+        )
         + ", frequency "
         + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
         + ", channels "
         + (", ".join(a.channels) if a.channels else "all")
     )
+    note = window_note(a.time_ms)
+    if note:
+        lines.append(note)
     lines.append("Contrasts:")
     for contrast in s.contrasts:
         detail = " vs ".join(contrast.conditions)
@@ -52,7 +59,8 @@ def describe_plan(plan: Plan) -> str:
             detail += f" with covariate {contrast.covariate}"
         lines.append(f"  - {contrast.name}: {contrast.test}, {detail}")
     lines.append(
-        f"Inference: {i.statistic} statistic, {i.tail}, alpha {i.alpha:g}, family {i.family}"
+        f"Inference: {i.statistic} statistic, {i.tail}, alpha {i.alpha:g}, family {i.family}, "
+        f"degenerate points: {i.degenerate_points}"
         + (f"; {i.permutations} permutations in {i.shards} shard(s), seed {s.seed}" if i.needs_null else "")
     )
     lines.append("Corrections:")
@@ -66,6 +74,16 @@ def describe_plan(plan: Plan) -> str:
         lines.append("")
         lines.append(_graph_summary(plan))
     return "\n".join(lines)
+
+
+def window_note(time_ms) -> str | None:
+    """A one-line note when the analysis window starts before the event (None otherwise)."""
+    if time_ms is None or time_ms[0] >= 0:
+        return None
+    return (
+        f"Note: analysis.time_ms starts at {time_ms[0]:g} ms, before the event: after baseline normalisation "
+        "those points cannot show an effect, but they count in every family-wise correction and make it stricter."
+    )
 
 
 def input_warnings(plan: Plan) -> list[str]:

@@ -35,6 +35,7 @@ neuroimaging. Hum Brain Mapp 15:1-25.
 import tempfile
 import zlib
 from collections.abc import Callable
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -42,11 +43,13 @@ import numpy as np
 from famwise.atomic import save_npz
 from famwise.calibrate.settings import UNCORRECTED
 from famwise.correct.apply import apply_correction
+from famwise.degenerate import blank
 from famwise.design import ContrastData, load_contrast
 from famwise.nulls.engine import run_shard
+from famwise.nulls.screen import BlockScreen
 from famwise.nulls.shard import load_graph_arrays, make_collectors, table_for
 from famwise.nulls.tables import shard_bounds
-from famwise.observed import observed_arrays, save_observed
+from famwise.observed import left_out_points, observed_arrays, save_observed
 from famwise.settings import CalibrationSettings
 from famwise.settings_codec import to_json
 
@@ -127,12 +130,15 @@ def calibration_chunk(
     table = table_for(data, settings=settings.nulls) if settings.nulls.collectors else None
     graph = load_graph_arrays(graph_file, len(data.channels))
     counts = np.zeros((stop - start, len(labels)), dtype=np.int64)
+    study_left_out = left_out_points(
+        observed_arrays(data, data.x, settings.observed)
+    )  # stops as the observed stage does
     name = settings.contrast
     with tempfile.TemporaryDirectory(prefix="famwise-calibrate-") as scratch:
         folder = Path(scratch) / "contrasts" / name
         for row, index in enumerate(range(start, stop)):
             x = null_dataset(data, dataset_rng(settings.nulls.seed, name, index))
-            counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings)
+            counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings, study_left_out)
             if progress:
                 progress(f"calibration {name}: chunk {chunk}: {row + 1}/{stop - start} datasets")
     return {
@@ -145,11 +151,14 @@ def calibration_chunk(
     }
 
 
-def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings) -> list[int]:
+def _dataset_counts(
+    x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings, study_left_out: np.ndarray
+) -> list[int]:
     """Significant points of one null dataset: uncorrected, then each correction."""
-    observed = observed_arrays(
-        data, x, settings.observed
-    )  # the observed stage's own record, forming thresholds included
+    # The observed stage's own record (forming thresholds, points left out): the study's left-out points
+    # and the null dataset's own degenerate points are left out.
+    observed = observed_arrays(data, x, replace(settings.observed, degenerate_points="leave-out"), study_left_out)
+    left_out = left_out_points(observed)
     inputs = [folder / "observed.npz"]
     save_observed(inputs[0], observed)
     if table is not None:
@@ -160,19 +169,20 @@ def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: C
             "equal_var": settings.nulls.equal_var,
         }
         arrays = run_shard(
-            x,
+            blank(x, left_out),
             table.rows,
             collectors=collectors,
             test=data.test,
             groups=data.groups,
             covariate=data.covariate,
+            screen=BlockScreen(left_out, tail=str(observed["tail"])),
             **statistic,
         )
         arrays["rows"] = np.array([0, table.n_rows])
         arrays["n_rows.total"] = np.array(table.n_rows)
         inputs.append(folder / "nulls" / "shard-0.npz")
         save_npz(inputs[1], **arrays)
-    counts = [int(np.count_nonzero(observed["p"] <= settings.alpha))]
+    counts = [int(np.count_nonzero(observed["p"] <= settings.alpha))]  # NaN p (left out) is never <= alpha
     for correction in settings.corrections:
         files = list(inputs)
         if correction.correction.method in ("cluster", "tfce") and graph_file is not None:

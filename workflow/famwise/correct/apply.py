@@ -3,7 +3,9 @@
 With ``family: all-contrasts`` every contrast's points form one family: the
 p-value procedures count the points of all contrasts, and the max-statistic,
 cluster and TFCE nulls take the largest value over contrasts per permutation
-(all contrasts share the permutation table).
+(all contrasts share the permutation table). Points the observed stage left
+out (``left_out``) are not in any family: not counted in m, never
+significant (p NaN, mask False); cluster and TFCE see their statistic as 0.
 """
 
 import dataclasses
@@ -17,7 +19,7 @@ from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.nulls.collectors.protocol import merge_shard_arrays
-from famwise.observed import load_observed, stored_forming_threshold
+from famwise.observed import left_out_points, load_observed, stored_forming_threshold
 from famwise.settings import CorrectionSettings
 
 
@@ -81,6 +83,8 @@ def apply_correction(
         )
     mine = observed[contrast]
     shape = mine["stat"].shape
+    keeps = {name: ~left_out_points(observed[name]) for name in names}
+    keep = keeps[contrast]
     tail = str(mine["tail"])
     key = correction.label
 
@@ -90,18 +94,20 @@ def apply_correction(
             ps = [nulls[c][0]["exceed.count"] / nulls[c][1] for c in names]
         else:
             ps = [observed[c]["p"].reshape(-1) for c in names]
+        ps = [p[keeps[c]] for p, c in zip(ps, names)]
         sizes = [p.size for p in ps]
         joint = pvalues.adjust(np.concatenate(ps), method=method, alpha=level)
-        result = _slice(joint, sizes, names.index(contrast))
+        result = _included(_slice(joint, sizes, names.index(contrast)), keep)
     elif method == "max-stat":
         n_rows = nulls[contrast][1]
         max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
-        stat = mine["stat"].reshape(-1)
+        stat = mine["stat"].reshape(-1)[keep]
         if correction.step_down and len(names) > 1:
             family, family_rows = _merged_nulls(family_shards)
+            joint_keep = np.concatenate([keeps[c] for c in names])
             results = maxstat.step_down_family(
-                [observed[c]["stat"].reshape(-1) for c in names],
-                family[f"{key}.count"],
+                [observed[c]["stat"].reshape(-1)[keeps[c]] for c in names],
+                family[f"{key}.count"][joint_keep],
                 family_rows,
                 tail=tail,
                 alpha=alpha,
@@ -109,68 +115,89 @@ def apply_correction(
             )
             result = results[names.index(contrast)]
         elif correction.step_down:
-            result = maxstat.step_down(
-                stat, nulls[contrast][0][f"{key}.count"], n_rows, tail=tail, alpha=alpha, max_null=max_null
-            )
+            counts = nulls[contrast][0][f"{key}.count"][keep]
+            result = maxstat.step_down(stat, counts, n_rows, tail=tail, alpha=alpha, max_null=max_null)
         else:
             result = maxstat.single_step(stat, max_null, tail=tail, alpha=alpha)
+        result = _included(result, keep)
     elif method in ("cluster", "tfce"):
         max_null = np.max([nulls[c][0][f"{key}.max"] for c in names], axis=0)
-        if graph is None:
-            indptr, indices = np.zeros(shape[0] + 1, np.int32), np.zeros(0, np.int32)
-        else:
-            indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
-        dims = correction.dims
-        if method == "cluster":
-            from famwise.correct import clusters  # numba kernels: imported only when used
-
-            result = clusters.cluster_inference(
-                mine["stat"],
-                max_null,
-                threshold=stored_forming_threshold(mine, key),
-                indptr=indptr,
-                indices=indices,
-                dims=dims,
-                cluster_stat=correction.cluster_stat,
-                min_neighbor_channels=correction.min_neighbor_channels,
-                tail=tail,
-                alpha=alpha,
-                channels=[str(c) for c in mine["channels"]],
-                freqs=mine["freqs"],
-                times=mine["times"],
-            )
-        else:
-            from famwise.correct import tfce
-            from famwise.correct.regions import significant_regions
-
-            result = tfce.tfce_inference(
-                mine["stat"],
-                max_null,
-                indptr=indptr,
-                indices=indices,
-                dims=dims,
-                E=correction.E,
-                H=correction.H,
-                step=correction.step,
-                tail=tail,
-                alpha=alpha,
-            )
-            region_id, rows = significant_regions(
-                result.maps["tfce"],
-                result.p_corrected,
-                result.mask,
-                mine["stat"],
-                indptr=indptr,
-                indices=indices,
-                dims=dims,
-                channels=[str(c) for c in mine["channels"]],
-                freqs=mine["freqs"],
-                times=mine["times"],
-            )
-            result = dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
+        result = _cluster_or_tfce(mine, max_null, graph, settings)
+        if not keep.all():  # statistic 0 at left-out points: never in a cluster, never significant
+            p_corrected = np.where(keep.reshape(shape), result.p_corrected, np.nan)
+            result = dataclasses.replace(result, p_corrected=p_corrected, mask=result.mask & keep.reshape(shape))
     else:
         raise ValueError(f"unknown correction method {method!r}")
     return result, shape
+
+
+def _cluster_or_tfce(
+    mine: dict, max_null: np.ndarray, graph: dict | None, settings: CorrectionSettings
+) -> CorrectionResult:
+    """Cluster or TFCE inference on one contrast's observed map against the null maxima."""
+    correction, alpha = settings.correction, settings.alpha
+    shape, tail, key, dims = mine["stat"].shape, str(mine["tail"]), correction.label, correction.dims
+    if graph is None:
+        indptr, indices = np.zeros(shape[0] + 1, np.int32), np.zeros(0, np.int32)
+    else:
+        indptr, indices = graph["indptr"].astype(np.int32), graph["indices"].astype(np.int32)
+    if correction.method == "cluster":
+        from famwise.correct import clusters  # numba kernels: imported only when used
+
+        return clusters.cluster_inference(
+            mine["stat"],
+            max_null,
+            threshold=stored_forming_threshold(mine, key),
+            indptr=indptr,
+            indices=indices,
+            dims=dims,
+            cluster_stat=correction.cluster_stat,
+            min_neighbor_channels=correction.min_neighbor_channels,
+            tail=tail,
+            alpha=alpha,
+            channels=[str(c) for c in mine["channels"]],
+            freqs=mine["freqs"],
+            times=mine["times"],
+        )
+    from famwise.correct import tfce
+    from famwise.correct.regions import significant_regions
+
+    result = tfce.tfce_inference(
+        mine["stat"],
+        max_null,
+        indptr=indptr,
+        indices=indices,
+        dims=dims,
+        E=correction.E,
+        H=correction.H,
+        step=correction.step,
+        tail=tail,
+        alpha=alpha,
+    )
+    region_id, rows = significant_regions(
+        result.maps["tfce"],
+        result.p_corrected,
+        result.mask,
+        mine["stat"],
+        indptr=indptr,
+        indices=indices,
+        dims=dims,
+        channels=[str(c) for c in mine["channels"]],
+        freqs=mine["freqs"],
+        times=mine["times"],
+    )
+    return dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
+
+
+def _included(result: CorrectionResult, keep: np.ndarray) -> CorrectionResult:
+    """A result on the included points (flat ``keep``) spread over every point: left-out p NaN, mask False."""
+    if keep.all():
+        return result
+    p_corrected = np.full(keep.size, np.nan)
+    p_corrected[keep] = np.asarray(result.p_corrected).reshape(-1)
+    mask = np.zeros(keep.size, dtype=bool)
+    mask[keep] = np.asarray(result.mask).reshape(-1)
+    return dataclasses.replace(result, p_corrected=p_corrected, mask=mask)
 
 
 def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionResult:

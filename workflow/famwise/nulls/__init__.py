@@ -5,6 +5,8 @@
 - `engine`: statistic maps of blocks of table rows (the fast paths per
   scheme; numba kernels in `famwise.kernels`) fed to the collectors;
 - `collectors`: what each correction keeps of the null (see its package);
+- `screen`: left-out points and non-finite permutation values, set aside
+  before the collectors see a block;
 - `shard`: one shard of a study's table through every correction's
   collector (the null jobs' entry points).
 
@@ -40,4 +42,19 @@ boundary (on the order of one point in 10^8), and the exceedance counts'
 tolerance covers that case. Under a two-sided tail an exact enumeration
 therefore counts each mirror pair together, and
 `famwise.nulls.tables.smallest_attainable_p` is 2 / n_rows.
+
+Left-out and degenerate points
+------------------------------
+Points the observed stage left out of the family (``left_out`` in
+``observed.npz``, see `famwise.degenerate`) are blanked: the engine runs on
+data that are 0 there, and their statistic is 0 in every row, so they never
+join or link a cluster or raise a TFCE value; the max-statistic and
+step-down collectors leave them out entirely. A permutation row in which an
+included point's statistic is not finite (a point that becomes degenerate
+only after permutation, e.g. every |value| equal and all signs flipped
+alike) counts as more extreme than any observed value: the point counts as
+an exceedance, and the row's maximum is +inf for max-statistic, step-down,
+cluster and TFCE (the cluster and TFCE kernels never see the infinity: they
+run on the row with it set to 0, and the row's maximum is then set to +inf).
+Calibration uses the same collectors and the same screening.
 """

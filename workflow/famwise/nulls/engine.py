@@ -143,7 +143,9 @@ def iter_null_blocks(
         yield block(part, None if buffer is None else buffer[: part.shape[0]])
 
 
-def run_shard(x, rows, *, collectors: list[NullCollector], block_size=64, **statistic_options) -> dict[str, np.ndarray]:
+def run_shard(
+    x, rows, *, collectors: list[NullCollector], block_size=64, screen=None, **statistic_options
+) -> dict[str, np.ndarray]:
     """Feed every block of a shard's rows to every collector.
 
     Parameters
@@ -154,6 +156,9 @@ def run_shard(x, rows, *, collectors: list[NullCollector], block_size=64, **stat
         The shard's rows of the permutation table.
     collectors : list of NullCollector
     block_size : int
+    screen : callable or None
+        Applied to each block before the collectors: a
+        `famwise.nulls.screen.BlockScreen` (left-out points, non-finite values).
     **statistic_options
         ``test`` and the other options of `iter_null_blocks`.
 
@@ -164,6 +169,8 @@ def run_shard(x, rows, *, collectors: list[NullCollector], block_size=64, **stat
         `famwise.nulls.collectors.protocol.merge_shard_arrays`.
     """
     for stats in iter_null_blocks(x, rows, block_size=block_size, reuse_output=True, **statistic_options):
+        if screen is not None:
+            stats = screen(stats)
         for collector in collectors:
             collector.update(stats)
     arrays = {}

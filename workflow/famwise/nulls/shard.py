@@ -10,12 +10,14 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.degenerate import blank
 from famwise.design import ContrastData, load_contrast
 from famwise.nulls.collectors.exceedance import ExceedanceCollector
 from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
 from famwise.nulls.engine import iter_null_blocks, run_shard
+from famwise.nulls.screen import BlockScreen
 from famwise.nulls.tables import make_table, shard_bounds, smallest_attainable_p
-from famwise.observed import stored_forming_threshold
+from famwise.observed import left_out_points, load_observed, stored_forming_threshold
 from famwise.settings import CollectorSettings, NullSettings, ObservedSettings
 
 
@@ -82,10 +84,14 @@ def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, sha
     """One collector per entry of the null settings' ``collectors``.
 
     A cluster collector's forming threshold is the one the observed stage
-    stored in ``observed`` (``forming_threshold.<label>``).
+    stored in ``observed`` (``forming_threshold.<label>``). The max-statistic
+    collectors leave out the points of ``left_out``; the others see them as
+    0 (`famwise.nulls.screen.BlockScreen`).
     """
     stat = observed["stat"].reshape(-1)
     tail = str(observed["tail"])
+    left_out = left_out_points(observed)
+    keep = ~left_out if left_out.any() else None
     indptr, indices = graph
     collectors = []
     for spec in specs:
@@ -93,10 +99,10 @@ def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, sha
         if kind == "exceed":
             collectors.append(ExceedanceCollector(stat, tail=tail, key=key))
         elif kind == "maxstat":
-            collectors.append(MaxStatCollector(tail=tail, key=key))
+            collectors.append(MaxStatCollector(tail=tail, key=key, keep=keep))
         elif kind == "stepdown":
-            collectors.append(MaxStatCollector(tail=tail, key=key))
-            collectors.append(StepDownCollector(stat, tail=tail, key=key))
+            collectors.append(MaxStatCollector(tail=tail, key=key, keep=keep))
+            collectors.append(StepDownCollector(stat, tail=tail, key=key, keep=keep))
         elif kind == "cluster":
             from famwise.nulls.collectors.largest_cluster import (
                 ClusterCollector,
@@ -161,8 +167,9 @@ def null_shard(
         progress(
             f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points"
         )
+    left_out = left_out_points(observed)
     arrays = run_shard(
-        data.x,
+        blank(data.x, left_out),
         table.rows[start:stop],
         collectors=collectors,
         test=data.test,
@@ -171,6 +178,7 @@ def null_shard(
         statistic=settings.statistic,
         trim=settings.trim,
         equal_var=settings.equal_var,
+        screen=BlockScreen(left_out, tail=str(observed["tail"])),
     )
     arrays["rows"] = np.array([start, stop])
     arrays["n_rows.total"] = np.array(table.n_rows)
@@ -196,16 +204,21 @@ def family_stepdown_shard(
     the family jointly.
     """
     datas = [load_contrast(path) for path in subjects_files]
-    observed = []
-    for path in observed_files:
-        with np.load(path, allow_pickle=False) as archive:
-            observed.append((archive["stat"].reshape(-1), str(archive["tail"])))
+    observed = [load_observed(path) for path in observed_files]
+    left_out = [left_out_points(o) for o in observed]
+    tail = str(observed[0]["tail"])
     table = table_for(datas[0], settings=settings)
     start, stop = shard_bounds(table.n_rows, settings.shards, shard)
-    collector = StepDownCollector(np.concatenate([stat for stat, _ in observed]), tail=observed[0][1], key=key)
+    joint_left_out = np.concatenate(left_out)
+    collector = StepDownCollector(
+        np.concatenate([o["stat"].reshape(-1) for o in observed]),
+        tail=tail,
+        key=key,
+        keep=~joint_left_out if joint_left_out.any() else None,
+    )
     streams = [
         iter_null_blocks(
-            data.x,
+            blank(data.x, mask),
             table.rows[start:stop],
             test=data.test,
             groups=data.groups,
@@ -214,12 +227,13 @@ def family_stepdown_shard(
             trim=settings.trim,
             equal_var=settings.equal_var,
         )
-        for data in datas
+        for data, mask in zip(datas, left_out)
     ]
+    screens = [BlockScreen(mask, tail=tail) for mask in left_out]
     if progress:
         progress(f"family shard {shard}: rows {start}..{stop} of {table.n_rows}, {len(datas)} contrasts ranked jointly")
     for blocks in zip(*streams):
-        collector.update(np.concatenate(blocks, axis=1))
+        collector.update(np.concatenate([screen(block) for screen, block in zip(screens, blocks)], axis=1))
     arrays = collector.arrays()
     arrays["rows"] = np.array([start, stop])
     arrays["n_rows.total"] = np.array(table.n_rows)

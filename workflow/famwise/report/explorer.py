@@ -108,6 +108,9 @@ def explorer_data(
 ) -> dict:
     """Everything the script draws for one contrast, as JSON-ready values.
 
+    Points left out of the family (``contrast.left_out``) go without a
+    statistic (NaN): the page leaves them blank.
+
     Parameters
     ----------
     contrast : ReportedContrast
@@ -122,6 +125,7 @@ def explorer_data(
         Plain words for the two signs of the statistic.
     """
     limit = symmetric_limit(contrast.stat)
+    stat = contrast.stat if contrast.left_out is None else np.where(contrast.left_out, np.nan, contrast.stat)
     return {
         "contrast": contrast.name,
         "shape": list(contrast.stat.shape),
@@ -130,7 +134,7 @@ def explorer_data(
         "freqs": [round(float(f), 4) for f in contrast.freqs],
         "times": [round(float(t) * 1000.0, 3) for t in contrast.times],
         "limit": limit,
-        "stat": pack_stat(contrast.stat, limit),
+        "stat": pack_stat(stat, limit),
         "p": pack_p(contrast.p),
         "statLabel": stat_label,
         "unit": unit,

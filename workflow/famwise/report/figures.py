@@ -67,6 +67,19 @@ def outline(ax, mask: np.ndarray, times_ms: np.ndarray, *, color: str = ACCENT, 
     ax.contour(xs, ys, fine, levels=[0.5], colors=color, linewidths=lw)
 
 
+def hatch_left_out(ax, left_out: np.ndarray, times_ms: np.ndarray) -> None:
+    """Hatch the cells of a boolean (F, T) mask of points left out of the family (grey diagonal lines)."""
+    if left_out is None or not np.any(left_out):
+        return
+    fine = np.pad(np.repeat(np.repeat(left_out.astype(float), _FINE, 0), _FINE, 1), 1)
+    t0, t1 = _time_extent(times_ms)
+    dx = (t1 - t0) / (left_out.shape[1] * _FINE)
+    xs = t0 + (np.arange(fine.shape[1]) - 0.5) * dx
+    ys = -0.5 + (np.arange(fine.shape[0]) - 0.5) / _FINE
+    with plt.rc_context({"hatch.color": MUTED, "hatch.linewidth": 0.6}):
+        ax.contourf(xs, ys, fine, levels=[0.5, 1.5], colors="none", hatches=["////"])
+
+
 def tf_image(
     ax,
     image: np.ndarray,
@@ -131,6 +144,8 @@ def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int
     figure.suptitle(f"{title}\n{subtitle}", x=0.02, ha="left", fontsize=9)
     image = tf_image(top, contrast.stat[channel], contrast.freqs, times_ms, limit=limit, fade=~mask[channel])
     outline(top, mask[channel], times_ms)
+    if contrast.left_out is not None:
+        hatch_left_out(top, contrast.left_out[channel], times_ms)
     top.set_title(
         f"{stat_label(contrast)} at {contrast.channels[channel]} (peak channel)", fontsize=8, fontweight="normal"
     )
@@ -138,7 +153,14 @@ def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int
     figure.colorbar(image, ax=top, label=stat_label(contrast), shrink=0.9)
     counts = mask.sum(axis=0)
     shown = tf_image(bottom, counts, contrast.freqs, times_ms, limit=count_limit, cmap=SEQUENTIAL, vmin=0)
-    bottom.set_title("significant channels per point", fontsize=8, fontweight="normal")
+    if contrast.left_out is not None:
+        hatch_left_out(bottom, contrast.left_out.any(axis=0), times_ms)
+    bottom.set_title(
+        "significant channels per point"
+        + (" (hatched: points left out)" if contrast.left_out is not None and contrast.left_out.any() else ""),
+        fontsize=8,
+        fontweight="normal",
+    )
     figure.colorbar(
         shown,
         ax=bottom,
@@ -263,12 +285,17 @@ def cluster_figure(
     limit = symmetric_limit(mean_effect)
     image = tf_image(tf_ax, mean_effect, contrast.freqs, times_ms, limit=limit)
     outline(tf_ax, points.any(axis=0), times_ms)
+    if contrast.left_out is not None:
+        hatch_left_out(tf_ax, contrast.left_out[members].any(axis=0), times_ms)
     tf_ax.set_title(f"effect averaged over the {noun}'s channels", fontsize=8, fontweight="normal")
     figure.colorbar(image, ax=tf_ax, label=f"effect ({unit})", shrink=0.9)
     f_index = int(np.argmin(np.abs(contrast.freqs - float(row["peak_freq_hz"]))))
     t_index = int(np.argmin(np.abs(times_ms - float(row["peak_time_ms"]))))
     scalp = contrast.effect[:, f_index, t_index]
     shown = topography(scalp_ax, scalp, flat, limit=symmetric_limit(scalp), marked=members)
+    if contrast.left_out is not None and contrast.left_out[:, f_index, t_index].any():
+        gone = contrast.left_out[:, f_index, t_index]
+        scalp_ax.plot(*flat[gone].T, "x", color=MUTED, ms=5, mew=1.2)  # channels left out at this point
     scalp_ax.set_title(
         f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, {times_ms[t_index]:.0f} ms\n(circles: {noun} channels)",
         fontsize=8,

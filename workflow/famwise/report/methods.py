@@ -239,12 +239,38 @@ def _baseline_caveat(run: Run) -> str:
     return "".join(sentences)
 
 
+def _time_window(time_ms, run: Run) -> str:
+    """The analysis time window in words, with why it starts where it does."""
+    if time_ms:
+        before = " (chosen to include time before the event)" if time_ms[0] < 0 else ""
+        return f"{_span(time_ms, 'ms')}{before}"
+    end = f" to {fmt(float(run.contrasts[0].times[-1]) * 1e3)} ms" if run.contrasts else ""
+    return (
+        f"the window from the event (0 ms){end}, where the data free of edge effects end (the pre-event "
+        "baseline was not tested: after baseline normalisation it cannot show an effect and would only make "
+        "every family-wise correction stricter)"
+    )
+
+
+def _left_out_sentence(run: Run) -> str:
+    """One sentence on the points left out of the family (degenerate points), if any."""
+    counts = [(c.name, int(c.left_out.sum())) for c in run.contrasts if c.left_out is not None and c.left_out.any()]
+    if not counts:
+        return ""
+    listed = ", ".join(f"{n} in {name}" for name, n in counts)
+    return (
+        f" Points where the statistic was undefined (a non-finite value, or a variance across subjects that was "
+        f"zero or below (1e-6 times the map's largest absolute value)^2) were left out of the family ({listed}): "
+        "they were not counted among the tests, could not be significant and did not join clusters."
+    )
+
+
 def _window(study: dict, run: Run) -> str:
     analysis = study.get("analysis") or {}
     channels = analysis.get("channels")
     text = (
         f"Statistics were computed at every channel, frequency and time point within "
-        f"{_span(analysis.get('time_ms'), 'ms', whole='all times')} and "
+        f"{_time_window(analysis.get('time_ms'), run)} and "
         f"{_span(analysis.get('freq_hz'), 'Hz', whole='all frequencies')}"
         f" ({'all channels' if not channels else ', '.join(map(str, channels))})."
     )
@@ -254,6 +280,7 @@ def _window(study: dict, run: Run) -> str:
             f" Each contrast thus comprised {shape[0]} channels × {shape[1]} frequencies × "
             f"{shape[2]} time points = {int(np.prod(shape))} tests."
         )
+        text += _left_out_sentence(run)
     neighbors = (study.get("channels") or {}).get("neighbors") or {}
     if run.graph is not None:
         method = neighbors.get("method", run.graph.method)

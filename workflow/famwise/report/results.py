@@ -15,7 +15,7 @@ import numpy as np
 from famwise import layout, stage_warnings
 from famwise.errors import UserError
 from famwise.montage import ChannelGraph, Positions, load_graph
-from famwise.observed import load_observed
+from famwise.observed import left_out_points, load_observed
 
 
 @dataclass(frozen=True)
@@ -99,6 +99,8 @@ class ReportedContrast:
         smallest_p); empty when the contrast has no permutation null.
     corrections : list of ReportedCorrection
         In spec order.
+    left_out : ndarray of bool, shape (C, F, T)
+        Points the observed stage left out of the family (degenerate points).
     """
 
     name: str
@@ -116,6 +118,7 @@ class ReportedContrast:
     n: int
     nulls: dict
     corrections: list[ReportedCorrection]
+    left_out: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -240,6 +243,7 @@ def _read_contrast(output_dir: Path, name: str, correction_names: list[str]) -> 
         statistic=_text(data["statistic"]) if "statistic" in data else "t",
         tail=_text(data["tail"]) if "tail" in data else "two-sided",
         n=int(data["n"]),
+        left_out=left_out_points(data).reshape(stat.shape),
     )
     corrections = [_read_correction(output_dir / layout.result(name, c), c) for c in correction_names]
     for correction in corrections:

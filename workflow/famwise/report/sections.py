@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.degenerate import location
 from famwise.figure_style import figure_style, save_figure
 from famwise.report import figures
 from famwise.report.explorer import explorer_block, explorer_data
@@ -329,6 +330,19 @@ def cluster_block(
     return html
 
 
+def left_out_note(contrast: ReportedContrast) -> str:
+    """The points left out of the family (degenerate points), listed; empty when there are none."""
+    if contrast.left_out is None or not contrast.left_out.any():
+        return ""
+    count = int(contrast.left_out.sum())
+    where = location(contrast.left_out, channels=contrast.channels, freqs=contrast.freqs, times=contrast.times)
+    return note(
+        f"{count} of {contrast.stat.size} points were left out of the family because the statistic is "
+        f"undefined there (a non-finite value, or zero or negligible variance): {esc(where)}. They are not "
+        "counted by any correction, never significant, and hatched in the figures."
+    )
+
+
 def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) -> str:
     """Uncorrected map, every correction side by side, nulls, clusters and notes."""
     study = run.study
@@ -342,7 +356,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
         + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
         f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
         f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
-        f"mean {esc(direction(spec, True))}.</p>" + permutation_notes(contrast, study)
+        f"mean {esc(direction(spec, True))}.</p>" + left_out_note(contrast) + permutation_notes(contrast, study)
     )
     uncorrected = contrast.p <= alpha
     base = anchor(contrast.name)

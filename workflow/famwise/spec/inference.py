@@ -154,6 +154,12 @@ class Inference(SpecModel):
         ge=1,
         description="Number of pieces the permutations are split into (one job each); results do not depend on it.",
     )
+    degenerate_points: Literal["stop", "leave-out"] = Field(
+        default="stop",
+        description="Points where the statistic is undefined (NaN or inf in a subject's value, or a variance that is "
+        "zero or below (1e-6 x the largest |value| of the map)^2): 'stop' ends the run with a message naming them; "
+        "'leave-out' removes them from the family (not counted, never significant, marked in the figures).",
+    )
     family: Family = Field(
         default="per-contrast",
         description="'per-contrast', or 'all-contrasts' to correct over every contrast of the study together.",

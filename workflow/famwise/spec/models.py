@@ -255,8 +255,9 @@ class Analysis(SpecModel):
 
     time_ms: tuple[float, float] | None = Field(
         default=None,
-        description="Time window [start, end] in ms. Omit for the widest window free of edge effects "
-        "(cone of influence). Choose it before looking at the data.",
+        description="Time window [start, end] in ms, used as given. Omit for the window from the event (0 ms) to "
+        "where the data free of edge effects (cone of influence) end: the pre-event baseline is not tested. "
+        "Choose it before looking at the data.",
     )
     freq_hz: tuple[float, float] | None = Field(
         default=None, description="Frequency band [low, high] in Hz; omit for all frequencies."

@@ -155,7 +155,7 @@ def forming_threshold(forming_p: float, *, test: str, df, tail: str) -> float:
     df : array_like
         ``GroupStatistic.df``. For F, (numerator, denominator). For a
         per-point df (Welch, Yuen with unequal variances) the median df over
-        points is used: any fixed threshold keeps permutation inference
+        points (points without one left out) is used: any fixed threshold keeps permutation inference
         valid, the median gives the typical point's threshold.
     tail : {"two-sided", "greater", "less"}
         Two-sided splits forming_p over both tails (forming_p / 2 each).
@@ -177,7 +177,7 @@ def forming_threshold(forming_p: float, *, test: str, df, tail: str) -> float:
         if df.shape != (2,):
             raise UserError(f"an F threshold needs df (numerator, denominator), got shape {df.shape}")
         return float(sps.f.isf(forming_p, df[0], df[1]))
-    dof = float(np.median(df)) if df.ndim else float(df)
+    dof = float(np.nanmedian(df)) if df.ndim else float(df)  # points left out have no df
     per_tail = forming_p / 2.0 if tail == "two-sided" else forming_p
     return float(sps.t.isf(per_tail, dof))
 

@@ -17,6 +17,7 @@ from famwise.nulls.collectors.kernel_inputs import (
     statistic_block,
     tail_code,
 )
+from famwise.nulls.screen import infinite_rows
 
 
 class ClusterCollector:
@@ -72,7 +73,7 @@ class ClusterCollector:
 
     def update(self, stats):
         """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = statistic_block(stats, self._shape)
+        stats, infinite = infinite_rows(statistic_block(stats, self._shape))
         n_pts = stats.shape[1]
         out = np.empty(stats.shape[0])
         if stats.shape[0]:
@@ -97,6 +98,8 @@ class ClusterCollector:
                 *self._workspace,
                 out,
             )
+            if infinite is not None:  # a point degenerate only after permutation: more extreme than any observed value
+                out[infinite] = np.inf
         self._parts.append(out)
 
     def arrays(self):

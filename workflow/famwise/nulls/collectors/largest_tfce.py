@@ -6,18 +6,17 @@ on this null), computed by the same kernel (`famwise.kernels.tfce_sweep`).
 
 import numpy as np
 
-from famwise.errors import UserError
 from famwise.kernels._jit import thread_count
 from famwise.kernels.tfce_sweep import _tfce_max_block, _tfce_workspace
 from famwise.nulls.collectors.kernel_inputs import (
     DIMS,
-    INFINITE_STATISTIC,
     check_dims,
     check_graph,
     check_tfce_settings,
     statistic_block,
     tail_code,
 )
+from famwise.nulls.screen import infinite_rows
 
 
 class TFCECollector:
@@ -44,7 +43,7 @@ class TFCECollector:
 
     def update(self, stats):
         """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats = statistic_block(stats, self._shape)
+        stats, infinite = infinite_rows(statistic_block(stats, self._shape))
         n_pts = stats.shape[1]
         out = np.empty(stats.shape[0])
         if stats.shape[0]:
@@ -65,8 +64,8 @@ class TFCECollector:
                 *self._workspace,
                 out,
             )
-            if np.isinf(out).any():
-                raise UserError(INFINITE_STATISTIC)
+            if infinite is not None:  # a point degenerate only after permutation: more extreme than any observed value
+                out[infinite] = np.inf
         self._parts.append(out)
 
     def arrays(self):

@@ -32,12 +32,15 @@ class MaxStatCollector:
         Maximum of |stat|, stat or -stat.
     key : str, optional
         Prefix of the stored array name. Default ``"maxstat"``.
+    keep : ndarray of bool (n_points,) or None
+        The points of the family (None: all); left-out points never enter a maximum.
     """
 
-    def __init__(self, *, tail, key="maxstat"):
+    def __init__(self, *, tail, key="maxstat", keep=None):
         check_tail(tail)
         self.tail = tail
         self.key = key
+        self._keep = keep
         self._maxima = []
 
     def update(self, stats):
@@ -48,6 +51,8 @@ class MaxStatCollector:
         stats : ndarray of float, shape (n_rows_in_block, n_points)
         """
         stats = _check_block(stats, None)
+        if self._keep is not None:
+            stats = stats[:, self._keep]
         if self.tail == "two-sided" and stats.dtype == np.float32 and stats.flags.c_contiguous:
             top = np.empty(stats.shape[0], dtype=np.int32)
             _largest_magnitude_bits(stats.view(np.int32), top)
@@ -87,6 +92,9 @@ class StepDownCollector:
     tail : {"two-sided", "greater", "less"}
     key : str, optional
         Prefix of the stored array name. Default ``"stepdown"``.
+    keep : ndarray of bool (n_points,) or None
+        The points of the family (None: all). Left-out points are neither
+        ranked nor part of any successive maximum; their count stays 0.
 
     Notes
     -----
@@ -99,8 +107,12 @@ class StepDownCollector:
     Wiley (successive maxima).
     """
 
-    def __init__(self, observed_stat, *, tail, key="stepdown"):
-        observed = transformed_observed(observed_stat, tail)
+    def __init__(self, observed_stat, *, tail, key="stepdown", keep=None):
+        observed = np.asarray(observed_stat, dtype=np.float64).ravel()
+        self._keep = keep
+        if keep is not None:
+            observed = observed[keep]
+        observed = transformed_observed(observed, tail)
         self.tail = tail
         self.key = key
         self.n_points = observed.size
@@ -120,6 +132,8 @@ class StepDownCollector:
             to count and a p can fall below 1 / n_rows). NaN values never
             raise the running maximum.
         """
+        if self._keep is not None:
+            stats = np.asarray(stats)[:, self._keep]
         stats = _check_block(stats, self.n_points)
         if stats.dtype not in (np.float32, np.float64):
             stats = stats.astype(np.float64)
@@ -132,6 +146,9 @@ class StepDownCollector:
         """``{"<key>.count": int64 (n_points,)}``, per point in flat point order."""
         counts = np.empty(self.n_points, dtype=np.int64)
         counts[self._rising] = self._count_rising
+        if self._keep is not None:
+            counts, included = np.zeros(self._keep.size, dtype=np.int64), counts
+            counts[self._keep] = included
         return {f"{self.key}.count": counts}
 
 
