@@ -15,12 +15,12 @@ import numpy as np
 from scipy import stats
 
 from famwise.design import ContrastData
-from famwise.montage import match_channels, neighbor_graph, save_graph, standard_positions
+from famwise.electrodes import match_channels, neighbor_graph, save_graph, system_positions
 from famwise.planned_values import run_planned
 from famwise.settings import SubjectValuesSettings
 from famwise.settings_codec import from_plain
 from famwise.subject_values import run as run_subject_values
-from famwise.timefreq.maps import TimeFreqMaps
+from famwise.decomposition.maps import TimeFreqMaps
 
 CHANNELS = ["Fp1", "Fp2", "F7", "F3", "Fz", "F4", "F8", "T7", "C3", "Cz", "C4", "T8",
             "P7", "P3", "Pz", "P4", "P8", "O1", "Oz", "O2"]
@@ -30,7 +30,7 @@ CORRECTIONS = [
     {"name": "fdr", "method": "fdr-bh", "level": 0.05, "pvalues": "parametric"},
     {"name": None, "method": "max-stat", "step_down": True},
     {"name": "clusters", "method": "cluster", "forming_p": 0.01, "forming_stat": None,
-     "cluster_stat": "mass", "dims": ["channel", "freq", "time"], "min_neighbor_channels": 0},
+     "cluster_stat": "mass", "dims": ["channel", "freq", "time"], "min_supra_neighbors": 0},
     {"name": "tfce", "method": "tfce", "E": 0.5, "H": 2.0, "step": None,
      "dims": ["channel", "freq", "time"]},
 ]
@@ -46,13 +46,13 @@ def study_dict(*, alpha: float = 0.05, permutations: int = 999, statistic: str =
         "conditions": {"attend": ["att"], "ignore": ["ign"]},
         "epochs": {"window_ms": [-500.0, 1000.0], "reject_peak_to_peak_uv": 150.0,
                    "reference": "average"},
-        "timefreq": {"method": "morlet",
-                     "freqs_hz": {"start_hz": 4.0, "stop_hz": 30.0, "count": 8, "spacing": "log"},
+        "decomposition": {"method": "morlet",
+                     "frequencies": {"lowest_hz": 4.0, "highest_hz": 30.0, "count": 8, "spacing": "log"},
                      "cycles": [3.0, 7.0], "fwhm_ms": None, "window_ms": None,
-                     "time_bandwidth": None, "measure": "power", "time_step_ms": 20.0,
+                     "nw": None, "measure": "power", "time_step_ms": 20.0,
                      "average": "mean", "trim": 0.2,
                      "baseline": {"mode": "db", "window_ms": [-400.0, -100.0], "pooled": False,
-                                  "single_trial": False}},
+                                  "single_epoch": False}},
         "analysis": {"time_ms": [-200.0, 600.0], "freq_hz": None, "channels": None},
         "channels": {"positions": "10-10",
                      "neighbors": {"method": "distance", "max_distance_mm": 75.0,
@@ -123,7 +123,7 @@ def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
     study = study_dict(alpha=alpha, permutations=permutations, statistic=statistic)
     (folder / "study.json").write_text(json.dumps(study, indent=2))
     _subjects(folder, n_included)
-    positions = match_channels(standard_positions("10-10"), CHANNELS)
+    positions = match_channels(system_positions("10-10"), CHANNELS)
     save_graph(folder / "channels" / "graph.npz",
                neighbor_graph(positions, method="distance", max_distance_mm=75.0), positions)
 
@@ -213,7 +213,7 @@ def _subject_values(folder: Path, contrast: Path, n: int, freqs: np.ndarray, tim
         files[-1].parent.mkdir(parents=True, exist_ok=True)
         TimeFreqMaps(values=values, conditions=tuple(CONDITIONS), channels=tuple(CHANNELS), freqs=freqs,
                      times=times, measure="power", baseline="dB change from -400 to -100 ms",
-                     n_trials=np.array([40, 40]), valid=np.ones((len(freqs), len(times)), bool)).save(files[-1])
+                     n_epochs=np.array([40, 40]), valid=np.ones((len(freqs), len(times)), bool)).save(files[-1])
     stacked = np.stack([np.load(f)["values"] for f in files])
     data = ContrastData(x=(stacked[:, 0] - stacked[:, 1]).reshape(n, -1), test="paired", subjects=subjects,
                         channels=tuple(CHANNELS), freqs=freqs, times=times)

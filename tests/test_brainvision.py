@@ -40,7 +40,7 @@ def test_reads_files_of_a_general_purpose_writer(tmp_path, fmt, resolution, tole
     pybv.write_brainvision(data=data, sfreq=500.0, ch_names=NAMES, fname_base="rec", folder_out=tmp_path,
                            fmt=fmt, resolution=resolution, unit="µV", events=np.array([[100, 1], [600, 2]]))
     header = brainvision.read_header(tmp_path / "rec.vhdr")
-    assert [c.name for c in header.channels] == NAMES and header.sfreq == 500.0 and header.n_samples == 1000
+    assert [c.name for c in header.channels] == NAMES and header.sample_rate_hz == 500.0 and header.n_samples == 1000
     assert [c.unit for c in header.channels] == ["µV"] * 3
     values = brainvision.read_samples(header)
     # int16 stores truncated steps of 0.1 µV; float32 keeps about 7 digits
@@ -72,7 +72,7 @@ def test_hand_built_variants(tmp_path, orientation, binary_format, big_endian):
     path = _hand_built(tmp_path, stored=stored, binary_format=binary_format, orientation=orientation,
                        channel_lines=lines, big_endian=big_endian)
     header = brainvision.read_header(path)
-    assert header.n_samples == 5 and header.sfreq == 500.0 and header.orientation == orientation
+    assert header.n_samples == 5 and header.sample_rate_hz == 500.0 and header.orientation == orientation
     # Source: the format specification (BrainVision Core Data Format 1.0): value = stored x resolution, in the unit.
     expected = stored * np.array([[0.1], [1.0], [2.0]])
     np.testing.assert_array_equal(brainvision.read_samples(header), expected)
@@ -158,7 +158,7 @@ def test_markers(tmp_path):
 
 def test_written_files_read_back(tmp_path):
     data = np.array([[0.5, -1.0, 40000.25], [2.0, 3.0, -4.0]])  # µV
-    brainvision.write(tmp_path / "a.vhdr", data, sfreq=250.0, channels=["F,z", "Cz"], markers=[(1, "go, now")],
+    brainvision.write(tmp_path / "a.vhdr", data, sample_rate_hz=250.0, channels=["F,z", "Cz"], markers=[(1, "go, now")],
                       resolution=0.25)
     header = brainvision.read_header(tmp_path / "a.vhdr")
     assert header.binary_format == "INT_32"  # 40000.25 / 0.25 does not fit 16 bits
@@ -167,9 +167,9 @@ def test_written_files_read_back(tmp_path):
     assert brainvision.read_markers(header.marker_file) == [brainvision.Marker("Stimulus", "go, now", 1, 1, 0)]
     for bad in (np.nan, 1e9):
         with pytest.raises(ValueError, match=r"samples must be finite and within ±5.36871e\+08 µV at 0.25 µV per step"):
-            brainvision.write(tmp_path / "c.vhdr", data + [[0, 0, bad], [0, 0, 0]], sfreq=250.0, channels=["Fz", "Cz"],
+            brainvision.write(tmp_path / "c.vhdr", data + [[0, 0, bad], [0, 0, 0]], sample_rate_hz=250.0, channels=["Fz", "Cz"],
                               markers=[], resolution=0.25)
-    brainvision.write(tmp_path / "b.vhdr", data, sfreq=250.0, channels=["Fz", "Cz"], markers=[])
+    brainvision.write(tmp_path / "b.vhdr", data, sample_rate_hz=250.0, channels=["Fz", "Cz"], markers=[])
     header = brainvision.read_header(tmp_path / "b.vhdr")
     assert header.binary_format == "IEEE_FLOAT_32"
     np.testing.assert_array_equal(brainvision.read_samples(header), data.astype(np.float32))

@@ -20,12 +20,12 @@ seed: 3
 subjects: {source: bids, path: data, task: mem, min_epochs: 5}
 conditions: {high: [high], low: [low]}
 epochs: {window_ms: [-600, 1000]}
-timefreq:
-  freqs_hz: {start_hz: 6, stop_hz: 14, count: 3, spacing: linear}
+decomposition:
+  frequencies: {lowest_hz: 6, highest_hz: 14, count: 3, spacing: linear}
   cycles: 3
   time_step_ms: 50
   baseline: {mode: db, window_ms: [-400, -200]}
-channels: {positions: standard-10-10}
+channels: {positions: 10-10}
 contrasts:
   - {name: high-vs-low, test: paired, conditions: [high, low]}
 inference:
@@ -52,7 +52,7 @@ def _write_study(folder, n_subjects=5):
             burst = (2.0 if label == "high" else 0.5) * 5e-6 * envelope * np.cos(2 * np.pi * 7 * times + rng.uniform(0, 6.3))
             data[:3] += burst
         subject = f"{number:02d}"
-        bids.write_subject(folder / "data", subject, data=data, sfreq=FS, channels=CHANNELS, task="mem",
+        bids.write_subject(folder / "data", subject, data=data, sample_rate_hz=FS, channels=CHANNELS, task="mem",
                            events=[(float(t), 0.0, lab) for t, lab in zip(onsets, labels)], fmt="brainvision")
         channels = folder / "data" / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-mem_channels.tsv"
         channels.write_text(channels.read_text().replace("HEOG\tEEG", "HEOG\tEOG"))

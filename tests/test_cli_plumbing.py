@@ -124,8 +124,8 @@ def test_demo_says_whether_it_wrote_the_data(tmp_path, monkeypatch, capsys):
 
 
 def test_reasons_name_the_changed_setting(tmp_path):
-    (tmp_path / "study.json").write_text('{"inference": {"permutations": 1000, "alpha": 0.05}, "timefreq": {"cycles": 3}}')
-    changes = changed_settings(tmp_path, {"inference": {"permutations": 2000, "alpha": 0.05}, "timefreq": {"cycles": 3}})
+    (tmp_path / "study.json").write_text('{"inference": {"permutations": 1000, "alpha": 0.05}, "decomposition": {"cycles": 3}}')
+    changes = changed_settings(tmp_path, {"inference": {"permutations": 2000, "alpha": 0.05}, "decomposition": {"cycles": 3}})
     assert changes == ["inference.permutations 1000 -> 2000"]
     reason = "Params have changed since last execution: " + "x" * 300
     assert describe_reasons("null_shard", {reason}, changes) == "settings changed: inference.permutations 1000 -> 2000"

@@ -18,7 +18,7 @@ def _base() -> dict:
         "spec_fingerprint": "f" * 64,
         "spec_settings": {"name": "demo", "output": "results", "seed": 7, "inference.permutations": 99,
                           "inference.shards": 2, "inference.alpha": 0.05, "inference.family": "per-contrast",
-                          "timefreq.cycles": 3, "contrasts[a].test": "paired", "contrasts[b].test": "one-sample",
+                          "decomposition.cycles": 3, "contrasts[a].test": "paired", "contrasts[b].test": "one-sample",
                           "inference.corrections[holm].method": "holm", "inference.corrections[holm].pvalues": "parametric",
                           "inference.corrections[holm].level": None,
                           "inference.corrections[clusters].method": "cluster", "inference.corrections[clusters].forming_p": 0.01},

@@ -46,7 +46,7 @@ def _nan_free_but_missing_key(folder: Path):
 
 def _edges(folder: Path):
     (folder / "edges.tsv").write_text("channel_a\tchannel_b\nFz\tFCz\nCz\tC3\n")
-    _edit("  positions: standard-10-10\n", "  positions: standard-10-10\n  neighbors: {method: edges, edges_file: edges.tsv}\n")(folder)
+    _edit("  positions: 10-10\n", "  positions: 10-10\n  neighbors: {method: edges, edges_file: edges.tsv}\n")(folder)
     _edit("- method: holm\n", "- method: holm\n    - method: cluster\n")(folder)
 
 
@@ -76,14 +76,14 @@ CASES = [
     ("time-in-edge-zone", _edit("channels:\n", "analysis:\n  time_ms: [-600, 900]\nchannels:\n"),
      ["study.yaml:17 analysis.time_ms: [-600.0, 900.0] ms reaches into", "widest window that fits is"]),
     ("no-time-in-window", _edit("channels:\n", "analysis:\n  time_ms: [2000, 3000]\nchannels:\n"), ["study.yaml:17 analysis.time_ms: no time point"]),
-    ("frequency-at-nyquist", _edit("stop_hz: 14", "stop_hz: 50"), ["study.yaml:12 timefreq.freqs_hz.stop_hz: 50 Hz is not below the Nyquist frequency 50 Hz"]),
+    ("frequency-at-nyquist", _edit("highest_hz: 14", "highest_hz: 50"), ["study.yaml:12 decomposition.frequencies.highest_hz: 50 Hz is not below the Nyquist frequency 50 Hz"]),
     ("baseline-outside-epoch", _edit("window_ms: [-400, -200]", "window_ms: [-900, -200]"),
-     ["study.yaml:15 timefreq.baseline.window_ms: [-900, -200] ms lies outside the epoch (-600 to 990 ms)"]),
-    ("baseline-without-points", _edit("window_ms: [-400, -200]", "window_ms: [-390, -360]"), ["study.yaml:15 timefreq.baseline.window_ms", "0 output time points"]),
-    ("negative-cycles", _edit("cycles: 3", "cycles: [-3, 8]"), ["study.yaml:13 timefreq.cycles", "positive"]),
-    ("zero-fwhm", _edit("cycles: 3", "fwhm_ms: 0"), ["study.yaml:13 timefreq.fwhm_ms", "positive"]),
-    ("wavelets-longer-than-epoch", _edit("cycles: 3", "cycles: 40"), ["study.yaml:13 timefreq.cycles: the Morlet wavelet"]),
-    ("time-step-off-grid", _edit("time_step_ms: 50", "time_step_ms: 15"), ["study.yaml:14 timefreq.time_step_ms: time_step_ms must be a positive multiple"]),
+     ["study.yaml:15 decomposition.baseline.window_ms: [-900, -200] ms lies outside the epoch (-600 to 990 ms)"]),
+    ("baseline-without-points", _edit("window_ms: [-400, -200]", "window_ms: [-390, -360]"), ["study.yaml:15 decomposition.baseline.window_ms", "0 output time points"]),
+    ("negative-cycles", _edit("cycles: 3", "cycles: [-3, 8]"), ["study.yaml:13 decomposition.cycles", "positive"]),
+    ("zero-fwhm", _edit("cycles: 3", "fwhm_ms: 0"), ["study.yaml:13 decomposition.fwhm_ms", "positive"]),
+    ("wavelets-longer-than-epoch", _edit("cycles: 3", "cycles: 40"), ["study.yaml:13 decomposition.cycles: the Morlet wavelet"]),
+    ("time-step-off-grid", _edit("time_step_ms: 50", "time_step_ms: 15"), ["study.yaml:14 decomposition.time_step_ms: time_step_ms must be a positive multiple"]),
     ("min-epochs-above-every-condition", _edit("min_epochs: 5", "min_epochs: 30"),
      ["study.yaml:7 subjects.min_epochs: 30 is more than condition 'high' has in any subject (at most 12 epochs)"]),
     ("condition-with-too-few-epochs", _subject("04", n_per_condition=3),
@@ -95,8 +95,8 @@ CASES = [
      ["study.yaml:27 contrasts[1].groups: group 'b' has 1 analysed subject (06)"]),
     ("channels-differ", _subject("03", channels=["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "POz"]),
      ["subject 03: channels differ from subject 01", "extra: POz; missing: Oz", "sub-03.npz"]),
-    ("sampling-rates-differ", _subject("02", sfreq=200.0), ["subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz) in ", "sub-02.npz"]),
-    ("epochs-file-missing-key", _nan_free_but_missing_key, ["subject 03", "sub-03.npz", "missing key(s) sfreq"]),
+    ("sampling-rates-differ", _subject("02", sample_rate_hz=200.0), ["subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz) in ", "sub-02.npz"]),
+    ("epochs-file-missing-key", _nan_free_but_missing_key, ["subject 03", "sub-03.npz", "missing key(s) sample_rate_hz"]),
     ("wrong-type", _edit("alpha: 0.05", "alpha: lots"), ["study.yaml:23 inference.alpha"]),
     ("unknown-condition", _edit("conditions: [high, low]", "conditions: [high, lo]"), ["study.yaml:21 contrasts[0].conditions: unknown condition 'lo'"]),
     ("subject-file-missing", _edit("  min_epochs: 5", "  min_epochs: 5\n  ids: ['01', '02', '09']"), ["subject 09: file not found", "subjects.path"]),

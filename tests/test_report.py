@@ -329,7 +329,7 @@ def test_cluster_table_shows_significant_and_the_largest_other_clusters(tmp_path
 
 def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
     study = write_output(tmp_path, statistic="yuen")
-    study["timefreq"] |= {"method": "multitaper", "window_ms": 400.0, "time_bandwidth": 3.0,
+    study["decomposition"] |= {"method": "multitaper", "taper_length_ms": 400.0, "nw": 3.0,
                           "cycles": None, "average": "trimmed"}
     text = methods_text(study, tmp_path)
     assert "DPSS) tapers (Thomson 1982) at 8 frequencies from 4 to 30 Hz (log spacing)" in text

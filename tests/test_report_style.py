@@ -8,7 +8,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 
-from famwise.montage import match_channels, standard_positions  # noqa: E402
+from famwise.electrodes import match_channels, system_positions  # noqa: E402
 from famwise.report.methods import fmt, method_kind  # noqa: E402
 from famwise.report.scalp import project, topography  # noqa: E402
 from famwise.figure_style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
@@ -40,14 +40,14 @@ def test_diverging_map_is_lightest_at_zero_and_symmetric_in_lightness():
 
 def test_projection_puts_the_vertex_in_the_middle_and_the_nose_up():
     # Fpz, T7, Oz, T8 lie 90 degrees from Cz in the 10-10 system (Jasper 1958; from memory)
-    positions = match_channels(standard_positions("10-10"), ["Cz", "Fpz", "T7", "Oz", "T8"])
+    positions = match_channels(system_positions("10-10"), ["Cz", "Fpz", "T7", "Oz", "T8"])
     flat = project(positions.xyz)
     assert flat[0] == pytest.approx([0, 0], abs=1e-9)
     assert flat[1:] == pytest.approx(np.array([[0, 1], [-1, 0], [0, -1], [1, 0]]), abs=1e-6)
 
 
 def test_topography_follows_the_values_left_to_right():
-    positions = match_channels(standard_positions("10-10"),
+    positions = match_channels(system_positions("10-10"),
                                ["F3", "Fz", "F4", "C3", "Cz", "C4", "P3", "Pz", "P4", "T7", "T8"])
     flat = project(positions.xyz)
     figure, ax = plt.subplots()

@@ -13,7 +13,7 @@ from famwise.nulls.collectors.exceedance import ExceedanceCollector, permutation
 from famwise.nulls.collectors.maxima import MaxStatCollector
 from famwise.nulls.engine import iter_null_blocks, run_shard, run_shards
 from famwise.nulls.tables import check_attainable, make_table, shard_bounds, smallest_attainable_p
-from famwise.reference.stats import null_stats
+from famwise.naive.stats import null_stats
 from famwise.stats import compute
 
 RNG = np.random.default_rng(4)

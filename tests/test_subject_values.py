@@ -13,7 +13,7 @@ from famwise.jobs import main as job
 from famwise.settings import ContrastSettings, SubjectValuesSettings
 from famwise.settings_codec import from_plain, to_json
 from famwise.subject_values import CAVEAT, region_means, sidecar, subject_value_rows
-from famwise.timefreq.maps import TimeFreqMaps
+from famwise.decomposition.maps import TimeFreqMaps
 
 CHANNELS = ("Fz", "Cz", "Pz", "Oz")
 FREQS = np.array([4.0, 6.0, 8.0, 12.0, 20.0])
@@ -36,7 +36,7 @@ def stage(tmp_path):
         values = rng.normal(size=(2, len(CHANNELS), len(FREQS), len(TIMES))).astype(np.float32)
         maps = TimeFreqMaps(values=values, conditions=("high", "low"), channels=CHANNELS, freqs=FREQS,
                             times=TIMES, measure="power", baseline="dB change from -400 to -100 ms",
-                            n_trials=np.array([30, 30]), valid=np.ones((len(FREQS), len(TIMES)), bool))
+                            n_epochs=np.array([30, 30]), valid=np.ones((len(FREQS), len(TIMES)), bool))
         files.append(tmp_path / f"sub-{subject}.npz")
         maps.save(files[-1])
     analysis = {"time_ms": [0.0, 600.0], "freq_hz": [5.0, 21.0], "channels": ["Cz", "Pz", "Oz"]}

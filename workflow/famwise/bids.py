@@ -133,13 +133,13 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
     recordings = find_recordings(Path(root), subject, task)
     runs = [_cut_epochs(path, subject, window_ms, labels) for path in recordings]
     channels = _common_channels([run.channels for run in runs], recordings, subject)
-    sfreqs = {run.sfreq for run in runs}
-    if len(sfreqs) > 1:
+    sample_rates_hz = {run.sample_rate_hz for run in runs}
+    if len(sample_rates_hz) > 1:
         raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} have different "
-                        f"sampling rates {sorted(sfreqs)} Hz")
+                        f"sampling rates {sorted(sample_rates_hz)} Hz")
     data = np.concatenate([run.data[:, [run.channels.index(c) for c in channels]] for run in runs])
     names = np.concatenate([run.labels for run in runs])
-    sfreq, first_offset = runs[0].sfreq, runs[0].first_offset
+    sample_rate_hz, first_offset = runs[0].sample_rate_hz, runs[0].first_offset
     if reference == "average":
         data -= data.mean(axis=1, keepdims=True)
 
@@ -151,16 +151,16 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
             raise UserError(f"subject {subject}: all {keep.size} epochs exceed the peak-to-peak "
                             f"limit of {reject_peak_to_peak_uv:g} µV in {_listing(recordings)}")
     rejected = {str(lab): int(np.sum(~keep & (names == lab))) for lab in np.unique(names)}
-    return Epochs(data=data[keep], sfreq=float(sfreq), tmin=first_offset / sfreq,
+    return Epochs(data=data[keep], sample_rate_hz=float(sample_rate_hz), epoch_start_s=first_offset / sample_rate_hz,
                   channels=tuple(channels), labels=names[keep], rejected=rejected)
 
 
 class _Cut(NamedTuple):
-    """Epochs of one recording: data (n_epochs, n_channels, n_samples) in volts, sfreq in Hz, offset of the
+    """Epochs of one recording: data (n_epochs, n_channels, n_samples) in volts, sample_rate_hz in Hz, offset of the
     first sample from the event in samples, channel names, event labels (n_epochs,)."""
 
     data: np.ndarray
-    sfreq: float
+    sample_rate_hz: float
     first_offset: int
     channels: list[str]
     labels: np.ndarray
@@ -173,18 +173,18 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
     table = read_channels(sidecar(path, "channels.tsv"), subject)
     recording = open_recording(path, subject)
     signals = _kept_signals(recording, table, subject)
-    sfreq = signals[0].sfreq
-    n_total = int(round(recording.duration_s * sfreq))
+    sample_rate_hz = signals[0].sample_rate_hz
+    n_total = int(round(recording.duration_s * sample_rate_hz))
 
-    first_offset = int(round(start_ms * sfreq / 1000.0))
-    n_samples = int(round(stop_ms * sfreq / 1000.0)) - first_offset + 1
+    first_offset = int(round(start_ms * sample_rate_hz / 1000.0))
+    n_samples = int(round(stop_ms * sample_rate_hz / 1000.0)) - first_offset + 1
     starts = []
     for onset, _ in events:
-        first = int(round(onset * sfreq)) + first_offset
+        first = int(round(onset * sample_rate_hz)) + first_offset
         if first < 0 or first + n_samples > n_total:
             raise UserError(f"subject {subject}: the epoch window {start_ms:g} to {stop_ms:g} ms "
                             f"around the event at onset {onset:g} s runs beyond the recording "
-                            f"(0 to {n_total / sfreq:g} s) in {path}")
+                            f"(0 to {n_total / sample_rate_hz:g} s) in {path}")
         starts.append(first)
     window = np.asarray(starts)[:, None] + np.arange(n_samples)[None, :]
 
@@ -194,14 +194,14 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
         samples = stored[ch] * _unit_factor(signal, table, subject)
         bad = ~np.isfinite(samples)
         if bad.any():
-            first_bad = np.flatnonzero(bad)[0] / sfreq
+            first_bad = np.flatnonzero(bad)[0] / sample_rate_hz
             hit = np.flatnonzero(bad[window].any(axis=1))
             epoch = f", epoch {hit[0]} (event at {events[hit[0]][0]:g} s)" if hit.size else ", outside every epoch"
             raise UserError(f"subject {subject}: channel {signal.label} holds NaN or infinite "
                             f"samples (first at {first_bad:g} s{epoch}) in {path}")
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
-    return _Cut(data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))
+    return _Cut(data, float(sample_rate_hz), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))
 
 
 def _common_channels(names: list[list[str]], recordings: list[Path], subject: str) -> list[str]:
@@ -226,7 +226,7 @@ def _listing(recordings: list[Path]) -> str:
     return str(recordings[0]) if len(recordings) == 1 else ", ".join(p.name for p in recordings)
 
 
-def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
+def write_subject(root: Path, subject: str, *, data: np.ndarray, sample_rate_hz: float,
                   channels: list[str], events: list[tuple[float, float, str]], task: str,
                   bad_channels: Sequence[str] = (),
                   electrodes: dict[str, tuple[float, float, float]] | None = None,
@@ -243,7 +243,7 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
         Samples in volts, stored in µV as `famwise.recordings.write_recording`
         describes (EDF/BDF: 16 or 24 bit over each channel's range, padded with
         the last sample to whole 1-s data records; BrainVision: 32-bit floats).
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
         Channel names (at most 16 characters).
@@ -272,22 +272,22 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sfreq: float,
     folder.mkdir(parents=True, exist_ok=True)
     stem = folder / (f"sub-{subject}_task-{task}" + (f"_run-{run}" if run is not None else ""))
 
-    markers = [(int(round(onset * sfreq)), label) for onset, _, label in events]
+    markers = [(int(round(onset * sample_rate_hz)), label) for onset, _, label in events]
     try:
-        write_recording(Path(f"{stem}_eeg"), data * 1e6, sfreq=sfreq, channels=channels, fmt=fmt,
+        write_recording(Path(f"{stem}_eeg"), data * 1e6, sample_rate_hz=sample_rate_hz, channels=channels, fmt=fmt,
                         markers=markers, resolution_uv=resolution_uv)
     except ValueError as exc:
         suffix = "vhdr" if fmt == "brainvision" else fmt
         raise UserError(f"subject {subject}: cannot write {stem}_eeg.{suffix}: {exc}") from None
 
     _write_tsv(Path(f"{stem}_events.tsv"), ["onset", "duration", "trial_type", "sample"],
-               [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))]
+               [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sample_rate_hz)))]
                 for on, dur, label in events])
     _write_tsv(Path(f"{stem}_channels.tsv"), ["name", "type", "units", "status"],
                [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"]
                 for name in channels])
     Path(f"{stem}_eeg.json").write_text(json.dumps({
-        "TaskName": task, "SamplingFrequency": sfreq, "EEGReference": "n/a",
+        "TaskName": task, "SamplingFrequency": sample_rate_hz, "EEGReference": "n/a",
         "PowerLineFrequency": "n/a", "SoftwareFilters": "n/a",
         "EEGChannelCount": len(channels)}, indent=2) + "\n")
     if electrodes is not None:
@@ -480,7 +480,7 @@ def _kept_signals(recording: Recording, table, subject: str) -> list:
         kept = [by_label[name] for name in names]
     if not kept:
         raise UserError(f"subject {subject}: no good EEG channel in {recording.path}")
-    rates = {s.sfreq for s in kept}
+    rates = {s.sample_rate_hz for s in kept}
     if len(rates) > 1:
         raise UserError(f"subject {subject}: the EEG channels of {recording.path} have different "
                         f"sampling rates {sorted(rates)} Hz")

@@ -45,7 +45,7 @@ class Header:
         The header file.
     data_file, marker_file : Path, Path or None
         The binary samples and the markers, resolved beside the header.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz (10^6 / ``SamplingInterval`` in µs).
     orientation : {"MULTIPLEXED", "VECTORIZED"}
         Sample order: all channels of one time point together, or all time
@@ -61,7 +61,7 @@ class Header:
     path: Path
     data_file: Path
     marker_file: Path | None
-    sfreq: float
+    sample_rate_hz: float
     orientation: str
     binary_format: str
     big_endian: bool
@@ -117,7 +117,7 @@ def read_header(path: Path) -> Header:
                      for number in range(1, n_channels + 1))
     header = Header(path=path, data_file=_beside(path, common.get("DataFile"), "DataFile"),
                     marker_file=_beside(path, common["MarkerFile"], "MarkerFile") if common.get("MarkerFile") else None,
-                    sfreq=1e6 / interval_us, orientation=orientation, binary_format=binary_format,
+                    sample_rate_hz=1e6 / interval_us, orientation=orientation, binary_format=binary_format,
                     big_endian=binary.get("UseBigEndianOrder", "NO").upper() == "YES",
                     channels=channels, n_samples=0)
     return replace(header, n_samples=_count_samples(header, common.get("DataPoints")))
@@ -171,7 +171,7 @@ def read_markers(path: Path) -> list[Marker]:
     return markers
 
 
-def write(path: Path, data: np.ndarray, *, sfreq: float, channels: list[str],
+def write(path: Path, data: np.ndarray, *, sample_rate_hz: float, channels: list[str],
           markers: list[tuple[int, str]], resolution: float | None = None) -> None:
     """Write a recording in the core format: ``path`` (``.vhdr``) with its ``.vmrk`` and ``.eeg`` beside it.
 
@@ -181,7 +181,7 @@ def write(path: Path, data: np.ndarray, *, sfreq: float, channels: list[str],
         The header file to write, ending in ``.vhdr``.
     data : ndarray, shape (n_channels, n_samples)
         Values in µV; with ``resolution``, whole multiples of it.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
     markers : list of (sample, description)
@@ -212,7 +212,7 @@ def write(path: Path, data: np.ndarray, *, sfreq: float, channels: list[str],
     header = ["Brain Vision Data Exchange Header File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
               f"DataFile={path.stem}.eeg", f"MarkerFile={path.stem}.vmrk", "DataFormat=BINARY",
               "DataOrientation=MULTIPLEXED", f"NumberOfChannels={len(channels)}",
-              f"SamplingInterval={1e6 / sfreq!r}", "", "[Binary Infos]", f"BinaryFormat={binary_format}", "",
+              f"SamplingInterval={1e6 / sample_rate_hz!r}", "", "[Binary Infos]", f"BinaryFormat={binary_format}", "",
               "[Channel Infos]", *(f"Ch{n}={name},,{resolution!r},µV" for n, name in enumerate(names, start=1)), ""]
     marker_lines = ["Brain Vision Data Exchange Marker File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
                     f"DataFile={path.stem}.eeg", "", "[Marker Infos]",

@@ -24,9 +24,9 @@ THETA_WEIGHTS = {
     "Fp1": 0.2, "Fp2": 0.2, "C3": 0.2, "C4": 0.2, "CP1": 0.15, "CP2": 0.15,
 }
 ALPHA_WEIGHTS = {"O1": 1.0, "Oz": 1.0, "O2": 1.0, "PO3": 0.8, "PO4": 0.8, "P3": 0.5, "Pz": 0.6, "P4": 0.5, "P7": 0.4, "P8": 0.4}
-SFREQ = 250.0
-TRIALS_PER_CONDITION = 40
-TRIAL_SPACING_S = 3.0
+SAMPLE_RATE_HZ = 250.0
+EPOCHS_PER_CONDITION = 40
+EVENT_SPACING_S = 3.0
 N_PARTICIPANTS = 17
 EXCLUDED = "07"
 SEED = 20261201
@@ -68,7 +68,7 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
     for number in range(1, N_PARTICIPANTS + 1):
         subject = f"{number:02d}"
         data, events = simulate_recording(rng, gain=float(rng.normal(1.0, 0.25)), artefacts=subject == "03")
-        bids.write_subject(root, subject, data=data, sfreq=SFREQ, channels=CHANNELS, events=events, task="lantern",
+        bids.write_subject(root, subject, data=data, sample_rate_hz=SAMPLE_RATE_HZ, channels=CHANNELS, events=events, task="lantern",
                            fmt=fmt, resolution_uv=resolution_uv)
         rows.append({"participant_id": f"sub-{subject}", "age": str(int(rng.integers(19, 36))), "handedness": "R"})
     bids.write_participants(root, rows)
@@ -84,11 +84,11 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
     data : ndarray, shape (n_channels, n_samples), volts
     events : list of (onset s, duration s, trial_type)
     """
-    labels = np.array(["low"] * TRIALS_PER_CONDITION + ["high"] * TRIALS_PER_CONDITION)
+    labels = np.array(["low"] * EPOCHS_PER_CONDITION + ["high"] * EPOCHS_PER_CONDITION)
     rng.shuffle(labels)
-    onsets = 2.0 + TRIAL_SPACING_S * np.arange(labels.size) + rng.uniform(-0.2, 0.2, labels.size)
-    n_samples = int((onsets[-1] + 3.0) * SFREQ)
-    times = np.arange(n_samples) / SFREQ
+    onsets = 2.0 + EVENT_SPACING_S * np.arange(labels.size) + rng.uniform(-0.2, 0.2, labels.size)
+    n_samples = int((onsets[-1] + 3.0) * SAMPLE_RATE_HZ)
+    times = np.arange(n_samples) / SAMPLE_RATE_HZ
     data = _background(rng, len(CHANNELS), n_samples)
     alpha = _narrowband(rng, n_samples, 10.0, 1.5) * 6e-6
     for name, weight in ALPHA_WEIGHTS.items():
@@ -104,7 +104,7 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
         data[CHANNELS.index(name)] += weight * theta
     if artefacts:
         for onset in onsets[rng.choice(labels.size, 4, replace=False)]:
-            start = int((onset + 0.3) * SFREQ)
+            start = int((onset + 0.3) * SAMPLE_RATE_HZ)
             data[:2, start:start + 40] += 250e-6 * np.hanning(40)
     events = [(float(onset), 0.0, str(label)) for onset, label in zip(onsets, labels)]
     return data, events
@@ -113,7 +113,7 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
 def _background(rng: np.random.Generator, n_channels: int, n_samples: int) -> np.ndarray:
     """Spatially smeared 1/f noise, about 8 microvolts RMS, volts."""
     spectrum = rng.normal(size=(n_channels, n_samples // 2 + 1)) + 1j * rng.normal(size=(n_channels, n_samples // 2 + 1))
-    freqs = np.fft.rfftfreq(n_samples, 1 / SFREQ)
+    freqs = np.fft.rfftfreq(n_samples, 1 / SAMPLE_RATE_HZ)
     spectrum /= np.sqrt(np.maximum(freqs, 1.0))
     noise = np.fft.irfft(spectrum, n=n_samples, axis=1)
     mixing = 0.6 * np.eye(n_channels) + 0.4 / n_channels
@@ -124,7 +124,7 @@ def _background(rng: np.random.Generator, n_channels: int, n_samples: int) -> np
 def _narrowband(rng: np.random.Generator, n_samples: int, centre_hz: float, width_hz: float) -> np.ndarray:
     """Unit-RMS noise band-limited around ``centre_hz``."""
     spectrum = rng.normal(size=n_samples // 2 + 1) + 1j * rng.normal(size=n_samples // 2 + 1)
-    freqs = np.fft.rfftfreq(n_samples, 1 / SFREQ)
+    freqs = np.fft.rfftfreq(n_samples, 1 / SAMPLE_RATE_HZ)
     spectrum *= np.exp(-0.5 * ((freqs - centre_hz) / width_hz) ** 2)
     signal = np.fft.irfft(spectrum, n=n_samples)
     return signal / signal.std()

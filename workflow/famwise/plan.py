@@ -202,13 +202,13 @@ class Plan:
         return from_plain(DecomposeSettings, {
             "source": s.subjects.source, "path": self.loaded.run_path(self.loaded.resolve(s.subjects.path)), "task": s.subjects.task,
             "min_epochs": s.subjects.min_epochs, "conditions": s.conditions,
-            "epochs": s.epochs.model_dump(mode="json"), "timefreq": s.timefreq.model_dump(mode="json"),
+            "epochs": s.epochs.model_dump(mode="json"), "decomposition": s.decomposition.model_dump(mode="json"),
         })
 
     def graph_settings(self) -> GraphSettings:
         s = self.study
         positions = s.channels.positions
-        if positions not in ("standard-10-10", "standard-10-20", "bids"):
+        if positions not in ("10-10", "10-20", "bids"):
             positions = self.loaded.run_path(self.loaded.resolve(positions))
         neighbors = s.channels.neighbors.model_dump(mode="json")
         if neighbors["edges_file"]:
@@ -220,7 +220,7 @@ class Plan:
         """Files the graph is built from (besides the first subject's map)."""
         s = self.study.channels
         files = []
-        if s.positions not in ("standard-10-10", "standard-10-20", "bids"):
+        if s.positions not in ("10-10", "10-20", "bids"):
             files.append(self.loaded.run_path(self.loaded.resolve(s.positions)))
         if s.neighbors.method == "edges":
             files.append(self.loaded.run_path(self.loaded.resolve(s.neighbors.edges_file)))
@@ -278,7 +278,7 @@ class Plan:
                 collectors.append((StepDownNullSettings if c.step_down else MaxStatNullSettings)(key=c.label))
             elif c.method == "cluster":
                 collectors.append(ClusterNullSettings(key=c.label, cluster_stat=c.cluster_stat, dims=tuple(c.dims),
-                                                      min_neighbor_channels=c.min_neighbor_channels))
+                                                      min_supra_neighbors=c.min_supra_neighbors))
             elif c.method == "tfce":
                 collectors.append(TFCENullSettings(key=c.label, E=c.E, H=c.H, step=c.step, dims=tuple(c.dims)))
             else:

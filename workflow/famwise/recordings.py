@@ -25,7 +25,7 @@ class Signal(NamedTuple):
     """One signal of a recording: label, sampling rate in Hz, unit as the file states it."""
 
     label: str
-    sfreq: float
+    sample_rate_hz: float
     unit: str
 
 
@@ -73,8 +73,8 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
     try:
         if path.suffix.lower() == ".vhdr":
             header = brainvision.read_header(path)
-            return Recording(path, tuple(Signal(c.name, header.sfreq, c.unit) for c in header.channels),
-                             header.n_samples / header.sfreq, lambda indices: brainvision.read_samples(header, indices))
+            return Recording(path, tuple(Signal(c.name, header.sample_rate_hz, c.unit) for c in header.channels),
+                             header.n_samples / header.sample_rate_hz, lambda indices: brainvision.read_samples(header, indices))
         if path.suffix.lower() == ".bdf":
             edf = edfio.read_bdf(path)
         else:
@@ -88,7 +88,7 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
                      edf.duration, lambda indices: np.stack([signals[i].data for i in indices]))
 
 
-def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: list[str], fmt: str,
+def write_recording(path: Path, data_uv: np.ndarray, *, sample_rate_hz: float, channels: list[str], fmt: str,
                     markers: list[tuple[int, str]], resolution_uv: float | None = None) -> Path:
     """Write a continuous recording in µV as EDF, BDF or BrainVision; return the file written.
 
@@ -98,7 +98,7 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: 
         File name without suffix (``.../sub-01_task-x_eeg``).
     data_uv : ndarray, shape (n_channels, n_samples)
         Samples in µV.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
     fmt : {"edf", "bdf", "brainvision"}
@@ -114,15 +114,15 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: 
     """
     if fmt == "brainvision":
         target = Path(f"{path}.vhdr")
-        brainvision.write(target, data_uv, sfreq=sfreq, channels=channels, markers=markers,
+        brainvision.write(target, data_uv, sample_rate_hz=sample_rate_hz, channels=channels, markers=markers,
                           resolution=resolution_uv)
         return target
     target = Path(f"{path}.{fmt}")
     signal_class, file_class = (edfio.EdfSignal, edfio.Edf) if fmt == "edf" else (edfio.BdfSignal, edfio.Bdf)
-    record = int(round(sfreq)) if float(sfreq).is_integer() else data_uv.shape[1]
+    record = int(round(sample_rate_hz)) if float(sample_rate_hz).is_integer() else data_uv.shape[1]
     padded = np.pad(data_uv, ((0, 0), (0, -data_uv.shape[1] % record)), mode="edge")
     if resolution_uv is None:
-        signals = [signal_class(row, sfreq, label=name, physical_dimension="uV") for row, name in zip(padded, channels)]
+        signals = [signal_class(row, sample_rate_hz, label=name, physical_dimension="uV") for row, name in zip(padded, channels)]
     else:
         limit, dtype = _EDF_DIGITAL[fmt]
         bound = float(np.floor(limit * resolution_uv))
@@ -130,7 +130,7 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sfreq: float, channels: 
         digital = np.round(padded / resolution_uv)
         if bound <= 0 or np.abs(digital).max() > steps:
             raise ValueError(f"samples beyond ±{bound:g} µV cannot be stored at {resolution_uv:g} µV per step")
-        signals = [signal_class.from_digital(row.astype(dtype), sfreq, label=name,
+        signals = [signal_class.from_digital(row.astype(dtype), sample_rate_hz, label=name,
                                              physical_dimension="uV", physical_range=(-bound, bound),
                                              digital_range=(-steps, steps))
                    for row, name in zip(digital, channels)]

@@ -16,39 +16,39 @@ from typing import Literal
 from famwise.settings_codec import to_plain
 
 
-# ---- decomposition (famwise.timefreq via the decompose job) --------------------
+# ---- decomposition (famwise.decomposition via the decompose job) --------------------
 
 
 @dataclass(frozen=True)
 class FrequencyGridSettings:
-    """``timefreq.freqs_hz`` of the spec."""
+    """``decomposition.frequencies`` of the spec."""
 
-    start_hz: float
-    stop_hz: float
+    lowest_hz: float
+    highest_hz: float
     count: int
     spacing: str
 
 
 @dataclass(frozen=True)
 class BaselineSettings:
-    """``timefreq.baseline`` of the spec."""
+    """``decomposition.baseline`` of the spec."""
 
     mode: str
     window_ms: tuple[float, float] | None
     pooled: bool
-    single_trial: bool
+    single_epoch: bool
 
 
 @dataclass(frozen=True)
-class TimefreqSettings:
-    """``timefreq`` of the spec (Morlet width resolved: ``cycles`` is 7 unless given otherwise)."""
+class DecompositionSettings:
+    """``decomposition`` of the spec (Morlet width resolved: ``cycles`` is 7 unless given otherwise)."""
 
     method: str
-    freqs_hz: FrequencyGridSettings
+    frequencies: FrequencyGridSettings
     cycles: float | tuple[float, float] | None
     fwhm_ms: float | tuple[float, float] | None
-    window_ms: float | None
-    time_bandwidth: float | None
+    taper_length_ms: float | None
+    nw: float | None
     measure: str
     time_step_ms: float | None
     average: str
@@ -79,7 +79,7 @@ class DecomposeSettings:
     min_epochs: int
     conditions: dict[str, tuple[str, ...]]
     epochs: EpochSettings
-    timefreq: TimefreqSettings
+    decomposition: DecompositionSettings
 
 
 @dataclass(frozen=True)
@@ -209,7 +209,7 @@ class ClusterNullSettings:
     key: str
     cluster_stat: str
     dims: tuple[str, ...]
-    min_neighbor_channels: int
+    min_supra_neighbors: int
     kind: Literal["cluster"] = "cluster"
 
 
@@ -263,7 +263,7 @@ class CorrectionEntry:
     forming_stat: float | None = None
     cluster_stat: str | None = None
     dims: tuple[str, ...] | None = None
-    min_neighbor_channels: int | None = None
+    min_supra_neighbors: int | None = None
     E: float | None = None
     H: float | None = None
     step: float | None = None
@@ -336,7 +336,7 @@ class SubjectValuesSettings:
 
 @dataclass(frozen=True)
 class CalibrationSettings:
-    """Null datasets of one contrast -> ``calibration/<c>/chunk-<k>.npz`` -> ``calibration/<c>.tsv``.
+    """Null datasets of one contrast -> ``calibration/<c>/shard-<k>.npz`` -> ``calibration/<c>.tsv``.
 
     ``nulls`` is the study's null settings with ``permutations`` as asked
     for the calibration (``study_permutations`` keeps the study's number).
@@ -344,7 +344,7 @@ class CalibrationSettings:
 
     contrast: str
     datasets: int
-    chunks: int
+    shards: int
     study_permutations: int
     alpha: float
     observed: ObservedSettings

@@ -116,7 +116,7 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
 
             result = clusters.cluster_inference(
                 mine["stat"], max_null, threshold=stored_forming_threshold(mine, key), indptr=indptr, indices=indices,
-                dims=dims, cluster_stat=correction.cluster_stat, min_neighbor_channels=correction.min_neighbor_channels,
+                dims=dims, cluster_stat=correction.cluster_stat, min_supra_neighbors=correction.min_supra_neighbors,
                 tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
             )
         else:

@@ -10,7 +10,7 @@ size (number of points). The null is the largest cluster statistic of each
 permutation over both signs, and a cluster's p is the share of permutations
 (identity included) whose largest cluster statistic reaches it.
 
-``min_neighbor_channels``: a supra-threshold point joins a cluster only if at
+``min_supra_neighbors``: a supra-threshold point joins a cluster only if at
 least that many of its neighbor channels are supra-threshold with the same
 sign at the same frequency and time (counted on the raw supra-threshold map,
 once, and whatever ``dims`` says). 0 keeps every supra-threshold point.
@@ -55,7 +55,7 @@ CLUSTER_SIDECAR = {
     "p": {"Description": "Permutation p-value: share of permutations (identity included) whose largest "
                          "cluster statistic is at least this cluster's."},
     "n_points": {"Description": "Number of (channel, frequency, time) points in the cluster."},
-    "channels": {"Description": "Comma-separated names of the channels the cluster covers, in montage order."},
+    "channels": {"Description": "Comma-separated names of the channels the cluster covers, in position-table order."},
     "time_start_ms": {"Description": "Earliest time point of the cluster.", "Units": "ms"},
     "time_end_ms": {"Description": "Latest time point of the cluster.", "Units": "ms"},
     "freq_low_hz": {"Description": "Lowest frequency of the cluster.", "Units": "Hz"},
@@ -92,7 +92,7 @@ def critical_value(null, alpha):
 
 
 def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
-                   min_neighbor_channels=0, tail="two-sided"):
+                   min_supra_neighbors=0, tail="two-sided"):
     """Cluster labels of one map, numbered by descending statistic within each sign.
 
     Parameters
@@ -107,14 +107,14 @@ def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat=
     statistics : dict of int to float
         Cluster statistic of each id (same arithmetic as the null's ``ClusterCollector``).
     """
-    check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+    check_cluster_settings(threshold, cluster_stat, min_supra_neighbors)
     stat = np.ascontiguousarray(stat, dtype=np.float64)
     shape, indptr, indices = check_graph(stat.shape, indptr, indices)
     flat = stat.ravel()
     parent = np.empty(flat.size, np.int32)
     acc = np.empty(flat.size, np.float64)
     _cluster_roots(flat, float(threshold), tail_code(tail), *shape, indptr, indices, *check_dims(dims),
-                   cluster_stat == "mass", int(min_neighbor_channels), parent, acc)
+                   cluster_stat == "mass", int(min_supra_neighbors), parent, acc)
     roots = np.flatnonzero(parent == np.arange(flat.size))
     lookup = np.zeros(flat.size, np.int32)
     statistics = {}
@@ -130,7 +130,7 @@ def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat=
 
 
 def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
-                      min_neighbor_channels=0, tail="two-sided", alpha=0.05, channels, freqs, times):
+                      min_supra_neighbors=0, tail="two-sided", alpha=0.05, channels, freqs, times):
     """Cluster-based permutation inference on the merged null.
 
     Parameters
@@ -139,7 +139,7 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
         Observed statistic map.
     null_max : ndarray, shape (n_rows,)
         Largest cluster statistic of every permutation-table row (row 0 = identity).
-    threshold, indptr, indices, dims, cluster_stat, min_neighbor_channels, tail
+    threshold, indptr, indices, dims, cluster_stat, min_supra_neighbors, tail
         As given to ``famwise.nulls.collectors.largest_cluster.ClusterCollector``.
     alpha : float
         Family-wise level.
@@ -171,7 +171,7 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
     _check_axes(observed_stat.shape, channels, freqs, times)
     cluster_id, statistics = label_clusters(
         observed_stat, threshold=threshold, indptr=indptr, indices=indices, dims=dims, cluster_stat=cluster_stat,
-        min_neighbor_channels=min_neighbor_channels, tail=tail)
+        min_supra_neighbors=min_supra_neighbors, tail=tail)
     ids = np.array(sorted(statistics), dtype=np.int64)
     p_values = count_at_least(null_max, [statistics[i] for i in ids.tolist()])
     offset = int(np.abs(ids).max(initial=0))
@@ -187,7 +187,7 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
         method="cluster", p_corrected=p_map, mask=p_map <= alpha, threshold=critical_value(null_max, alpha),
         threshold_kind="cluster", maps={"cluster_id": cluster_id}, clusters=rows, null=null_max,
         settings={"threshold": float(threshold), "dims": list(dims), "cluster_stat": cluster_stat,
-                  "min_neighbor_channels": int(min_neighbor_channels), "tail": tail, "alpha": float(alpha),
+                  "min_supra_neighbors": int(min_supra_neighbors), "tail": tail, "alpha": float(alpha),
                   "n_rows": int(null_max.size)})
 
 

@@ -93,7 +93,7 @@ def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, sha
                 ClusterCollector(
                     threshold=stored_forming_threshold(observed, key), shape=shape, indptr=indptr, indices=indices,
                     dims=spec.dims, cluster_stat=spec.cluster_stat,
-                    min_neighbor_channels=spec.min_neighbor_channels, tail=tail, key=key,
+                    min_supra_neighbors=spec.min_supra_neighbors, tail=tail, key=key,
                 )
             )
         elif kind == "tfce":

@@ -7,7 +7,7 @@ figure; :func:`famwise.figure_style.save_figure` writes it.
 import matplotlib.pyplot as plt
 import numpy as np
 
-from famwise.montage import ChannelGraph, Positions, plot_graph
+from famwise.electrodes import ChannelGraph, Positions, plot_graph
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.scalp import topography
 from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
@@ -24,7 +24,7 @@ def stat_label(contrast: ReportedContrast) -> str:
 
 def effect_unit(study: dict) -> str:
     """Unit of the effect map, from the measure and the baseline of the spec."""
-    tf = study.get("timefreq", {}) or {}
+    tf = study.get("decomposition", {}) or {}
     measure = str(tf.get("measure", "power"))
     mode = str((tf.get("baseline") or {}).get("mode", "none")).lower()
     if measure.lower() not in {"power", "induced"}:

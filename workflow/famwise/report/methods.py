@@ -79,7 +79,7 @@ def method_kind(method: str) -> str:
 _NEIGHBORS = {"delaunay": "Delaunay triangulation of the projected positions",
               "distance": "channels within a distance", "edges": "an edge list given by the user"}
 _MEASURES = {"power": "Power", "induced": "Induced power (each condition's average response "
-              "removed from its trials first)", "itpc": "Inter-trial phase coherence"}
+              "removed from its epochs first)", "itpc": "Inter-trial phase coherence"}
 _MODES = {"db": "decibel change (10 log10 of the ratio)", "percent": "percent change",
           "zscore": "z-scores", "ratio": "the ratio"}
 
@@ -166,20 +166,20 @@ def _subjects(run: Run, study: dict) -> str:
 
 
 def _decomposition(study: dict) -> str:
-    tf = study.get("timefreq") or {}
-    freqs = tf.get("freqs_hz") or {}
+    tf = study.get("decomposition") or {}
+    freqs = tf.get("frequencies") or {}
     method = str(tf.get("method", "morlet")).lower()
     grid = (f"at {fmt(freqs.get('count'))} frequencies from "
-            f"{fmt(freqs.get('start_hz', freqs.get('start')))} to "
-            f"{fmt(freqs.get('stop_hz', freqs.get('stop')))} Hz ({freqs.get('spacing', 'log')} spacing)")
+            f"{fmt(freqs.get('lowest_hz', freqs.get('start')))} to "
+            f"{fmt(freqs.get('highest_hz', freqs.get('stop')))} Hz ({freqs.get('spacing', 'log')} spacing)")
     measure = _MEASURES.get(str(tf.get("measure", "power")), str(tf.get("measure")))
     if method == "multitaper":
         text = (f"{measure} was estimated with multitaper analysis using discrete "
                 f"prolate spheroidal (DPSS) tapers (Thomson 1982) {grid}")
-        if tf.get("window_ms") is not None:
-            text += f", over a {fmt(tf['window_ms'])} ms window"
-        if tf.get("time_bandwidth") is not None:
-            text += f" with a time-bandwidth product of {fmt(tf['time_bandwidth'])}"
+        if tf.get("taper_length_ms") is not None:
+            text += f", over a {fmt(tf['taper_length_ms'])} ms window"
+        if tf.get("nw") is not None:
+            text += f" with a time-bandwidth product of {fmt(tf['nw'])}"
     else:
         text = f"{measure} was estimated by convolution with complex Morlet wavelets {grid}"
         if tf.get("fwhm_ms") is not None:
@@ -192,14 +192,14 @@ def _decomposition(study: dict) -> str:
     text += (f". Points whose {kernel} reached beyond the epoch (the cone of influence; Torrence & Compo "
              "1998) were left out of the analysis.")
     if tf.get("average") == "trimmed":
-        text += f" Trials were averaged with a trimmed mean (trim {fmt(tf.get('trim'))} per end)."
+        text += f" Epochs were averaged with a trimmed mean (trim {fmt(tf.get('trim'))} per end)."
     baseline = tf.get("baseline") or {}
     mode = baseline.get("mode")
     if mode and str(mode).lower() != "none":
         text += (f" Values were expressed as {_MODES.get(str(mode), str(mode))} relative to the baseline from "
                  f"{_span(baseline.get('window_ms'), 'ms')}")
         text += ", pooled over conditions" if baseline.get("pooled") else ", per condition"
-        text += ", on single trials." if baseline.get("single_trial") else ", after averaging trials."
+        text += ", on single epochs." if baseline.get("single_epoch") else ", after averaging epochs."
     else:
         text += " No baseline normalisation was applied."
     return text
@@ -315,7 +315,7 @@ def kinds_used(run: Run) -> list[str]:
     """Reference keys of every method the run used, in a stable order."""
     study = run.study
     used = []
-    method = str((study.get("timefreq") or {}).get("method", "morlet")).lower()
+    method = str((study.get("decomposition") or {}).get("method", "morlet")).lower()
     if method == "multitaper":
         used.append("multitaper")
     used.append("edges")

@@ -14,7 +14,7 @@ import numpy as np
 
 from famwise import layout, stage_warnings
 from famwise.errors import UserError
-from famwise.montage import ChannelGraph, Positions, load_graph
+from famwise.electrodes import ChannelGraph, Positions, load_graph
 from famwise.observed import load_observed
 
 

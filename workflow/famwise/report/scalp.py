@@ -4,7 +4,7 @@ import numpy as np
 from matplotlib.patches import Circle, Polygon
 from scipy.interpolate import RBFInterpolator
 
-from famwise.montage import azimuthal_projection
+from famwise.electrodes import azimuthal_projection
 from famwise.figure_style import ACCENT, DIVERGING
 
 
@@ -12,7 +12,7 @@ def project(xyz: np.ndarray) -> np.ndarray:
     """Project electrode positions onto the picture of the head seen from above.
 
     The azimuthal equidistant projection from the vertex of
-    :func:`famwise.montage.azimuthal_projection`, scaled so that the circle
+    :func:`famwise.electrodes.azimuthal_projection`, scaled so that the circle
     90 degrees from the vertex (through Fpz, T7, Oz, T8) has radius 1.
 
     Parameters

@@ -90,8 +90,8 @@ def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> s
 def study_section(run: Run, spec_text: str) -> str:
     """Spec summary and the full spec text."""
     study = run.study
-    tf = study.get("timefreq") or {}
-    freqs = tf.get("freqs_hz") or {}
+    tf = study.get("decomposition") or {}
+    freqs = tf.get("frequencies") or {}
     analysis = study.get("analysis") or {}
     inference = study.get("inference") or {}
     rows = [
@@ -101,8 +101,8 @@ def study_section(run: Run, spec_text: str) -> str:
                                  for k, v in (study.get("conditions") or {}).items())],
         ["decomposition", f"{tf.get('method', '')}, {tf.get('measure', '')}, "
                           f"{fmt(freqs.get('count'))} frequencies "
-                          f"{fmt(freqs.get('start_hz', freqs.get('start')))}-"
-                          f"{fmt(freqs.get('stop_hz', freqs.get('stop')))} Hz "
+                          f"{fmt(freqs.get('lowest_hz', freqs.get('start')))}-"
+                          f"{fmt(freqs.get('highest_hz', freqs.get('stop')))} Hz "
                           f"({freqs.get('spacing', '')})"],
         ["baseline", ", ".join(f"{k} {v}" for k, v in (tf.get("baseline") or {}).items())],
         ["analysis window", f"time {analysis.get('time_ms') or 'all'} ms, frequency "

@@ -58,7 +58,7 @@ class ClusterCorrection(_Correction):
     forming_stat: float | None = Field(default=None, gt=0, description="Cluster-forming threshold as a statistic value.")
     cluster_stat: Literal["mass", "size"] = Field(default="mass", description="Cluster statistic: mass (sum of |stat|) or size (number of points).")
     dims: list[Dimension] = Field(default_factory=lambda: ["channel", "freq", "time"], min_length=1, description="Dimensions clusters extend over.")
-    min_neighbor_channels: int = Field(default=0, ge=0, description="Fewest supra-threshold neighbor channels a point needs to join a cluster.")
+    min_supra_neighbors: int = Field(default=0, ge=0, description="Fewest supra-threshold neighbor channels a point needs to join a cluster.")
 
     @property
     def needs_null(self) -> bool:
