@@ -88,7 +88,7 @@ def test_preauricular_line():
 
 def test_circumference_10_percent_steps():
     # Jasper (1958): Fp1 10 %, F7 30 %, T7 50 %, P7 70 %, O1 90 % of the half circumference
-    # from Fpz; in model B the circumference is the equator
+    # from Fpz; the circumference is the equator of the sphere
     p = system_positions("10-20")
     for name, fraction in [("Fp1", 0.1), ("F7", 0.3), ("T7", 0.5), ("P7", 0.7), ("O1", 0.9)]:
         expected = R * _unit(90, 90 + fraction * 180)
@@ -131,7 +131,7 @@ def test_mirror_symmetry(system):
 
 
 def test_model_b_values():
-    # model B, derived by hand from the Jasper (1958) percentages (numpy trigonometry; not a standard)
+    # equator through Fpz-T7-Oz-T8, derived by hand from the Jasper (1958) percentages (numpy trigonometry; not a standard)
     p = system_positions("10-20")
     expected = {
         "Fpz": (0, 1, 0), "Fz": (0, 0.70711, 0.70711), "Cz": (0, 0, 1), "Pz": (0, -0.70711, 0.70711),
@@ -156,7 +156,7 @@ def test_system_contents():
         assert name in ten_ten.names
     for name in ten_twenty.names:
         np.testing.assert_array_equal(_pos(ten_twenty, name), _pos(ten_ten, name))
-    assert ten_ten.source == "the standard 10-10 system"
+    assert ten_ten.source == "the 10-10 system (idealised spherical positions)"
 
 
 def test_table_copies_identical_and_reproduced_by_the_script(tmp_path):
@@ -199,7 +199,7 @@ def test_match_keeps_order_and_subset():
 
 
 def test_unknown_channel_name():
-    with pytest.raises(UserError, match=r"no position in the standard 10-10 system for 2 analysed channels: "
+    with pytest.raises(UserError, match=r"no position in the 10-10 system \(idealised spherical positions\) for 2 analysed channels: "
                                         r"'Fzz' \(did you mean 'Fz'\?\), 'EOG'"):
         match_channels(system_positions("10-10"), ["Cz", "Fzz", "EOG"])
 
@@ -272,7 +272,7 @@ def test_plain_tsv_units_comment_and_override(tmp_path):
         read_positions(path, units="km")
 
 
-def test_standard_table_reads_as_a_plain_file():
+def test_system_table_reads_as_a_plain_file():
     positions = read_positions(REPO / "configs" / "positions" / "10-10.tsv")
     np.testing.assert_array_equal(positions.xyz, system_positions("10-10").xyz)
 

@@ -108,7 +108,7 @@ class NeighborsSettings:
 class GraphSettings:
     """Channel names + positions -> ``channels/graph.npz``.
 
-    ``positions`` is a standard system name, ``"bids"`` or an absolute TSV path.
+    ``positions`` is an electrode system ("10-10", "10-20"), ``"bids"`` or an absolute TSV path.
     """
 
     positions: str

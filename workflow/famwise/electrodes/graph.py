@@ -200,7 +200,7 @@ def channel_graph(channels, *, positions="10-10", method: str = "delaunay", max_
     channels : sequence of str, length C
         Analysed channel names.
     positions : {"10-10", "10-20"} or str or Path
-        A standard system or a position file (see ``read_positions``).
+        An electrode system ("10-10", "10-20") or a position file (see ``read_positions``).
     method, max_distance_mm, edges_file
         As in ``neighbor_graph``.
 

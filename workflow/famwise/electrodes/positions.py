@@ -29,10 +29,10 @@ class Positions:
     names : tuple of str, length n
         Electrode (channel) names, unique ignoring case and old/new 10-10 names.
     xyz : ndarray of float, shape (n, 3)
-        Coordinates in mm; read-only. The standard tables use x right,
+        Coordinates in mm; read-only. The system tables use x right,
         y anterior, z up with the origin at the head centre.
     source : str
-        Where the positions come from (a file path or a standard system).
+        Where the positions come from (a file path or an electrode system).
     """
 
     names: tuple[str, ...]
@@ -61,7 +61,7 @@ def channel_key(name: str) -> str:
 
 @lru_cache(maxsize=None)
 def system_positions(system: str = "10-10") -> Positions:
-    """Positions of a standard electrode system on a spherical head.
+    """Idealised spherical positions of an electrode system, from the system's definition.
 
     Parameters
     ----------
@@ -86,7 +86,7 @@ def system_positions(system: str = "10-10") -> Positions:
     path = resources.files("famwise") / "data" / "positions" / f"{system}.tsv"
     with resources.as_file(path) as real:
         names, xyz, _ = _read_table(Path(real))
-    return Positions(names, xyz, f"the standard {system} system")
+    return Positions(names, xyz, f"the {system} system (idealised spherical positions)")
 
 
 def read_positions(path, *, units: str | None = None) -> Positions:

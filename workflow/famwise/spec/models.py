@@ -144,13 +144,14 @@ class Decomposition(SpecModel):
     cycles: float | tuple[float, float] | None = Field(
         default=7.0,
         description="Morlet width in cycles: a number, or [at lowest, at highest] frequency growing "
-        "log-linearly. The default applies to method 'morlet' when fwhm_ms is not given.",
+        "log-linearly. The default of 7 cycles is long-standing practice (Tallon-Baudry et al. 1997, J Neurosci) "
+        "and applies to method 'morlet' when fwhm_ms is not given.",
     )
     fwhm_ms: float | tuple[float, float] | None = Field(
         default=None, description="Morlet width as temporal full width at half maximum in ms (a number or [at lowest, at highest])."
     )
-    taper_length_ms: float | None = Field(default=None, gt=0, description="Multitaper window length in ms.")
-    nw: float | None = Field(default=None, gt=0, description="Multitaper time-bandwidth product NW (tapers = 2NW - 1).")
+    taper_length_ms: float | None = Field(default=None, gt=0, description="Multitaper taper length in ms (one window of the DPSS tapers).")
+    nw: float | None = Field(default=None, gt=0, description="Multitaper time-half-bandwidth product NW (Percival & Walden 1993); 2NW - 1 tapers.")
     measure: Measure = Field(default="power", description="'power' (total), 'induced' (the condition's average response removed first) or 'itpc' (inter-trial phase coherence).")
     time_step_ms: float | None = Field(default=20.0, gt=0, description="Output time step in ms (decimation after convolution); omit for every sample.")
     average: Literal["mean", "trimmed"] = Field(default="mean", description="Average over epochs: mean or trimmed mean.")
@@ -271,7 +272,8 @@ class Channels(SpecModel):
 
     positions: str = Field(
         default="10-10",
-        description="'10-10' or '10-20' (positions from the channel names), "
+        description="'10-10' or '10-20' (idealised spherical positions from the systems' definitions, "
+        "looked up by channel name), "
         "'bids' (each subject's _electrodes.tsv), or a TSV file of name, x, y, z.",
     )
     neighbors: Neighbors = Field(default_factory=Neighbors, description="Neighbor graph.")
