@@ -95,3 +95,33 @@ def test_null_histogram_legend_covers_no_data(observed):
     plot = ax.get_window_extent()
     assert legend.x0 >= plot.x1 or legend.y1 <= plot.y0  # beside or below the axes, never on the bars or lines
     plt.close(figure)
+
+
+@pytest.mark.parametrize(("freqs", "expected"), [
+    (np.geomspace(4.0, 30.0, 12), [4, 8, 16]),  # the odd bins 5.77, 8.32, ... are never ticks
+    (np.geomspace(2.0, 45.0, 20), [2, 4, 8, 16, 32]),
+    (np.geomspace(6.0, 14.0, 5), [6, 8, 12]),
+    (np.linspace(6.0, 14.0, 3), [6, 8, 10, 12, 14]),
+    (np.linspace(4.0, 40.0, 10), [10, 20, 30, 40]),
+])
+def test_frequency_ticks_fall_on_round_frequencies(freqs, expected):
+    from famwise.report.figures import round_frequency_ticks
+
+    values, rows = round_frequency_ticks(freqs)
+    assert values.tolist() == expected
+    # each tick sits where its frequency lies on the grid's own scale (log for geomspace)
+    log = freqs[2] - freqs[1] != pytest.approx(freqs[1] - freqs[0])
+    back = np.interp(rows, np.arange(freqs.size), np.log(freqs) if log else freqs)
+    assert (np.exp(back) if log else back) == pytest.approx(expected)
+
+
+def test_topography_marks_members_with_filled_dots_and_the_rest_with_open_rings():
+    positions = match_channels(system_positions("10-10"), ["F3", "Fz", "F4", "C3", "Cz", "C4"])
+    flat = project(positions.xyz)
+    figure, ax = plt.subplots()
+    topography(ax, flat[:, 0], flat, limit=1.0, marked=np.arange(6) < 2)
+    rings, dots = ax.collections[-2:]
+    assert len(rings.get_offsets()) == 4 and len(dots.get_offsets()) == 2
+    assert rings.get_facecolor().size == 0 or rings.get_facecolor()[0][3] == 0  # open
+    assert dots.get_facecolor()[0][3] == 1 and tuple(dots.get_facecolor()[0][:3]) != (1.0, 1.0, 1.0)  # filled, not white
+    plt.close(figure)

@@ -55,7 +55,8 @@ def topography(ax, values: np.ndarray, flat: np.ndarray, *, limit: float,
     limit : float
         Colour range is [-limit, limit], centred at zero.
     marked : ndarray of bool, shape (C,), optional
-        Channels to mark (e.g. a cluster's channels).
+        Channels drawn as filled accent dots (e.g. a cluster's channels); the
+        others are small open rings.
     resolution : int
         Grid points per side.
 
@@ -79,10 +80,11 @@ def topography(ax, values: np.ndarray, flat: np.ndarray, *, limit: float,
     if finite.sum() >= 4 and np.nanmax(grid) > np.nanmin(grid):
         ax.contour(gx, gy, grid, levels=np.linspace(-limit, limit, 9), colors="#00000033",
                    linewidths=0.5)
-    ax.scatter(flat[:, 0], flat[:, 1], s=4, c="#444444", lw=0, zorder=3)
-    if marked is not None and np.any(marked):
-        ax.scatter(flat[marked, 0], flat[marked, 1], s=22, facecolor="white",
-                   edgecolor=ACCENT, lw=1.1, zorder=4)
+    marked = np.zeros(len(flat), bool) if marked is None else np.asarray(marked, bool)
+    ax.scatter(flat[~marked, 0], flat[~marked, 1], s=9, facecolor="none", edgecolor="#555555",
+               lw=0.6, zorder=3)
+    if marked.any():
+        ax.scatter(flat[marked, 0], flat[marked, 1], s=20, c=ACCENT, lw=0, zorder=4)
     draw_head(ax)
     ax.set_xlim(-1.2 * extent, 1.2 * extent)
     ax.set_ylim(-1.15 * extent, 1.2 * extent)
