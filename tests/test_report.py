@@ -104,10 +104,17 @@ def test_report_is_self_contained(built):
 def test_report_shows_every_correction_with_its_count(built):
     run = read_run(built["output"])
     for correction in run.contrasts[0].corrections:
-        assert (f"<b>{correction.name}</b> ({correction.method}): "
-                f"{correction.n_significant} significant points") in built["html"]
+        shown = correction.name if correction.name == correction.method else f"{correction.name} ({correction.method})"
+        assert f"<b>{shown}</b>: {correction.n_significant} significant points" in built["html"]
+    assert "<b>holm</b>: " in built["html"] and "holm (holm)" not in built["html"]  # the method only when the name differs
     uncorrected = int((run.contrasts[0].p <= 0.05).sum())
     assert f"{uncorrected} of {run.contrasts[0].stat.size} points with p ≤ 0.05" in built["html"]
+
+
+def test_study_table_reads_as_words(built):
+    html = built["html"]
+    assert "dB change from the -400 to -100 ms baseline, each condition separately" in html
+    assert "pooled False" not in html and "single_epoch" not in html and "[-400" not in html
 
 
 def test_report_subjects_table_matches_subjects_tsv(built):

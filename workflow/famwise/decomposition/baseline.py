@@ -19,7 +19,7 @@ import numpy as np
 
 MODES = ("db", "percent", "zscore", "ratio", "none")
 
-_WORDS = {
+MODE_WORDS = {
     "db": "dB change",
     "percent": "percent change",
     "zscore": "z-score",
@@ -91,4 +91,4 @@ def describe(mode: str, window_ms: tuple[float, float] | None, *, pooled: bool,
         scope = "pooled over conditions"
     else:
         scope = "per condition"
-    return f"{_WORDS[mode]} from {start:g} to {stop:g} ms, {scope}"
+    return f"{MODE_WORDS[mode]} from {start:g} to {stop:g} ms, {scope}"

@@ -25,6 +25,7 @@ import numpy as np
 
 from famwise.report.html import anchor, esc, note
 from famwise.report.results import ReportedContrast, ReportedCorrection
+from famwise.report.study_words import named
 from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.values import CAVEAT, categories, read_values
 
@@ -129,7 +130,7 @@ def explorer_block(data: dict) -> str:
     """The explorer's HTML for one contrast: controls, canvases, cluster list and its data."""
     ident = anchor("explore", data["contrast"])
     payload = json.dumps(data, separators=(",", ":")).replace("</", "<\\/")
-    options = "".join(f'<option value="{k}">{esc(c["name"])} ({esc(c["method"])})</option>'
+    options = "".join(f'<option value="{k}">{esc(named(c["name"], c["method"]))}</option>'
                       for k, c in enumerate(data["corrections"]))
     caveat = note(CAVEAT, warning=True)
     return (f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'

@@ -14,6 +14,7 @@ from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
+from famwise.report.study_words import baseline_words, decomposition_words, inference_words, named, window_words
 from famwise.figure_style import figure_style, save_figure
 from famwise.report.values import planned_block, values_block
 
@@ -91,7 +92,6 @@ def study_section(run: Run, spec_text: str) -> str:
     """Spec summary and the full spec text."""
     study = run.study
     tf = study.get("decomposition") or {}
-    freqs = tf.get("frequencies") or {}
     analysis = study.get("analysis") or {}
     inference = study.get("inference") or {}
     rows = [
@@ -99,21 +99,13 @@ def study_section(run: Run, spec_text: str) -> str:
         ["seed", study.get("seed", "")],
         ["conditions", "; ".join(f"{k}: {', '.join(map(str, v))}"
                                  for k, v in (study.get("conditions") or {}).items())],
-        ["decomposition", f"{tf.get('method', '')}, {tf.get('measure', '')}, "
-                          f"{fmt(freqs.get('count'))} frequencies "
-                          f"{fmt(freqs.get('lowest_hz', freqs.get('start')))}-"
-                          f"{fmt(freqs.get('highest_hz', freqs.get('stop')))} Hz "
-                          f"({freqs.get('spacing', '')})"],
-        ["baseline", ", ".join(f"{k} {v}" for k, v in (tf.get("baseline") or {}).items())],
-        ["analysis window", f"time {analysis.get('time_ms') or 'all'} ms, frequency "
-                            f"{analysis.get('freq_hz') or 'all'} Hz, channels "
-                            f"{analysis.get('channels') or 'all'}"],
+        ["decomposition", decomposition_words(tf)],
+        ["baseline", baseline_words(tf.get("baseline") or {})],
+        ["analysis window", window_words(analysis)],
         ["contrasts", "; ".join(f"{c['name']} ({c.get('test', '')})"
                                 for c in study.get("contrasts", []))],
-        ["inference", f"alpha {fmt(inference.get('alpha'))}, {inference.get('tail', '')}, "
-                      f"{fmt(inference.get('permutations'))} permutations, statistic "
-                      f"{inference.get('statistic', 't')}"],
-        ["corrections", "; ".join(f"{name} ({entry.get('method', '')})"
+        ["inference", inference_words(inference)],
+        ["corrections", "; ".join(named(name, entry.get("method", ""))
                                   for name, entry in correction_entries(study).items())],
     ]
     window = note("The analysis window (times, frequencies, channels) and the corrections must "
@@ -303,7 +295,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
                                      subtitle=f"{correction.method}: {correction.n_significant} "
                                               f"of {total} points")
         cards.append(write(fig, f"{base}__{anchor(correction.name)}__map",
-                           caption=f"<b>{esc(correction.name)}</b> ({esc(correction.method)}): "
+                           caption=f"<b>{esc(named(correction.name, correction.method))}</b>: "
                                    f"{correction.n_significant} significant points",
                            alt=f"{correction.name} map"))
         details.append(_correction_detail(run, contrast, correction, spec, write))
