@@ -146,3 +146,12 @@ def test_ctrl_c_during_a_real_run_exits_130(tiny_study):
     err = process.stderr.read()
     assert process.wait(timeout=120) == 130
     assert "famwise: interrupted" in err and "the run failed" not in err and "Traceback" not in err
+
+
+def test_help_lists_the_commands_in_the_order_of_work(capsys):
+    with pytest.raises(SystemExit):
+        main(["--help"])
+    listed = [line.split()[0] for line in capsys.readouterr().out.splitlines()
+              if line.startswith("    ") and not line.startswith("     ")]
+    assert listed[:4] == ["init", "check", "run", "calibrate"]
+    assert listed.index("calibrate") < listed.index("demo") < listed.index("bench")

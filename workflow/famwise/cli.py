@@ -103,8 +103,8 @@ def _parser() -> argparse.ArgumentParser:
     demo.add_argument("--cores", type=_cores, default=os.cpu_count() or 1, metavar="N", help="cores to use (default: all)")
     demo.set_defaults(handler=command_demo)
 
-    bench = commands.add_parser("bench", help="time famwise's kernels against the naive reference implementations",
-                                description="Time famwise's kernels against the naive reference implementations.")
+    bench = commands.add_parser("bench", help="time famwise's kernels against the plain, slow implementations of famwise.naive",
+                                description="Time famwise's kernels against the plain, slow implementations of famwise.naive.")
     bench.add_argument("--quick", action="store_true", help="smaller sizes (under 2 minutes)")
     bench.add_argument("--json", type=Path, help="also write the table as JSON")
     bench.set_defaults(handler=command_bench)
