@@ -1,4 +1,7 @@
-"""A spec written with a key or value of earlier versions fails with one line naming the new key."""
+"""A spec written with a key or value of earlier versions fails with one line naming the new key.
+
+The old specs are built from the table itself (famwise.spec.old_keys), so every entry is checked.
+"""
 
 import subprocess
 import sys
@@ -7,7 +10,7 @@ import pytest
 
 from famwise.errors import UserError
 from famwise.spec import load_study
-from famwise.spec.old_keys import RENAMED_KEYS
+from famwise.spec.old_keys import RENAMED_KEYS, RENAMED_VALUES
 
 BASE = """\
 version: 1
@@ -22,11 +25,8 @@ contrasts:
   - name: load
     test: paired
     conditions: [high-load, low-load]
-inference:
-  corrections:
-    - method: cluster
-      min_neighbor_channels: 2
 """
+INFERENCE = "inference:\n  corrections:\n    - method: cluster\n"
 
 
 def _error(tmp_path, text):
@@ -37,27 +37,39 @@ def _error(tmp_path, text):
     return str(caught.value)
 
 
-@pytest.mark.parametrize(("section", "expected"), [
-    ("timefreq:\n  cycles: 5\n", "study.yaml:16 timefreq: renamed; write 'decomposition' instead of 'timefreq'"),
-    ("decomposition:\n  method: multitaper\n  time_bandwidth: 2\n",
-     "study.yaml:18 decomposition.time_bandwidth: renamed; write 'nw' instead of 'time_bandwidth'"),
-    ("decomposition:\n  method: multitaper\n  window_ms: 400\n",
-     "study.yaml:18 decomposition.window_ms: renamed; write 'taper_length_ms' instead of 'window_ms'"),
-    ("decomposition:\n  freqs_hz: {count: 3}\n", "study.yaml:17 decomposition.freqs_hz: renamed; write 'frequencies'"),
-    ("decomposition:\n  frequencies: {start_hz: 3}\n", "study.yaml:17 decomposition.frequencies.start_hz: renamed; write 'lowest_hz'"),
-    ("decomposition:\n  baseline:\n    single_trial: true\n", "study.yaml:18 decomposition.baseline.single_trial: renamed; write 'single_epoch'"),
-    ("channels:\n  positions: standard-10-20\n", "study.yaml:17 channels.positions: 'standard-10-20' is now written '10-20'"),
-])
-def test_old_key_names_the_new_one(tmp_path, section, expected):
-    text = BASE.replace("      min_neighbor_channels: 2\n", "") + section
-    assert _error(tmp_path, text).startswith(expected)
+def _nested(path: tuple) -> tuple[str, str]:
+    """YAML giving the key at ``path`` (list items as one-item lists) and its dotted location."""
+    lines, dotted, indent = [], "", ""
+    for depth, part in enumerate(path):
+        if part == "*":
+            dotted += "[0]"
+            continue
+        last = depth == len(path) - 1
+        item = depth > 0 and path[depth - 1] == "*"
+        lines.append(f"{indent}{'- method: cluster' + chr(10) + indent + '  ' if item else ''}{part}:{' 1' if last else ''}")
+        indent += "    " if item else "  "
+        dotted += ("." if dotted else "") + part
+    return "\n".join(lines) + "\n", dotted
 
 
-def test_old_key_in_a_list_item_and_old_source_value(tmp_path):
-    assert _error(tmp_path, BASE) == ("study.yaml:16 inference.corrections[0].min_neighbor_channels: renamed; "
-                                      "write 'min_supra_neighbors' instead of 'min_neighbor_channels'")
-    old_source = BASE.replace("source: epochs", "source: timefreq").replace("      min_neighbor_channels: 2\n", "")
-    assert _error(tmp_path, old_source) == "study.yaml:4 subjects.source: 'timefreq' is now written 'maps'"
+@pytest.mark.parametrize(("old", "new"), RENAMED_KEYS.items(), ids=[".".join(p) for p in RENAMED_KEYS])
+def test_every_old_key_names_its_new_key_and_line(tmp_path, old, new):
+    snippet, dotted = _nested(old)
+    text = BASE + ("" if old[0] == "inference" else INFERENCE) + snippet
+    line = text.count("\n") - snippet.count("\n") + snippet.split(f"{old[-1]}:")[0].count("\n") + 1
+    assert _error(tmp_path, text) == f"study.yaml:{line} {dotted}: renamed; write '{new}' instead of '{old[-1]}'"
+
+
+@pytest.mark.parametrize("key", RENAMED_VALUES)
+def test_every_old_value_names_its_new_value(tmp_path, key):
+    for old, new in RENAMED_VALUES[key].items():
+        text = BASE + INFERENCE
+        if key == ("subjects", "source"):
+            text = text.replace("source: epochs", f"source: {old}")
+        else:
+            text += f"{key[0]}:\n  {key[1]}: {old}\n"
+        line = text.splitlines().index(next(l for l in text.splitlines() if l.strip() == f"{key[1]}: {old}")) + 1
+        assert _error(tmp_path, text) == f"study.yaml:{line} {'.'.join(key)}: '{old}' is now written '{new}'"
 
 
 def test_every_new_key_exists_in_the_models():
@@ -69,9 +81,8 @@ def test_every_new_key_exists_in_the_models():
 
 
 def test_check_exits_2_with_one_line(tmp_path):
-    (tmp_path / "study.yaml").write_text(BASE)
+    (tmp_path / "study.yaml").write_text(BASE + INFERENCE + "timefreq:\n  cycles: 5\n")
     result = subprocess.run([sys.executable, "-m", "famwise.cli", "check", str(tmp_path / "study.yaml")],
                             capture_output=True, text=True)
     assert result.returncode == 2 and result.stderr.strip().splitlines() == [
-        "famwise: error: study.yaml:16 inference.corrections[0].min_neighbor_channels: renamed; "
-        "write 'min_supra_neighbors' instead of 'min_neighbor_channels'"]
+        "famwise: error: study.yaml:16 timefreq: renamed; write 'decomposition' instead of 'timefreq'"]
