@@ -337,10 +337,11 @@ def test_cluster_table_shows_significant_and_the_largest_other_clusters(tmp_path
 def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
     study = write_output(tmp_path, statistic="yuen")
     study["decomposition"] |= {"method": "multitaper", "taper_length_ms": 400.0, "nw": 3.0,
-                          "cycles": None, "average": "trimmed"}
+                               "cycles": None, "average": "trimmed"}
     text = methods_text(study, tmp_path)
     assert "DPSS) tapers (Thomson 1982) at 8 frequencies from 4 to 30 Hz (log spacing)" in text
-    assert "over a 400 ms window with a time-bandwidth product of 3" in text
+    assert "with tapers 400 ms long and a time-half-bandwidth product NW of 3 (5 tapers; Percival & Walden 1993)" in text
+    assert "Percival DB, Walden AT (1993)" in text
     assert "trimmed mean (trim 0.2 per end)" in text
     assert "Yuen's trimmed t test (trim 0.2) (Yuen 1974)" in text
     assert "Yuen KK (1974)" in text and "Thomson DJ (1982)" in text

@@ -114,8 +114,8 @@ def decompose(
         Morlet temporal FWHM in ms instead of cycles (Cohen 2019); a pair is
         interpolated like ``cycles``. Give exactly one of the two.
     taper_length_ms, nw : float, optional
-        Multitaper window length in ms (made odd in samples) and time-bandwidth
-        product NW >= 1; K = 2 NW - 1 DPSS tapers.
+        Multitaper taper length in ms (made odd in samples) and
+        time-half-bandwidth product NW >= 1; K = 2 NW - 1 DPSS tapers.
     measure : {"power", "induced", "itpc"}
         Total power; induced power (each condition's average coefficient, i.e.
         its evoked response, removed from every epoch first); inter-trial

@@ -1,6 +1,6 @@
 """Multitaper kernels from discrete prolate spheroidal sequences (DPSS).
 
-A window of T seconds with time-bandwidth product NW has half-bandwidth
+A taper of T seconds with time-half-bandwidth product NW has half-bandwidth
 W = NW / T Hz (frequency resolution 2W) and K = 2 NW - 1 well-concentrated
 tapers. Power is the one-sided power spectral density averaged over tapers,
 in V^2/Hz.
@@ -37,7 +37,7 @@ def dpss_tapers(n_samples: int, nw: float) -> tuple[np.ndarray, np.ndarray]:
     n_samples : int
         Window length in samples.
     nw : float
-        Time-bandwidth product NW.
+        Time-half-bandwidth product NW (Percival & Walden 1993).
 
     Returns
     -------

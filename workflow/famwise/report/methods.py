@@ -37,6 +37,8 @@ REFERENCES = {
               "Bull Am Meteorol Soc 79(1):61-78.",
     "multitaper": "Thomson DJ (1982). Spectrum estimation and harmonic analysis. "
                   "Proc IEEE 70(9):1055-1096.",
+    "nw": "Percival DB, Walden AT (1993). Spectral Analysis for Physical Applications. "
+          "Cambridge University Press.",
     "clusterwarn": "Sassenhagen J, Draschkow D (2019). Cluster-based permutation tests of MEG/EEG "
                    "data do not establish significance of effect latency or location. "
                    "Psychophysiology 56(6):e13335.",
@@ -177,9 +179,10 @@ def _decomposition(study: dict) -> str:
         text = (f"{measure} was estimated with multitaper analysis using discrete "
                 f"prolate spheroidal (DPSS) tapers (Thomson 1982) {grid}")
         if tf.get("taper_length_ms") is not None:
-            text += f", over a {fmt(tf['taper_length_ms'])} ms window"
+            text += f", with tapers {fmt(tf['taper_length_ms'])} ms long"
         if tf.get("nw") is not None:
-            text += f" with a time-bandwidth product of {fmt(tf['nw'])}"
+            text += (f" and a time-half-bandwidth product NW of {fmt(tf['nw'])} "
+                     f"({fmt(2 * float(tf['nw']) - 1)} tapers; Percival & Walden 1993)")
     else:
         text = f"{measure} was estimated by convolution with complex Morlet wavelets {grid}"
         if tf.get("fwhm_ms") is not None:
@@ -317,7 +320,7 @@ def kinds_used(run: Run) -> list[str]:
     used = []
     method = str((study.get("decomposition") or {}).get("method", "morlet")).lower()
     if method == "multitaper":
-        used.append("multitaper")
+        used += ["multitaper", "nw"]
     used.append("edges")
     if any(c.statistic == "yuen" for c in run.contrasts):
         used.append("yuen")
