@@ -55,8 +55,27 @@ REPO = Path(__file__).resolve().parents[1]
 OUT_DIRS = (REPO / "configs" / "positions", REPO / "workflow" / "famwise" / "data" / "positions")
 
 TEN_TWENTY = (
-    "Fp1", "Fpz", "Fp2", "F7", "F3", "Fz", "F4", "F8", "T7", "C3", "Cz", "C4",
-    "T8", "P7", "P3", "Pz", "P4", "P8", "O1", "Oz", "O2",
+    "Fp1",
+    "Fpz",
+    "Fp2",
+    "F7",
+    "F3",
+    "Fz",
+    "F4",
+    "F8",
+    "T7",
+    "C3",
+    "Cz",
+    "C4",
+    "T8",
+    "P7",
+    "P3",
+    "Pz",
+    "P4",
+    "P8",
+    "O1",
+    "Oz",
+    "O2",
 )
 
 
@@ -87,18 +106,24 @@ def _arc_points(left, middle, right, fractions):
 def _mirror(name):
     """Name of the right-hemisphere homologue of a left (odd) name."""
     stem = name.rstrip("0123456789")
-    return f"{stem}{int(name[len(stem):]) + 1}"
+    return f"{stem}{int(name[len(stem) :]) + 1}"
 
 
 def ten_ten_positions():
     """Unit vectors of the 10-10 positions, row by row front to back, left to right."""
     left = {}
     midline = {
-        "Nz": _unit(5 * STEP_DEG, 90), "Fpz": _unit(4 * STEP_DEG, 90),
-        "AFz": _unit(3 * STEP_DEG, 90), "Fz": _unit(2 * STEP_DEG, 90),
-        "FCz": _unit(STEP_DEG, 90), "Cz": _unit(0, 0), "CPz": _unit(STEP_DEG, 270),
-        "Pz": _unit(2 * STEP_DEG, 270), "POz": _unit(3 * STEP_DEG, 270),
-        "Oz": _unit(4 * STEP_DEG, 270), "Iz": _unit(5 * STEP_DEG, 270),
+        "Nz": _unit(5 * STEP_DEG, 90),
+        "Fpz": _unit(4 * STEP_DEG, 90),
+        "AFz": _unit(3 * STEP_DEG, 90),
+        "Fz": _unit(2 * STEP_DEG, 90),
+        "FCz": _unit(STEP_DEG, 90),
+        "Cz": _unit(0, 0),
+        "CPz": _unit(STEP_DEG, 270),
+        "Pz": _unit(2 * STEP_DEG, 270),
+        "POz": _unit(3 * STEP_DEG, 270),
+        "Oz": _unit(4 * STEP_DEG, 270),
+        "Iz": _unit(5 * STEP_DEG, 270),
     }
     equator = ("Fp1", "AF7", "F7", "FT7", "T7", "TP7", "P7", "PO7", "O1")
     for k, name in enumerate(equator, start=1):
@@ -126,13 +151,27 @@ def ten_ten_positions():
     return dict(sorted(positions.items(), key=lambda kv: (_ROW_ORDER[_row(kv[0])], _lateral(kv[0]))))
 
 
-_ROW_ORDER = {"Nz": 0, "Fp": 1, "AF": 2, "F": 3, "FT": 4, "FC": 4, "T": 5, "C": 5,
-              "TP": 6, "CP": 6, "P": 7, "PO": 7.5, "O": 8, "Iz": 9}
+_ROW_ORDER = {
+    "Nz": 0,
+    "Fp": 1,
+    "AF": 2,
+    "F": 3,
+    "FT": 4,
+    "FC": 4,
+    "T": 5,
+    "C": 5,
+    "TP": 6,
+    "CP": 6,
+    "P": 7,
+    "PO": 7.5,
+    "O": 8,
+    "Iz": 9,
+}
 
 
 def _lateral(name):
     """Left-to-right rank: odd numbers descending, midline, even numbers ascending."""
-    digits = name[len(name.rstrip("0123456789")):]
+    digits = name[len(name.rstrip("0123456789")) :]
     if not digits:
         return 0
     return -int(digits) if int(digits) % 2 else int(digits)

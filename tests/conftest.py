@@ -39,8 +39,15 @@ def ring(n_ch: int) -> dict:
 TINY_CHANNELS = ["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "Oz"]
 
 
-def write_tiny_subject(path: Path, rng: np.random.Generator, *, effect: float = 2.0, n_per_condition: int = 12,
-                       sample_rate_hz: float = 100.0, channels=TINY_CHANNELS) -> None:
+def write_tiny_subject(
+    path: Path,
+    rng: np.random.Generator,
+    *,
+    effect: float = 2.0,
+    n_per_condition: int = 12,
+    sample_rate_hz: float = 100.0,
+    channels=TINY_CHANNELS,
+) -> None:
     """One subject's epochs: noise plus a 7 Hz burst on Fz/FC1/FC2, stronger in condition 'high'. Invented data."""
     times = np.arange(-0.6, 1.0, 1 / sample_rate_hz)
     labels = ["high"] * n_per_condition + ["low"] * n_per_condition
@@ -52,7 +59,14 @@ def write_tiny_subject(path: Path, rng: np.random.Generator, *, effect: float = 
         for name in ("Fz", "FC1", "FC2"):
             if name in channels:
                 data[epoch, list(channels).index(name)] += burst
-    famwise.io.save_epochs(path, data, sample_rate_hz=sample_rate_hz, epoch_start_s=float(times[0]), channels=list(channels), event_labels=labels)
+    famwise.io.save_epochs(
+        path,
+        data,
+        sample_rate_hz=sample_rate_hz,
+        epoch_start_s=float(times[0]),
+        channels=list(channels),
+        event_labels=labels,
+    )
 
 
 TINY_SPEC = """\
@@ -93,14 +107,18 @@ DEFAULT_CORRECTIONS = """\
 """
 
 
-def write_tiny_study(folder: Path, *, n_subjects: int = 6, permutations: int = 63, corrections: str = DEFAULT_CORRECTIONS, seed: int = 0) -> Path:
+def write_tiny_study(
+    folder: Path, *, n_subjects: int = 6, permutations: int = 63, corrections: str = DEFAULT_CORRECTIONS, seed: int = 0
+) -> Path:
     """A tiny epochs study (8 channels, 3 frequencies) and its spec; returns the spec path."""
     rng = np.random.default_rng(seed)
     (folder / "data").mkdir(parents=True, exist_ok=True)
     for number in range(1, n_subjects + 1):
         write_tiny_subject(folder / "data" / f"sub-{number:02d}.npz", rng)
     spec = folder / "study.yaml"
-    spec.write_text(TINY_SPEC.format(permutations=permutations, corrections=textwrap.indent(textwrap.dedent(corrections), "    ")))
+    spec.write_text(
+        TINY_SPEC.format(permutations=permutations, corrections=textwrap.indent(textwrap.dedent(corrections), "    "))
+    )
     return spec
 
 

@@ -14,54 +14,105 @@ from pathlib import Path
 import numpy as np
 from scipy import stats
 
+from famwise.decomposition.maps import TimeFreqMaps
 from famwise.design import ContrastData
 from famwise.electrodes import match_channels, neighbor_graph, save_graph, system_positions
 from famwise.planned_values import run_planned
 from famwise.settings import SubjectValuesSettings
 from famwise.settings_codec import from_plain
 from famwise.subject_values import run as run_subject_values
-from famwise.decomposition.maps import TimeFreqMaps
 
-CHANNELS = ["Fp1", "Fp2", "F7", "F3", "Fz", "F4", "F8", "T7", "C3", "Cz", "C4", "T8",
-            "P7", "P3", "Pz", "P4", "P8", "O1", "Oz", "O2"]
+CHANNELS = [
+    "Fp1",
+    "Fp2",
+    "F7",
+    "F3",
+    "Fz",
+    "F4",
+    "F8",
+    "T7",
+    "C3",
+    "Cz",
+    "C4",
+    "T8",
+    "P7",
+    "P3",
+    "Pz",
+    "P4",
+    "P8",
+    "O1",
+    "Oz",
+    "O2",
+]
 CONDITIONS = ["attend", "ignore"]
 CORRECTIONS = [
     {"name": "holm", "method": "holm", "level": None, "pvalues": "parametric"},
     {"name": "fdr", "method": "fdr-bh", "level": 0.05, "pvalues": "parametric"},
     {"name": None, "method": "max-stat", "step_down": True},
-    {"name": "clusters", "method": "cluster", "forming_p": 0.01, "forming_stat": None,
-     "cluster_stat": "mass", "dims": ["channel", "freq", "time"], "min_supra_neighbors": 0},
-    {"name": "tfce", "method": "tfce", "E": 0.5, "H": 2.0, "step": None,
-     "dims": ["channel", "freq", "time"]},
+    {
+        "name": "clusters",
+        "method": "cluster",
+        "forming_p": 0.01,
+        "forming_stat": None,
+        "cluster_stat": "mass",
+        "dims": ["channel", "freq", "time"],
+        "min_supra_neighbors": 0,
+    },
+    {"name": "tfce", "method": "tfce", "E": 0.5, "H": 2.0, "step": None, "dims": ["channel", "freq", "time"]},
 ]
 
 
 def study_dict(*, alpha: float = 0.05, permutations: int = 999, statistic: str = "t") -> dict:
     """The spec as ``model_dump(mode="json")`` would give it."""
     return {
-        "version": 1, "name": "attention alpha", "output": "results", "seed": 7,
-        "subjects": {"source": "bids", "path": "data", "task": None, "ids": None, "groups": None,
-                     "covariates": None, "exclude": {"11": "left the session early"},
-                     "min_epochs": 10},
+        "version": 1,
+        "name": "attention alpha",
+        "output": "results",
+        "seed": 7,
+        "subjects": {
+            "source": "bids",
+            "path": "data",
+            "task": None,
+            "ids": None,
+            "groups": None,
+            "covariates": None,
+            "exclude": {"11": "left the session early"},
+            "min_epochs": 10,
+        },
         "conditions": {"attend": ["att"], "ignore": ["ign"]},
-        "epochs": {"window_ms": [-500.0, 1000.0], "reject_peak_to_peak_uv": 150.0,
-                   "reference": "average"},
-        "decomposition": {"method": "morlet",
-                     "frequencies": {"lowest_hz": 4.0, "highest_hz": 30.0, "count": 8, "spacing": "log"},
-                     "cycles": [3.0, 7.0], "fwhm_ms": None, "window_ms": None,
-                     "nw": None, "measure": "power", "time_step_ms": 20.0,
-                     "average": "mean", "trim": 0.2,
-                     "baseline": {"mode": "db", "window_ms": [-400.0, -100.0], "pooled": False,
-                                  "single_epoch": False}},
+        "epochs": {"window_ms": [-500.0, 1000.0], "reject_peak_to_peak_uv": 150.0, "reference": "average"},
+        "decomposition": {
+            "method": "morlet",
+            "frequencies": {"lowest_hz": 4.0, "highest_hz": 30.0, "count": 8, "spacing": "log"},
+            "cycles": [3.0, 7.0],
+            "fwhm_ms": None,
+            "window_ms": None,
+            "nw": None,
+            "measure": "power",
+            "time_step_ms": 20.0,
+            "average": "mean",
+            "trim": 0.2,
+            "baseline": {"mode": "db", "window_ms": [-400.0, -100.0], "pooled": False, "single_epoch": False},
+        },
         "analysis": {"time_ms": [-200.0, 600.0], "freq_hz": None, "channels": None},
-        "channels": {"positions": "10-10",
-                     "neighbors": {"method": "distance", "max_distance_mm": 75.0,
-                                   "edges_file": None}},
-        "contrasts": [{"name": "attention", "test": "paired", "conditions": CONDITIONS,
-                       "groups": None, "covariate": None}],
-        "inference": {"alpha": alpha, "tail": "two-sided", "statistic": statistic, "trim": 0.2,
-                      "equal_var": True, "permutations": permutations, "shards": 2,
-                      "family": "per-contrast", "corrections": CORRECTIONS},
+        "channels": {
+            "positions": "10-10",
+            "neighbors": {"method": "distance", "max_distance_mm": 75.0, "edges_file": None},
+        },
+        "contrasts": [
+            {"name": "attention", "test": "paired", "conditions": CONDITIONS, "groups": None, "covariate": None}
+        ],
+        "inference": {
+            "alpha": alpha,
+            "tail": "two-sided",
+            "statistic": statistic,
+            "trim": 0.2,
+            "equal_var": True,
+            "permutations": permutations,
+            "shards": 2,
+            "family": "per-contrast",
+            "corrections": CORRECTIONS,
+        },
     }
 
 
@@ -72,8 +123,11 @@ def _save(path: Path, **arrays) -> None:
 
 def _subjects(folder: Path, n_included: int) -> None:
     rng = np.random.default_rng(3)
-    columns = ["subject", "status", "reason", "group"] + [f"n_{c}" for c in CONDITIONS] \
+    columns = (
+        ["subject", "status", "reason", "group"]
+        + [f"n_{c}" for c in CONDITIONS]
         + [f"rejected_{c}" for c in CONDITIONS]
+    )
     rows = []
     for i in range(n_included):
         kept = rng.integers(38, 60, size=2)
@@ -85,22 +139,37 @@ def _subjects(folder: Path, n_included: int) -> None:
         writer.writerows(rows)
 
 
-def _cluster_row(ident: int, points: np.ndarray, stat: np.ndarray, p: float, channels, freqs,
-                 times_ms) -> dict:
+def _cluster_row(ident: int, points: np.ndarray, stat: np.ndarray, p: float, channels, freqs, times_ms) -> dict:
     c, f, t = np.nonzero(points)
     strength = np.where(points, np.abs(stat), -np.inf)
     pc, pf, pt = np.unravel_index(np.argmax(strength), stat.shape)
-    return {"id": ident, "sign": "+" if stat[pc, pf, pt] > 0 else "-",
-            "statistic": float(np.abs(stat[points]).sum()), "p": p, "n_points": int(points.sum()),
-            "channels": ",".join(channels[i] for i in sorted(set(c))),
-            "time_start_ms": float(times_ms[t.min()]), "time_end_ms": float(times_ms[t.max()]),
-            "freq_low_hz": float(freqs[f.min()]), "freq_high_hz": float(freqs[f.max()]),
-            "peak_stat": float(stat[pc, pf, pt]), "peak_channel": channels[pc],
-            "peak_freq_hz": float(freqs[pf]), "peak_time_ms": float(times_ms[pt])}
+    return {
+        "id": ident,
+        "sign": "+" if stat[pc, pf, pt] > 0 else "-",
+        "statistic": float(np.abs(stat[points]).sum()),
+        "p": p,
+        "n_points": int(points.sum()),
+        "channels": ",".join(channels[i] for i in sorted(set(c))),
+        "time_start_ms": float(times_ms[t.min()]),
+        "time_end_ms": float(times_ms[t.max()]),
+        "freq_low_hz": float(freqs[f.min()]),
+        "freq_high_hz": float(freqs[f.max()]),
+        "peak_stat": float(stat[pc, pf, pt]),
+        "peak_channel": channels[pc],
+        "peak_freq_hz": float(freqs[pf]),
+        "peak_time_ms": float(times_ms[pt]),
+    }
 
 
-def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
-                 permutations: int = 999, alpha: float = 0.05, statistic: str = "t") -> dict:
+def write_output(
+    folder: Path,
+    *,
+    n_included: int = 10,
+    exact: bool = False,
+    permutations: int = 999,
+    alpha: float = 0.05,
+    statistic: str = "t",
+) -> dict:
     """Write a run output folder; returns the study dict.
 
     Parameters
@@ -124,8 +193,9 @@ def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
     (folder / "study.json").write_text(json.dumps(study, indent=2))
     _subjects(folder, n_included)
     positions = match_channels(system_positions("10-10"), CHANNELS)
-    save_graph(folder / "channels" / "graph.npz",
-               neighbor_graph(positions, method="distance", max_distance_mm=75.0), positions)
+    save_graph(
+        folder / "channels" / "graph.npz", neighbor_graph(positions, method="distance", max_distance_mm=75.0), positions
+    )
 
     rng = np.random.default_rng(11)
     freqs = np.geomspace(4.0, 30.0, 8)
@@ -138,19 +208,40 @@ def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
     window = np.exp(-0.5 * ((times - 0.35) / 0.09) ** 2)
     stat += 7.0 * parietal[:, None, None] * alpha_band[None, :, None] * window[None, None, :]
     frontal = np.array([c in {"Fp1", "Fp2", "Fz"} for c in CHANNELS])
-    stat -= 3.5 * frontal[:, None, None] * (freqs > 18)[None, :, None] \
+    stat -= (
+        3.5
+        * frontal[:, None, None]
+        * (freqs > 18)[None, :, None]
         * np.exp(-0.5 * ((times - 0.1) / 0.05) ** 2)[None, None, :]
+    )
     n = n_included
     p = 2 * stats.t.sf(np.abs(stat), n - 1)
     effect = 0.45 * stat
     contrast = folder / "contrasts" / "attention"
-    _save(contrast / "observed.npz", stat=stat, p=p, df=np.array(float(n - 1)), effect=effect,
-          effect_size=stat / np.sqrt(n), channels=np.array(CHANNELS), freqs=freqs, times=times,
-          test=np.str_("paired"), statistic=np.str_(statistic), n=np.array(n), tail=np.str_("two-sided"))
-    n_rows = 2 ** n if exact else permutations + 1
+    _save(
+        contrast / "observed.npz",
+        stat=stat,
+        p=p,
+        df=np.array(float(n - 1)),
+        effect=effect,
+        effect_size=stat / np.sqrt(n),
+        channels=np.array(CHANNELS),
+        freqs=freqs,
+        times=times,
+        test=np.str_("paired"),
+        statistic=np.str_(statistic),
+        n=np.array(n),
+        tail=np.str_("two-sided"),
+    )
+    n_rows = 2**n if exact else permutations + 1
     smallest = 2 / n_rows if exact else 1 / (permutations + 1)
-    info = {"n_rows": n_rows, "exact": exact, "scheme": "sign-flip", "permutations": permutations,
-            "smallest_p": smallest}
+    info = {
+        "n_rows": n_rows,
+        "exact": exact,
+        "scheme": "sign-flip",
+        "permutations": permutations,
+        "smallest_p": smallest,
+    }
     (contrast / "nulls").mkdir(parents=True, exist_ok=True)
     (contrast / "nulls" / "info.json").write_text(json.dumps(info))
 
@@ -158,22 +249,40 @@ def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
     for entry, cut in zip(CORRECTIONS, [4.6, 3.6, 4.1, 2.9, 3.2]):
         name = entry["name"] or entry["method"]
         mask = np.abs(stat) > cut
-        arrays = {"p_corrected": np.where(mask, 0.01, 0.6), "mask": mask,
-                  "threshold": np.array(np.nan), "threshold_kind": np.str_("p"),
-                  "method": np.str_(entry["method"]),
-                  "settings": np.str_(json.dumps({"correction": entry | {"label": name},
-                                                  "alpha": alpha, "tail": "two-sided",
-                                                  "result": {"alpha": alpha}})),
-                  "n_significant": np.array(int(mask.sum()))}
+        arrays = {
+            "p_corrected": np.where(mask, 0.01, 0.6),
+            "mask": mask,
+            "threshold": np.array(np.nan),
+            "threshold_kind": np.str_("p"),
+            "method": np.str_(entry["method"]),
+            "settings": np.str_(
+                json.dumps(
+                    {
+                        "correction": entry | {"label": name},
+                        "alpha": alpha,
+                        "tail": "two-sided",
+                        "result": {"alpha": alpha},
+                    }
+                )
+            ),
+            "n_significant": np.array(int(mask.sum())),
+        }
         if entry["method"] in {"holm", "fdr-bh"}:
             arrays["threshold"] = np.array(float(p[mask].max()))
         if entry["method"] == "max-stat":
-            arrays |= {"null": np.abs(null_rng.normal(size=n_rows)) + 2.6,
-                       "threshold": np.array(cut), "threshold_kind": np.str_("stat")}
+            arrays |= {
+                "null": np.abs(null_rng.normal(size=n_rows)) + 2.6,
+                "threshold": np.array(cut),
+                "threshold_kind": np.str_("stat"),
+            }
         if entry["method"] == "tfce":
             tfce = np.sign(stat) * np.abs(stat) ** 2.5
-            arrays |= {"null": null_rng.gamma(4.0, 6.0, size=n_rows), "tfce": tfce,
-                       "threshold": np.array(cut ** 2.5), "threshold_kind": np.str_("tfce")}
+            arrays |= {
+                "null": null_rng.gamma(4.0, 6.0, size=n_rows),
+                "tfce": tfce,
+                "threshold": np.array(cut**2.5),
+                "threshold_kind": np.str_("tfce"),
+            }
         if entry["method"] == "cluster":
             positive = (stat > cut) & parietal[:, None, None]
             negative = (stat < -cut) & frontal[:, None, None]
@@ -182,15 +291,18 @@ def write_output(folder: Path, *, n_included: int = 10, exact: bool = False,
             if negative.any():
                 rows.append(_cluster_row(2, negative, stat, 0.31, CHANNELS, freqs, times_ms))
             mask = positive
-            arrays |= {"mask": mask, "n_significant": np.array(int(mask.sum())),
-                       "cluster_id": cluster_id.astype(np.int32),
-                       "p_corrected": np.where(positive, 0.004, np.where(negative, 0.31, 1.0)),
-                       "null": null_rng.gamma(3.0, 12.0, size=n_rows),
-                       "threshold": np.array(150.0), "threshold_kind": np.str_("cluster")}
+            arrays |= {
+                "mask": mask,
+                "n_significant": np.array(int(mask.sum())),
+                "cluster_id": cluster_id.astype(np.int32),
+                "p_corrected": np.where(positive, 0.004, np.where(negative, 0.31, 1.0)),
+                "null": null_rng.gamma(3.0, 12.0, size=n_rows),
+                "threshold": np.array(150.0),
+                "threshold_kind": np.str_("cluster"),
+            }
             (contrast / name).mkdir(parents=True, exist_ok=True)
             with open(contrast / name / "clusters.tsv", "w", newline="") as handle:
-                writer = csv.DictWriter(handle, fieldnames=list(rows[0]), delimiter="\t",
-                                        lineterminator="\n")
+                writer = csv.DictWriter(handle, fieldnames=list(rows[0]), delimiter="\t", lineterminator="\n")
                 writer.writeheader()
                 writer.writerows(rows)
             sidecar = {k: {"Description": f"column {k}"} for k in rows[0]}
@@ -211,17 +323,39 @@ def _subject_values(folder: Path, contrast: Path, n: int, freqs: np.ndarray, tim
         values[0] += 0.3
         files.append(folder / "tf" / f"sub-{subject}.npz")
         files[-1].parent.mkdir(parents=True, exist_ok=True)
-        TimeFreqMaps(values=values, conditions=tuple(CONDITIONS), channels=tuple(CHANNELS), freqs=freqs,
-                     times=times, measure="power", baseline="dB change from -400 to -100 ms",
-                     n_epochs=np.array([40, 40]), valid=np.ones((len(freqs), len(times)), bool)).save(files[-1])
+        TimeFreqMaps(
+            values=values,
+            conditions=tuple(CONDITIONS),
+            channels=tuple(CHANNELS),
+            freqs=freqs,
+            times=times,
+            measure="power",
+            baseline="dB change from -400 to -100 ms",
+            n_epochs=np.array([40, 40]),
+            valid=np.ones((len(freqs), len(times)), bool),
+        ).save(files[-1])
     stacked = np.stack([np.load(f)["values"] for f in files])
-    data = ContrastData(x=(stacked[:, 0] - stacked[:, 1]).reshape(n, -1), test="paired", subjects=subjects,
-                        channels=tuple(CHANNELS), freqs=freqs, times=times)
+    data = ContrastData(
+        x=(stacked[:, 0] - stacked[:, 1]).reshape(n, -1),
+        test="paired",
+        subjects=subjects,
+        channels=tuple(CHANNELS),
+        freqs=freqs,
+        times=times,
+    )
     data.save(contrast / "subjects.npz")
-    regions = [{"name": "parietal-alpha", "channels": ["P3", "Pz", "P4"], "freq_hz": [8.0, 13.0],
-                "time_ms": [200.0, 500.0]}]
-    settings = from_plain(SubjectValuesSettings, {"test": "paired", "conditions": CONDITIONS, "group_names": None,
-                                                  "covariate_name": None, "regions": regions})
-    run_subject_values(settings, contrast / "subjects.npz", contrast / "clusters" / "result.npz", files,
-                       contrast / "clusters" / "subject_values.tsv")
+    regions = [
+        {"name": "parietal-alpha", "channels": ["P3", "Pz", "P4"], "freq_hz": [8.0, 13.0], "time_ms": [200.0, 500.0]}
+    ]
+    settings = from_plain(
+        SubjectValuesSettings,
+        {"test": "paired", "conditions": CONDITIONS, "group_names": None, "covariate_name": None, "regions": regions},
+    )
+    run_subject_values(
+        settings,
+        contrast / "subjects.npz",
+        contrast / "clusters" / "result.npz",
+        files,
+        contrast / "clusters" / "subject_values.tsv",
+    )
     run_planned(settings, contrast / "subjects.npz", files, contrast / "planned_values.tsv")

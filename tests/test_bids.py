@@ -30,14 +30,14 @@ def _events(counts):
 def _write(root, subject="01", data=None, events=None, **options):
     data = _recording() if data is None else data
     events = _events({"face": 8, "house": 6, "catch": 3}) if events is None else events
-    bids.write_subject(root, subject, data=data, sample_rate_hz=FS, channels=CHANNELS, events=events,
-                       task="view", **options)
+    bids.write_subject(
+        root, subject, data=data, sample_rate_hz=FS, channels=CHANNELS, events=events, task="view", **options
+    )
     return data, events
 
 
 def _read(root, subject="01", **options):
-    settings = dict(task="view", window_ms=(-200.0, 600.0), reject_peak_to_peak_uv=None,
-                    reference="none")
+    settings = dict(task="view", window_ms=(-200.0, 600.0), reject_peak_to_peak_uv=None, reference="none")
     settings.update(options)
     return bids.read_subject(root, subject, **settings)
 
@@ -56,8 +56,7 @@ def test_round_trip_samples_and_events(tmp_path, fmt, bits):
     step = (data.max(axis=1) - data.min(axis=1)) / (2**bits - 1)
     for ch, signal in enumerate(stored.signals):
         assert signal.label == CHANNELS[ch] and signal.physical_dimension == "uV"
-        np.testing.assert_allclose(signal.data[: data.shape[1]] * 1e-6, data[ch],
-                                   atol=step[ch] * 0.51 + 1e-12)
+        np.testing.assert_allclose(signal.data[: data.shape[1]] * 1e-6, data[ch], atol=step[ch] * 0.51 + 1e-12)
     epochs = _read(tmp_path)
     assert epochs.sample_rate_hz == FS and epochs.epoch_start_s == pytest.approx(-0.2)
     assert epochs.channels == tuple(CHANNELS)
@@ -65,7 +64,7 @@ def test_round_trip_samples_and_events(tmp_path, fmt, bits):
     assert epochs.labels.tolist() == [label for _, _, label in events]
     for k, (onset, _, _) in enumerate(events):
         first = int(round(onset * FS)) - 50
-        segment = data[:, first: first + 201]
+        segment = data[:, first : first + 201]
         segment = segment - segment.mean(axis=1, keepdims=True)  # epochs are demeaned
         np.testing.assert_allclose(epochs.data[k], segment, atol=float(step.max()) + 1e-12)
     assert epochs.rejected == {"catch": 0, "face": 0, "house": 0}
@@ -74,8 +73,10 @@ def test_round_trip_samples_and_events(tmp_path, fmt, bits):
 def test_folder_gives_epoch_counts_per_condition(tmp_path):
     _write(tmp_path, "01", events=_events({"face": 8, "house": 6, "catch": 3}))
     _write(tmp_path, "02", data=_recording(2), events=_events({"face": 5, "house": 9}))
-    bids.write_participants(tmp_path, [{"participant_id": "01", "group": "young", "age": "23"},
-                                       {"participant_id": "sub-02", "group": "old"}])
+    bids.write_participants(
+        tmp_path,
+        [{"participant_id": "01", "group": "young", "age": "23"}, {"participant_id": "sub-02", "group": "old"}],
+    )
     assert bids.discover_subjects(tmp_path) == ["01", "02"]
     counts = {}
     for subject in bids.discover_subjects(tmp_path):
@@ -83,8 +84,10 @@ def test_folder_gives_epoch_counts_per_condition(tmp_path):
         labels, n = np.unique(epochs.labels, return_counts=True)
         counts[subject] = dict(zip(labels.tolist(), n.tolist()))
     assert counts == {"01": {"face": 8, "house": 6}, "02": {"face": 5, "house": 9}}
-    assert bids.read_participants(tmp_path) == {"01": {"group": "young", "age": "23"},
-                                                "02": {"group": "old", "age": "n/a"}}
+    assert bids.read_participants(tmp_path) == {
+        "01": {"group": "young", "age": "23"},
+        "02": {"group": "old", "age": "n/a"},
+    }
     description = json.loads((tmp_path / "dataset_description.json").read_text())
     assert description["BIDSVersion"] == bids.BIDS_VERSION
 
@@ -105,14 +108,17 @@ def test_average_reference_and_rejection(tmp_path):
     events = _events({"face": 8, "house": 6})
     hit = next(k for k, (_, _, label) in enumerate(events) if label == "house")
     start = int(round(events[hit][0] * FS))
-    data[1, start: start + 20] += 300e-6  # a 300 uV artefact inside one house epoch
+    data[1, start : start + 20] += 300e-6  # a 300 uV artefact inside one house epoch
     _write(tmp_path, data=data, events=events)
     epochs = _read(tmp_path, reference="average", reject_peak_to_peak_uv=150.0)
     assert epochs.rejected == {"face": 0, "house": 1}
     assert epochs.data.shape[0] == 13
     np.testing.assert_allclose(epochs.data.mean(axis=1), 0.0, atol=1e-15)
-    with pytest.raises(UserError, match=r"subject 01: all 14 epochs exceed the peak-to-peak "
-                                        r"limit of 1 µV in .*sub-01_task-view_eeg.edf"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: all 14 epochs exceed the peak-to-peak "
+        r"limit of 1 µV in .*sub-01_task-view_eeg.edf",
+    ):
         _read(tmp_path, reject_peak_to_peak_uv=1.0)
 
 
@@ -126,13 +132,19 @@ def test_electrodes_file(tmp_path):
 
 
 def test_missing_files(tmp_path):
-    with pytest.raises(UserError, match=r"subject 01: no EEG recording \(sub-01_..._eeg.edf, .bdf or "
-                                        r".vhdr\) for task 'view' in"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: no EEG recording \(sub-01_..._eeg.edf, .bdf or "
+        r".vhdr\) for task 'view' in",
+    ):
         _read(tmp_path)
     _write(tmp_path)
     (tmp_path / "sub-01" / "eeg" / "sub-01_task-view_events.tsv").unlink()
-    with pytest.raises(UserError, match=r"subject 01: events file .*sub-01_task-view_events.tsv "
-                                        r"is missing"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: events file .*sub-01_task-view_events.tsv "
+        r"is missing",
+    ):
         _read(tmp_path)
     with pytest.raises(UserError, match=r"BIDS folder .*nowhere does not exist"):
         bids.discover_subjects(tmp_path / "nowhere")
@@ -141,13 +153,19 @@ def test_missing_files(tmp_path):
 
 def test_event_errors(tmp_path):
     _write(tmp_path)
-    with pytest.raises(UserError, match=r"subject 01: events file .* has none of the trial_type "
-                                        r"values \['tree'\]; found \['catch', 'face', 'house'\]"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: events file .* has none of the trial_type "
+        r"values \['tree'\]; found \['catch', 'face', 'house'\]",
+    ):
         _read(tmp_path, labels={"tree"})
     path = tmp_path / "sub-01" / "eeg" / "sub-01_task-view_events.tsv"
     path.write_text(path.read_text().replace("trial_type", "kind"))
-    with pytest.raises(UserError, match=r"subject 01: events file .* has no 'trial_type' column; "
-                                        r"found \['onset', 'duration', 'kind', 'sample'\]"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: events file .* has no 'trial_type' column; "
+        r"found \['onset', 'duration', 'kind', 'sample'\]",
+    ):
         _read(tmp_path)
     path.write_text("onset\tduration\ttrial_type\nsoon\t0\tface\n")
     with pytest.raises(UserError, match=r"line 2: onset 'soon' is not a number"):
@@ -156,8 +174,11 @@ def test_event_errors(tmp_path):
 
 def test_window_beyond_recording(tmp_path):
     _write(tmp_path, events=[(0.1, 0.0, "face"), (5.0, 0.0, "face")])
-    with pytest.raises(UserError, match=r"subject 01: the epoch window -200 to 600 ms around the "
-                                        r"event at onset 0.1 s runs beyond the recording"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: the epoch window -200 to 600 ms around the "
+        r"event at onset 0.1 s runs beyond the recording",
+    ):
         _read(tmp_path)
     with pytest.raises(UserError, match=r"epoch window must run forward, got 600 to -200 ms"):
         _read(tmp_path, window_ms=(600.0, -200.0))
@@ -171,10 +192,13 @@ def test_nan_samples(tmp_path):
     raw = bytearray(path.read_bytes())
     n_signals = 4
     physical_min = 256 + n_signals * (16 + 80 + 8)  # EDF header layout (Kemp et al. 1992)
-    raw[physical_min + 8: physical_min + 16] = b"nan     "  # Cz: calibration gives NaN
+    raw[physical_min + 8 : physical_min + 16] = b"nan     "  # Cz: calibration gives NaN
     path.write_bytes(bytes(raw))
-    with pytest.raises(UserError, match=r"subject 01: channel Cz holds NaN or infinite samples \(first at 0 s, epoch 0 "
-                                        r"\(event at [\d.]+ s\)\) in .*sub-01_task-view_eeg.edf"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: channel Cz holds NaN or infinite samples \(first at 0 s, epoch 0 "
+        r"\(event at [\d.]+ s\)\) in .*sub-01_task-view_eeg.edf",
+    ):
         _read(tmp_path)
 
 
@@ -201,10 +225,14 @@ def test_recording_and_channel_errors(tmp_path):
 
 
 def test_write_errors(tmp_path):
-    with pytest.raises(UserError, match=r"subject 01: data must have shape \(n_channels=4, "
-                                        r"n_samples\), got \(3, 100\)"):
-        bids.write_subject(tmp_path, "01", data=np.zeros((3, 100)), sample_rate_hz=FS, channels=CHANNELS,
-                           events=[], task="view")
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: data must have shape \(n_channels=4, "
+        r"n_samples\), got \(3, 100\)",
+    ):
+        bids.write_subject(
+            tmp_path, "01", data=np.zeros((3, 100)), sample_rate_hz=FS, channels=CHANNELS, events=[], task="view"
+        )
     with pytest.raises(UserError, match=r"format must be one of edf, bdf, brainvision, got 'gdf'"):
         _write(tmp_path, fmt="gdf")
     with pytest.raises(UserError, match=r"every participants row needs a 'participant_id'"):
@@ -217,30 +245,46 @@ def test_more_file_errors(tmp_path):
     (eeg / "sub-01_task-view_channels.tsv").unlink()
     assert _read(tmp_path).channels == tuple(CHANNELS)  # no channels file: every signal kept
     (eeg / "sub-01_task-view_channels.tsv").write_text("label\tkind\nFz\tEEG\n")
-    with pytest.raises(UserError, match=r"subject 01: channels file .* needs 'name' and 'type' "
-                                        r"columns, found \['label', 'kind'\]"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: channels file .* needs 'name' and 'type' "
+        r"columns, found \['label', 'kind'\]",
+    ):
         _read(tmp_path)
     (eeg / "sub-01_task-view_channels.tsv").unlink()
-    signals = [edfio.EdfSignal(np.zeros(2500), 250.0, label="Fz"),
-               edfio.EdfSignal(np.zeros(5000), 500.0, label="Cz")]
+    signals = [edfio.EdfSignal(np.zeros(2500), 250.0, label="Fz"), edfio.EdfSignal(np.zeros(5000), 500.0, label="Cz")]
     edfio.Edf(signals).write(eeg / "sub-01_task-view_eeg.edf")
-    with pytest.raises(UserError, match=r"subject 01: the EEG channels of .* have different "
-                                        r"sampling rates \[250.0, 500.0\] Hz"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: the EEG channels of .* have different "
+        r"sampling rates \[250.0, 500.0\] Hz",
+    ):
         _read(tmp_path)
     (tmp_path / "participants.tsv").write_text("subject\tgroup\n01\ta\n")
-    with pytest.raises(UserError, match=r"participants.tsv must have a 'participant_id' column, "
-                                        r"found \['subject', 'group'\]"):
+    with pytest.raises(
+        UserError,
+        match=r"participants.tsv must have a 'participant_id' column, "
+        r"found \['subject', 'group'\]",
+    ):
         bids.read_participants(tmp_path)
     with pytest.raises(UserError, match=r"subject 02: cannot write .*sub-02_task-view_eeg.edf"):
-        bids.write_subject(tmp_path, "02", data=np.zeros((1, 500)), sample_rate_hz=FS,
-                           channels=["a-very-long-channel-name"], events=[], task="view")
+        bids.write_subject(
+            tmp_path,
+            "02",
+            data=np.zeros((1, 500)),
+            sample_rate_hz=FS,
+            channels=["a-very-long-channel-name"],
+            events=[],
+            task="view",
+        )
 
 
 def test_runs_of_one_task_are_pooled_on_their_common_good_channels(tmp_path):
     # BIDS 1.9 file naming sub-<label>_task-<label>_run-<index>_eeg.<ext> (BIDS-EEG: Pernet et al. 2019)
     first, first_events = _write(tmp_path, events=_events({"face": 4, "house": 2}), run=1)
-    second, second_events = _write(tmp_path, data=_recording(seed=5), events=_events({"face": 3, "house": 5}),
-                                   run=2, bad_channels=["Oz"])
+    second, second_events = _write(
+        tmp_path, data=_recording(seed=5), events=_events({"face": 3, "house": 5}), run=2, bad_channels=["Oz"]
+    )
     with pytest.warns(FamwiseWarning, match=r"channels \['Oz'\] are not good in every recording"):
         epochs = _read(tmp_path)
     assert epochs.channels == ("Fz", "Cz", "Pz")
@@ -292,9 +336,11 @@ def test_planner_finds_recordings_stored_in_sessions(tmp_path):
         path.rename(session / path.name.replace("sub-01_", "sub-01_ses-1_"))
     (root / "sub-01" / "eeg").rmdir()
     spec = tmp_path / "study.yaml"
-    spec.write_text("version: 1\nname: sessions\nsubjects: {source: bids, path: data, task: view}\n"
-                    "conditions: {face: [face]}\ncontrasts: [{name: face, test: one-sample, conditions: [face]}]\n"
-                    "inference: {corrections: [{method: holm}]}\n")
+    spec.write_text(
+        "version: 1\nname: sessions\nsubjects: {source: bids, path: data, task: view}\n"
+        "conditions: {face: [face]}\ncontrasts: [{name: face, test: one-sample, conditions: [face]}]\n"
+        "inference: {corrections: [{method: holm}]}\n"
+    )
     plan = Plan.from_spec(spec)
     files = plan.input_files("01")
     assert str(session / "sub-01_ses-1_task-view_eeg.edf") in files

@@ -24,8 +24,17 @@ def _events(n=12):
 
 def _write(root, fmt, subject="01", data=None, **options):
     data = _recording() if data is None else data
-    bids.write_subject(root, subject, data=data, sample_rate_hz=FS, channels=CHANNELS, events=_events(), task="view",
-                       fmt=fmt, **options)
+    bids.write_subject(
+        root,
+        subject,
+        data=data,
+        sample_rate_hz=FS,
+        channels=CHANNELS,
+        events=_events(),
+        task="view",
+        fmt=fmt,
+        **options,
+    )
     return root / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-view_"
 
 
@@ -66,7 +75,7 @@ def test_brainvision_and_edf_give_identical_epochs(tmp_path, other):
     # and those values are the written samples to within half a step (0.125 µV), plus as much in the removed mean
     first = _read(tmp_path / "brainvision").data[0]
     start = int(round(1.0 * FS)) - 50
-    window = data[:4, start:start + 201]
+    window = data[:4, start : start + 201]
     np.testing.assert_allclose(first, window - window.mean(axis=1, keepdims=True), rtol=0, atol=0.25e-6)
 
 
@@ -80,8 +89,12 @@ def test_non_eeg_and_bad_channels_are_left_out_by_one_rule(tmp_path, fmt):
     _set_channels(tmp_path / "sub-02" / "eeg" / "sub-02_task-view_", types={"HEOG": "EOG", "Trig": "TRIG"})
     assert bids_notes.left_out_lines(tmp_path, ["01", "02"], "view") == [
         "Channels left out by _channels.tsv (types other than EEG, and status bad):",
-        "  - ECG: ECG (1 of 2 subjects)", "  - EMG: EMG1 (1 of 2 subjects)", "  - EOG: HEOG",
-        "  - MISC: Misc (1 of 2 subjects)", "  - TRIG: Trig", "  - bad: Oz (1 of 2 subjects)",
+        "  - ECG: ECG (1 of 2 subjects)",
+        "  - EMG: EMG1 (1 of 2 subjects)",
+        "  - EOG: HEOG",
+        "  - MISC: Misc (1 of 2 subjects)",
+        "  - TRIG: Trig",
+        "  - bad: Oz (1 of 2 subjects)",
     ]
 
 
@@ -91,18 +104,30 @@ def test_header_units_give_volts(tmp_path):
     _set_channels(stem, types=NON_EEG, units={name: "n/a" for name in CHANNELS})
     # Source: pybv.write_brainvision (general-purpose writer) storing each channel in its own unit.
     with pytest.warns(UserWarning):
-        pybv.write_brainvision(data=data, sfreq=FS, ch_names=CHANNELS[:4], fname_base=stem.name + "eeg",
-                               folder_out=stem.parent, overwrite=True, unit=["µV", "nV", "V", "mV"],
-                               resolution=np.array([0.5, 1.0, 1e-7, 1e-4]))
+        pybv.write_brainvision(
+            data=data,
+            sfreq=FS,
+            ch_names=CHANNELS[:4],
+            fname_base=stem.name + "eeg",
+            folder_out=stem.parent,
+            overwrite=True,
+            unit=["µV", "nV", "V", "mV"],
+            resolution=np.array([0.5, 1.0, 1e-7, 1e-4]),
+        )
     _set_channels(stem, types={name: "EEG" for name in CHANNELS[:4]})
     epochs = _read(tmp_path)
     start = int(round(1.0 * FS)) - 50
-    window = data[:, start:start + 201]
+    window = data[:, start : start + 201]
     # float32 keeps about 7 digits of the 1 mV offset: 1e-10 V
     np.testing.assert_allclose(epochs.data[0], window - window.mean(axis=1, keepdims=True), rtol=0, atol=1e-10)
-    _set_channels(stem, units={"Cz": "uV"})  # the sidecar disagrees with the header's nV: the sidecar wins, with a warning
-    with pytest.warns(FamwiseWarning, match=r"subject 01: channel Cz is in uV by _channels.tsv but in nV by the "
-                                            r"header of its recording; using uV"):
+    _set_channels(
+        stem, units={"Cz": "uV"}
+    )  # the sidecar disagrees with the header's nV: the sidecar wins, with a warning
+    with pytest.warns(
+        FamwiseWarning,
+        match=r"subject 01: channel Cz is in uV by _channels.tsv but in nV by the "
+        r"header of its recording; using uV",
+    ):
         _read(tmp_path)
 
 
@@ -110,12 +135,18 @@ def test_missing_or_short_data_file_is_one_error_naming_it(tmp_path):
     stem = _write(tmp_path, "brainvision")
     data_file = stem.with_name(stem.name + "eeg.eeg")
     data_file.write_bytes(data_file.read_bytes()[:-2])
-    with pytest.raises(UserError, match=r"^subject 01: .*sub-01_task-view_eeg.eeg: holds \d+ bytes, not a whole "
-                                        r"number of time points of 9 channels x 4 bytes \(IEEE_FLOAT_32\)"):
+    with pytest.raises(
+        UserError,
+        match=r"^subject 01: .*sub-01_task-view_eeg.eeg: holds \d+ bytes, not a whole "
+        r"number of time points of 9 channels x 4 bytes \(IEEE_FLOAT_32\)",
+    ):
         _read(tmp_path)
     data_file.unlink()
-    with pytest.raises(UserError, match=r"^subject 01: .*sub-01_task-view_eeg.eeg: data file named by "
-                                        r"sub-01_task-view_eeg.vhdr \(DataFile\) not found$"):
+    with pytest.raises(
+        UserError,
+        match=r"^subject 01: .*sub-01_task-view_eeg.eeg: data file named by "
+        r"sub-01_task-view_eeg.vhdr \(DataFile\) not found$",
+    ):
         bids.read_channel_names(tmp_path, "01", task="view")
 
 
@@ -124,17 +155,23 @@ def test_a_format_not_read_is_named_with_what_to_do(tmp_path):
     folder.mkdir(parents=True)
     (folder / "sub-01_task-view_eeg.set").write_bytes(b"\0")
     (folder / "sub-01_task-view_eeg.json").write_text("{}")
-    with pytest.raises(UserError, match=r"subject 01: no EEG recording .* in .*eeg; found sub-01_task-view_eeg.set, in a "
-                                        r"format famwise does not read: convert it with a general-purpose converter "
-                                        r"to EDF or BrainVision$"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: no EEG recording .* in .*eeg; found sub-01_task-view_eeg.set, in a "
+        r"format famwise does not read: convert it with a general-purpose converter "
+        r"to EDF or BrainVision$",
+    ):
         _read(tmp_path)
 
 
 def test_one_recording_in_two_formats_is_an_error(tmp_path):
     _write(tmp_path, "brainvision")
     _write(tmp_path, "edf")
-    with pytest.raises(UserError, match=r"subject 01: one recording stored in several formats "
-                                        r"\(sub-01_task-view_eeg.edf, sub-01_task-view_eeg.vhdr\)"):
+    with pytest.raises(
+        UserError,
+        match=r"subject 01: one recording stored in several formats "
+        r"\(sub-01_task-view_eeg.edf, sub-01_task-view_eeg.vhdr\)",
+    ):
         _read(tmp_path)
 
 
@@ -145,8 +182,10 @@ def test_marker_count_disagreeing_with_events_is_warned_naming_both_files(tmp_pa
     lines = markers.read_text(encoding="utf-8").splitlines()
     markers.write_text("\n".join(line for line in lines if not line.startswith("Mk3=")) + "\n", encoding="utf-8")
     [warning] = bids_notes.marker_warnings(tmp_path, ["01"], "view")
-    assert warning == (f"subject 01: {markers} holds 11 stimulus markers but {stem}events.tsv lists 12 events; "
-                       "epochs follow sub-01_task-view_events.tsv")
+    assert warning == (
+        f"subject 01: {markers} holds 11 stimulus markers but {stem}events.tsv lists 12 events; "
+        "epochs follow sub-01_task-view_events.tsv"
+    )
     assert len(_read(tmp_path).labels) == 12  # epochs come from _events.tsv
     markers.unlink()
     [warning] = bids_notes.marker_warnings(tmp_path, ["01"], "view")

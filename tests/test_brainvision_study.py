@@ -49,11 +49,24 @@ def _write_study(folder, n_subjects=5):
         data = rng.normal(scale=5e-6, size=(len(CHANNELS), times.size))
         for onset, label in zip(onsets, labels):
             envelope = np.exp(-0.5 * ((times - onset - 0.4) / 0.12) ** 2)
-            burst = (2.0 if label == "high" else 0.5) * 5e-6 * envelope * np.cos(2 * np.pi * 7 * times + rng.uniform(0, 6.3))
+            burst = (
+                (2.0 if label == "high" else 0.5)
+                * 5e-6
+                * envelope
+                * np.cos(2 * np.pi * 7 * times + rng.uniform(0, 6.3))
+            )
             data[:3] += burst
         subject = f"{number:02d}"
-        bids.write_subject(folder / "data", subject, data=data, sample_rate_hz=FS, channels=CHANNELS, task="mem",
-                           events=[(float(t), 0.0, lab) for t, lab in zip(onsets, labels)], fmt="brainvision")
+        bids.write_subject(
+            folder / "data",
+            subject,
+            data=data,
+            sample_rate_hz=FS,
+            channels=CHANNELS,
+            task="mem",
+            events=[(float(t), 0.0, lab) for t, lab in zip(onsets, labels)],
+            fmt="brainvision",
+        )
         channels = folder / "data" / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-mem_channels.tsv"
         channels.write_text(channels.read_text().replace("HEOG\tEEG", "HEOG\tEOG"))
     bids.write_participants(folder / "data", [{"participant_id": f"{n:02d}"} for n in range(1, n_subjects + 1)])
@@ -73,9 +86,13 @@ def test_init_check_and_run_a_brainvision_study(tmp_path):
     vmrk.write_text(vmrk.read_text(encoding="utf-8").replace("Mk5=Stimulus", "Mk5=Comment"), encoding="utf-8")
     result = _famwise("check", spec)
     assert result.returncode == 0, result.stderr
-    assert "Channels left out by _channels.tsv (types other than EEG, and status bad):\n  - EOG: HEOG\n" in result.stdout
-    assert (f"famwise: warning: subject 02: {vmrk} holds 23 stimulus markers but "
-            f"{vmrk.with_name('sub-02_task-mem_events.tsv')} lists 24 events") in result.stderr
+    assert (
+        "Channels left out by _channels.tsv (types other than EEG, and status bad):\n  - EOG: HEOG\n" in result.stdout
+    )
+    assert (
+        f"famwise: warning: subject 02: {vmrk} holds 23 stimulus markers but "
+        f"{vmrk.with_name('sub-02_task-mem_events.tsv')} lists 24 events"
+    ) in result.stderr
 
     assert main(["run", str(spec), "--cores", "2"]) == 0
     subjects = (tmp_path / "results" / "subjects.tsv").read_text().splitlines()
@@ -121,7 +138,11 @@ def test_the_example_study_gives_identical_maps_as_edf_and_as_brainvision(tmp_pa
                 maps[fmt][subject] = {key: archive[key] for key in archive.files}
             maps[fmt][subject]["info"] = (tmp_path / fmt / "results" / "tf" / f"sub-{subject}.json").read_text()
     assert sorted(p.suffix for p in (tmp_path / "brainvision" / "data" / "sub-01" / "eeg").glob("*_eeg.*")) == [
-        ".eeg", ".json", ".vhdr", ".vmrk"]
+        ".eeg",
+        ".json",
+        ".vhdr",
+        ".vmrk",
+    ]
     for subject in ("01", "03"):
         edf, vision = maps["edf"][subject], maps["brainvision"][subject]
         assert edf.keys() == vision.keys()

@@ -9,14 +9,14 @@ import pytest
 import scipy.stats
 from scipy.ndimage import gaussian_filter
 
+from famwise.atomic import save_npz
 from famwise.calibrate import calibration_settings, fwer_interval, summarize
-from famwise.report.calibration import calibration_section_html
 from famwise.calibrate.datasets import calibration_shard, dataset_rng, null_dataset
 from famwise.calibrate.table import merge_shards, read_table
 from famwise.design import ContrastData
 from famwise.errors import UserError
-from famwise.atomic import save_npz
 from famwise.plan import Plan
+from famwise.report.calibration import calibration_section_html
 from famwise.spec import load_study
 
 SPEC = """\
@@ -69,8 +69,14 @@ def _smooth_maps(rng, n, shape=(4, 5, 12), *, test="one-sample", k=None):
 def _contrast(x, *, test="one-sample", shape=(4, 5, 12), groups=None, covariate=None):
     n = x.shape[0]
     return ContrastData(
-        x=x, test=test, subjects=tuple(f"s{i}" for i in range(n)), channels=tuple(f"ch{i}" for i in range(shape[0])),
-        freqs=np.linspace(4, 12, shape[1]), times=np.arange(shape[2]) / 50, groups=groups, covariate=covariate,
+        x=x,
+        test=test,
+        subjects=tuple(f"s{i}" for i in range(n)),
+        channels=tuple(f"ch{i}" for i in range(shape[0])),
+        freqs=np.linspace(4, 12, shape[1]),
+        times=np.arange(shape[2]) / 50,
+        groups=groups,
+        covariate=covariate,
     )
 
 
@@ -111,7 +117,10 @@ def test_sign_flip_dataset_flips_whole_maps():
 def test_label_and_covariate_datasets_reorder_subjects():
     rng = np.random.default_rng(1)
     x = _smooth_maps(rng, 10)
-    for test, extra in (("two-sample", {"groups": np.array([0] * 5 + [1] * 5)}), ("correlation", {"covariate": np.arange(10.0)})):
+    for test, extra in (
+        ("two-sample", {"groups": np.array([0] * 5 + [1] * 5)}),
+        ("correlation", {"covariate": np.arange(10.0)}),
+    ):
         shuffled = null_dataset(_contrast(x, test=test, **extra), dataset_rng(5, "c1", 3))
         match = [int(np.flatnonzero((x == row).all(axis=1))[0]) for row in shuffled]
         assert sorted(match) == list(range(10)) and match != list(range(10))
@@ -192,21 +201,36 @@ def test_result_is_the_same_for_1_or_4_shards_and_reproducible(tmp_path):
     assert np.array_equal(one["n_significant"], four["n_significant"])
     again = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, shards=4))[1]
     assert np.array_equal(again["n_significant"], four["n_significant"])
-    other = _run(tmp_path / "subjects.npz", graph, _settings(_plan(tmp_path, corrections="- method: holm\n- method: max-stat\n- method: tfce\n",
-                                                                   permutations=31, seed=4), datasets=10))[1]
+    other = _run(
+        tmp_path / "subjects.npz",
+        graph,
+        _settings(
+            _plan(
+                tmp_path, corrections="- method: holm\n- method: max-stat\n- method: tfce\n", permutations=31, seed=4
+            ),
+            datasets=10,
+        ),
+    )[1]
     assert not np.array_equal(other["n_significant"], one["n_significant"])
 
 
-@pytest.mark.parametrize("test,extra", [
-    ("two-sample", {"groups": np.array([0] * 5 + [1] * 5)}),
-    ("correlation", {"covariate": np.linspace(-1, 1, 10)}),
-    ("repeated-measures", {}),
-])
+@pytest.mark.parametrize(
+    "test,extra",
+    [
+        ("two-sample", {"groups": np.array([0] * 5 + [1] * 5)}),
+        ("correlation", {"covariate": np.linspace(-1, 1, 10)}),
+        ("repeated-measures", {}),
+    ],
+)
 def test_other_designs_run_every_correction(tmp_path, test, extra):
     rng = np.random.default_rng(5)
     x = _smooth_maps(rng, 10, k=3 if test == "repeated-measures" else None)
     _contrast(x, test=test, **extra).save(tmp_path / "subjects.npz")
-    plan = _plan(tmp_path, corrections="- method: fdr-bh\n- method: max-stat\n- method: cluster\n  dims: [freq, time]\n", permutations=19)
+    plan = _plan(
+        tmp_path,
+        corrections="- method: fdr-bh\n- method: max-stat\n- method: cluster\n  dims: [freq, time]\n",
+        permutations=19,
+    )
     _, merged = _run(tmp_path / "subjects.npz", None, _settings(plan, datasets=6))
     assert merged["n_significant"].shape == (6, 4)
     assert (merged["n_significant"][:, 0] > 0).any()  # uncorrected finds something in 240 smooth points
@@ -227,11 +251,18 @@ def test_fwer_interval_is_clopper_pearson():
 def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
     rng = np.random.default_rng(6)
     _contrast(_smooth_maps(rng, 8)).save(tmp_path / "subjects.npz")
-    plan = _plan(tmp_path, corrections="- method: bonferroni\n- method: fdr-bh\n  level: 0.1\n- method: max-stat\n", permutations=31)
+    plan = _plan(
+        tmp_path,
+        corrections="- method: bonferroni\n- method: fdr-bh\n  level: 0.1\n- method: max-stat\n",
+        permutations=31,
+    )
     settings = _settings(plan, datasets=6, shards=2, permutations=15)
     files = []
     for k in range(2):
-        save_npz(tmp_path / f"shard-{k}.npz", **calibration_shard(tmp_path / "subjects.npz", None, shard=k, settings=settings))
+        save_npz(
+            tmp_path / f"shard-{k}.npz",
+            **calibration_shard(tmp_path / "subjects.npz", None, shard=k, settings=settings),
+        )
         files.append(tmp_path / f"shard-{k}.npz")
     out = tmp_path / "output" / "calibration" / "c1.tsv"
     contrast = tmp_path / "output" / "contrasts" / "c1"
@@ -240,7 +271,9 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
     save_npz(contrast / "observed.npz", stat=np.arange(6.0))
     current = {"c1": [c.record() for c in settings.corrections]}  # as the result files record them
     assert calibration_section_html(tmp_path / "output", current) is None
-    rows = summarize(files, out, settings=settings, subjects=contrast / "subjects.npz", observed=contrast / "observed.npz")
+    rows = summarize(
+        files, out, settings=settings, subjects=contrast / "subjects.npz", observed=contrast / "observed.npz"
+    )
     table = read_table(out)
     assert [r["correction"] for r in table] == ["uncorrected", "bonferroni", "fdr-bh", "max-stat"]
     assert [r["nominal"] for r in table] == [0.05, 0.05, 0.1, 0.05]
@@ -278,11 +311,17 @@ def test_merge_refuses_missing_datasets(tmp_path):
         merge_shards([part], datasets=4)
 
 
-@pytest.mark.parametrize("options,message", [
-    ({"datasets": 0, "shards": 1}, r"--datasets must be a whole number of at least 1, got 0"),
-    ({"datasets": 5, "shards": 6}, r"--shards must be between 1 and the number of datasets \(5\), got 6"),
-    ({"datasets": 5, "shards": 1, "permutations": 0}, r"--permutations must be a whole number of at least 1, got 0"),
-])
+@pytest.mark.parametrize(
+    "options,message",
+    [
+        ({"datasets": 0, "shards": 1}, r"--datasets must be a whole number of at least 1, got 0"),
+        ({"datasets": 5, "shards": 6}, r"--shards must be between 1 and the number of datasets \(5\), got 6"),
+        (
+            {"datasets": 5, "shards": 1, "permutations": 0},
+            r"--permutations must be a whole number of at least 1, got 0",
+        ),
+    ],
+)
 def test_bad_options_are_user_errors(tmp_path, options, message):
     plan = _plan(tmp_path)
     with pytest.raises(UserError, match=message):
@@ -309,17 +348,45 @@ def test_summarize_refuses_shards_from_other_settings(tmp_path):
     plan = _plan(tmp_path)
     old = _settings(plan, datasets=2, shards=1)
     save_npz(tmp_path / "shard-0.npz", **calibration_shard(tmp_path / "subjects.npz", None, shard=0, settings=old))
-    with pytest.raises(UserError, match=r"shard-0.npz was computed with other calibration settings; delete it and rerun"):
-        summarize([tmp_path / "shard-0.npz"], tmp_path / "c1.tsv", settings=_settings(plan, datasets=2, shards=1, permutations=7),
-                  subjects=tmp_path / "subjects.npz", observed=tmp_path / "observed.npz")
+    with pytest.raises(
+        UserError, match=r"shard-0.npz was computed with other calibration settings; delete it and rerun"
+    ):
+        summarize(
+            [tmp_path / "shard-0.npz"],
+            tmp_path / "c1.tsv",
+            settings=_settings(plan, datasets=2, shards=1, permutations=7),
+            subjects=tmp_path / "subjects.npz",
+            observed=tmp_path / "observed.npz",
+        )
 
 
 def test_calibrate_warns_when_the_interval_is_too_wide_for_a_conclusion():
     from famwise.calibrate_command import wide_interval_warnings
 
-    few = {"correction": "holm", "fwer": 0.3, "fwer_ci_low": 0.067, "fwer_ci_high": 0.652, "nominal": 0.05, "datasets": 10}
-    many = {"correction": "holm", "fwer": 0.05, "fwer_ci_low": 0.016, "fwer_ci_high": 0.113, "nominal": 0.05, "datasets": 100}
-    tight = {"correction": "holm", "fwer": 0.05, "fwer_ci_low": 0.031, "fwer_ci_high": 0.076, "nominal": 0.05, "datasets": 400}
+    few = {
+        "correction": "holm",
+        "fwer": 0.3,
+        "fwer_ci_low": 0.067,
+        "fwer_ci_high": 0.652,
+        "nominal": 0.05,
+        "datasets": 10,
+    }
+    many = {
+        "correction": "holm",
+        "fwer": 0.05,
+        "fwer_ci_low": 0.016,
+        "fwer_ci_high": 0.113,
+        "nominal": 0.05,
+        "datasets": 100,
+    }
+    tight = {
+        "correction": "holm",
+        "fwer": 0.05,
+        "fwer_ci_low": 0.031,
+        "fwer_ci_high": 0.076,
+        "nominal": 0.05,
+        "datasets": 400,
+    }
     (message,) = wide_interval_warnings([few])
     # 4 * 1.96^2 * (1 - 0.05) / 0.05 = 291.9 datasets (normal approximation, common practice)
     assert "correction holm: the 95% interval [0.067, 0.652]" in message and "--datasets 292 (now 10)" in message

@@ -13,14 +13,15 @@ from famwise.cli import main
 
 from conftest import write_tiny_study, write_tiny_subject
 
-
 # Studies of 4 subjects cannot reach alpha by permutation (2/16 > 0.05), so the error
 # tests use a parametric correction only and see no attainability warning.
 HOLM_ONLY = "- method: holm\n"
 
 
 def famwise_cli(*args, cwd=None) -> subprocess.CompletedProcess:
-    return subprocess.run([sys.executable, "-m", "famwise.cli", *map(str, args)], capture_output=True, text=True, cwd=cwd)
+    return subprocess.run(
+        [sys.executable, "-m", "famwise.cli", *map(str, args)], capture_output=True, text=True, cwd=cwd
+    )
 
 
 def _assert_one_line_error(result, *fragments):
@@ -33,7 +34,11 @@ def _assert_one_line_error(result, *fragments):
 
 
 def _result_files(folder):
-    return sorted(p for p in (folder / "results").rglob("*") if p.is_file() and "logs" not in p.parts and ".snakemake" not in p.parts)
+    return sorted(
+        p
+        for p in (folder / "results").rglob("*")
+        if p.is_file() and "logs" not in p.parts and ".snakemake" not in p.parts
+    )
 
 
 @pytest.mark.workflow
@@ -55,7 +60,9 @@ def test_wrong_type(tmp_path):
 def test_contrast_naming_a_missing_condition(tmp_path):
     spec = write_tiny_study(tmp_path)
     spec.write_text(spec.read_text().replace("conditions: [high, low]", "conditions: [high, lo]"))
-    _assert_one_line_error(famwise_cli("check", spec), "contrasts[0].conditions: unknown condition 'lo' (known: high, low)")
+    _assert_one_line_error(
+        famwise_cli("check", spec), "contrasts[0].conditions: unknown condition 'lo' (known: high, low)"
+    )
 
 
 @pytest.mark.workflow
@@ -75,8 +82,17 @@ def test_subject_id_not_plain(tmp_path):
 @pytest.mark.workflow
 def test_channels_differ_between_subjects(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
-    write_tiny_subject(tmp_path / "data" / "sub-03.npz", np.random.default_rng(3), channels=["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "POz"])
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 03: channels differ from subject 01", "extra: POz", "missing: Oz")
+    write_tiny_subject(
+        tmp_path / "data" / "sub-03.npz",
+        np.random.default_rng(3),
+        channels=["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "POz"],
+    )
+    _assert_one_line_error(
+        famwise_cli("run", spec, "--cores", "2"),
+        "subject 03: channels differ from subject 01",
+        "extra: POz",
+        "missing: Oz",
+    )
     assert not [p for p in _result_files(tmp_path) if "contrasts" in p.parts]
 
 
@@ -84,7 +100,9 @@ def test_channels_differ_between_subjects(tmp_path):
 def test_sampling_rates_differ(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sample_rate_hz=200.0)
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz)")
+    _assert_one_line_error(
+        famwise_cli("run", spec, "--cores", "2"), "subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz)"
+    )
 
 
 @pytest.mark.workflow
@@ -94,9 +112,17 @@ def test_nan_in_data(tmp_path):
     with np.load(path) as archive:
         arrays = {k: archive[k] for k in archive.files}
     arrays["data"][3, 1, 10] = np.nan
-    famwise.io.save_epochs(path, arrays["data"], sample_rate_hz=float(arrays["sample_rate_hz"]), epoch_start_s=float(arrays["epoch_start_s"]),
-                           channels=list(arrays["channels"]), event_labels=list(arrays["event_labels"]))
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "subject 02", "sub-02.npz", "NaN or inf", "epoch 3, channel FC1")
+    famwise.io.save_epochs(
+        path,
+        arrays["data"],
+        sample_rate_hz=float(arrays["sample_rate_hz"]),
+        epoch_start_s=float(arrays["epoch_start_s"]),
+        channels=list(arrays["channels"]),
+        event_labels=list(arrays["event_labels"]),
+    )
+    _assert_one_line_error(
+        famwise_cli("run", spec, "--cores", "2"), "subject 02", "sub-02.npz", "NaN or inf", "epoch 3, channel FC1"
+    )
     assert not (tmp_path / "results" / "tf" / "sub-02.npz").exists()
     # the run stops: nothing after the decompositions, and no half-written file anywhere
     assert not [p for p in _result_files(tmp_path) if p.parts[-2] != "tf"]
@@ -121,7 +147,11 @@ def test_baseline_outside_epoch(tmp_path):
 def test_analysis_window_in_cone_of_influence(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
     spec.write_text(spec.read_text().replace("channels:\n", "analysis:\n  time_ms: [-600, 900]\nchannels:\n", 1))
-    _assert_one_line_error(famwise_cli("run", spec, "--cores", "2"), "analysis.time_ms: [-600.0, 900.0] ms reaches into", "widest window that fits is")
+    _assert_one_line_error(
+        famwise_cli("run", spec, "--cores", "2"),
+        "analysis.time_ms: [-600.0, 900.0] ms reaches into",
+        "widest window that fits is",
+    )
 
 
 @pytest.mark.workflow
@@ -130,7 +160,10 @@ def test_too_few_permutations_warns(tmp_path):
     result = famwise_cli("check", spec)
     assert result.returncode == 0, result.stderr
     # 4 subjects: 16 sign flips, two-sided smallest p = 2/16 (common practice; Nichols & Holmes 2002)
-    assert "famwise: warning: contrast high-vs-low: the smallest attainable permutation p is 0.125 (16 all sign-flip rows" in result.stderr
+    assert (
+        "famwise: warning: contrast high-vs-low: the smallest attainable permutation p is 0.125 (16 all sign-flip rows"
+        in result.stderr
+    )
 
 
 @pytest.mark.workflow
@@ -166,8 +199,10 @@ def test_missing_spec(tmp_path, argv):
     _assert_one_line_error(famwise_cli(*argv, cwd=tmp_path), "spec file not found")
 
 
-@pytest.mark.parametrize(("cores", "profile", "threads"), [(2, None, 1), (8, None, 4), (1, None, 1), (5, None, 2),
-                                                            (8, "local", 4), (8, "slurm", None)])
+@pytest.mark.parametrize(
+    ("cores", "profile", "threads"),
+    [(2, None, 1), (8, None, 4), (1, None, 1), (5, None, 2), (8, "local", 4), (8, "slurm", None)],
+)
 def test_shard_jobs_share_the_cores_on_this_machine(tmp_path, monkeypatch, cores, profile, threads):
     # a study with fewer shards than cores still uses every core; cluster jobs keep one thread each
     spec = write_tiny_study(tmp_path)  # shards: 2

@@ -8,8 +8,8 @@ import sys
 import pytest
 
 import famwise.cli
-import famwise.launch
 import famwise.demo
+import famwise.launch
 from famwise.check_reasons import changed_settings, describe_reasons
 from famwise.cli import main
 
@@ -37,8 +37,12 @@ def test_help_lists_commands_in_workflow_order_and_explains_positionals(capsys):
     text = capsys.readouterr().out
     positions = [text.index(f"    {name}") for name in ("init", "check", "run", "calibrate", "demo", "bench")]
     assert positions == sorted(positions)
-    for command, wanted in (("run", "[-- SNAKEMAKE_ARGS ...]"), ("check", "spec        the study spec"),
-                            ("init", "data        a BIDS-EEG folder"), ("demo", "(default: famwise-demo)")):
+    for command, wanted in (
+        ("run", "[-- SNAKEMAKE_ARGS ...]"),
+        ("check", "spec        the study spec"),
+        ("init", "data        a BIDS-EEG folder"),
+        ("demo", "(default: famwise-demo)"),
+    ):
         with pytest.raises(SystemExit):
             main([command, "--help"])
         assert wanted in capsys.readouterr().out, command
@@ -74,7 +78,14 @@ def test_interrupted_run_exits_130(tiny_study, monkeypatch, capsys):
 
 
 def test_no_op_run_says_nothing_needed_to_run(tiny_study, monkeypatch, capsys):
-    monkeypatch.setattr(famwise.cli, "run_snakemake", lambda plan, options, **kw: (0, ["Building DAG of jobs...", "Nothing to be done (all requested files are present and up to date)."]))
+    monkeypatch.setattr(
+        famwise.cli,
+        "run_snakemake",
+        lambda plan, options, **kw: (
+            0,
+            ["Building DAG of jobs...", "Nothing to be done (all requested files are present and up to date)."],
+        ),
+    )
     assert main(["run", str(tiny_study), "--cores", "1"]) == 0
     assert "famwise: nothing needed to run: every result is up to date" in capsys.readouterr().out
 
@@ -88,15 +99,22 @@ def test_refused_snakemake_argument_shows_snakemake_message(tiny_study, monkeypa
 
 @pytest.mark.workflow
 def test_bogus_snakemake_argument_for_real(tiny_study):
-    result = subprocess.run([sys.executable, "-m", "famwise.cli", "run", str(tiny_study), "--cores", "1", "--", "--bogus-flag"],
-                            capture_output=True, text=True)
+    result = subprocess.run(
+        [sys.executable, "-m", "famwise.cli", "run", str(tiny_study), "--cores", "1", "--", "--bogus-flag"],
+        capture_output=True,
+        text=True,
+    )
     assert result.returncode == 2
     assert "unrecognized arguments: --bogus-flag" in result.stderr and "Traceback" not in result.stderr
 
 
 def test_check_into_a_closed_pipe_has_no_traceback(tiny_study):
-    process = subprocess.Popen([sys.executable, "-m", "famwise.cli", "check", str(tiny_study)],
-                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
+    process = subprocess.Popen(
+        [sys.executable, "-m", "famwise.cli", "check", str(tiny_study)],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
     process.stdout.readline()
     process.stdout.close()
     err = process.stderr.read()
@@ -124,20 +142,33 @@ def test_demo_says_whether_it_wrote_the_data(tmp_path, monkeypatch, capsys):
 
 
 def test_reasons_name_the_changed_setting(tmp_path):
-    (tmp_path / "study.json").write_text('{"inference": {"permutations": 1000, "alpha": 0.05}, "decomposition": {"cycles": 3}}')
-    changes = changed_settings(tmp_path, {"inference": {"permutations": 2000, "alpha": 0.05}, "decomposition": {"cycles": 3}})
+    (tmp_path / "study.json").write_text(
+        '{"inference": {"permutations": 1000, "alpha": 0.05}, "decomposition": {"cycles": 3}}'
+    )
+    changes = changed_settings(
+        tmp_path, {"inference": {"permutations": 2000, "alpha": 0.05}, "decomposition": {"cycles": 3}}
+    )
     assert changes == ["inference.permutations 1000 -> 2000"]
     reason = "Params have changed since last execution: " + "x" * 300
     assert describe_reasons("null_shard", {reason}, changes) == "settings changed: inference.permutations 1000 -> 2000"
     assert describe_reasons("decompose", {reason}, changes) == "settings changed"
-    assert describe_reasons("report", {"Missing output files: report/index.html", "Input files updated by another job: a"}, []) == \
-        "an input is remade first; no result yet"
+    assert (
+        describe_reasons(
+            "report", {"Missing output files: report/index.html", "Input files updated by another job: a"}, []
+        )
+        == "an input is remade first; no result yet"
+    )
 
 
 @pytest.mark.workflow
 def test_ctrl_c_during_a_real_run_exits_130(tiny_study):
-    process = subprocess.Popen([sys.executable, "-m", "famwise.cli", "run", str(tiny_study), "--cores", "1"],
-                               stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True, start_new_session=True)
+    process = subprocess.Popen(
+        [sys.executable, "-m", "famwise.cli", "run", str(tiny_study), "--cores", "1"],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+        start_new_session=True,
+    )
     for line in process.stdout:
         if line.strip().startswith("- decompose"):
             break
@@ -151,7 +182,10 @@ def test_ctrl_c_during_a_real_run_exits_130(tiny_study):
 def test_help_lists_the_commands_in_the_order_of_work(capsys):
     with pytest.raises(SystemExit):
         main(["--help"])
-    listed = [line.split()[0] for line in capsys.readouterr().out.splitlines()
-              if line.startswith("    ") and not line.startswith("     ")]
+    listed = [
+        line.split()[0]
+        for line in capsys.readouterr().out.splitlines()
+        if line.startswith("    ") and not line.startswith("     ")
+    ]
     assert listed[:4] == ["init", "check", "run", "calibrate"]
     assert listed.index("calibrate") < listed.index("demo") < listed.index("bench")

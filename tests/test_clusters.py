@@ -27,8 +27,11 @@ def brute_clusters(stat, graph, threshold):
     n_ch, n_f, n_t = stat.shape
     channel = sp.csr_matrix((np.ones(len(graph["indices"])), graph["indices"], graph["indptr"]), shape=(n_ch, n_ch))
     path = lambda n: sp.diags([np.ones(n - 1)] * 2, [-1, 1])  # noqa: E731
-    adjacency = sp.csr_matrix(sp.kron(channel, sp.identity(n_f * n_t)) + sp.kron(sp.identity(n_ch), sp.kron(
-        path(n_f), sp.identity(n_t))) + sp.kron(sp.identity(n_ch * n_f), path(n_t)))
+    adjacency = sp.csr_matrix(
+        sp.kron(channel, sp.identity(n_f * n_t))
+        + sp.kron(sp.identity(n_ch), sp.kron(path(n_f), sp.identity(n_t)))
+        + sp.kron(sp.identity(n_ch * n_f), path(n_t))
+    )
     out = []
     for sign in (1, -1):
         selected = np.flatnonzero(sign * stat.ravel() > threshold)
@@ -40,8 +43,7 @@ def brute_clusters(stat, graph, threshold):
     return out
 
 
-AXES = dict(channels=[f"E{c}" for c in range(5)], freqs=np.array([4.0, 6.0, 8.0]),
-            times=np.arange(12) * 0.02 - 0.05)
+AXES = dict(channels=[f"E{c}" for c in range(5)], freqs=np.array([4.0, 6.0, 8.0]), times=np.arange(12) * 0.02 - 0.05)
 
 
 @pytest.mark.parametrize("n", [8, 9])
@@ -55,15 +57,17 @@ def test_exact_enumeration_p_equals_brute_force(n):
     flips = np.array(list(itertools.product([1.0, -1.0], repeat=n)))  # row 0 = identity
     maps = t_maps(data, flips)
     threshold = stats.t.isf(0.05, n - 1)
-    null = np.array([max((m for *_, m in brute_clusters(row.reshape(5, 3, 12), graph, threshold)), default=0.0)
-                     for row in maps])
+    null = np.array(
+        [max((m for *_, m in brute_clusters(row.reshape(5, 3, 12), graph, threshold)), default=0.0) for row in maps]
+    )
     collector = ClusterCollector(threshold=threshold, shape=(5, 3, 12), **graph)
     for block in np.array_split(maps, 5):
         collector.update(block)
     assert np.allclose(collector.arrays()["cluster.max"], null, rtol=1e-12)
     observed = maps[0].reshape(5, 3, 12)
-    result = cluster_inference(observed, collector.arrays()["cluster.max"], threshold=threshold, **graph,
-                               alpha=0.05, **AXES)
+    result = cluster_inference(
+        observed, collector.arrays()["cluster.max"], threshold=threshold, **graph, alpha=0.05, **AXES
+    )
     expected_p = np.ones(observed.size)
     clusters = brute_clusters(observed, graph, threshold)
     assert len(result.clusters) == len(clusters) > 0
@@ -85,14 +89,24 @@ def test_cluster_table_and_sidecar(tmp_path):
     stat[1:3, 0:2, 3:6] = 3.0
     stat[2, 1, 4] = 4.5
     stat[4, 2, 10] = -3.5
-    result = cluster_inference(stat, np.array([20.0, 1.0, 5.0, 3.0]), threshold=2.0, **ring(5), alpha=0.5,
-                               **AXES)
+    result = cluster_inference(stat, np.array([20.0, 1.0, 5.0, 3.0]), threshold=2.0, **ring(5), alpha=0.5, **AXES)
     first, second = result.clusters
     assert first == {
-        "id": 1, "sign": "positive", "statistic": 3.0 * 11 + 4.5, "p": 0.25, "n_points": 12,
-        "channels": "E1,E2", "time_start_ms": pytest.approx(10.0), "time_end_ms": pytest.approx(50.0),
-        "freq_low_hz": 4.0, "freq_high_hz": 6.0, "peak_stat": 4.5, "peak_channel": "E2", "peak_freq_hz": 6.0,
-        "peak_time_ms": pytest.approx(30.0)}
+        "id": 1,
+        "sign": "positive",
+        "statistic": 3.0 * 11 + 4.5,
+        "p": 0.25,
+        "n_points": 12,
+        "channels": "E1,E2",
+        "time_start_ms": pytest.approx(10.0),
+        "time_end_ms": pytest.approx(50.0),
+        "freq_low_hz": 4.0,
+        "freq_high_hz": 6.0,
+        "peak_stat": 4.5,
+        "peak_channel": "E2",
+        "peak_freq_hz": 6.0,
+        "peak_time_ms": pytest.approx(30.0),
+    }
     assert second["id"] == -1 and second["p"] == 0.5 and second["peak_stat"] == -3.5
     assert result.maps["cluster_id"][4, 2, 10] == -1 and result.maps["cluster_id"][1, 0, 3] == 1
     assert result.p_corrected[0, 0, 0] == 1.0 and result.p_corrected[4, 2, 10] == 0.5
@@ -135,8 +149,9 @@ def null_rejections(n_datasets, seed, n_rows=100, alpha=0.05):
         tfce.update(maps)
         observed = maps[0].reshape(shape)
         names = dict(channels=[f"E{c}" for c in range(6)], freqs=np.arange(4.0), times=np.arange(16.0))
-        hits[0] += cluster_inference(observed, clusters.arrays()["cluster.max"], threshold=threshold, **graph,
-                                     alpha=alpha, **names).mask.any()
+        hits[0] += cluster_inference(
+            observed, clusters.arrays()["cluster.max"], threshold=threshold, **graph, alpha=alpha, **names
+        ).mask.any()
         hits[1] += tfce_inference(observed, tfce.arrays()["tfce.max"], **graph, alpha=alpha).mask.any()
     return hits
 
@@ -166,9 +181,15 @@ def test_injected_effect_is_found():
     threshold = stats.t.isf(0.025, n - 1)
     collector = ClusterCollector(threshold=threshold, shape=shape, **graph)
     collector.update(maps)
-    result = cluster_inference(maps[0].reshape(shape), collector.arrays()["cluster.max"], threshold=threshold,
-                               **graph, channels=[f"E{c}" for c in range(6)], freqs=np.arange(4.0),
-                               times=np.arange(16.0))
+    result = cluster_inference(
+        maps[0].reshape(shape),
+        collector.arrays()["cluster.max"],
+        threshold=threshold,
+        **graph,
+        channels=[f"E{c}" for c in range(6)],
+        freqs=np.arange(4.0),
+        times=np.arange(16.0),
+    )
     assert result.clusters[0]["id"] == 1 and result.clusters[0]["p"] <= 0.01
     assert result.mask[2:4, 1:3, 6:9].all()
 

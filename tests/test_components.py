@@ -8,8 +8,8 @@ from scipy.sparse.csgraph import connected_components
 
 from famwise.correct.clusters import label_clusters
 from famwise.errors import UserError
-from famwise.nulls.collectors.largest_cluster import ClusterCollector
 from famwise.naive.clusters import cluster_labels_reference, cluster_null_reference, one_sample_t
+from famwise.nulls.collectors.largest_cluster import ClusterCollector
 
 from conftest import ring
 
@@ -45,8 +45,7 @@ def test_one_channel_equals_ndimage_label(seed):
     # reference: scipy.ndimage.label with 4-connectivity (generate_binary_structure(2, 1))
     rng = np.random.default_rng(seed)
     stat = ndimage.gaussian_filter(rng.standard_normal((12, 30)), 1.0) * 3
-    ids, _ = label_clusters(stat[None], threshold=0.8, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1],
-                            tail="greater")
+    ids, _ = label_clusters(stat[None], threshold=0.8, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1], tail="greater")
     expected, _ = ndimage.label(stat > 0.8, structure=ndimage.generate_binary_structure(2, 1))
     assert same_partition(ids[0], expected)
 
@@ -58,7 +57,7 @@ def explicit_adjacency(n_ch, n_f, n_t, indptr, indices):
     for c in range(n_ch):
         for f in range(n_f):
             for t in range(n_t):
-                mine = [index[c2, f, t] for c2 in indices[indptr[c]:indptr[c + 1]]]
+                mine = [index[c2, f, t] for c2 in indices[indptr[c] : indptr[c + 1]]]
                 mine += [index[c, f2, t] for f2 in (f - 1, f + 1) if 0 <= f2 < n_f]
                 mine += [index[c, f, t2] for t2 in (t - 1, t + 1) if 0 <= t2 < n_t]
                 rows += [index[c, f, t]] * len(mine)
@@ -115,15 +114,16 @@ def test_min_supra_neighbors_drops_isolated_points():
 
 def test_numbering_by_descending_statistic_per_sign():
     stat = np.zeros((1, 1, 12))
-    stat[0, 0, [0, 1]] = 3.0       # mass 6
-    stat[0, 0, [4, 5, 6]] = 4.0    # mass 12
+    stat[0, 0, [0, 1]] = 3.0  # mass 6
+    stat[0, 0, [4, 5, 6]] = 4.0  # mass 12
     stat[0, 0, [9]] = -7.0
     stat[0, 0, [11]] = -2.5
     ids, stats = label_clusters(stat, threshold=2.0, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1])
     assert ids[0, 0].tolist() == [2, 2, 0, 0, 1, 1, 1, 0, 0, -1, 0, -2]
     assert stats == {1: 12.0, 2: 6.0, -1: 7.0, -2: 2.5}
-    _, sizes = label_clusters(stat, threshold=2.0, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1],
-                              cluster_stat="size", tail="greater")
+    _, sizes = label_clusters(
+        stat, threshold=2.0, indptr=NO_CHANNELS[0], indices=NO_CHANNELS[1], cluster_stat="size", tail="greater"
+    )
     assert sizes == {1: 3.0, 2: 2.0}
 
 

@@ -4,17 +4,20 @@ import numpy as np
 import pytest
 from scipy.stats import trim_mean
 
-from famwise.epochs import Epochs
-from famwise.errors import FamwiseWarning
 from famwise.decomposition import baseline as bl
 from famwise.decomposition import decompose
+from famwise.epochs import Epochs
+from famwise.errors import FamwiseWarning
 
 
 @pytest.mark.parametrize(
     ("ratio", "db", "percent"),
     [  # common practice; Cohen 2014, ch. 18 (from memory)
-        (2.0, 3.0103000, 100.0), (10.0, 10.0, 900.0), (0.5, -3.0103000, -50.0),
-        (1.5, 1.7609126, 50.0), (1.0, 0.0, 0.0),
+        (2.0, 3.0103000, 100.0),
+        (10.0, 10.0, 900.0),
+        (0.5, -3.0103000, -50.0),
+        (1.5, 1.7609126, 50.0),
+        (1.0, 0.0, 0.0),
     ],
 )
 def test_db_percent_ratio(ratio, db, percent):
@@ -45,8 +48,10 @@ def test_constant_map_at_baseline_gives_zero():
 
 
 def test_describe():
-    assert bl.describe("db", (-400, -100), pooled=False, single_epoch=False) == \
-        "dB change from -400 to -100 ms, per condition"
+    assert (
+        bl.describe("db", (-400, -100), pooled=False, single_epoch=False)
+        == "dB change from -400 to -100 ms, per condition"
+    )
     assert bl.describe("none", None, pooled=False, single_epoch=False) == "none"
     assert "pooled" in bl.describe("zscore", (-400, -100), pooled=True, single_epoch=False)
 
@@ -61,8 +66,13 @@ def _two_conditions(seed=0):
     return Epochs(data=data, sample_rate_hz=fs, epoch_start_s=-1.0, channels=("C3", "C4"), labels=labels)
 
 
-_COMMON = dict(subject="s1", conditions={"A": ["a"], "B": ["b"]}, frequencies_hz=np.array([8.0, 10.0]),
-               cycles=4.0, time_step_ms=20.0)
+_COMMON = dict(
+    subject="s1",
+    conditions={"A": ["a"], "B": ["b"]},
+    frequencies_hz=np.array([8.0, 10.0]),
+    cycles=4.0,
+    time_step_ms=20.0,
+)
 
 
 @pytest.mark.parametrize("mode", ["db", "percent", "zscore", "ratio"])
@@ -74,19 +84,23 @@ def test_decompose_baseline_equals_hand_formula(mode):
     window = (ms >= -500 - 1e-6) & (ms <= -200 + 1e-6)
     base = raw[..., window]
     mean, sd = base.mean(-1, keepdims=True), base.std(-1, ddof=1, keepdims=True)
-    expected = {"db": 10 * np.log10(raw / mean), "percent": 100 * (raw - mean) / mean,
-                "zscore": (raw - mean) / sd, "ratio": raw / mean}[mode]  # Cohen 2014, ch. 18 (from memory)
+    expected = {
+        "db": 10 * np.log10(raw / mean),
+        "percent": 100 * (raw - mean) / mean,
+        "zscore": (raw - mean) / sd,
+        "ratio": raw / mean,
+    }[mode]  # Cohen 2014, ch. 18 (from memory)
     np.testing.assert_allclose(out.values, expected, rtol=2e-4, atol=2e-4)
 
 
 def test_pooled_baseline_uses_trial_weighted_average():
     epochs = _two_conditions()
     keep = np.r_[0:12, 12:18]  # A 12 epochs, B 6 epochs
-    epochs = Epochs(epochs.data[keep], epochs.sample_rate_hz, epochs.epoch_start_s, epochs.channels,
-                    epochs.labels[keep])
+    epochs = Epochs(
+        epochs.data[keep], epochs.sample_rate_hz, epochs.epoch_start_s, epochs.channels, epochs.labels[keep]
+    )
     raw = decompose(epochs, **_COMMON).values.astype(float)
-    out = decompose(epochs, **_COMMON, baseline_mode="ratio", baseline_window_ms=(-500.0, -200.0),
-                    baseline_pooled=True)
+    out = decompose(epochs, **_COMMON, baseline_mode="ratio", baseline_window_ms=(-500.0, -200.0), baseline_pooled=True)
     ms = out.times * 1000
     window = (ms >= -500 - 1e-6) & (ms <= -200 + 1e-6)
     pooled = (12 * raw[0] + 6 * raw[1]) / 18
@@ -96,23 +110,36 @@ def test_pooled_baseline_uses_trial_weighted_average():
 
 
 def test_single_trial_baseline_then_trimmed_mean():
-    from famwise.naive.decomposition import naive_decomposition
     from famwise.decomposition import wavelets as wl
+    from famwise.naive.decomposition import naive_decomposition
 
     epochs = _two_conditions(1)
-    out = decompose(epochs, **_COMMON, baseline_mode="db", baseline_window_ms=(-500.0, -200.0),
-                    baseline_single_epoch=True, average="trimmed", trim=0.2)
+    out = decompose(
+        epochs,
+        **_COMMON,
+        baseline_mode="db",
+        baseline_window_ms=(-500.0, -200.0),
+        baseline_single_epoch=True,
+        average="trimmed",
+        trim=0.2,
+    )
     freqs = _COMMON["frequencies_hz"]
-    kernels = [wl.morlet_wavelet(f, s, epochs.sample_rate_hz)[None]
-               for f, s in zip(freqs, wl.sigma_t_from_cycles(freqs, 4.0))]
+    kernels = [
+        wl.morlet_wavelet(f, s, epochs.sample_rate_hz)[None] for f, s in zip(freqs, wl.sigma_t_from_cycles(freqs, 4.0))
+    ]
     keep = slice(0, 500, 5)
     ms = out.times * 1000
     window = (ms >= -500 - 1e-6) & (ms <= -200 + 1e-6)
     for c, label in enumerate(["a", "b"]):
-        epoch_maps = np.stack([naive_decomposition(epochs.data[[i]], kernels, measure="power", scale=1.0,
-                                          keep=keep)
-                           for i in np.flatnonzero(epochs.labels == label)])
-        db = 10 * np.log10(epoch_maps / epoch_maps[..., window].mean(-1, keepdims=True))  # dB of each epoch (common practice, no source)
+        epoch_maps = np.stack(
+            [
+                naive_decomposition(epochs.data[[i]], kernels, measure="power", scale=1.0, keep=keep)
+                for i in np.flatnonzero(epochs.labels == label)
+            ]
+        )
+        db = 10 * np.log10(
+            epoch_maps / epoch_maps[..., window].mean(-1, keepdims=True)
+        )  # dB of each epoch (common practice, no source)
         expected = trim_mean(db, 0.2, axis=0)  # scipy.stats.trim_mean
         np.testing.assert_allclose(out.values[c], expected, atol=2e-4)
     assert "own baseline" in out.baseline

@@ -4,17 +4,23 @@ import numpy as np
 import pytest
 from scipy.stats import directional_stats
 
-from famwise.epochs import Epochs
 from famwise.decomposition import decompose
+from famwise.epochs import Epochs
 
 
 def _itpc(phases, *, n_samples=1000, fs=500.0, freqs=(10.0,)):
     t = np.arange(n_samples) / fs
     data = np.cos(2 * np.pi * 10.0 * t[None, :] + np.asarray(phases)[:, None]) * 1e-6
-    epochs = Epochs(data=data[:, None, :], sample_rate_hz=fs, epoch_start_s=0.0, channels=("Pz",),
-                    labels=np.array(["a"] * len(phases)))
-    return decompose(epochs, subject="s1", conditions={"c": ["a"]}, frequencies_hz=np.array(freqs),
-                     cycles=7.0, measure="itpc")
+    epochs = Epochs(
+        data=data[:, None, :],
+        sample_rate_hz=fs,
+        epoch_start_s=0.0,
+        channels=("Pz",),
+        labels=np.array(["a"] * len(phases)),
+    )
+    return decompose(
+        epochs, subject="s1", conditions={"c": ["a"]}, frequencies_hz=np.array(freqs), cycles=7.0, measure="itpc"
+    )
 
 
 def test_identical_phases_give_one():
@@ -45,11 +51,22 @@ def test_random_phases_null_expectation():
     rng = np.random.default_rng(17)
     fs = 500.0
     data = rng.normal(size=(n, 48, 3000))
-    epochs = Epochs(data=data, sample_rate_hz=fs, epoch_start_s=0.0, channels=tuple(f"E{i}" for i in range(48)),
-                    labels=np.array(["a"] * n))
-    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]},
-                     frequencies_hz=np.array([20.0, 60.0, 100.0, 140.0, 180.0, 220.0]), cycles=3.0,
-                     measure="itpc", time_step_ms=40.0)
+    epochs = Epochs(
+        data=data,
+        sample_rate_hz=fs,
+        epoch_start_s=0.0,
+        channels=tuple(f"E{i}" for i in range(48)),
+        labels=np.array(["a"] * n),
+    )
+    maps = decompose(
+        epochs,
+        subject="s1",
+        conditions={"c": ["a"]},
+        frequencies_hz=np.array([20.0, 60.0, 100.0, 140.0, 180.0, 220.0]),
+        cycles=3.0,
+        measure="itpc",
+        time_step_ms=40.0,
+    )
     values = maps.values[0][:, maps.valid].astype(float)
     assert values.mean() == pytest.approx(np.sqrt(np.pi) / (2 * np.sqrt(n)), rel=0.02)
     assert (values**2).mean() == pytest.approx(1 / n, rel=0.01)

@@ -5,17 +5,16 @@ import pytest
 from scipy.signal import lfilter, welch
 from scipy.signal.windows import dpss
 
-from famwise.epochs import Epochs
 from famwise.decomposition import decompose
 from famwise.decomposition import multitaper as mt
+from famwise.epochs import Epochs
 
 
 @pytest.mark.parametrize(
     ("n_samples", "nw", "ratios"),
     [  # values of scipy.signal.windows.dpss(M, NW, Kmax, return_ratios=True)
         (500, 2.0, [0.99994277, 0.99756210, 0.95939335]),
-        (1000, 4.0, [1.0, 0.99999997, 0.99999879, 0.99996756, 0.99941019, 0.99250534,
-                     0.93665556]),
+        (1000, 4.0, [1.0, 0.99999997, 0.99999879, 0.99996756, 0.99941019, 0.99250534, 0.93665556]),
         (256, 3.0, [0.99999987, 0.99999078, 0.99971551, 0.99492006, 0.94616573]),
     ],
 )
@@ -37,8 +36,13 @@ def test_counts_and_resolution():
 
 
 def _epochs(data, sample_rate_hz):
-    return Epochs(data=data[:, None, :], sample_rate_hz=sample_rate_hz, epoch_start_s=0.0, channels=("Cz",),
-                  labels=np.array(["a"] * data.shape[0]))
+    return Epochs(
+        data=data[:, None, :],
+        sample_rate_hz=sample_rate_hz,
+        epoch_start_s=0.0,
+        channels=("Cz",),
+        labels=np.array(["a"] * data.shape[0]),
+    )
 
 
 def test_sinusoid_power_integrates_to_half_amplitude_squared():
@@ -48,8 +52,15 @@ def test_sinusoid_power_integrates_to_half_amplitude_squared():
     t = np.arange(1500) / fs
     epochs = _epochs(2.0 * np.cos(2 * np.pi * 100.0 * t + 0.3)[None, :], fs)
     freqs = np.arange(88.0, 112.01, 0.25)
-    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]}, frequencies_hz=freqs,
-                     method="multitaper", taper_length_ms=500.0, nw=2.0)
+    maps = decompose(
+        epochs,
+        subject="s1",
+        conditions={"c": ["a"]},
+        frequencies_hz=freqs,
+        method="multitaper",
+        taper_length_ms=500.0,
+        nw=2.0,
+    )
     centre = maps.values[0, 0, :, t.size // 2].astype(float)
     assert np.trapezoid(centre, freqs) == pytest.approx(2.0, rel=0.01)
 
@@ -61,8 +72,15 @@ def test_white_noise_flat_at_psd_level():
     rng = np.random.default_rng(11)
     epochs = _epochs(rng.normal(0, sd, (300, 1500)), fs)
     freqs = np.linspace(40.0, 400.0, 7)
-    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]}, frequencies_hz=freqs,
-                     method="multitaper", taper_length_ms=500.0, nw=2.0)
+    maps = decompose(
+        epochs,
+        subject="s1",
+        conditions={"c": ["a"]},
+        frequencies_hz=freqs,
+        method="multitaper",
+        taper_length_ms=500.0,
+        nw=2.0,
+    )
     level = np.array([maps.values[0, 0, i][maps.valid[i]].mean() for i in range(freqs.size)])
     np.testing.assert_allclose(level, 2 * sd**2 / fs, rtol=0.06)
     assert level.mean() == pytest.approx(2 * sd**2 / fs, rel=0.02)
@@ -76,8 +94,15 @@ def test_stationary_power_agrees_with_welch():
     rng = np.random.default_rng(5)
     data = lfilter([1.0], [1.0, -0.8], rng.normal(size=(100, 2000)), axis=-1)
     freqs = np.array([20.0, 50.0, 100.0, 200.0, 300.0])
-    maps = decompose(_epochs(data, fs), subject="s1", conditions={"c": ["a"]}, frequencies_hz=freqs,
-                     method="multitaper", taper_length_ms=500.0, nw=2.0)
+    maps = decompose(
+        _epochs(data, fs),
+        subject="s1",
+        conditions={"c": ["a"]},
+        frequencies_hz=freqs,
+        method="multitaper",
+        taper_length_ms=500.0,
+        nw=2.0,
+    )
     ours = np.array([maps.values[0, 0, i][maps.valid[i]].mean() for i in range(freqs.size)])
     grid, psd = welch(data, fs=fs, nperseg=500, axis=-1)
     theirs = np.interp(freqs, grid, psd.mean(axis=0))

@@ -3,9 +3,9 @@
 import numpy as np
 import pytest
 
-from famwise.epochs import Epochs
 from famwise.decomposition import decompose
 from famwise.decomposition import wavelets as wl
+from famwise.epochs import Epochs
 
 
 @pytest.mark.parametrize(
@@ -70,8 +70,13 @@ def test_log_linear_cycles():
 
 def _one_channel(signal, sample_rate_hz, epoch_start_s=0.0, label="a"):
     data = np.atleast_2d(signal)[:, None, :]
-    return Epochs(data=data, sample_rate_hz=sample_rate_hz, epoch_start_s=epoch_start_s, channels=("Cz",),
-                  labels=np.array([label] * data.shape[0]))
+    return Epochs(
+        data=data,
+        sample_rate_hz=sample_rate_hz,
+        epoch_start_s=epoch_start_s,
+        channels=("Cz",),
+        labels=np.array([label] * data.shape[0]),
+    )
 
 
 def test_sinusoid_amplitude_recovered():
@@ -81,8 +86,7 @@ def test_sinusoid_amplitude_recovered():
     fs, amplitude = 1000.0, 3e-6
     t = np.arange(int(4 * fs)) / fs
     epochs = _one_channel(amplitude * np.cos(2 * np.pi * 10.0 * t + 0.7), fs)
-    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]}, frequencies_hz=np.array([10.0]),
-                     cycles=7.0)
+    maps = decompose(epochs, subject="s1", conditions={"c": ["a"]}, frequencies_hz=np.array([10.0]), cycles=7.0)
     margin = 5 * wl.sigma_t_from_cycles(10.0, 7.0)
     inside = (t >= margin) & (t <= t[-1] - margin)
     np.testing.assert_allclose(np.sqrt(maps.values[0, 0, 0, inside]), amplitude, rtol=1e-4)

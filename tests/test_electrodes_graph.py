@@ -12,7 +12,6 @@ import pytest
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 
-from famwise.errors import FamwiseWarning, UserError  # noqa: E402
 from famwise.electrodes import (  # noqa: E402
     ChannelGraph,
     Positions,
@@ -27,11 +26,14 @@ from famwise.electrodes import (  # noqa: E402
     save_graph,
     system_positions,
 )
+from famwise.errors import FamwiseWarning, UserError  # noqa: E402
 
 # a common 64-channel 10-10 layout
-CAP64 = ("Fp1 Fpz Fp2 AF7 AF3 AFz AF4 AF8 F7 F5 F3 F1 Fz F2 F4 F6 F8 FT7 FC5 FC3 FC1 FCz FC2 FC4 FC6 FT8 "
-         "T7 C5 C3 C1 Cz C2 C4 C6 T8 TP7 CP5 CP3 CP1 CPz CP2 CP4 CP6 TP8 P7 P5 P3 P1 Pz P2 P4 P6 P8 "
-         "PO7 PO3 POz PO4 PO8 O1 Oz O2 P9 P10 Iz").split()
+CAP64 = (
+    "Fp1 Fpz Fp2 AF7 AF3 AFz AF4 AF8 F7 F5 F3 F1 Fz F2 F4 F6 F8 FT7 FC5 FC3 FC1 FCz FC2 FC4 FC6 FT8 "
+    "T7 C5 C3 C1 Cz C2 C4 C6 T8 TP7 CP5 CP3 CP1 CPz CP2 CP4 CP6 TP8 P7 P5 P3 P1 Pz P2 P4 P6 P8 "
+    "PO7 PO3 POz PO4 PO8 O1 Oz O2 P9 P10 Iz"
+).split()
 
 
 def _on_sphere(flat, radius_mm=85.0):
@@ -49,7 +51,7 @@ def _connected(graph):
     seen, queue = {0}, deque([0])
     while queue:
         i = queue.popleft()
-        for j in graph.indices[graph.indptr[i]:graph.indptr[i + 1]]:
+        for j in graph.indices[graph.indptr[i] : graph.indptr[i + 1]]:
             if j not in seen:
                 seen.add(int(j))
                 queue.append(int(j))
@@ -64,7 +66,9 @@ def test_projection_is_equidistant_from_the_vertex():
     std = system_positions("10-20")
     flat = azimuthal_projection(std.xyz)
     fz, t7 = flat[std.names.index("Fz")], flat[std.names.index("T7")]
-    np.testing.assert_allclose(fz, [0, np.pi / 4], atol=1e-6)  # Fz 45 degrees anterior on a sphere whose equator is the Fpz-T7-Oz-T8 circle (Jasper 1958 percentages)
+    np.testing.assert_allclose(
+        fz, [0, np.pi / 4], atol=1e-6
+    )  # Fz 45 degrees anterior on a sphere whose equator is the Fpz-T7-Oz-T8 circle (Jasper 1958 percentages)
     np.testing.assert_allclose(t7, [-np.pi / 2, 0], atol=1e-6)  # left on the left
 
 
@@ -72,13 +76,20 @@ def test_triangular_lattice_gives_its_six_neighbors():
     # Delaunay (1934): a triangular lattice has no four co-circular points, so the triangulation is
     # unique and joins exactly the lattice neighbors (one spacing apart)
     spacing = 0.12
-    points = [(spacing * (i + j / 2), spacing * j * np.sqrt(3) / 2)
-              for i in range(-3, 4) for j in range(-3, 4) if abs(i + j) <= 3]
+    points = [
+        (spacing * (i + j / 2), spacing * j * np.sqrt(3) / 2)
+        for i in range(-3, 4)
+        for j in range(-3, 4)
+        if abs(i + j) <= 3
+    ]
     flat = np.array(points)
     names = tuple(f"E{k}" for k in range(len(flat)))
     graph = neighbor_graph(Positions(names, _on_sphere(flat), "lattice"))
-    expected = {frozenset((names[a], names[b])) for a, b in combinations(range(len(flat)), 2)
-                if np.isclose(np.linalg.norm(flat[a] - flat[b]), spacing)}
+    expected = {
+        frozenset((names[a], names[b]))
+        for a, b in combinations(range(len(flat)), 2)
+        if np.isclose(np.linalg.norm(flat[a] - flat[b]), spacing)
+    }
     assert _edge_set(graph) == expected
     assert len(flat) == 37 and graph.n_edges == 90
     centre = names[int(np.argmin(np.hypot(flat[:, 0], flat[:, 1])))]
@@ -92,8 +103,14 @@ def test_square_grid_joins_all_four_points_of_each_cell():
     spacing, n = 0.1, 5
     grid = np.array([(spacing * (i - 2), spacing * (j - 2)) for i in range(n) for j in range(n)])
     names = tuple(f"G{i}{j}" for i in range(n) for j in range(n))
-    expected = {frozenset((f"G{i}{j}", f"G{k}{m}")) for i in range(n) for j in range(n)
-                for k in range(n) for m in range(n) if (i, j) != (k, m) and max(abs(i - k), abs(j - m)) == 1}
+    expected = {
+        frozenset((f"G{i}{j}", f"G{k}{m}"))
+        for i in range(n)
+        for j in range(n)
+        for k in range(n)
+        for m in range(n)
+        if (i, j) != (k, m) and max(abs(i - k), abs(j - m)) == 1
+    }
     for turn_deg in (0.0, 7.0, 45.0):  # the cell circles survive a rotation about the vertex
         turn = np.radians(turn_deg)
         rotated = grid @ np.array([[np.cos(turn), np.sin(turn)], [-np.sin(turn), np.cos(turn)]])
@@ -109,7 +126,7 @@ def test_graph_structure_invariants():
     assert graph.indptr.shape == (74,) and graph.indices.size == 2 * graph.n_edges
     dense = np.zeros((73, 73), dtype=int)
     for i in range(73):
-        row = graph.indices[graph.indptr[i]:graph.indptr[i + 1]]
+        row = graph.indices[graph.indptr[i] : graph.indptr[i + 1]]
         assert np.all(np.diff(row) > 0) and i not in row
         dense[i, row] = 1
     np.testing.assert_array_equal(dense, dense.T)
@@ -204,8 +221,11 @@ def test_distance_graph_matches_brute_force_and_grows_monotonically():
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", FamwiseWarning)
             graph = neighbor_graph(positions, method="distance", max_distance_mm=threshold)
-        expected = {frozenset((a, b)) for (a, xa), (b, xb) in combinations(zip(positions.names, positions.xyz), 2)
-                    if np.sqrt(np.sum((xa - xb) ** 2)) <= threshold}
+        expected = {
+            frozenset((a, b))
+            for (a, xa), (b, xb) in combinations(zip(positions.names, positions.xyz), 2)
+            if np.sqrt(np.sum((xa - xb) ** 2)) <= threshold
+        }
         assert _edge_set(graph) == expected
         assert previous <= expected
         previous = expected
@@ -214,8 +234,11 @@ def test_distance_graph_matches_brute_force_and_grows_monotonically():
 
 def test_isolated_channels_warn():
     positions = system_positions("10-20")
-    with pytest.warns(FamwiseWarning, match=r"channel graph \(distance\): 21 channel\(s\) without neighbors: "
-                                            r"Fp1, .*; they can only form single-channel clusters"):
+    with pytest.warns(
+        FamwiseWarning,
+        match=r"channel graph \(distance\): 21 channel\(s\) without neighbors: "
+        r"Fp1, .*; they can only form single-channel clusters",
+    ):
         graph = neighbor_graph(positions, method="distance", max_distance_mm=10.0)
     assert graph.isolated == positions.names and graph.n_edges == 0
     assert graph_summary(graph).splitlines()[-1].startswith("isolated channels: Fp1, Fpz, Fp2")
@@ -257,8 +280,11 @@ def test_edge_list_unknown_channels(tmp_path):
     positions = match_channels(system_positions("10-10"), ["T7", "C3", "Cz"])
     path = tmp_path / "edges.tsv"
     path.write_text("channel_a\tchannel_b\nT7\tC3\nC3\tC5\nFz\tCz\n")
-    with pytest.raises(UserError, match=r"edges\.tsv: the edge list names channels that are not analysed: "
-                                        r"'C5' \(line 3\), 'Fz' \(line 4\); analysed channels: T7, C3, Cz"):
+    with pytest.raises(
+        UserError,
+        match=r"edges\.tsv: the edge list names channels that are not analysed: "
+        r"'C5' \(line 3\), 'Fz' \(line 4\); analysed channels: T7, C3, Cz",
+    ):
         neighbor_graph(positions, method="edges", edges_file=path)
 
 
@@ -266,8 +292,11 @@ def test_edge_list_bad_header_and_self_pair(tmp_path):
     positions = match_channels(system_positions("10-10"), ["T7", "C3", "Cz"])
     path = tmp_path / "edges.tsv"
     path.write_text("from\tto\nT7\tC3\n")
-    with pytest.raises(UserError, match=r"edges\.tsv: expected a header with the columns channel_a, channel_b "
-                                        r"\(tab-separated\), found: from, to"):
+    with pytest.raises(
+        UserError,
+        match=r"edges\.tsv: expected a header with the columns channel_a, channel_b "
+        r"\(tab-separated\), found: from, to",
+    ):
         neighbor_graph(positions, method="edges", edges_file=path)
     path.write_text("channel_a\tchannel_b\nT7\tC3\nCz\tcz\n")
     with pytest.raises(UserError, match=r"edges\.tsv, line 3: channel 'Cz' is paired with itself"):
@@ -276,15 +305,20 @@ def test_edge_list_bad_header_and_self_pair(tmp_path):
         neighbor_graph(positions, method="edges", edges_file=tmp_path / "nowhere.tsv")
 
 
-@pytest.mark.parametrize(("kwargs", "message"), [
-    ({"method": "knn"}, r"channel graph method must be one of delaunay, distance, edges, got 'knn'"),
-    ({"method": "distance"}, r"channel graph method 'distance' needs max_distance_mm"),
-    ({"method": "distance", "max_distance_mm": -5}, r"max_distance_mm must be a positive number of mm, got -5"),
-    ({"method": "edges"}, r"channel graph method 'edges' needs edges_file"),
-    ({"edges_file": "e.tsv"}, r"edges_file is used only with method 'edges', not 'delaunay'"),
-    ({"method": "edges", "edges_file": "e.tsv", "max_distance_mm": 3},
-     r"max_distance_mm is not used with method 'edges'"),
-])
+@pytest.mark.parametrize(
+    ("kwargs", "message"),
+    [
+        ({"method": "knn"}, r"channel graph method must be one of delaunay, distance, edges, got 'knn'"),
+        ({"method": "distance"}, r"channel graph method 'distance' needs max_distance_mm"),
+        ({"method": "distance", "max_distance_mm": -5}, r"max_distance_mm must be a positive number of mm, got -5"),
+        ({"method": "edges"}, r"channel graph method 'edges' needs edges_file"),
+        ({"edges_file": "e.tsv"}, r"edges_file is used only with method 'edges', not 'delaunay'"),
+        (
+            {"method": "edges", "edges_file": "e.tsv", "max_distance_mm": 3},
+            r"max_distance_mm is not used with method 'edges'",
+        ),
+    ],
+)
 def test_bad_graph_settings(kwargs, message):
     with pytest.raises(UserError, match=message):
         neighbor_graph(system_positions("10-20"), **kwargs)
@@ -339,7 +373,7 @@ def _mirror(name):
     stem = name.rstrip("0123456789")
     if stem == name:
         return name
-    number = int(name[len(stem):])
+    number = int(name[len(stem) :])
     return f"{stem}{number + 1 if number % 2 else number - 1}"
 
 

@@ -8,8 +8,8 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from famwise.errors import FamwiseWarning, UserError
 from famwise.electrodes import Positions, match_channels, read_positions, system_positions
+from famwise.errors import FamwiseWarning, UserError
 
 REPO = Path(__file__).resolve().parents[1]
 TABLES = ("10-10.tsv", "10-20.tsv")
@@ -107,8 +107,13 @@ def test_row_positions_midway():
 def test_ten_ten_rows_equally_spaced():
     # common practice, no source: 10-10 rows split the lateral-to-midline arc into equal steps
     p = system_positions("10-10")
-    for row in (["F7", "F5", "F3", "F1", "Fz"], ["FT7", "FC5", "FC3", "FC1", "FCz"],
-                ["TP8", "CP6", "CP4", "CP2", "CPz"], ["AF7", "AF3", "AFz"], ["PO8", "PO4", "POz"]):
+    for row in (
+        ["F7", "F5", "F3", "F1", "Fz"],
+        ["FT7", "FC5", "FC3", "FC1", "FCz"],
+        ["TP8", "CP6", "CP4", "CP2", "CPz"],
+        ["AF7", "AF3", "AFz"],
+        ["PO8", "PO4", "POz"],
+    ):
         gaps = [np.linalg.norm(_pos(p, a) - _pos(p, b)) for a, b in zip(row, row[1:])]
         np.testing.assert_allclose(gaps, gaps[0], rtol=1e-6)
 
@@ -120,7 +125,7 @@ def test_mirror_symmetry(system):
     names = set(p.names)
     for name in p.names:
         stem = name.rstrip("0123456789")
-        number = name[len(stem):]
+        number = name[len(stem) :]
         if not number:
             assert name.endswith("z") and abs(_pos(p, name)[0]) < 1e-6
         elif int(number) % 2:
@@ -134,10 +139,19 @@ def test_model_b_values():
     # equator through Fpz-T7-Oz-T8, derived by hand from the Jasper (1958) percentages (numpy trigonometry; not a standard)
     p = system_positions("10-20")
     expected = {
-        "Fpz": (0, 1, 0), "Fz": (0, 0.70711, 0.70711), "Cz": (0, 0, 1), "Pz": (0, -0.70711, 0.70711),
-        "Oz": (0, -1, 0), "C3": (-0.70711, 0, 0.70711), "C4": (0.70711, 0, 0.70711), "T7": (-1, 0, 0),
-        "T8": (1, 0, 0), "Fp1": (-0.30902, 0.95106, 0), "F7": (-0.80902, 0.58779, 0),
-        "P7": (-0.80902, -0.58779, 0), "O1": (-0.30902, -0.95106, 0),
+        "Fpz": (0, 1, 0),
+        "Fz": (0, 0.70711, 0.70711),
+        "Cz": (0, 0, 1),
+        "Pz": (0, -0.70711, 0.70711),
+        "Oz": (0, -1, 0),
+        "C3": (-0.70711, 0, 0.70711),
+        "C4": (0.70711, 0, 0.70711),
+        "T7": (-1, 0, 0),
+        "T8": (1, 0, 0),
+        "Fp1": (-0.30902, 0.95106, 0),
+        "F7": (-0.80902, 0.58779, 0),
+        "P7": (-0.80902, -0.58779, 0),
+        "O1": (-0.30902, -0.95106, 0),
     }
     for name, unit in expected.items():
         np.testing.assert_allclose(_pos(p, name) / R, unit, atol=1e-5)
@@ -178,6 +192,7 @@ def test_bad_system():
 
 # --- matching names ----------------------------------------------------------------------------
 
+
 def test_aliases_and_case():
     # from memory, high confidence (Acharya et al. 2016 guideline): the 10-10 names replace T3/T4 -> T7/T8, T5/T6 -> P7/P8
     std = system_positions("10-10")
@@ -199,8 +214,11 @@ def test_match_keeps_order_and_subset():
 
 
 def test_unknown_channel_name():
-    with pytest.raises(UserError, match=r"no position in the 10-10 system \(idealised spherical positions\) for 2 analysed channels: "
-                                        r"'Fzz' \(did you mean 'Fz'\?\), 'EOG'"):
+    with pytest.raises(
+        UserError,
+        match=r"no position in the 10-10 system \(idealised spherical positions\) for 2 analysed channels: "
+        r"'Fzz' \(did you mean 'Fz'\?\), 'EOG'",
+    ):
         match_channels(system_positions("10-10"), ["Cz", "Fzz", "EOG"])
 
 
@@ -208,8 +226,11 @@ def test_positions_missing_for_analysed_channels(tmp_path):
     path = tmp_path / "caps.tsv"
     path.write_text("name\tx\ty\tz\nFz\t0\t60\t60\nCz\t0\t0\t85\nPz\t0\t-60\t60\n")
     positions = read_positions(path)
-    with pytest.raises(UserError, match=rf"no position in {re.escape(str(path))} for 2 analysed channels: "
-                                        r"'C3', 'C4'"):
+    with pytest.raises(
+        UserError,
+        match=rf"no position in {re.escape(str(path))} for 2 analysed channels: "
+        r"'C3', 'C4'",
+    ):
         match_channels(positions, ["Fz", "C3", "Cz", "C4"])
 
 
@@ -220,17 +241,24 @@ def test_duplicate_analysed_channels():
 
 # --- reading files -----------------------------------------------------------------------------
 
+
 def _write_bids(folder, units, rows, stem="sub-01_ses-1_space-CapTrak"):
     tsv = folder / f"{stem}_electrodes.tsv"
     tsv.write_text("name\tx\ty\tz\ttype\n" + "".join(f"{n}\t{x}\t{y}\t{z}\tcup\n" for n, x, y, z in rows))
     if units is not None:
         (folder / f"{stem}_coordsystem.json").write_text(
-            json.dumps({"EEGCoordinateSystem": "CapTrak", "EEGCoordinateUnits": units}))
+            json.dumps({"EEGCoordinateSystem": "CapTrak", "EEGCoordinateUnits": units})
+        )
     return tsv
 
 
-ROWS_M = [("Fz", 0.0, 0.06, 0.06), ("Cz", 0.0, 0.0, 0.085), ("T7", -0.085, 0.0, 0.0),
-          ("Oz", 0.0, -0.085, 0.0), ("EOG", "n/a", "n/a", "n/a")]
+ROWS_M = [
+    ("Fz", 0.0, 0.06, 0.06),
+    ("Cz", 0.0, 0.0, 0.085),
+    ("T7", -0.085, 0.0, 0.0),
+    ("Oz", 0.0, -0.085, 0.0),
+    ("EOG", "n/a", "n/a", "n/a"),
+]
 
 
 @pytest.mark.parametrize(("units", "scale"), [("m", 1.0), ("cm", 100.0), ("mm", 1000.0)])
@@ -257,8 +285,11 @@ def test_units_that_look_wrong_warn(tmp_path):
 
 
 def test_bad_sidecar_units(tmp_path):
-    with pytest.raises(UserError, match=r"coordsystem\.json: EEGCoordinateUnits must be one of "
-                                        r"m, cm, mm, got 'inch'"):
+    with pytest.raises(
+        UserError,
+        match=r"coordsystem\.json: EEGCoordinateUnits must be one of "
+        r"m, cm, mm, got 'inch'",
+    ):
         read_positions(_write_bids(tmp_path, "inch", ROWS_M))
 
 
@@ -280,20 +311,29 @@ def test_system_table_reads_as_a_plain_file():
 def test_duplicate_names_in_file(tmp_path):
     path = tmp_path / "dup.tsv"
     path.write_text("name\tx\ty\tz\nFz\t0\t60\t60\nCz\t0\t0\t85\nfz\t0\t61\t60\n")
-    with pytest.raises(UserError, match=r"dup\.tsv, line 4: duplicate electrode 'fz', already given as 'Fz' "
-                                        r"on line 2$"):
+    with pytest.raises(
+        UserError,
+        match=r"dup\.tsv, line 4: duplicate electrode 'fz', already given as 'Fz' "
+        r"on line 2$",
+    ):
         read_positions(path)
     path.write_text("name\tx\ty\tz\nT3\t-85\t0\t0\nCz\t0\t0\t85\nT7\t-85\t0\t0\n")
-    with pytest.raises(UserError, match=r"line 4: duplicate electrode 'T7', already given as 'T3' on line 2 "
-                                        r"\(T3-T6 are the old names"):
+    with pytest.raises(
+        UserError,
+        match=r"line 4: duplicate electrode 'T7', already given as 'T3' on line 2 "
+        r"\(T3-T6 are the old names",
+    ):
         read_positions(path)
 
 
 def test_non_numeric_coordinates(tmp_path):
     path = tmp_path / "bad.tsv"
     path.write_text("name\tx\ty\tz\nFz\t0\t60\t60\nCz\t0\tzero\t85\n")
-    with pytest.raises(UserError, match=r"bad\.tsv, line 3: coordinate y of 'Cz' must be a finite number, "
-                                        r"found 'zero'"):
+    with pytest.raises(
+        UserError,
+        match=r"bad\.tsv, line 3: coordinate y of 'Cz' must be a finite number, "
+        r"found 'zero'",
+    ):
         read_positions(path)
     path.write_text("name\tx\ty\tz\nFz\t0\t60\tnan\n")
     with pytest.raises(UserError, match=r"line 2: coordinate z of 'Fz' must be a finite number, found 'nan'"):
@@ -303,8 +343,11 @@ def test_non_numeric_coordinates(tmp_path):
 def test_bad_header_and_row_length(tmp_path):
     path = tmp_path / "cols.tsv"
     path.write_text("label\tx\ty\tz\nFz\t0\t60\t60\n")
-    with pytest.raises(UserError, match=r"cols\.tsv: expected a header with the columns name, x, y, z "
-                                        r"\(tab-separated\), found: label, x, y, z"):
+    with pytest.raises(
+        UserError,
+        match=r"cols\.tsv: expected a header with the columns name, x, y, z "
+        r"\(tab-separated\), found: label, x, y, z",
+    ):
         read_positions(path)
     path.write_text("name\tx\ty\tz\nFz\t0\t60\n")
     with pytest.raises(UserError, match=r"line 2: expected 4 tab-separated fields as in the header, found 3"):

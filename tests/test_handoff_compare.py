@@ -11,22 +11,51 @@ from famwise.report.result_hashes import results_fingerprint
 
 
 def _base() -> dict:
-    corrections = {"holm": {"n_significant": 4, "arrays": {"mask": "m1", "p_corrected": "p1", "n_significant": "n1"}, "tables": {}},
-                   "clusters": {"n_significant": 9, "arrays": {"mask": "m2", "p_corrected": "p2", "null": "z2"},
-                                "tables": {"clusters.tsv": "t2"}}}
+    corrections = {
+        "holm": {
+            "n_significant": 4,
+            "arrays": {"mask": "m1", "p_corrected": "p1", "n_significant": "n1"},
+            "tables": {},
+        },
+        "clusters": {
+            "n_significant": 9,
+            "arrays": {"mask": "m2", "p_corrected": "p2", "null": "z2"},
+            "tables": {"clusters.tsv": "t2"},
+        },
+    }
     return {
         "spec_fingerprint": "f" * 64,
-        "spec_settings": {"name": "demo", "output": "results", "seed": 7, "inference.permutations": 99,
-                          "inference.shards": 2, "inference.alpha": 0.05, "inference.family": "per-contrast",
-                          "decomposition.cycles": 3, "contrasts[a].test": "paired", "contrasts[b].test": "one-sample",
-                          "inference.corrections[holm].method": "holm", "inference.corrections[holm].pvalues": "parametric",
-                          "inference.corrections[holm].level": None,
-                          "inference.corrections[clusters].method": "cluster", "inference.corrections[clusters].forming_p": 0.01},
-        "seed": 7, "permutations": 99,
-        "packages": {"famwise": "0.1.0", "numpy": "2.4.0", "scipy": "1.16.0", "numba": "0.62.0", "matplotlib": "3.10.0"},
+        "spec_settings": {
+            "name": "demo",
+            "output": "results",
+            "seed": 7,
+            "inference.permutations": 99,
+            "inference.shards": 2,
+            "inference.alpha": 0.05,
+            "inference.family": "per-contrast",
+            "decomposition.cycles": 3,
+            "contrasts[a].test": "paired",
+            "contrasts[b].test": "one-sample",
+            "inference.corrections[holm].method": "holm",
+            "inference.corrections[holm].pvalues": "parametric",
+            "inference.corrections[holm].level": None,
+            "inference.corrections[clusters].method": "cluster",
+            "inference.corrections[clusters].forming_p": 0.01,
+        },
+        "seed": 7,
+        "permutations": 99,
+        "packages": {
+            "famwise": "0.1.0",
+            "numpy": "2.4.0",
+            "scipy": "1.16.0",
+            "numba": "0.62.0",
+            "matplotlib": "3.10.0",
+        },
         "input_files": {f"data/sub-{i:02d}.npz": {"sha256": f"h{i}", "bytes": 100} for i in range(1, 9)},
-        "results": {name: {"statistics": {"stat": f"s-{name}", "p": f"p-{name}"}, "corrections": copy.deepcopy(corrections)}
-                    for name in ("a", "b")},
+        "results": {
+            name: {"statistics": {"stat": f"s-{name}", "p": f"p-{name}"}, "corrections": copy.deepcopy(corrections)}
+            for name in ("a", "b")
+        },
         "results_fingerprint": "0123456789ab" + "0" * 52,
     }
 
@@ -43,8 +72,11 @@ def _status(outcomes) -> dict:
 def test_identical_records():
     outcomes, text = _text(_base(), _base())
     assert set(_status(outcomes).values()) == {"identical"}
-    assert text.splitlines()[2:] == ["a: statistics, holm, clusters: identical", "b: statistics, holm, clusters: identical",
-                                     "all 6 results identical"]
+    assert text.splitlines()[2:] == [
+        "a: statistics, holm, clusters: identical",
+        "b: statistics, holm, clusters: identical",
+        "all 6 results identical",
+    ]
 
 
 def test_same_inputs_and_settings_but_other_numbers_is_a_reproducibility_failure():
@@ -55,8 +87,10 @@ def test_same_inputs_and_settings_but_other_numbers_is_a_reproducibility_failure
     outcomes, text = _text(_base(), second)
     failed = [o for o in outcomes if o.status != "identical"]
     assert [(o.contrast, o.result, o.failure) for o in failed] == [("b", "clusters", True)]
-    assert ("b/clusters: different (mask identical; null differ): DIFFERENT NUMBERS from the same inputs, settings, "
-            "seed, permutations and library versions: a reproducibility failure") in text
+    assert (
+        "b/clusters: different (mask identical; null differ): DIFFERENT NUMBERS from the same inputs, settings, "
+        "seed, permutations and library versions: a reproducibility failure"
+    ) in text
     assert "note: inference.shards 2 -> 4 (results do not depend on these)" in text
     assert text.endswith("1 of 6 results differ; 1 of them a REPRODUCIBILITY FAILURE")
 
@@ -120,8 +154,12 @@ def test_changed_inputs_are_named_and_long_lists_counted():
     second["results"]["a"]["statistics"]["p"] = "changed"
     outcomes, text = _text(_base(), second)
     (changed,) = [o for o in outcomes if o.status != "identical"]
-    assert changed.causes == ["input data/sub-02.npz changed", "input data/sub-03.npz changed",
-                              "input data/sub-04.npz changed", "4 more input files"]
+    assert changed.causes == [
+        "input data/sub-02.npz changed",
+        "input data/sub-03.npz changed",
+        "input data/sub-04.npz changed",
+        "4 more input files",
+    ]
     assert "a/statistics: different (p differ): input data/sub-02.npz changed;" in text
 
 
@@ -130,7 +168,10 @@ def test_a_result_in_one_record_only():
     second["results"]["b"]["corrections"]["tfce"] = {"n_significant": 0, "arrays": {"mask": "m"}, "tables": {}}
     del second["results"]["a"]["corrections"]["holm"]
     outcomes, text = _text(_base(), second)
-    assert {k: v for k, v in _status(outcomes).items() if v != "identical"} == {"a/holm": "only in first", "b/tfce": "only in second"}
+    assert {k: v for k, v in _status(outcomes).items() if v != "identical"} == {
+        "a/holm": "only in first",
+        "b/tfce": "only in second",
+    }
     assert "2 of 7 results differ" in text
 
 
@@ -152,15 +193,21 @@ def test_exit_status_and_e_mail_sized_output(tmp_path, capsys):
     assert len(out.splitlines()) <= 6 and max(map(len, out.splitlines()[1:])) < 100
 
 
-@pytest.mark.parametrize("content, message", [
-    (None, "theirs.json: no such provenance record"),
-    ("{not json", "not a provenance record (invalid JSON at line 1"),
-    ("[1, 2]", "not a provenance record (expected a JSON object)"),
-    (json.dumps({"spec_fingerprint": "f", "packages": {"famwise": "0.0.9"}}), "has no result hashes (written by famwise 0.0.9)"),
-    (json.dumps({"seed": 1}), "not a famwise provenance record (missing spec_settings, permutations"),
-    (json.dumps(_base() | {"results": {"a": {"statistics": {}}}}), "results of contrast 'a' are malformed"),
-    (json.dumps(_base()), "theirs.json: the results fingerprint does not match the record's result hashes"),
-])
+@pytest.mark.parametrize(
+    "content, message",
+    [
+        (None, "theirs.json: no such provenance record"),
+        ("{not json", "not a provenance record (invalid JSON at line 1"),
+        ("[1, 2]", "not a provenance record (expected a JSON object)"),
+        (
+            json.dumps({"spec_fingerprint": "f", "packages": {"famwise": "0.0.9"}}),
+            "has no result hashes (written by famwise 0.0.9)",
+        ),
+        (json.dumps({"seed": 1}), "not a famwise provenance record (missing spec_settings, permutations"),
+        (json.dumps(_base() | {"results": {"a": {"statistics": {}}}}), "results of contrast 'a' are malformed"),
+        (json.dumps(_base()), "theirs.json: the results fingerprint does not match the record's result hashes"),
+    ],
+)
 def test_unusable_records_exit_2(tmp_path, capsys, content, message):
     path = tmp_path / "theirs.json"
     if content is not None:

@@ -4,10 +4,10 @@ import numpy as np
 import pytest
 
 from famwise.correct.maxstat import single_step, single_step_family, step_down, step_down_family
-from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
-from famwise.nulls.collectors.protocol import merge_shard_arrays
 from famwise.errors import UserError
 from famwise.naive.stepdown import step_down_reference
+from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
+from famwise.nulls.collectors.protocol import merge_shard_arrays
 
 TAILS = ["two-sided", "greater", "less"]
 TRANSFORM = {"two-sided": np.abs, "greater": lambda x: x, "less": np.negative}

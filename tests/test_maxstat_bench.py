@@ -15,8 +15,9 @@ def test_quick_step_down_bench():
 
 def test_ratio_of_a_row_against_a_floor_is_famwise_over_the_floor():
     against_reference = BenchRow("t", "s", famwise_s=2.0, reference_s=10.0, target=">= 5x", met=True)
-    against_floor = BenchRow("t", "s", famwise_s=2.0, reference_s=0.8, target="<= 3x the matmul", met=True,
-                             slower_is_ratio=True)
+    against_floor = BenchRow(
+        "t", "s", famwise_s=2.0, reference_s=0.8, target="<= 3x the matmul", met=True, slower_is_ratio=True
+    )
     assert against_reference.ratio == 5.0 and against_floor.ratio == 2.5
 
 

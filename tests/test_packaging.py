@@ -8,9 +8,14 @@ ROOT = Path(__file__).parents[1]
 
 def test_every_package_folder_is_listed_in_pyproject():
     listed = set(tomllib.loads((ROOT / "pyproject.toml").read_text())["tool"]["setuptools"]["packages"])
-    found = {"famwise." + ".".join(p.parent.relative_to(ROOT / "workflow" / "famwise").parts) for p in (ROOT / "workflow" / "famwise").rglob("__init__.py")}
+    found = {
+        "famwise." + ".".join(p.parent.relative_to(ROOT / "workflow" / "famwise").parts)
+        for p in (ROOT / "workflow" / "famwise").rglob("__init__.py")
+    }
     found = {name.rstrip(".") for name in found} | {"famwise.rules"}
-    assert found == listed, f"pyproject.toml [tool.setuptools] packages differs from the package folders: {sorted(found ^ listed)}"
+    assert found == listed, (
+        f"pyproject.toml [tool.setuptools] packages differs from the package folders: {sorted(found ^ listed)}"
+    )
 
 
 def test_workflow_entry_is_the_packaged_rules():

@@ -58,11 +58,15 @@ def test_check_after_a_run_leaves_nothing_behind_and_names_the_changed_setting(f
     assert "nothing: every result is up to date" in capsys.readouterr().out
     assert _tree(finished_study.parent) == before
     text = finished_study.read_text()
-    finished_study.write_text(text.replace("permutations: 63", "permutations: 127").replace("alpha: 0.05", "alpha: 0.01"))
+    finished_study.write_text(
+        text.replace("permutations: 63", "permutations: 127").replace("alpha: 0.05", "alpha: 0.01")
+    )
     try:
         assert main(["check", str(finished_study)]) == 0
         out = capsys.readouterr().out
-        assert "correct_points    settings changed: inference.alpha 0.05 -> 0.01, inference.permutations 63 -> 127" in out
+        assert (
+            "correct_points    settings changed: inference.alpha 0.05 -> 0.01, inference.permutations 63 -> 127" in out
+        )
         assert "decompose" not in out
     finally:
         finished_study.write_text(text)

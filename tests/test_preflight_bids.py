@@ -45,7 +45,15 @@ def write_bids_study(folder, n_subjects: int, *, seconds: float = 40.0):
     for number in range(1, n_subjects + 1):
         data = rng.normal(scale=5e-6, size=(len(CHANNELS), int(seconds * sample_rate_hz)))
         events = [(2.0 + 1.8 * k, 0.0, "high" if k % 2 else "low") for k in range(20)]
-        bids.write_subject(folder / "data", f"{number:02d}", data=data, sample_rate_hz=sample_rate_hz, channels=CHANNELS, events=events, task="lantern")
+        bids.write_subject(
+            folder / "data",
+            f"{number:02d}",
+            data=data,
+            sample_rate_hz=sample_rate_hz,
+            channels=CHANNELS,
+            events=events,
+            task="lantern",
+        )
     spec = folder / "study.yaml"
     spec.write_text(SPEC)
     return spec
@@ -66,14 +74,19 @@ def test_sixty_subjects_are_checked_in_under_ten_seconds(tmp_path):
 def test_bids_label_in_no_recording(tmp_path):
     spec = write_bids_study(tmp_path, 3)
     spec.write_text(SPEC.replace("low-load: [low]", "low-load: [lowww]"))
-    with pytest.raises(UserError, match=r"study.yaml:10 conditions.low-load: .*'lowww' \(labels found: high, low\) \(did you mean 'low'\?\)"):
+    with pytest.raises(
+        UserError,
+        match=r"study.yaml:10 conditions.low-load: .*'lowww' \(labels found: high, low\) \(did you mean 'low'\?\)",
+    ):
         preflight(Plan.from_spec(spec))
 
 
 def test_bids_epoch_window_beyond_the_recording(tmp_path):
     spec = write_bids_study(tmp_path, 3)
     spec.write_text(SPEC.replace("window_ms: [-800, 1600]", "window_ms: [-2500, 1600]"))
-    with pytest.raises(UserError, match=r"study.yaml:12 epochs.window_ms: subject 01: the epoch window around the event at onset 2 s"):
+    with pytest.raises(
+        UserError, match=r"study.yaml:12 epochs.window_ms: subject 01: the epoch window around the event at onset 2 s"
+    ):
         preflight(Plan.from_spec(spec))
 
 
@@ -81,7 +94,14 @@ def test_bids_header_agrees_with_the_reader(tmp_path):
     spec = write_bids_study(tmp_path, 2)
     plan = Plan.from_spec(spec)
     header = read_headers(plan)["01"]
-    epochs = bids.read_subject(tmp_path / "data", "01", task="lantern", window_ms=(-800, 1600), reject_peak_to_peak_uv=None,
-                               reference="none", labels={"high", "low"})
+    epochs = bids.read_subject(
+        tmp_path / "data",
+        "01",
+        task="lantern",
+        window_ms=(-800, 1600),
+        reject_peak_to_peak_uv=None,
+        reference="none",
+        labels={"high", "low"},
+    )
     assert header.n_samples == epochs.data.shape[-1] and header.epoch_start_s == pytest.approx(epochs.epoch_start_s)
     assert header.channels == list(epochs.channels) and header.sample_rate_hz == epochs.sample_rate_hz

@@ -25,8 +25,9 @@ def _one_channel_case(seed):
 def test_regions_on_one_channel_equal_scipy_label_of_the_mask_by_sign():
     enhanced, p, mask = _one_channel_case(1)
     stat = enhanced / 7
-    region_id, rows = significant_regions(enhanced, p, mask, stat, **NO_GRAPH, channels=["Cz"],
-                                          freqs=np.arange(4.0, 16.0), times=np.arange(30) / 100)
+    region_id, rows = significant_regions(
+        enhanced, p, mask, stat, **NO_GRAPH, channels=["Cz"], freqs=np.arange(4.0, 16.0), times=np.arange(30) / 100
+    )
     assert (region_id != 0).sum() == mask.sum() > 0
     for sign in (1, -1):
         # scipy.ndimage.label, 4-connectivity (its default structure in 2-D), on each sign's significant points

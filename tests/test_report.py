@@ -17,6 +17,7 @@ from famwise.report import build_report, methods_text
 from famwise.report.methods import REFERENCES
 from famwise.report.results import read_run
 from famwise.report.sections import cluster_block, correction_notes, permutation_notes
+
 from report_fixture import write_output
 
 CHROMIUM = shutil.which("chromium")
@@ -66,12 +67,12 @@ def built(tmp_path_factory):
     spec.write_text("version: 1\nname: attention alpha\n")
     output = root / "results"
     write_output(output)
-    index = build_report(output, spec_text=spec.read_text(), spec_path=spec, input_files=inputs,
-                         started="2026-01-01T00:00:00+00:00")
+    index = build_report(
+        output, spec_text=spec.read_text(), spec_path=spec, input_files=inputs, started="2026-01-01T00:00:00+00:00"
+    )
     page = _Page()
     page.feed(index.read_text(encoding="utf-8"))
-    return {"root": root, "output": output, "index": index, "page": page,
-            "html": index.read_text(encoding="utf-8")}
+    return {"root": root, "output": output, "index": index, "page": page, "html": index.read_text(encoding="utf-8")}
 
 
 def test_report_writes_every_file_with_stable_names(built):
@@ -79,10 +80,21 @@ def test_report_writes_every_file_with_stable_names(built):
     assert built["index"] == report / "index.html"
     for name in ("methods.md", "provenance.json"):
         assert (report / name).is_file()
-    stems = ["channel_graph", "attention__uncorrected__map", "attention__holm__map",
-             "attention__fdr__map", "attention__max-stat__map", "attention__max-stat__null",
-             "attention__clusters__map", "attention__clusters__null",
-             "attention__clusters__cluster-pos1", "attention__clusters__values", "attention__planned__values", "attention__tfce__map", "attention__tfce__null"]
+    stems = [
+        "channel_graph",
+        "attention__uncorrected__map",
+        "attention__holm__map",
+        "attention__fdr__map",
+        "attention__max-stat__map",
+        "attention__max-stat__null",
+        "attention__clusters__map",
+        "attention__clusters__null",
+        "attention__clusters__cluster-pos1",
+        "attention__clusters__values",
+        "attention__planned__values",
+        "attention__tfce__map",
+        "attention__tfce__null",
+    ]
     for stem in stems:
         assert (report / "figures" / f"{stem}.png").stat().st_size > 1000
         assert (report / "figures" / f"{stem}.svg").read_text().lstrip().startswith("<?xml")
@@ -106,7 +118,9 @@ def test_report_shows_every_correction_with_its_count(built):
     for correction in run.contrasts[0].corrections:
         shown = correction.name if correction.name == correction.method else f"{correction.name} ({correction.method})"
         assert f"<b>{shown}</b>: {correction.n_significant} significant points" in built["html"]
-    assert "<b>holm</b>: " in built["html"] and "holm (holm)" not in built["html"]  # the method only when the name differs
+    assert (
+        "<b>holm</b>: " in built["html"] and "holm (holm)" not in built["html"]
+    )  # the method only when the name differs
     uncorrected = int((run.contrasts[0].p <= 0.05).sum())
     assert f"{uncorrected} of {run.contrasts[0].stat.size} points with p ≤ 0.05" in built["html"]
 
@@ -168,8 +182,11 @@ def _known_numbers(output: Path) -> list[float]:
         if (folder / "result.npz").is_file():
             with np.load(folder / "result.npz") as data:
                 known += [float(data["n_significant"]), float(data["threshold"])]
-                known += [float(v) for v in json.loads(str(data["settings"]))["correction"].values()
-                          if isinstance(v, (int, float)) and not isinstance(v, bool)]
+                known += [
+                    float(v)
+                    for v in json.loads(str(data["settings"]))["correction"].values()
+                    if isinstance(v, (int, float)) and not isinstance(v, bool)
+                ]
             if (folder / "clusters.tsv").is_file():
                 with open(folder / "clusters.tsv") as handle:
                     known.append(float(sum(1 for _ in handle) - 1))
@@ -190,15 +207,19 @@ def _known_numbers(output: Path) -> list[float]:
 def test_every_number_in_the_methods_paragraph_comes_from_the_files(built):
     text = (built["output"] / "report" / "methods.md").read_text()
     body = text.split("Analyses ran in famwise")[0]
-    body = re.sub(r"\d+ channels × \d+ frequencies × \d+ time points", "", body) + " " + \
-        " ".join(re.findall(r"\d+ channels × \d+ frequencies × \d+ time points", body))
+    body = (
+        re.sub(r"\d+ channels × \d+ frequencies × \d+ time points", "", body)
+        + " "
+        + " ".join(re.findall(r"\d+ channels × \d+ frequencies × \d+ time points", body))
+    )
     with open(built["output"] / "subjects.tsv", newline="") as handle:
         for row in csv.DictReader(handle, delimiter="\t"):
             body = body.replace(f"{row['subject']}: ", "")  # subject ids are labels
     known = np.array(_known_numbers(built["output"]))
     for number in _numbers(body):
-        assert np.any(np.isclose(known, abs(number), rtol=6e-4, atol=0)) \
-            or np.any(np.isclose(known, number, rtol=6e-4, atol=0)), number
+        assert np.any(np.isclose(known, abs(number), rtol=6e-4, atol=0)) or np.any(
+            np.isclose(known, number, rtol=6e-4, atol=0)
+        ), number
 
 
 def test_methods_sentences_match_each_result(built):
@@ -209,9 +230,12 @@ def test_methods_sentences_match_each_result(built):
     assert found and [int(g) for g in found.groups()] == [info["permutations"], 7, info["n_rows"]]
     smallest = re.search(r"smallest attainable p was (\d+(?:\.\d+)?(?:e-?\d+)?)", text).group(1)
     assert float(smallest) == pytest.approx(info["smallest_p"], rel=6e-4)
-    claims = re.findall(r"correction (\S+) \(.*?declared (\d+) of (\d+) points significant"
-                        r"(?: \((?:p threshold|critical \|statistic\||critical cluster statistic|"
-                        r"critical TFCE value) ([\d.e+-]+)\))?", text)
+    claims = re.findall(
+        r"correction (\S+) \(.*?declared (\d+) of (\d+) points significant"
+        r"(?: \((?:p threshold|critical \|statistic\||critical cluster statistic|"
+        r"critical TFCE value) ([\d.e+-]+)\))?",
+        text,
+    )
     assert [c[0] for c in claims] == ["holm", "fdr", "max-stat", "clusters", "tfce"]
     for name, count, total, threshold in claims:
         with np.load(output / "contrasts/attention" / name / "result.npz") as data:
@@ -221,9 +245,15 @@ def test_methods_sentences_match_each_result(built):
     assert "in 1 of the 2 clusters formed" in text
     assert "Data of 10 participants" in text and "11: left the session early" in text
     # the references of exactly the methods used
-    for cited in ("Holm S (1979)", "Benjamini Y, Hochberg Y (1995)", "Westfall PH, Young SS (1993)",
-                  "Maris E, Oostenveld R (2007)", "Smith SM, Nichols TE (2009)",
-                  "Phipson B, Smyth GK (2010)", "Torrence C, Compo GP (1998)"):
+    for cited in (
+        "Holm S (1979)",
+        "Benjamini Y, Hochberg Y (1995)",
+        "Westfall PH, Young SS (1993)",
+        "Maris E, Oostenveld R (2007)",
+        "Smith SM, Nichols TE (2009)",
+        "Phipson B, Smyth GK (2010)",
+        "Torrence C, Compo GP (1998)",
+    ):
         assert cited in text
     for absent in ("Yuen KK (1974)", "Benjamini Y, Yekutieli D (2001)", "Thomson DJ (1982)"):
         assert absent not in text
@@ -283,10 +313,21 @@ def test_missing_or_inconsistent_results_raise_user_errors(tmp_path):
 
 
 def _chromium(args: list[str], folder: Path) -> subprocess.CompletedProcess:
-    command = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
-               "--no-first-run", "--disable-background-networking", "--disable-component-update",
-               "--disable-sync", f"--user-data-dir={folder / 'profile'}",
-               "--enable-logging=stderr", "--v=0", *args]
+    command = [
+        CHROMIUM,
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-quic",
+        "--no-first-run",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        f"--user-data-dir={folder / 'profile'}",
+        "--enable-logging=stderr",
+        "--v=0",
+        *args,
+    ]
     return subprocess.run(command, capture_output=True, text=True, timeout=120)
 
 
@@ -294,8 +335,9 @@ def _console(stderr: str) -> list[str]:
     return [line for line in stderr.splitlines() if ":CONSOLE" in line]
 
 
-@pytest.mark.skipif(CHROMIUM is None, reason="Debian's chromium is not installed "
-                                             "(apt-get install -y chromium; .ci/run installs it)")
+@pytest.mark.skipif(
+    CHROMIUM is None, reason="Debian's chromium is not installed (apt-get install -y chromium; .ci/run installs it)"
+)
 def test_report_renders_in_a_headless_browser(built, tmp_path):
     # positive control: a page with a script error is caught by the same check
     bad = tmp_path / "bad.html"
@@ -303,8 +345,7 @@ def test_report_renders_in_a_headless_browser(built, tmp_path):
     assert _console(_chromium(["--dump-dom", bad.as_uri()], tmp_path).stderr)
 
     shot = tmp_path / "shot.png"
-    run = _chromium([f"--screenshot={shot}", "--window-size=1200,2000", built["index"].as_uri()],
-                    tmp_path)
+    run = _chromium([f"--screenshot={shot}", "--window-size=1200,2000", built["index"].as_uri()], tmp_path)
     assert run.returncode == 0, run.stderr[-2000:]
     assert _console(run.stderr) == []
     pixels = matplotlib.image.imread(shot)[..., :3]
@@ -330,17 +371,25 @@ def test_cluster_table_shows_significant_and_the_largest_other_clusters(tmp_path
     page.feed(cluster_block(contrast, many, {}, run.study, None, write=None))
     table = page.tables[0]
     assert [row[0] for row in table["rows"][1:]] == ["1"] + [str(-(k + 2)) for k in range(10)]
-    assert "4 smaller clusters with p &gt; 0.05 are not shown" in \
-        cluster_block(contrast, many, {}, run.study, None, write=None)
+    assert "4 smaller clusters with p &gt; 0.05 are not shown" in cluster_block(
+        contrast, many, {}, run.study, None, write=None
+    )
 
 
 def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
     study = write_output(tmp_path, statistic="yuen")
-    study["decomposition"] |= {"method": "multitaper", "taper_length_ms": 400.0, "nw": 3.0,
-                               "cycles": None, "average": "trimmed"}
+    study["decomposition"] |= {
+        "method": "multitaper",
+        "taper_length_ms": 400.0,
+        "nw": 3.0,
+        "cycles": None,
+        "average": "trimmed",
+    }
     text = methods_text(study, tmp_path)
     assert "DPSS) tapers (Thomson 1982) at 8 frequencies from 4 to 30 Hz (log spacing)" in text
-    assert "with tapers 400 ms long and a time-half-bandwidth product NW of 3 (5 tapers; Percival & Walden 1993)" in text
+    assert (
+        "with tapers 400 ms long and a time-half-bandwidth product NW of 3 (5 tapers; Percival & Walden 1993)" in text
+    )
     assert "Percival DB, Walden AT (1993)" in text
     assert "trimmed mean (trim 0.2 per end)" in text
     assert "Yuen's trimmed t test (trim 0.2) (Yuen 1974)" in text
@@ -352,32 +401,44 @@ def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
 def test_report_shows_the_results_fingerprint(built):
     record = json.loads((built["output"] / "report" / "provenance.json").read_text())
     fingerprint = record["results_fingerprint"]
-    head = built["html"][:built["html"].index('id="study"')]
+    head = built["html"][: built["html"].index('id="study"')]
     assert f"results fingerprint {fingerprint[:12]}" in head  # at a glance, under the title
     rows = {row[0]: row[1] for table in built["page"].tables for row in table["rows"] if len(row) == 2}
     assert rows["results fingerprint (SHA-256)"] == fingerprint
 
 
-@pytest.mark.parametrize(("kind", "ids", "significant", "expected"), [
-    ("cluster", [], [], "declared 0 of 12 points significant; no cluster formed at the forming threshold."),
-    ("cluster", [1], [], "declared 0 of 12 points significant; the one cluster formed was not significant."),
-    ("cluster", [1, -2], [], "declared 0 of 12 points significant; none of the 2 clusters formed was significant."),
-    ("cluster", [1], [1], "declared 3 of 12 points significant, in 1 cluster."),
-    ("cluster", [1, -2], [1, -2], "declared 6 of 12 points significant, in 2 clusters."),
-    ("cluster", [1, -2, 3], [1], "declared 3 of 12 points significant, in 1 of the 3 clusters formed."),
-    ("tfce", [1], [1], "declared 3 of 12 points significant, in 1 connected region."),
-    ("tfce", [1, 2], [1, 2], "declared 6 of 12 points significant, in 2 connected regions."),
-])
+@pytest.mark.parametrize(
+    ("kind", "ids", "significant", "expected"),
+    [
+        ("cluster", [], [], "declared 0 of 12 points significant; no cluster formed at the forming threshold."),
+        ("cluster", [1], [], "declared 0 of 12 points significant; the one cluster formed was not significant."),
+        ("cluster", [1, -2], [], "declared 0 of 12 points significant; none of the 2 clusters formed was significant."),
+        ("cluster", [1], [1], "declared 3 of 12 points significant, in 1 cluster."),
+        ("cluster", [1, -2], [1, -2], "declared 6 of 12 points significant, in 2 clusters."),
+        ("cluster", [1, -2, 3], [1], "declared 3 of 12 points significant, in 1 of the 3 clusters formed."),
+        ("tfce", [1], [1], "declared 3 of 12 points significant, in 1 connected region."),
+        ("tfce", [1, 2], [1, 2], "declared 6 of 12 points significant, in 2 connected regions."),
+    ],
+)
 def test_methods_count_clusters_exactly_and_grammatically(kind, ids, significant, expected):
     from famwise.report.methods import _correction
     from famwise.report.results import ReportedCorrection as Correction
 
     cluster_id = np.zeros(12, dtype=int)
     for k, ident in enumerate(ids):
-        cluster_id[3 * k:3 * k + 3] = ident
+        cluster_id[3 * k : 3 * k + 3] = ident
     mask = np.isin(cluster_id, significant) & (cluster_id != 0)
-    correction = Correction(name=kind, method=kind, p_corrected=np.ones(12), mask=mask, threshold=float("nan"),
-                            threshold_kind=kind, settings={}, n_significant=int(mask.sum()), cluster_id=cluster_id,
-                            clusters=[{"id": i} for i in (significant if kind == "tfce" else ids)])
+    correction = Correction(
+        name=kind,
+        method=kind,
+        p_corrected=np.ones(12),
+        mask=mask,
+        threshold=float("nan"),
+        threshold_kind=kind,
+        settings={},
+        n_significant=int(mask.sum()),
+        cluster_id=cluster_id,
+        clusters=[{"id": i} for i in (significant if kind == "tfce" else ids)],
+    )
     contrast = type("C", (), {"name": "c"})()
     assert _correction(contrast, correction, {"method": kind}).endswith(expected)

@@ -14,6 +14,7 @@ import pytest
 from famwise.report import build_report
 from famwise.report.explorer import P_SCALE, STAT_STEPS, colour_table, pack_mask, pack_p, pack_stat, unpack
 from famwise.report.results import read_run
+
 from report_fixture import write_output
 
 CHROMIUM = shutil.which("chromium")
@@ -27,8 +28,9 @@ def report(tmp_path_factory):
     write_output(output)
     spec = output.parent / "study.yaml"
     spec.write_text("version: 1\nname: attention alpha\n")
-    index = build_report(output, spec_text=spec.read_text(), spec_path=spec, input_files=[],
-                         started="2026-01-01T00:00:00+00:00")
+    index = build_report(
+        output, spec_text=spec.read_text(), spec_path=spec, input_files=[], started="2026-01-01T00:00:00+00:00"
+    )
     return {"output": output, "index": index}
 
 
@@ -57,9 +59,10 @@ def test_report_with_explorer_stays_within_the_size_budget(report):
     # the explorer's share: at most 2 bytes per point per map before compression, base64 4/3 of that
     points = run.contrasts[0].stat.size
     start = html.index('<script type="application/json" class="xp-data">')
-    payload = len(html[start:html.index("</script>", start)])
-    print(f"explorer data {payload / 1e3:.0f} kB for {points} points and "
-          f"{len(run.contrasts[0].corrections)} corrections")
+    payload = len(html[start : html.index("</script>", start)])
+    print(
+        f"explorer data {payload / 1e3:.0f} kB for {points} points and {len(run.contrasts[0].corrections)} corrections"
+    )
     assert payload < points * 2 * (2 + 2 * len(run.contrasts[0].corrections)) * 4 / 3 + 20000
     assert "<script src" not in html and "http://" not in html and "https://" not in html
 
@@ -82,15 +85,24 @@ def _shots(tmp_path_factory) -> Path:
 def _driver(*, javascript: bool = True):
     """Debian's chromium through its chromedriver (selenium never downloads a browser here)."""
     if CHROMIUM is None or DRIVER is None:
-        pytest.skip("Debian's chromium and chromium-driver are not installed "
-                    "(apt-get install -y chromium chromium-driver; .ci/run installs them)")
+        pytest.skip(
+            "Debian's chromium and chromium-driver are not installed "
+            "(apt-get install -y chromium chromium-driver; .ci/run installs them)"
+        )
     webdriver = pytest.importorskip("selenium.webdriver", reason="selenium is not installed (pip install -e '.[test]')")
     from selenium.webdriver.chrome.service import Service
 
     options = webdriver.ChromeOptions()
     options.binary_location = CHROMIUM
-    for argument in ("--headless=new", "--no-sandbox", "--disable-gpu", "--window-size=1300,1000",
-                     "--force-device-scale-factor=1", "--disable-background-networking", "--no-first-run"):
+    for argument in (
+        "--headless=new",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--window-size=1300,1000",
+        "--force-device-scale-factor=1",
+        "--disable-background-networking",
+        "--no-first-run",
+    ):
         options.add_argument(argument)
     if not javascript:
         options.add_experimental_option("prefs", {"profile.managed_default_content_settings.javascript": 2})
@@ -128,7 +140,10 @@ def _pixel(driver, canvas, x: float, y: float) -> list[int]:
     return driver.execute_script(
         "var c = arguments[0], r = window.devicePixelRatio || 1;"
         "return Array.from(c.getContext('2d').getImageData(arguments[1] * r, arguments[2] * r, 1, 1).data);",
-        canvas, x, y)
+        canvas,
+        x,
+        y,
+    )
 
 
 def _click_at(driver, element, x: float, y: float, *, shift: bool = False) -> None:
@@ -170,7 +185,8 @@ def test_explorer_in_a_real_browser(report, browser, tmp_path_factory):
     tf = root.find_element("css selector", ".xp-tf")
     left, top, width, height = (float(tf.get_attribute(f"data-{k}")) for k in ("left", "top", "width", "height"))
     positions = browser.execute_script(
-        "var d = JSON.parse(arguments[0].querySelector('.xp-data').textContent); return [d.channels, d.xy];", root)
+        "var d = JSON.parse(arguments[0].querySelector('.xp-data').textContent); return [d.channels, d.xy];", root
+    )
     names, xy = positions
     cx, cy, scale = (float(head.get_attribute(f"data-{k}")) for k in ("cx", "cy", "r"))
 
@@ -211,7 +227,7 @@ def test_explorer_in_a_real_browser(report, browser, tmp_path_factory):
     members = [contrast.channels.index(c) for c in cluster["channels"].split(",")]
     quantised = np.round(contrast.stat[members, -1, -1] / limit * STAT_STEPS) / STAT_STEPS * limit
     index = round((quantised.mean() / limit + 1) / 2 * 63)
-    expected = [int(colour_table()[index][k:k + 2], 16) for k in (1, 3, 5)]
+    expected = [int(colour_table()[index][k : k + 2], 16) for k in (1, 3, 5)]
     shape = contrast.stat.shape
     drawn = _pixel(browser, tf, left + width * (1 - 0.5 / shape[2]), top + height * 0.5 / shape[1])
     assert np.abs(np.array(drawn[:3]) - expected).max() <= 2, (drawn, expected)

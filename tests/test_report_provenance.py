@@ -10,6 +10,7 @@ import pytest
 from famwise.errors import UserError
 from famwise.report import write_provenance
 from famwise.report.provenance import TIMESTAMP_KEYS
+
 from report_fixture import study_dict, write_output
 
 
@@ -28,18 +29,26 @@ def study_folder(tmp_path):
     return root
 
 
-def _record(root, out, *, study=None, spec_text=None, started="2026-01-01T00:00:00+00:00",
-            finished="2026-01-01T00:05:00+00:00"):
-    return write_provenance(out, spec_text=spec_text or (root / "study.yaml").read_text(),
-                            study=study or study_dict(),
-                            input_files=sorted((root / "data").glob("*.npz")), started=started,
-                            finished=finished, root=root, output_dir=root / "results")
+def _record(
+    root, out, *, study=None, spec_text=None, started="2026-01-01T00:00:00+00:00", finished="2026-01-01T00:05:00+00:00"
+):
+    return write_provenance(
+        out,
+        spec_text=spec_text or (root / "study.yaml").read_text(),
+        study=study or study_dict(),
+        input_files=sorted((root / "data").glob("*.npz")),
+        started=started,
+        finished=finished,
+        root=root,
+        output_dir=root / "results",
+    )
 
 
 def test_same_run_gives_the_same_provenance_apart_from_times(study_folder, tmp_path):
     first = _record(study_folder, tmp_path / "a.json")
-    second = _record(study_folder, tmp_path / "b.json", started="2027-05-05T10:00:00+00:00",
-                     finished="2027-05-05T11:00:00+00:00")
+    second = _record(
+        study_folder, tmp_path / "b.json", started="2027-05-05T10:00:00+00:00", finished="2027-05-05T11:00:00+00:00"
+    )
     assert first != second
     assert _without_times(first) == _without_times(second)
     assert json.loads((tmp_path / "a.json").read_text()) == first
@@ -58,15 +67,16 @@ def test_provenance_records_fingerprint_versions_seed_and_hashes(study_folder, t
     assert record["packages"]["numpy"] == np.__version__
     assert {"famwise", "scipy", "numba", "matplotlib", "pydantic"} <= set(record["packages"])
     data = (study_folder / "data" / "sub-01.npz").read_bytes()
-    assert record["input_files"]["data/sub-01.npz"] == {
-        "sha256": hashlib.sha256(data).hexdigest(), "bytes": len(data)}
+    assert record["input_files"]["data/sub-01.npz"] == {"sha256": hashlib.sha256(data).hexdigest(), "bytes": len(data)}
     holm = record["results"]["attention"]["corrections"]["holm"]
     assert holm["n_significant"] == 85
     with np.load(study_folder / "results/contrasts/attention/holm/result.npz") as stored:
         mask = stored["mask"]
     # hashlib.sha256 over dtype, shape and C-order bytes, as documented in result_hashes
-    assert holm["arrays"]["mask"] == hashlib.sha256(
-        f"{mask.dtype.str}|{mask.shape}|".encode() + mask.tobytes()).hexdigest()
+    assert (
+        holm["arrays"]["mask"]
+        == hashlib.sha256(f"{mask.dtype.str}|{mask.shape}|".encode() + mask.tobytes()).hexdigest()
+    )
     assert {"stat", "p", "df", "effect", "effect_size"} <= set(record["results"]["attention"]["statistics"])
     assert "clusters.tsv" in record["results"]["attention"]["corrections"]["clusters"]["tables"]
     assert len(record["results_fingerprint"]) == 64
@@ -80,13 +90,20 @@ def test_provenance_records_fingerprint_versions_seed_and_hashes(study_folder, t
 def test_provenance_changes_with_the_spec(study_folder, tmp_path):
     base = _without_times(_record(study_folder, tmp_path / "a.json"))
     changed = study_dict(alpha=0.01)
-    other = _without_times(_record(study_folder, tmp_path / "b.json", study=changed,
-                                   spec_text="version: 1\nname: attention alpha\nalpha: 0.01\n"))
+    other = _without_times(
+        _record(
+            study_folder,
+            tmp_path / "b.json",
+            study=changed,
+            spec_text="version: 1\nname: attention alpha\nalpha: 0.01\n",
+        )
+    )
     assert other["spec_fingerprint"] != base["spec_fingerprint"]
     assert other["spec_text"] != base["spec_text"]
     changed_keys = {"spec_fingerprint", "spec_text", "spec_settings"}
-    assert {k: v for k, v in other.items() if k not in changed_keys} == \
-        {k: v for k, v in base.items() if k not in changed_keys}
+    assert {k: v for k, v in other.items() if k not in changed_keys} == {
+        k: v for k, v in base.items() if k not in changed_keys
+    }
     differing = {k for k in base["spec_settings"] if base["spec_settings"][k] != other["spec_settings"][k]}
     assert differing == {"inference.alpha"}
 
@@ -100,8 +117,9 @@ def test_provenance_changes_with_an_input_file_or_a_mask(study_folder, tmp_path)
     other = _without_times(_record(study_folder, tmp_path / "b.json"))
     assert other["input_files"]["data/sub-02.npz"] != base["input_files"]["data/sub-02.npz"]
     assert other["input_files"]["data/sub-01.npz"] == base["input_files"]["data/sub-01.npz"]
-    assert {k: v for k, v in other.items() if k != "input_files"} == \
-        {k: v for k, v in base.items() if k != "input_files"}
+    assert {k: v for k, v in other.items() if k != "input_files"} == {
+        k: v for k, v in base.items() if k != "input_files"
+    }
     result = study_folder / "results/contrasts/attention/fdr/result.npz"
     with np.load(result) as stored:
         arrays = dict(stored)
@@ -136,7 +154,12 @@ def test_result_hashes_ignore_the_files_zip_metadata_but_not_dtype_or_shape(stud
 
 def test_missing_input_file_is_a_user_error(study_folder, tmp_path):
     with pytest.raises(UserError, match=r"expected the input file .*sub-99.npz of this run"):
-        write_provenance(tmp_path / "p.json", spec_text="", study=study_dict(),
-                         input_files=[study_folder / "data" / "sub-99.npz"], started=None,
-                         finished=None)
+        write_provenance(
+            tmp_path / "p.json",
+            spec_text="",
+            study=study_dict(),
+            input_files=[study_folder / "data" / "sub-99.npz"],
+            started=None,
+            finished=None,
+        )
     assert not (tmp_path / "p.json").exists()

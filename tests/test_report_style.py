@@ -9,9 +9,9 @@ import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 
 from famwise.electrodes import match_channels, system_positions  # noqa: E402
+from famwise.figure_style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
 from famwise.report.methods import fmt, method_kind  # noqa: E402
 from famwise.report.scalp import project, topography  # noqa: E402
-from famwise.figure_style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
 
 
 def _lightness(rgb: np.ndarray) -> np.ndarray:
@@ -47,8 +47,9 @@ def test_projection_puts_the_vertex_in_the_middle_and_the_nose_up():
 
 
 def test_topography_follows_the_values_left_to_right():
-    positions = match_channels(system_positions("10-10"),
-                               ["F3", "Fz", "F4", "C3", "Cz", "C4", "P3", "Pz", "P4", "T7", "T8"])
+    positions = match_channels(
+        system_positions("10-10"), ["F3", "Fz", "F4", "C3", "Cz", "C4", "P3", "Pz", "P4", "T7", "T8"]
+    )
     flat = project(positions.xyz)
     figure, ax = plt.subplots()
     image = topography(ax, flat[:, 0], flat, limit=1.0, marked=np.arange(11) < 3)
@@ -56,22 +57,31 @@ def test_topography_follows_the_values_left_to_right():
     plt.close(figure)
     middle = grid.shape[0] // 2
     row = np.asarray(grid[middle])
-    left, right = row[: len(row) // 3], row[-len(row) // 3:]
+    left, right = row[: len(row) // 3], row[-len(row) // 3 :]
     assert np.nanmean(left) < -0.3 and np.nanmean(right) > 0.3
     assert np.ma.is_masked(grid[0, 0]) or np.isnan(grid[0, 0])  # outside the head
 
 
 def test_method_names_of_the_spec_map_to_their_references():
-    kinds = {m: method_kind(m) for m in ("bonferroni", "sidak", "holm", "hochberg", "fdr-bh",
-                                         "fdr-by", "max-stat", "cluster", "tfce")}
-    assert kinds == {"bonferroni": "bonferroni", "sidak": "sidak", "holm": "holm",
-                     "hochberg": "hochberg", "fdr-bh": "bh", "fdr-by": "by",
-                     "max-stat": "maxstat", "cluster": "cluster", "tfce": "tfce"}
+    kinds = {
+        m: method_kind(m)
+        for m in ("bonferroni", "sidak", "holm", "hochberg", "fdr-bh", "fdr-by", "max-stat", "cluster", "tfce")
+    }
+    assert kinds == {
+        "bonferroni": "bonferroni",
+        "sidak": "sidak",
+        "holm": "holm",
+        "hochberg": "hochberg",
+        "fdr-bh": "bh",
+        "fdr-by": "by",
+        "max-stat": "maxstat",
+        "cluster": "cluster",
+        "tfce": "tfce",
+    }
 
 
 def test_number_format_and_symmetric_limit():
-    assert [fmt(999), fmt(0.0012784), fmt(150.0), fmt(-0.5), fmt(True)] == \
-        ["999", "0.001278", "150", "-0.5", "True"]
+    assert [fmt(999), fmt(0.0012784), fmt(150.0), fmt(-0.5), fmt(True)] == ["999", "0.001278", "150", "-0.5", "True"]
     assert symmetric_limit(np.array([-3.0, 2.0, np.nan])) == 3.0
     assert symmetric_limit(np.zeros(3)) == 1.0
 
@@ -85,8 +95,17 @@ def test_null_histogram_legend_covers_no_data(observed):
 
     null = np.random.default_rng(0).gamma(4.0, 0.5, 1000)
     stat = np.array([[[observed, -observed / 2]]])
-    correction = Correction(name="max-stat", method="max-stat", p_corrected=np.ones(stat.shape), mask=np.zeros(stat.shape, bool),
-                            threshold=float(np.quantile(null, 0.95)), threshold_kind="stat", settings={}, n_significant=0, null=null)
+    correction = Correction(
+        name="max-stat",
+        method="max-stat",
+        p_corrected=np.ones(stat.shape),
+        mask=np.zeros(stat.shape, bool),
+        threshold=float(np.quantile(null, 0.95)),
+        threshold_kind="stat",
+        settings={},
+        n_significant=0,
+        null=null,
+    )
     contrast = SimpleNamespace(stat=stat, statistic="t", test="paired", name="c")
     figure = null_figure(correction, contrast)
     figure.canvas.draw()
@@ -97,13 +116,16 @@ def test_null_histogram_legend_covers_no_data(observed):
     plt.close(figure)
 
 
-@pytest.mark.parametrize(("freqs", "expected"), [
-    (np.geomspace(4.0, 30.0, 12), [4, 8, 16]),  # the odd bins 5.77, 8.32, ... are never ticks
-    (np.geomspace(2.0, 45.0, 20), [2, 4, 8, 16, 32]),
-    (np.geomspace(6.0, 14.0, 5), [6, 8, 12]),
-    (np.linspace(6.0, 14.0, 3), [6, 8, 10, 12, 14]),
-    (np.linspace(4.0, 40.0, 10), [10, 20, 30, 40]),
-])
+@pytest.mark.parametrize(
+    ("freqs", "expected"),
+    [
+        (np.geomspace(4.0, 30.0, 12), [4, 8, 16]),  # the odd bins 5.77, 8.32, ... are never ticks
+        (np.geomspace(2.0, 45.0, 20), [2, 4, 8, 16, 32]),
+        (np.geomspace(6.0, 14.0, 5), [6, 8, 12]),
+        (np.linspace(6.0, 14.0, 3), [6, 8, 10, 12, 14]),
+        (np.linspace(4.0, 40.0, 10), [10, 20, 30, 40]),
+    ],
+)
 def test_frequency_ticks_fall_on_round_frequencies(freqs, expected):
     from famwise.report.figures import round_frequency_ticks
 
@@ -123,5 +145,9 @@ def test_topography_marks_members_with_filled_dots_and_the_rest_with_open_rings(
     rings, dots = ax.collections[-2:]
     assert len(rings.get_offsets()) == 4 and len(dots.get_offsets()) == 2
     assert rings.get_facecolor().size == 0 or rings.get_facecolor()[0][3] == 0  # open
-    assert dots.get_facecolor()[0][3] == 1 and tuple(dots.get_facecolor()[0][:3]) != (1.0, 1.0, 1.0)  # filled, not white
+    assert dots.get_facecolor()[0][3] == 1 and tuple(dots.get_facecolor()[0][:3]) != (
+        1.0,
+        1.0,
+        1.0,
+    )  # filled, not white
     plt.close(figure)

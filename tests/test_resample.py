@@ -9,11 +9,11 @@ import pytest
 from scipy import stats as sps
 
 from famwise.errors import FamwiseWarning, UserError
+from famwise.naive.stats import null_stats
 from famwise.nulls.collectors.exceedance import ExceedanceCollector, permutation_p
 from famwise.nulls.collectors.maxima import MaxStatCollector
 from famwise.nulls.engine import iter_null_blocks, run_shard, run_shards
 from famwise.nulls.tables import check_attainable, make_table, shard_bounds, smallest_attainable_p
-from famwise.naive.stats import null_stats
 from famwise.stats import compute
 
 RNG = np.random.default_rng(4)
@@ -151,7 +151,9 @@ def collectors_for(options):
     ]
 
 
-@pytest.mark.parametrize("name", ["one-sample t", "paired yuen", "two-sample welch", "correlation", "repeated-measures"])
+@pytest.mark.parametrize(
+    "name", ["one-sample t", "paired yuen", "two-sample welch", "correlation", "repeated-measures"]
+)
 def test_null_identical_for_shards_and_block_sizes(name):
     options = DESIGNS[name]
     x, table = design_data(options), design_table(options, permutations=100)
@@ -339,7 +341,9 @@ def test_smallest_attainable_p():
 
 def test_check_attainable_warns_with_the_p():
     table = make_table("one-sample", n_subjects=5, permutations=1000, seed=0)
-    with pytest.warns(FamwiseWarning, match=r"smallest attainable two-sided permutation p is 0.0625 .* above alpha 0.05"):
+    with pytest.warns(
+        FamwiseWarning, match=r"smallest attainable two-sided permutation p is 0.0625 .* above alpha 0.05"
+    ):
         check_attainable(table, tail="two-sided", alpha=0.05)
     with warnings.catch_warnings():
         warnings.simplefilter("error")

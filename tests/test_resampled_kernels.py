@@ -4,9 +4,9 @@ import numpy as np
 
 import famwise.nulls.engine as engine
 from famwise.kernels.resampled_stats import _signflip_yuen
+from famwise.naive.stats import null_stats
 from famwise.nulls.engine import iter_null_blocks
 from famwise.nulls.tables import make_table
-from famwise.naive.stats import null_stats
 
 
 def test_signflip_yuen_kernel_stays_inside_its_buffer(monkeypatch):

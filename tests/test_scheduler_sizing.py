@@ -6,9 +6,10 @@ import sys
 import numpy as np
 import yaml
 
-from famwise import bids, scheduler_sizing as sizing
-from famwise.settings_codec import to_json
+from famwise import bids
+from famwise import scheduler_sizing as sizing
 from famwise.plan import Plan
+from famwise.settings_codec import to_json
 
 from conftest import write_tiny_study, write_tiny_subject
 
@@ -39,8 +40,15 @@ def test_sizes_of_an_epochs_study(tiny_study):
 def test_recording_sizes_from_bids_headers_and_events(tmp_path):
     rng = np.random.default_rng(0)
     events = [(2.0 + 3 * k, 0.0, ["low", "high", "boundary"][k % 3]) for k in range(30)]
-    bids.write_subject(tmp_path / "data", "01", data=rng.normal(scale=1e-5, size=(4, 250 * 100)), sample_rate_hz=250.0,
-                       channels=["Fz", "Cz", "Pz", "Oz"], events=events, task="mem")
+    bids.write_subject(
+        tmp_path / "data",
+        "01",
+        data=rng.normal(scale=1e-5, size=(4, 250 * 100)),
+        sample_rate_hz=250.0,
+        channels=["Fz", "Cz", "Pz", "Oz"],
+        events=events,
+        task="mem",
+    )
     spec = tmp_path / "study.yaml"
     spec.write_text(
         "version: 1\nname: b\nsubjects: {source: bids, path: data, task: mem}\n"
@@ -63,15 +71,23 @@ def test_recording_sizes_from_bids_headers_and_events(tmp_path):
 def test_requests_are_rounded_and_at_least_the_minimum(tiny_study):
     plan = Plan.from_spec(tiny_study)
     memories = [
-        sizing.decompose_mem_mb(plan, "01"), sizing.contrast_data_mem_mb(plan), sizing.observed_mem_mb(plan),
-        sizing.null_shard_mem_mb(plan), sizing.correct_mem_mb(plan, "holm"), sizing.report_mem_mb(plan),
+        sizing.decompose_mem_mb(plan, "01"),
+        sizing.contrast_data_mem_mb(plan),
+        sizing.observed_mem_mb(plan),
+        sizing.null_shard_mem_mb(plan),
+        sizing.correct_mem_mb(plan, "holm"),
+        sizing.report_mem_mb(plan),
         sizing.small_mem_mb(plan),
     ]
     for mem in memories:
         assert mem % 100 == 0 and mem >= sizing.MEM_SAFETY * sizing.BASE_MEM_MB
     runtimes = [
-        sizing.decompose_runtime_min(plan, "01"), sizing.group_runtime_min(plan), sizing.null_shard_runtime_min(plan),
-        sizing.correct_runtime_min(plan, "max-stat"), sizing.report_runtime_min(plan), sizing.small_runtime_min(plan),
+        sizing.decompose_runtime_min(plan, "01"),
+        sizing.group_runtime_min(plan),
+        sizing.null_shard_runtime_min(plan),
+        sizing.correct_runtime_min(plan, "max-stat"),
+        sizing.report_runtime_min(plan),
+        sizing.small_runtime_min(plan),
     ]
     assert runtimes == [sizing.MIN_RUNTIME_MIN] * 6
 
@@ -91,7 +107,10 @@ def test_decompose_memory_grows_with_epochs(tmp_path):
     write_tiny_subject(large.parent / "data" / "sub-01.npz", rng, n_per_condition=3000)
     rec = sizing.recording_sizes(Plan.from_spec(large), "01")
     assert rec.n_epochs == 6000
-    assert sizing.decompose_mem_mb(Plan.from_spec(large), "01") > sizing.decompose_mem_mb(Plan.from_spec(small), "01") + 100
+    assert (
+        sizing.decompose_mem_mb(Plan.from_spec(large), "01")
+        > sizing.decompose_mem_mb(Plan.from_spec(small), "01") + 100
+    )
     assert sizing.decompose_mem_mb(Plan.from_spec(large), "02") == sizing.decompose_mem_mb(Plan.from_spec(small), "02")
 
 
@@ -108,11 +127,25 @@ def test_decompose_estimate_covers_the_measured_peak(tiny_study):
     # Measured: the job's peak resident memory (getrusage of a fresh parent's only child) stays under the request.
     plan = Plan.from_spec(tiny_study)
     out = tiny_study.parent / "tf-01.npz"
-    job = [sys.executable, "-m", "famwise.jobs", "decompose", "--subject", "01", "--settings", to_json(plan.decompose_settings()), "--out", str(out)]
+    job = [
+        sys.executable,
+        "-m",
+        "famwise.jobs",
+        "decompose",
+        "--subject",
+        "01",
+        "--settings",
+        to_json(plan.decompose_settings()),
+        "--out",
+        str(out),
+    ]
     measure = "import resource, subprocess, sys; subprocess.run(sys.argv[1:], check=True, capture_output=True); print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)"
     plan.loaded.output.mkdir()  # jobs run in the output folder, as Snakemake runs them
-    peak_kb = int(subprocess.run([sys.executable, "-c", measure, *job], check=True, capture_output=True, text=True,
-                                 cwd=plan.loaded.output).stdout)
+    peak_kb = int(
+        subprocess.run(
+            [sys.executable, "-c", measure, *job], check=True, capture_output=True, text=True, cwd=plan.loaded.output
+        ).stdout
+    )
     assert out.is_file()
     assert 20 < peak_kb / 1024 < sizing.decompose_mem_mb(plan, "01")
 

@@ -26,18 +26,31 @@ CORRECTIONS = """\
 
 def test_every_stage_settings_survive_their_json_text(tmp_path):
     plan = Plan.from_spec(write_tiny_study(tmp_path, corrections=CORRECTIONS))
-    built = [plan.decompose_settings(), plan.subjects_table_settings(), plan.graph_settings(), plan.contrast_settings("high-vs-low"),
-             plan.observed_settings(), plan.null_settings(), plan.study_record_settings(), plan.report_settings(),
-             *(plan.correction_settings(c.label) for c in plan.study.inference.corrections)]
+    built = [
+        plan.decompose_settings(),
+        plan.subjects_table_settings(),
+        plan.graph_settings(),
+        plan.contrast_settings("high-vs-low"),
+        plan.observed_settings(),
+        plan.null_settings(),
+        plan.study_record_settings(),
+        plan.report_settings(),
+        *(plan.correction_settings(c.label) for c in plan.study.inference.corrections),
+    ]
     for settings in built:
         text = to_json(settings)
         again = from_json(type(settings), text)
-        assert again == settings and to_json(again) == text  # deterministic text: Snakemake reruns only on a real change
+        assert (
+            again == settings and to_json(again) == text
+        )  # deterministic text: Snakemake reruns only on a real change
 
 
 def test_forming_p_keeps_its_name_and_the_default_reaches_the_observed_stage(tmp_path):
     plan = Plan.from_spec(write_tiny_study(tmp_path, corrections=CORRECTIONS))
-    assert plan.observed_settings().forming == (FormingSettings("cluster", 0.01, None), FormingSettings("by-stat", None, 2.5))
+    assert plan.observed_settings().forming == (
+        FormingSettings("cluster", 0.01, None),
+        FormingSettings("by-stat", None, 2.5),
+    )
     assert plan.correction_settings("cluster").correction.forming_p == 0.01
 
 
@@ -45,10 +58,23 @@ def test_forming_p_keeps_its_name_and_the_default_reaches_the_observed_stage(tmp
 def test_observed_stage_stores_the_forming_threshold_once(tail):
     rng = np.random.default_rng(3)
     n, shape = 9, (2, 2, 3)
-    data = ContrastData(x=rng.normal(size=(n, 12)).astype(np.float32), test="one-sample", subjects=tuple(f"{i}" for i in range(n)),
-                        channels=("a", "b"), freqs=np.array([4.0, 8.0]), times=np.array([0.0, 0.1, 0.2]), groups=None, covariate=None)
-    settings = ObservedSettings(statistic="t", trim=0.2, equal_var=True, tail=tail,
-                                forming=(FormingSettings("c", 0.01, None), FormingSettings("s", None, 2.5)))
+    data = ContrastData(
+        x=rng.normal(size=(n, 12)).astype(np.float32),
+        test="one-sample",
+        subjects=tuple(f"{i}" for i in range(n)),
+        channels=("a", "b"),
+        freqs=np.array([4.0, 8.0]),
+        times=np.array([0.0, 0.1, 0.2]),
+        groups=None,
+        covariate=None,
+    )
+    settings = ObservedSettings(
+        statistic="t",
+        trim=0.2,
+        equal_var=True,
+        tail=tail,
+        forming=(FormingSettings("c", 0.01, None), FormingSettings("s", None, 2.5)),
+    )
     arrays = observed_arrays(data, data.x, settings)
     per_tail = 0.005 if tail == "two-sided" else 0.01
     # scipy.stats.t.isf: the t value exceeded with probability forming_p per tail

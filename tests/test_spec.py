@@ -48,13 +48,18 @@ def test_valid_spec_loads_frozen(tmp_path):
 
 def test_unknown_key_has_line_and_hint(tmp_path):
     text = VALID.replace("    - method: holm\n", "    - method: fdr-bh\n      levle: 0.1\n")
-    assert _error(tmp_path, text) == "study.yaml:16 inference.corrections[0].levle: unknown key 'levle' (did you mean 'level'?)"
+    assert (
+        _error(tmp_path, text)
+        == "study.yaml:16 inference.corrections[0].levle: unknown key 'levle' (did you mean 'level'?)"
+    )
 
 
 def test_unknown_condition_example_of_the_issue(tmp_path):
     text = VALID.replace("conditions: [high-load, low-load]", "conditions: [hi-load, low-load]")
     message = _error(tmp_path, text)
-    assert message.startswith("study.yaml:12 contrasts[0].conditions: unknown condition 'hi-load' (known: high-load, low-load)")
+    assert message.startswith(
+        "study.yaml:12 contrasts[0].conditions: unknown condition 'hi-load' (known: high-load, low-load)"
+    )
 
 
 def test_wrong_type_names_value(tmp_path):
@@ -75,17 +80,27 @@ def test_unknown_choice_has_hint(tmp_path):
 
 def test_unknown_correction_method(tmp_path):
     message = _error(tmp_path, VALID.replace("method: holm", "method: holmes"))
-    assert message.startswith("study.yaml:15 inference.corrections[0]: unknown method 'holmes'") and "did you mean 'holm'" in message
+    assert (
+        message.startswith("study.yaml:15 inference.corrections[0]: unknown method 'holmes'")
+        and "did you mean 'holm'" in message
+    )
 
 
 def test_two_sample_without_groups(tmp_path):
-    text = VALID.replace("test: paired\n    conditions: [high-load, low-load]", "test: two-sample\n    conditions: [high-load]")
+    text = VALID.replace(
+        "test: paired\n    conditions: [high-load, low-load]", "test: two-sample\n    conditions: [high-load]"
+    )
     assert "contrasts[0].groups: test 'two-sample' needs groups" in _error(tmp_path, text)
 
 
 def test_unknown_group(tmp_path):
-    text = VALID.replace("  path: data/sub-{subject}.npz\n", "  path: data/sub-{subject}.npz\n  groups: {'01': young, '02': old}\n")
-    text = text.replace("test: paired\n    conditions: [high-load, low-load]", "test: two-sample\n    conditions: [high-load]\n    groups: [young, elder]")
+    text = VALID.replace(
+        "  path: data/sub-{subject}.npz\n", "  path: data/sub-{subject}.npz\n  groups: {'01': young, '02': old}\n"
+    )
+    text = text.replace(
+        "test: paired\n    conditions: [high-load, low-load]",
+        "test: two-sample\n    conditions: [high-load]\n    groups: [young, elder]",
+    )
     assert "contrasts[0].groups: unknown group 'elder' (known: old, young)" in _error(tmp_path, text)
 
 
@@ -107,7 +122,9 @@ def test_subject_id_not_identifier(tmp_path):
 
 def test_path_leaving_study_folder(tmp_path):
     text = VALID.replace("path: data/sub-{subject}.npz", "path: ../elsewhere/sub-{subject}.npz")
-    assert "study.yaml:5 subjects.path: path '../elsewhere/sub-{subject}.npz' leaves the study folder" in _error(tmp_path, text)
+    assert "study.yaml:5 subjects.path: path '../elsewhere/sub-{subject}.npz' leaves the study folder" in _error(
+        tmp_path, text
+    )
 
 
 def test_missing_required_key(tmp_path):
@@ -124,7 +141,9 @@ def test_version_must_be_one(tmp_path):
 
 
 def test_pattern_needs_subject_placeholder(tmp_path):
-    assert "subjects.path: pattern 'data/all.npz' must contain '{subject}'" in _error(tmp_path, VALID.replace("data/sub-{subject}.npz", "data/all.npz"))
+    assert "subjects.path: pattern 'data/all.npz' must contain '{subject}'" in _error(
+        tmp_path, VALID.replace("data/sub-{subject}.npz", "data/all.npz")
+    )
 
 
 def test_missing_spec_file(tmp_path):
@@ -134,16 +153,32 @@ def test_missing_spec_file(tmp_path):
 
 def test_readme_spec_reference_is_current():
     readme = (Path(__file__).parents[1] / "README.md").read_text(encoding="utf-8")
-    committed = readme[readme.index(BEGIN): readme.index(END) + len(END)]
-    assert committed == reference_markdown(), "README spec reference is out of date: run `python -m famwise.spec.reference --write README.md`"
+    committed = readme[readme.index(BEGIN) : readme.index(END) + len(END)]
+    assert committed == reference_markdown(), (
+        "README spec reference is out of date: run `python -m famwise.spec.reference --write README.md`"
+    )
 
 
 def test_every_field_has_a_description():
     from famwise.spec import models
 
-    for model in (models.Study, models.Subjects, models.EpochWindow, models.FrequencyGrid, models.Baseline, models.Decomposition,
-                  models.Analysis, models.Neighbors, models.Channels, models.Contrast, models.Inference,
-                  models.PValueCorrection, models.MaxStatCorrection, models.ClusterCorrection, models.TFCECorrection):
+    for model in (
+        models.Study,
+        models.Subjects,
+        models.EpochWindow,
+        models.FrequencyGrid,
+        models.Baseline,
+        models.Decomposition,
+        models.Analysis,
+        models.Neighbors,
+        models.Channels,
+        models.Contrast,
+        models.Inference,
+        models.PValueCorrection,
+        models.MaxStatCorrection,
+        models.ClusterCorrection,
+        models.TFCECorrection,
+    ):
         for name, field in model.model_fields.items():
             assert field.description, f"{model.__name__}.{name} has no description"
 

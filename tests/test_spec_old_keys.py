@@ -46,7 +46,9 @@ def _nested(path: tuple) -> tuple[str, str]:
             continue
         last = depth == len(path) - 1
         item = depth > 0 and path[depth - 1] == "*"
-        lines.append(f"{indent}{'- method: cluster' + chr(10) + indent + '  ' if item else ''}{part}:{' 1' if last else ''}")
+        lines.append(
+            f"{indent}{'- method: cluster' + chr(10) + indent + '  ' if item else ''}{part}:{' 1' if last else ''}"
+        )
         indent += "    " if item else "  "
         dotted += ("." if dotted else "") + part
     return "\n".join(lines) + "\n", dotted
@@ -74,6 +76,7 @@ def test_every_old_value_names_its_new_value(tmp_path, key):
 
 def test_every_new_key_exists_in_the_models():
     from famwise.spec.reference import reference_markdown
+
     reference = reference_markdown()
     for path, new in RENAMED_KEYS.items():
         dotted = ".".join(p for p in path[:-1] if p != "*")
@@ -82,7 +85,9 @@ def test_every_new_key_exists_in_the_models():
 
 def test_check_exits_2_with_one_line(tmp_path):
     (tmp_path / "study.yaml").write_text(BASE + INFERENCE + "timefreq:\n  cycles: 5\n")
-    result = subprocess.run([sys.executable, "-m", "famwise.cli", "check", str(tmp_path / "study.yaml")],
-                            capture_output=True, text=True)
+    result = subprocess.run(
+        [sys.executable, "-m", "famwise.cli", "check", str(tmp_path / "study.yaml")], capture_output=True, text=True
+    )
     assert result.returncode == 2 and result.stderr.strip().splitlines() == [
-        "famwise: error: study.yaml:16 timefreq: renamed; write 'decomposition' instead of 'timefreq'"]
+        "famwise: error: study.yaml:16 timefreq: renamed; write 'decomposition' instead of 'timefreq'"
+    ]

@@ -2,6 +2,7 @@
 
 import numpy as np
 import pytest
+from test_preflight_bids import write_bids_study
 
 import famwise.io
 from famwise.cli import main
@@ -10,7 +11,6 @@ from famwise.preflight import preflight
 from famwise.preflight.starter_fit import edge_halfwidth_ms, starter_timing
 
 from conftest import write_tiny_subject
-from test_preflight_bids import write_bids_study
 
 
 def _init(folder):
@@ -30,8 +30,14 @@ def test_init_on_epochs_files_gives_a_baseline_free_of_edge_effects(tmp_path, sa
             with np.load(path) as archive:
                 arrays = {k: archive[k] for k in archive.files}
             skip = int(round((start_s + 0.6) * sample_rate_hz))
-            famwise.io.save_epochs(path, arrays["data"][..., skip:], sample_rate_hz=sample_rate_hz, epoch_start_s=float(arrays["epoch_start_s"]) + skip / sample_rate_hz,
-                                   channels=list(arrays["channels"]), event_labels=list(arrays["event_labels"]))
+            famwise.io.save_epochs(
+                path,
+                arrays["data"][..., skip:],
+                sample_rate_hz=sample_rate_hz,
+                epoch_start_s=float(arrays["epoch_start_s"]) + skip / sample_rate_hz,
+                channels=list(arrays["channels"]),
+                event_labels=list(arrays["event_labels"]),
+            )
         (tmp_path / "study.yaml").unlink()
         plan = _init(tmp_path)
     assert preflight(plan) == []

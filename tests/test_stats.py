@@ -210,9 +210,7 @@ def test_repeated_measures_f_by_hand_and_statsmodels(rng):
     import pandas as pd
     from statsmodels.stats.anova import AnovaRM
 
-    frame = pd.DataFrame(
-        {"s": np.repeat(np.arange(n), k), "c": np.tile(np.arange(k), n), "y": x[:, :, 0].ravel()}
-    )
+    frame = pd.DataFrame({"s": np.repeat(np.arange(n), k), "c": np.tile(np.arange(k), n), "y": x[:, :, 0].ravel()})
     table = AnovaRM(frame, "y", "s", within=["c"]).fit().anova_table
     assert res.stat[0] == pytest.approx(table["F Value"].iloc[0], rel=1e-10)
     assert res.p[0] == pytest.approx(table["Pr > F"].iloc[0], rel=1e-8)

@@ -9,12 +9,11 @@ from scipy.sparse.csgraph import connected_components
 
 from famwise.correct.tfce import tfce_inference, tfce_map
 from famwise.errors import UserError
-from famwise.nulls.collectors.largest_tfce import TFCECollector
 from famwise.naive.clusters import one_sample_t, product_adjacency
 from famwise.naive.tfce import tfce_null_reference, tfce_reference
+from famwise.nulls.collectors.largest_tfce import TFCECollector
 
 from conftest import ring
-
 
 NO_CHANNELS = dict(indptr=np.array([0, 0], np.int32), indices=np.zeros(0, np.int32))
 BUMP = np.array([0, 0, 2, 2, 2, 2, 0, 0], dtype=float)[None, None, :]

@@ -29,7 +29,9 @@ class atomic_path:
 
     def __enter__(self) -> Path:
         self.path.parent.mkdir(parents=True, exist_ok=True)
-        handle, name = tempfile.mkstemp(prefix=f".{self.path.name}.", suffix=self.path.suffix or ".tmp", dir=self.path.parent)
+        handle, name = tempfile.mkstemp(
+            prefix=f".{self.path.name}.", suffix=self.path.suffix or ".tmp", dir=self.path.parent
+        )
         os.close(handle)
         self.temporary = Path(name)
         return self.temporary

@@ -20,8 +20,8 @@ import csv
 import json
 import warnings
 from collections.abc import Sequence
-from typing import NamedTuple
 from pathlib import Path
+from typing import NamedTuple
 
 import numpy as np
 
@@ -52,15 +52,15 @@ def read_participants(root: Path) -> dict[str, dict[str, str]]:
     rows = read_tsv(path)
     if rows and "participant_id" not in rows[0]:
         raise UserError(f"{path} must have a 'participant_id' column, found {list(rows[0])}")
-    return {_strip_sub(row["participant_id"]): {k: v for k, v in row.items()
-                                                 if k != "participant_id"} for row in rows}
+    return {_strip_sub(row["participant_id"]): {k: v for k, v in row.items() if k != "participant_id"} for row in rows}
 
 
 def electrodes_file(root: Path, subject: str, *, task: str | None = None) -> Path | None:
     """The subject's ``_electrodes.tsv``, preferring one named with ``task``; None if absent."""
     sub_dir = Path(root) / f"sub-{subject}"
     found = sorted(sub_dir.glob(f"eeg/sub-{subject}*_electrodes.tsv")) + sorted(
-        sub_dir.glob(f"ses-*/eeg/sub-{subject}*_electrodes.tsv"))
+        sub_dir.glob(f"ses-*/eeg/sub-{subject}*_electrodes.tsv")
+    )
     if task is not None:
         named = [p for p in found if f"_task-{task}_" in p.name]
         found = named or found
@@ -83,9 +83,16 @@ def read_channel_names(root: Path, subject: str, *, task: str | None = None) -> 
     return _shared(kept)
 
 
-def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float],
-                 reject_peak_to_peak_uv: float | None, reference: str,
-                 labels: set[str] | None = None) -> Epochs:
+def read_subject(
+    root: Path,
+    subject: str,
+    *,
+    task: str | None,
+    window_ms: tuple[float, float],
+    reject_peak_to_peak_uv: float | None,
+    reference: str,
+    labels: set[str] | None = None,
+) -> Epochs:
     """Epochs of one subject from a BIDS-EEG folder.
 
     Parameters
@@ -124,19 +131,19 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
         every epoch rejected.
     """
     if reference not in ("average", "none"):
-        raise UserError(f"subject {subject}: reference must be 'average' or 'none', "
-                        f"got {reference!r}")
+        raise UserError(f"subject {subject}: reference must be 'average' or 'none', got {reference!r}")
     start_ms, stop_ms = window_ms
     if not start_ms < stop_ms:
-        raise UserError(f"subject {subject}: epoch window must run forward, got {start_ms:g} to "
-                        f"{stop_ms:g} ms")
+        raise UserError(f"subject {subject}: epoch window must run forward, got {start_ms:g} to {stop_ms:g} ms")
     recordings = find_recordings(Path(root), subject, task)
     runs = [_cut_epochs(path, subject, window_ms, labels) for path in recordings]
     channels = _common_channels([run.channels for run in runs], recordings, subject)
     sample_rates_hz = {run.sample_rate_hz for run in runs}
     if len(sample_rates_hz) > 1:
-        raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} have different "
-                        f"sampling rates {sorted(sample_rates_hz)} Hz")
+        raise UserError(
+            f"subject {subject}: the recordings {[p.name for p in recordings]} have different "
+            f"sampling rates {sorted(sample_rates_hz)} Hz"
+        )
     data = np.concatenate([run.data[:, [run.channels.index(c) for c in channels]] for run in runs])
     names = np.concatenate([run.labels for run in runs])
     sample_rate_hz, first_offset = runs[0].sample_rate_hz, runs[0].first_offset
@@ -148,11 +155,19 @@ def read_subject(root: Path, subject: str, *, task: str | None, window_ms: tuple
         peak_to_peak = np.ptp(data, axis=-1).max(axis=-1)
         keep = peak_to_peak <= reject_peak_to_peak_uv * 1e-6
         if not keep.any():
-            raise UserError(f"subject {subject}: all {keep.size} epochs exceed the peak-to-peak "
-                            f"limit of {reject_peak_to_peak_uv:g} µV in {_listing(recordings)}")
+            raise UserError(
+                f"subject {subject}: all {keep.size} epochs exceed the peak-to-peak "
+                f"limit of {reject_peak_to_peak_uv:g} µV in {_listing(recordings)}"
+            )
     rejected = {str(lab): int(np.sum(~keep & (names == lab))) for lab in np.unique(names)}
-    return Epochs(data=data[keep], sample_rate_hz=float(sample_rate_hz), epoch_start_s=first_offset / sample_rate_hz,
-                  channels=tuple(channels), labels=names[keep], rejected=rejected)
+    return Epochs(
+        data=data[keep],
+        sample_rate_hz=float(sample_rate_hz),
+        epoch_start_s=first_offset / sample_rate_hz,
+        channels=tuple(channels),
+        labels=names[keep],
+        rejected=rejected,
+    )
 
 
 class _Cut(NamedTuple):
@@ -182,9 +197,11 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
     for onset, _ in events:
         first = int(round(onset * sample_rate_hz)) + first_offset
         if first < 0 or first + n_samples > n_total:
-            raise UserError(f"subject {subject}: the epoch window {start_ms:g} to {stop_ms:g} ms "
-                            f"around the event at onset {onset:g} s runs beyond the recording "
-                            f"(0 to {n_total / sample_rate_hz:g} s) in {path}")
+            raise UserError(
+                f"subject {subject}: the epoch window {start_ms:g} to {stop_ms:g} ms "
+                f"around the event at onset {onset:g} s runs beyond the recording "
+                f"(0 to {n_total / sample_rate_hz:g} s) in {path}"
+            )
         starts.append(first)
     window = np.asarray(starts)[:, None] + np.arange(n_samples)[None, :]
 
@@ -197,11 +214,15 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
             first_bad = np.flatnonzero(bad)[0] / sample_rate_hz
             hit = np.flatnonzero(bad[window].any(axis=1))
             epoch = f", epoch {hit[0]} (event at {events[hit[0]][0]:g} s)" if hit.size else ", outside every epoch"
-            raise UserError(f"subject {subject}: channel {signal.label} holds NaN or infinite "
-                            f"samples (first at {first_bad:g} s{epoch}) in {path}")
+            raise UserError(
+                f"subject {subject}: channel {signal.label} holds NaN or infinite "
+                f"samples (first at {first_bad:g} s{epoch}) in {path}"
+            )
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
-    return _Cut(data, float(sample_rate_hz), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))
+    return _Cut(
+        data, float(sample_rate_hz), first_offset, [s.label for s in signals], np.array([lab for _, lab in events])
+    )
 
 
 def _common_channels(names: list[list[str]], recordings: list[Path], subject: str) -> list[str]:
@@ -209,11 +230,14 @@ def _common_channels(names: list[list[str]], recordings: list[Path], subject: st
     common = _shared(names)
     dropped = sorted({c for other in names for c in other} - set(common))
     if not common:
-        raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} share no good "
-                        "EEG channel")
+        raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} share no good EEG channel")
     if dropped:
-        warnings.warn(f"subject {subject}: channels {dropped} are not good in every recording "
-                      f"({_listing(recordings)}) and are left out", FamwiseWarning, stacklevel=3)
+        warnings.warn(
+            f"subject {subject}: channels {dropped} are not good in every recording "
+            f"({_listing(recordings)}) and are left out",
+            FamwiseWarning,
+            stacklevel=3,
+        )
     return common
 
 
@@ -226,11 +250,21 @@ def _listing(recordings: list[Path]) -> str:
     return str(recordings[0]) if len(recordings) == 1 else ", ".join(p.name for p in recordings)
 
 
-def write_subject(root: Path, subject: str, *, data: np.ndarray, sample_rate_hz: float,
-                  channels: list[str], events: list[tuple[float, float, str]], task: str,
-                  bad_channels: Sequence[str] = (),
-                  electrodes: dict[str, tuple[float, float, float]] | None = None,
-                  fmt: str = "edf", run: int | None = None, resolution_uv: float | None = None) -> None:
+def write_subject(
+    root: Path,
+    subject: str,
+    *,
+    data: np.ndarray,
+    sample_rate_hz: float,
+    channels: list[str],
+    events: list[tuple[float, float, str]],
+    task: str,
+    bad_channels: Sequence[str] = (),
+    electrodes: dict[str, tuple[float, float, float]] | None = None,
+    fmt: str = "edf",
+    run: int | None = None,
+    resolution_uv: float | None = None,
+) -> None:
     """Write one subject's continuous recording as BIDS-EEG.
 
     Parameters
@@ -264,8 +298,9 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sample_rate_hz:
     """
     data = np.asarray(data, dtype=float)
     if data.ndim != 2 or data.shape[0] != len(channels):
-        raise UserError(f"subject {subject}: data must have shape (n_channels={len(channels)}, "
-                        f"n_samples), got {data.shape}")
+        raise UserError(
+            f"subject {subject}: data must have shape (n_channels={len(channels)}, n_samples), got {data.shape}"
+        )
     if fmt not in FORMATS:
         raise UserError(f"subject {subject}: format must be one of {', '.join(FORMATS)}, got {fmt!r}")
     folder = Path(root) / f"sub-{subject}" / "eeg"
@@ -274,30 +309,61 @@ def write_subject(root: Path, subject: str, *, data: np.ndarray, sample_rate_hz:
 
     markers = [(int(round(onset * sample_rate_hz)), label) for onset, _, label in events]
     try:
-        write_recording(Path(f"{stem}_eeg"), data * 1e6, sample_rate_hz=sample_rate_hz, channels=channels, fmt=fmt,
-                        markers=markers, resolution_uv=resolution_uv)
+        write_recording(
+            Path(f"{stem}_eeg"),
+            data * 1e6,
+            sample_rate_hz=sample_rate_hz,
+            channels=channels,
+            fmt=fmt,
+            markers=markers,
+            resolution_uv=resolution_uv,
+        )
     except ValueError as exc:
         suffix = "vhdr" if fmt == "brainvision" else fmt
         raise UserError(f"subject {subject}: cannot write {stem}_eeg.{suffix}: {exc}") from None
 
-    _write_tsv(Path(f"{stem}_events.tsv"), ["onset", "duration", "trial_type", "sample"],
-               [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sample_rate_hz)))]
-                for on, dur, label in events])
-    _write_tsv(Path(f"{stem}_channels.tsv"), ["name", "type", "units", "status"],
-               [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"]
-                for name in channels])
-    Path(f"{stem}_eeg.json").write_text(json.dumps({
-        "TaskName": task, "SamplingFrequency": sample_rate_hz, "EEGReference": "n/a",
-        "PowerLineFrequency": "n/a", "SoftwareFilters": "n/a",
-        "EEGChannelCount": len(channels)}, indent=2) + "\n")
+    _write_tsv(
+        Path(f"{stem}_events.tsv"),
+        ["onset", "duration", "trial_type", "sample"],
+        [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sample_rate_hz)))] for on, dur, label in events],
+    )
+    _write_tsv(
+        Path(f"{stem}_channels.tsv"),
+        ["name", "type", "units", "status"],
+        [[name, "EEG", "uV", "bad" if name in set(bad_channels) else "good"] for name in channels],
+    )
+    Path(f"{stem}_eeg.json").write_text(
+        json.dumps(
+            {
+                "TaskName": task,
+                "SamplingFrequency": sample_rate_hz,
+                "EEGReference": "n/a",
+                "PowerLineFrequency": "n/a",
+                "SoftwareFilters": "n/a",
+                "EEGChannelCount": len(channels),
+            },
+            indent=2,
+        )
+        + "\n"
+    )
     if electrodes is not None:
         base = folder / f"sub-{subject}"
-        _write_tsv(Path(f"{base}_electrodes.tsv"), ["name", "x", "y", "z"],
-                   [[name, *(f"{v:.4f}" for v in xyz)] for name, xyz in electrodes.items()])
-        Path(f"{base}_coordsystem.json").write_text(json.dumps({
-            "EEGCoordinateSystem": "Other", "EEGCoordinateUnits": "mm",
-            "EEGCoordinateSystemDescription": "head-centred, x right, y front, z up"},
-            indent=2) + "\n")
+        _write_tsv(
+            Path(f"{base}_electrodes.tsv"),
+            ["name", "x", "y", "z"],
+            [[name, *(f"{v:.4f}" for v in xyz)] for name, xyz in electrodes.items()],
+        )
+        Path(f"{base}_coordsystem.json").write_text(
+            json.dumps(
+                {
+                    "EEGCoordinateSystem": "Other",
+                    "EEGCoordinateUnits": "mm",
+                    "EEGCoordinateSystemDescription": "head-centred, x right, y front, z up",
+                },
+                indent=2,
+            )
+            + "\n"
+        )
 
 
 def write_participants(root: Path, rows: list[dict[str, str]]) -> None:
@@ -318,13 +384,16 @@ def write_participants(root: Path, rows: list[dict[str, str]]) -> None:
         if "participant_id" not in row:
             raise UserError(f"every participants row needs a 'participant_id', got {row}")
         columns += [key for key in row if key not in columns]
-    lines = [[f"sub-{_strip_sub(str(row['participant_id']))}"]
-             + [str(row.get(key, "n/a")) for key in columns[1:]] for row in rows]
+    lines = [
+        [f"sub-{_strip_sub(str(row['participant_id']))}"] + [str(row.get(key, "n/a")) for key in columns[1:]]
+        for row in rows
+    ]
     _write_tsv(root / "participants.tsv", columns, lines)
     description = root / "dataset_description.json"
     if not description.exists():
-        description.write_text(json.dumps({"Name": root.name, "BIDSVersion": BIDS_VERSION,
-                                           "DatasetType": "raw"}, indent=2) + "\n")
+        description.write_text(
+            json.dumps({"Name": root.name, "BIDSVersion": BIDS_VERSION, "DatasetType": "raw"}, indent=2) + "\n"
+        )
 
 
 def _strip_sub(value: str) -> str:
@@ -362,8 +431,12 @@ def subject_files(root: Path, subject: str, *, task: str | None) -> list[Path]:
 def recording_files(root: Path, subject: str) -> list[Path]:
     """Every recording of a subject in a format famwise reads (``*_eeg.edf|.bdf|.vhdr`` in eeg/ and ses-*/eeg/)."""
     sub_dir = Path(root) / f"sub-{subject}"
-    return [p for folder in RECORDING_FOLDERS for suffix in SUFFIXES
-            for p in sorted(sub_dir.glob(f"{folder}/*_eeg{suffix}"))]
+    return [
+        p
+        for folder in RECORDING_FOLDERS
+        for suffix in SUFFIXES
+        for p in sorted(sub_dir.glob(f"{folder}/*_eeg{suffix}"))
+    ]
 
 
 def find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
@@ -378,21 +451,34 @@ def find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
         found = [p for p in found if f"_task-{task}_" in p.name]
     where = f" for task {task!r}" if task is not None else ""
     if not found:
-        others = sorted(p.name for p in sub_dir.glob("**/*_eeg.*")
-                        if p.suffix.lower() not in (*SUFFIXES, ".json", ".eeg", ".vmrk"))
-        hint = (f"; found {', '.join(others)}, in a format famwise does not read: convert it with a general-purpose "
-                "converter to EDF or BrainVision") if others else ""
-        raise UserError(f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf, .bdf or "
-                        f".vhdr){where} in {sub_dir / 'eeg'}{hint}")
+        others = sorted(
+            p.name for p in sub_dir.glob("**/*_eeg.*") if p.suffix.lower() not in (*SUFFIXES, ".json", ".eeg", ".vmrk")
+        )
+        hint = (
+            (
+                f"; found {', '.join(others)}, in a format famwise does not read: convert it with a general-purpose "
+                "converter to EDF or BrainVision"
+            )
+            if others
+            else ""
+        )
+        raise UserError(
+            f"subject {subject}: no EEG recording (sub-{subject}_..._eeg.edf, .bdf or "
+            f".vhdr){where} in {sub_dir / 'eeg'}{hint}"
+        )
     stems = [p.with_suffix("") for p in found]
     twice = sorted({p.name for p in found if stems.count(p.with_suffix("")) > 1})
     if twice:
-        raise UserError(f"subject {subject}: one recording stored in several formats ({', '.join(twice)}); "
-                        "keep one of them in the BIDS folder")
+        raise UserError(
+            f"subject {subject}: one recording stored in several formats ({', '.join(twice)}); "
+            "keep one of them in the BIDS folder"
+        )
     tasks = {_entity(p.name, "task") for p in found}
     if len(tasks) > 1:
-        raise UserError(f"subject {subject}: several EEG recordings of different tasks, set the task to "
-                        f"choose one: {[p.name for p in found]}")
+        raise UserError(
+            f"subject {subject}: several EEG recordings of different tasks, set the task to "
+            f"choose one: {[p.name for p in found]}"
+        )
     return sorted(found, key=lambda p: (_entity(p.name, "ses"), _run_number(p.name), p.name))
 
 
@@ -400,7 +486,7 @@ def _entity(name: str, key: str) -> str:
     """Value of a BIDS entity (``key-value``) in a file name, '' when absent."""
     for part in name.split("_"):
         if part.startswith(f"{key}-"):
-            return part[len(key) + 1:]
+            return part[len(key) + 1 :]
     return ""
 
 
@@ -417,8 +503,7 @@ def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tupl
     columns = list(rows[0]) if rows else []
     for column in ("onset", "trial_type"):
         if column not in columns:
-            raise UserError(f"subject {subject}: events file {path} has no {column!r} column; "
-                            f"found {columns}")
+            raise UserError(f"subject {subject}: events file {path} has no {column!r} column; found {columns}")
     events = []
     for line, row in enumerate(rows, start=2):
         label = row["trial_type"]
@@ -427,12 +512,15 @@ def _read_events(path: Path, subject: str, labels: set[str] | None) -> list[tupl
         try:
             events.append((float(row["onset"]), label))
         except ValueError:
-            raise UserError(f"subject {subject}: events file {path}, line {line}: onset "
-                            f"{row['onset']!r} is not a number") from None
+            raise UserError(
+                f"subject {subject}: events file {path}, line {line}: onset {row['onset']!r} is not a number"
+            ) from None
     if not events:
         found = sorted({row["trial_type"] for row in rows})
-        raise UserError(f"subject {subject}: events file {path} has none of the trial_type "
-                        f"values {sorted(labels) if labels else 'wanted'}; found {found}")
+        raise UserError(
+            f"subject {subject}: events file {path} has none of the trial_type "
+            f"values {sorted(labels) if labels else 'wanted'}; found {found}"
+        )
     return events
 
 
@@ -447,8 +535,9 @@ def read_channels(path: Path, subject: str) -> dict[str, dict[str, str]] | None:
         return None
     rows = read_tsv(path)
     if rows and not {"name", "type"} <= set(rows[0]):
-        raise UserError(f"subject {subject}: channels file {path} needs 'name' and 'type' "
-                        f"columns, found {list(rows[0])}")
+        raise UserError(
+            f"subject {subject}: channels file {path} needs 'name' and 'type' columns, found {list(rows[0])}"
+        )
     return {row["name"]: row for row in rows}
 
 
@@ -475,15 +564,18 @@ def _kept_signals(recording: Recording, table, subject: str) -> list:
         names = [name for name in table if name not in left_out]
         missing = [name for name in names if name not in by_label]
         if missing:
-            raise UserError(f"subject {subject}: channels {missing} of the channels file are not "
-                            f"in {recording.path}, which holds {list(by_label)}")
+            raise UserError(
+                f"subject {subject}: channels {missing} of the channels file are not "
+                f"in {recording.path}, which holds {list(by_label)}"
+            )
         kept = [by_label[name] for name in names]
     if not kept:
         raise UserError(f"subject {subject}: no good EEG channel in {recording.path}")
     rates = {s.sample_rate_hz for s in kept}
     if len(rates) > 1:
-        raise UserError(f"subject {subject}: the EEG channels of {recording.path} have different "
-                        f"sampling rates {sorted(rates)} Hz")
+        raise UserError(
+            f"subject {subject}: the EEG channels of {recording.path} have different sampling rates {sorted(rates)} Hz"
+        )
     return kept
 
 
@@ -497,11 +589,19 @@ def _unit_factor(signal, table, subject: str) -> float:
     else:
         given, stated = (_UNITS_TO_VOLTS.get(text.strip().lower()) for text in (unit, signal.unit))
         if given is not None and stated is not None and given != stated:
-            warnings.warn(f"subject {subject}: channel {signal.label} is in {unit} by _channels.tsv but in "
-                          f"{signal.unit} by the header of its recording; using {unit}", FamwiseWarning, stacklevel=3)
+            warnings.warn(
+                f"subject {subject}: channel {signal.label} is in {unit} by _channels.tsv but in "
+                f"{signal.unit} by the header of its recording; using {unit}",
+                FamwiseWarning,
+                stacklevel=3,
+            )
     factor = _UNITS_TO_VOLTS.get(unit.strip().lower())
     if factor is None:
-        warnings.warn(f"subject {subject}: unit {unit!r} of channel {signal.label} is not one of "
-                      "V, mV, uV, nV; assuming microvolts", FamwiseWarning, stacklevel=3)
+        warnings.warn(
+            f"subject {subject}: unit {unit!r} of channel {signal.label} is not one of "
+            "V, mV, uV, nV; assuming microvolts",
+            FamwiseWarning,
+            stacklevel=3,
+        )
         return 1e-6
     return factor

@@ -31,8 +31,10 @@ def left_out_lines(root: Path, subjects: list[str], task: str | None) -> list[st
     lines = ["Channels left out by _channels.tsv (types other than EEG, and status bad):"]
     for reason in sorted(by_reason, key=lambda r: (r == "bad", r)):
         names = by_reason[reason]
-        shown = [name if len(names[name]) == len(subjects) else f"{name} ({len(names[name])} of {len(subjects)} subjects)"
-                 for name in sorted(names)]
+        shown = [
+            name if len(names[name]) == len(subjects) else f"{name} ({len(names[name])} of {len(subjects)} subjects)"
+            for name in sorted(names)
+        ]
         lines.append(f"  - {reason}: {', '.join(shown)}")
     return lines
 
@@ -56,12 +58,16 @@ def marker_warnings(root: Path, subjects: list[str], task: str | None) -> list[s
             if not events.is_file():
                 continue  # reading the subject names the missing events file
             if header.marker_file is None or not header.marker_file.is_file():
-                warnings.append(f"subject {subject}: the marker file {header.marker_file or '(none)'} named by "
-                                f"{path.name} is missing; its stimulus markers are not compared with {events.name}")
+                warnings.append(
+                    f"subject {subject}: the marker file {header.marker_file or '(none)'} named by "
+                    f"{path.name} is missing; its stimulus markers are not compared with {events.name}"
+                )
                 continue
             stimuli = sum(1 for m in brainvision.read_markers(header.marker_file) if m.type.lower() == "stimulus")
             rows = len(bids.read_tsv(events))
             if stimuli != rows:
-                warnings.append(f"subject {subject}: {header.marker_file} holds {stimuli} stimulus markers but "
-                                f"{events} lists {rows} events; epochs follow {events.name}")
+                warnings.append(
+                    f"subject {subject}: {header.marker_file} holds {stimuli} stimulus markers but "
+                    f"{events} lists {rows} events; epochs follow {events.name}"
+                )
     return warnings

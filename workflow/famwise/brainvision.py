@@ -100,8 +100,10 @@ def read_header(path: Path) -> Header:
     binary = sections.get("Binary Infos", {})
     data_format = common.get("DataFormat", "BINARY").upper()
     if data_format != "BINARY":
-        raise UserError(f"{path}: DataFormat={data_format} is not read; only BINARY data are "
-                        "(convert the recording to EDF or binary BrainVision)")
+        raise UserError(
+            f"{path}: DataFormat={data_format} is not read; only BINARY data are "
+            "(convert the recording to EDF or binary BrainVision)"
+        )
     if common.get("DataType", "TIMEDOMAIN").upper() != "TIMEDOMAIN":
         raise UserError(f"{path}: DataType={common['DataType']} is not read; only TIMEDOMAIN data are")
     orientation = common.get("DataOrientation", "MULTIPLEXED").upper()
@@ -109,17 +111,21 @@ def read_header(path: Path) -> Header:
         raise UserError(f"{path}: DataOrientation must be MULTIPLEXED or VECTORIZED, got {orientation}")
     binary_format = binary.get("BinaryFormat", "").upper()
     if binary_format not in _DTYPES:
-        raise UserError(f"{path}: BinaryFormat must be one of {', '.join(_DTYPES)}, "
-                        f"got {binary_format or 'nothing'}")
+        raise UserError(f"{path}: BinaryFormat must be one of {', '.join(_DTYPES)}, got {binary_format or 'nothing'}")
     n_channels = _positive(common, "NumberOfChannels", path, int)
     interval_us = _positive(common, "SamplingInterval", path, float)
-    channels = tuple(_channel(sections.get("Channel Infos", {}), number, path)
-                     for number in range(1, n_channels + 1))
-    header = Header(path=path, data_file=_beside(path, common.get("DataFile"), "DataFile"),
-                    marker_file=_beside(path, common["MarkerFile"], "MarkerFile") if common.get("MarkerFile") else None,
-                    sample_rate_hz=1e6 / interval_us, orientation=orientation, binary_format=binary_format,
-                    big_endian=binary.get("UseBigEndianOrder", "NO").upper() == "YES",
-                    channels=channels, n_samples=0)
+    channels = tuple(_channel(sections.get("Channel Infos", {}), number, path) for number in range(1, n_channels + 1))
+    header = Header(
+        path=path,
+        data_file=_beside(path, common.get("DataFile"), "DataFile"),
+        marker_file=_beside(path, common["MarkerFile"], "MarkerFile") if common.get("MarkerFile") else None,
+        sample_rate_hz=1e6 / interval_us,
+        orientation=orientation,
+        binary_format=binary_format,
+        big_endian=binary.get("UseBigEndianOrder", "NO").upper() == "YES",
+        channels=channels,
+        n_samples=0,
+    )
     return replace(header, n_samples=_count_samples(header, common.get("DataPoints")))
 
 
@@ -157,22 +163,32 @@ def read_markers(path: Path) -> list[Marker]:
     """
     path = Path(path)
     entries = _read_sections(path, _MARKER_MAGIC).get("Marker Infos", {})
-    numbered = sorted((int(key[2:]), value) for key, value in entries.items()
-                      if key.startswith("Mk") and key[2:].isdigit())
+    numbered = sorted(
+        (int(key[2:]), value) for key, value in entries.items() if key.startswith("Mk") and key[2:].isdigit()
+    )
     markers = []
     for number, value in numbered:
         fields = [field.replace("\\1", ",") for field in value.split(",")] + ["", "", "", ""]
         try:
-            markers.append(Marker(fields[0].strip(), fields[1], int(fields[2]) - 1,
-                                  int(fields[3] or 1), int(fields[4] or 0)))
+            markers.append(
+                Marker(fields[0].strip(), fields[1], int(fields[2]) - 1, int(fields[3] or 1), int(fields[4] or 0))
+            )
         except ValueError:
-            raise UserError(f"{path}: marker Mk{number}={value} needs whole-number position, "
-                            "size and channel fields") from None
+            raise UserError(
+                f"{path}: marker Mk{number}={value} needs whole-number position, size and channel fields"
+            ) from None
     return markers
 
 
-def write(path: Path, data: np.ndarray, *, sample_rate_hz: float, channels: list[str],
-          markers: list[tuple[int, str]], resolution: float | None = None) -> None:
+def write(
+    path: Path,
+    data: np.ndarray,
+    *,
+    sample_rate_hz: float,
+    channels: list[str],
+    markers: list[tuple[int, str]],
+    resolution: float | None = None,
+) -> None:
     """Write a recording in the core format: ``path`` (``.vhdr``) with its ``.vmrk`` and ``.eeg`` beside it.
 
     Parameters
@@ -203,21 +219,46 @@ def write(path: Path, data: np.ndarray, *, sample_rate_hz: float, channels: list
         steps = np.round(np.asarray(data, dtype=float) / resolution)
         largest = np.abs(steps).max(initial=0)
         if not largest <= 2**31 - 1:
-            raise ValueError(f"samples must be finite and within ±{(2**31 - 1) * resolution:g} µV "
-                             f"at {resolution:g} µV per step")
+            raise ValueError(
+                f"samples must be finite and within ±{(2**31 - 1) * resolution:g} µV at {resolution:g} µV per step"
+            )
         binary_format = "INT_16" if largest <= 32767 else "INT_32"
         stored = steps.astype("<" + _DTYPES[binary_format])
     names = [name.replace(",", "\\1") for name in channels]
     descriptions = [text.replace(",", "\\1") for _, text in markers]
-    header = ["Brain Vision Data Exchange Header File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
-              f"DataFile={path.stem}.eeg", f"MarkerFile={path.stem}.vmrk", "DataFormat=BINARY",
-              "DataOrientation=MULTIPLEXED", f"NumberOfChannels={len(channels)}",
-              f"SamplingInterval={1e6 / sample_rate_hz!r}", "", "[Binary Infos]", f"BinaryFormat={binary_format}", "",
-              "[Channel Infos]", *(f"Ch{n}={name},,{resolution!r},µV" for n, name in enumerate(names, start=1)), ""]
-    marker_lines = ["Brain Vision Data Exchange Marker File Version 1.0", "", "[Common Infos]", "Codepage=UTF-8",
-                    f"DataFile={path.stem}.eeg", "", "[Marker Infos]",
-                    *(f"Mk{n}=Stimulus,{text},{sample + 1},1,0"
-                      for n, ((sample, _), text) in enumerate(zip(markers, descriptions), start=1)), ""]
+    header = [
+        "Brain Vision Data Exchange Header File Version 1.0",
+        "",
+        "[Common Infos]",
+        "Codepage=UTF-8",
+        f"DataFile={path.stem}.eeg",
+        f"MarkerFile={path.stem}.vmrk",
+        "DataFormat=BINARY",
+        "DataOrientation=MULTIPLEXED",
+        f"NumberOfChannels={len(channels)}",
+        f"SamplingInterval={1e6 / sample_rate_hz!r}",
+        "",
+        "[Binary Infos]",
+        f"BinaryFormat={binary_format}",
+        "",
+        "[Channel Infos]",
+        *(f"Ch{n}={name},,{resolution!r},µV" for n, name in enumerate(names, start=1)),
+        "",
+    ]
+    marker_lines = [
+        "Brain Vision Data Exchange Marker File Version 1.0",
+        "",
+        "[Common Infos]",
+        "Codepage=UTF-8",
+        f"DataFile={path.stem}.eeg",
+        "",
+        "[Marker Infos]",
+        *(
+            f"Mk{n}=Stimulus,{text},{sample + 1},1,0"
+            for n, ((sample, _), text) in enumerate(zip(markers, descriptions), start=1)
+        ),
+        "",
+    ]
     path.write_text("\n".join(header), encoding="utf-8")
     path.with_suffix(".vmrk").write_text("\n".join(marker_lines), encoding="utf-8")
     stored.T.tofile(path.with_suffix(".eeg"))
@@ -231,17 +272,26 @@ def _read_sections(path: Path, magic: str) -> dict[str, dict[str, str]]:
     lines = raw.decode("latin-1").splitlines()
     if not lines or magic not in lines[0].replace(" ", ""):
         kind = "header" if magic == _HEADER_MAGIC else "marker"
-        raise UserError(f"{path}: not a BrainVision {kind} file (its first line should name the "
-                        f"'Data Exchange {kind.title()} File')")
-    codepage = next((line.split("=", 1)[1].strip().upper() for line in lines
-                     if line.replace(" ", "").lower().startswith("codepage=")), "ANSI")
+        raise UserError(
+            f"{path}: not a BrainVision {kind} file (its first line should name the "
+            f"'Data Exchange {kind.title()} File')"
+        )
+    codepage = next(
+        (
+            line.split("=", 1)[1].strip().upper()
+            for line in lines
+            if line.replace(" ", "").lower().startswith("codepage=")
+        ),
+        "ANSI",
+    )
     if codepage not in _CODEPAGES:
         raise UserError(f"{path}: Codepage must be UTF-8 or ANSI, got {codepage}")
     try:
         text = raw.decode(_CODEPAGES[codepage])
     except UnicodeDecodeError as exc:
-        raise UserError(f"{path}: the file says Codepage={codepage} but byte {exc.start} is not "
-                        f"valid {codepage}") from None
+        raise UserError(
+            f"{path}: the file says Codepage={codepage} but byte {exc.start} is not valid {codepage}"
+        ) from None
     sections: dict[str, dict[str, str]] = {}
     current = None
     for line in text.splitlines()[1:]:
@@ -261,8 +311,9 @@ def _positive(common: dict[str, str], key: str, path: Path, kind: type):
     try:
         value = kind(common[key])
     except (KeyError, ValueError):
-        raise UserError(f"{path}: [Common Infos] needs {key} as a {kind.__name__}, "
-                        f"got {common.get(key, 'nothing')!r}") from None
+        raise UserError(
+            f"{path}: [Common Infos] needs {key} as a {kind.__name__}, got {common.get(key, 'nothing')!r}"
+        ) from None
     if value <= 0:
         raise UserError(f"{path}: {key} must be positive, got {value}")
     return value
@@ -272,8 +323,7 @@ def _channel(infos: dict[str, str], number: int, path: Path) -> Channel:
     """``Ch<number>`` of ``[Channel Infos]``: empty resolution means 1, empty unit µV."""
     value = infos.get(f"Ch{number}")
     if value is None:
-        raise UserError(f"{path}: [Channel Infos] has no Ch{number} entry, but NumberOfChannels "
-                        f"is at least {number}")
+        raise UserError(f"{path}: [Channel Infos] has no Ch{number} entry, but NumberOfChannels is at least {number}")
     fields = [field.replace("\\1", ",").strip() for field in value.split(",")] + ["", "", ""]
     try:
         resolution = float(fields[2]) if fields[2] else 1.0
@@ -298,11 +348,15 @@ def _count_samples(header: Header, data_points: str | None) -> int:
     expected = f"{len(header.channels)} channels x {header.dtype.itemsize} bytes ({header.binary_format})"
     if data_points not in (None, ""):
         if not data_points.isdigit() or size != int(data_points) * frame:
-            raise UserError(f"{header.data_file}: holds {size} bytes, but {header.path.name} describes "
-                            f"DataPoints={data_points} of {expected} = "
-                            f"{int(data_points) * frame if data_points.isdigit() else '?'} bytes")
+            raise UserError(
+                f"{header.data_file}: holds {size} bytes, but {header.path.name} describes "
+                f"DataPoints={data_points} of {expected} = "
+                f"{int(data_points) * frame if data_points.isdigit() else '?'} bytes"
+            )
         return int(data_points)
     if size == 0 or size % frame:
-        raise UserError(f"{header.data_file}: holds {size} bytes, not a whole number of time points "
-                        f"of {expected} as {header.path.name} describes")
+        raise UserError(
+            f"{header.data_file}: holds {size} bytes, not a whole number of time points "
+            f"of {expected} as {header.path.name} describes"
+        )
     return size // frame

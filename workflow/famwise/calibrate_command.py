@@ -28,11 +28,19 @@ _PROGRESS = re.compile(r"calibration (\S+): shard (\d+): (\d+)/(\d+) datasets")
 
 def add_parser(commands) -> None:
     """Add ``calibrate`` to the CLI's subcommands (the ``add_subparsers`` object)."""
-    parser = commands.add_parser("calibrate", help="check each correction's false-positive rate on null datasets made from the study's own maps")
+    parser = commands.add_parser(
+        "calibrate", help="check each correction's false-positive rate on null datasets made from the study's own maps"
+    )
     parser.add_argument("spec", type=Path, help="the study spec (YAML)")
     parser.add_argument("--datasets", type=int, default=100, help="null datasets per contrast (default 100)")
-    parser.add_argument("--permutations", type=int, help="permutations per null dataset (default: the study's inference.permutations)")
-    parser.add_argument("--shards", type=int, help="pieces the datasets are computed in, one job and one file each (default: min(10, datasets))")
+    parser.add_argument(
+        "--permutations", type=int, help="permutations per null dataset (default: the study's inference.permutations)"
+    )
+    parser.add_argument(
+        "--shards",
+        type=int,
+        help="pieces the datasets are computed in, one job and one file each (default: min(10, datasets))",
+    )
     parser.add_argument("--cores", type=int, default=os.cpu_count() or 1, help="cores to use (default: all)")
     parser.set_defaults(handler=command_calibrate)
 
@@ -50,7 +58,9 @@ def command_calibrate(args) -> int:
     shards = args.shards if args.shards is not None else min(10, max(args.datasets, 1))
     contrasts = [c.name for c in plan.study.contrasts]
     settings = {  # checks the options here, before Snakemake sees them
-        name: to_json(calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, shards=shards))
+        name: to_json(
+            calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, shards=shards)
+        )
         for name in contrasts
     }
     config = {"calibrate_datasets": args.datasets, "calibrate_shards": shards}
@@ -58,12 +68,22 @@ def command_calibrate(args) -> int:
         config["calibrate_permutations"] = args.permutations
     targets = [layout.calibration_files(name)["table"] for name in contrasts]
     used = args.permutations or plan.study.inference.permutations
-    print(f"famwise: calibrating {len(contrasts)} contrast(s) with {args.datasets} null datasets each, "
-          f"{used} permutations per dataset"
-          + (f" (reduced from the study's {plan.study.inference.permutations})" if used < plan.study.inference.permutations else ""))
+    print(
+        f"famwise: calibrating {len(contrasts)} contrast(s) with {args.datasets} null datasets each, "
+        f"{used} permutations per dataset"
+        + (
+            f" (reduced from the study's {plan.study.inference.permutations})"
+            if used < plan.study.inference.permutations
+            else ""
+        )
+    )
     started = time.time()
-    watcher = _ProgressWatcher(plan.loaded.output / "logs" / "calibrate_shard", total=args.datasets * len(contrasts),
-                               kept=_kept_datasets(plan.loaded.output / "calibration", settings), since=started)
+    watcher = _ProgressWatcher(
+        plan.loaded.output / "logs" / "calibrate_shard",
+        total=args.datasets * len(contrasts),
+        kept=_kept_datasets(plan.loaded.output / "calibration", settings),
+        since=started,
+    )
     watcher.start()
     try:
         code, _ = run_snakemake(plan, ["--cores", str(args.cores), *targets], capture=False, config=config)
@@ -87,7 +107,10 @@ def command_calibrate(args) -> int:
         print("\nfamwise: updating the report with the calibration")
         code, _ = run_snakemake(plan, ["--cores", str(args.cores), layout.REPORT_PAGE], capture=False, config=config)
         if code != 0:
-            raise UserError(job_error(plan, started) or f"the report could not be updated; see the logs under {plan.loaded.output / 'logs'}")
+            raise UserError(
+                job_error(plan, started)
+                or f"the report could not be updated; see the logs under {plan.loaded.output / 'logs'}"
+            )
     else:
         print(f"\nfamwise: `famwise run {args.spec}` builds the report, which will include the calibration")
     print(f"famwise: done in {time.time() - started:.1f} s")
@@ -117,12 +140,16 @@ def wide_interval_warnings(rows: list[dict]) -> list[str]:
 
 def format_rows(rows: list[dict]) -> str:
     """The calibration table as aligned text."""
-    lines = [f"  {'correction':<16} {'FWER':>6}  {'95% interval':<16} {'nominal':>7}  {'detections':>10}  {'permutations':>12}"]
+    lines = [
+        f"  {'correction':<16} {'FWER':>6}  {'95% interval':<16} {'nominal':>7}  {'detections':>10}  {'permutations':>12}"
+    ]
     for row in rows:
         interval = f"[{row['fwer_ci_low']:.3f}, {row['fwer_ci_high']:.3f}]"
         permutations = row["permutations"] if row["permutations"] == "n/a" else str(int(row["permutations"]))
         detections = f"{int(row['detections'])}/{int(row['datasets'])}"
-        lines.append(f"  {row['correction']:<16} {row['fwer']:>6.3f}  {interval:<16} {row['nominal']:>7g}  {detections:>10}  {permutations:>12}")
+        lines.append(
+            f"  {row['correction']:<16} {row['fwer']:>6.3f}  {interval:<16} {row['nominal']:>7g}  {detections:>10}  {permutations:>12}"
+        )
     return "\n".join(lines)
 
 

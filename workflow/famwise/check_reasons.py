@@ -42,8 +42,11 @@ def changed_settings(output: Path, study: dict) -> list[str]:
     if not path.is_file():
         return []
     before, now = _flatten(json.loads(path.read_text(encoding="utf-8"))), _flatten(study)
-    return [f"{key} {json.dumps(before.get(key))} -> {json.dumps(now.get(key))}"
-            for key in sorted(set(before) | set(now)) if before.get(key) != now.get(key)]
+    return [
+        f"{key} {json.dumps(before.get(key))} -> {json.dumps(now.get(key))}"
+        for key in sorted(set(before) | set(now))
+        if before.get(key) != now.get(key)
+    ]
 
 
 def describe_reasons(rule: str, reasons: set[str], changes: list[str]) -> str:

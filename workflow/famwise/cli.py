@@ -7,8 +7,8 @@ internal error.
 """
 
 import argparse
-import re
 import os
+import re
 import shutil
 import sys
 import time
@@ -64,28 +64,43 @@ DEMO_FOLDER = Path("famwise-demo")
 
 
 def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(prog="famwise", description="Corrected group statistics for EEG time-frequency data from one study spec.")
+    parser = argparse.ArgumentParser(
+        prog="famwise", description="Corrected group statistics for EEG time-frequency data from one study spec."
+    )
     parser.add_argument("--version", action="version", version=f"famwise {__version__}")
     parser.add_argument("--debug", action="store_true", help="show tracebacks of user errors")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
-    init = commands.add_parser("init", help="write a commented starter spec from the data found in a folder",
-                               description="Write a commented starter spec from the data found in a folder.")
+    init = commands.add_parser(
+        "init",
+        help="write a commented starter spec from the data found in a folder",
+        description="Write a commented starter spec from the data found in a folder.",
+    )
     init.add_argument("data", type=Path, help="a BIDS-EEG folder, or a folder of epochs files sub-<id>.npz")
     init.add_argument("--out", type=Path, help="spec file to write (default: study.yaml beside the data folder)")
     init.set_defaults(handler=command_init)
 
-    check = commands.add_parser("check", help="validate a spec and its inputs, and show what would run and why",
-                                description="Validate a spec and its inputs (without changing any file) and show what would run and why.")
+    check = commands.add_parser(
+        "check",
+        help="validate a spec and its inputs, and show what would run and why",
+        description="Validate a spec and its inputs (without changing any file) and show what would run and why.",
+    )
     check.add_argument("spec", type=Path, help=SPEC_HELP)
     check.set_defaults(handler=command_check)
 
-    run = commands.add_parser("run", help="run a study (only what changed reruns); extra arguments after -- go to Snakemake",
-                              usage="famwise run [-h] [--cores N] [--profile DIR] [--debug] spec [-- SNAKEMAKE_ARGS ...]",
-                              description="Run a study; only what changed since the last run reruns. Arguments after -- go to Snakemake.")
+    run = commands.add_parser(
+        "run",
+        help="run a study (only what changed reruns); extra arguments after -- go to Snakemake",
+        usage="famwise run [-h] [--cores N] [--profile DIR] [--debug] spec [-- SNAKEMAKE_ARGS ...]",
+        description="Run a study; only what changed since the last run reruns. Arguments after -- go to Snakemake.",
+    )
     run.add_argument("spec", type=Path, help=SPEC_HELP)
-    run.add_argument("--cores", type=_cores, default=os.cpu_count() or 1, metavar="N", help="cores to use (default: all)")
-    run.add_argument("--profile", type=Path, metavar="DIR", help="Snakemake profile folder, e.g. configs/profiles/slurm")
+    run.add_argument(
+        "--cores", type=_cores, default=os.cpu_count() or 1, metavar="N", help="cores to use (default: all)"
+    )
+    run.add_argument(
+        "--profile", type=Path, metavar="DIR", help="Snakemake profile folder, e.g. configs/profiles/slurm"
+    )
     run.set_defaults(handler=command_run)
 
     from famwise.calibrate_command import add_parser as add_calibrate_parser
@@ -96,21 +111,33 @@ def _parser() -> argparse.ArgumentParser:
 
     add_handoff_parsers(commands)
 
-    demo = commands.add_parser("demo", help="write the example study's data and run it",
-                               description="Write the example study (spec and invented BIDS-EEG data) into a folder and run it; "
-                                           "data already written there are reused.")
-    demo.add_argument("folder", type=Path, nargs="?", default=DEMO_FOLDER, help=f"where to write the study (default: {DEMO_FOLDER})")
-    demo.add_argument("--cores", type=_cores, default=os.cpu_count() or 1, metavar="N", help="cores to use (default: all)")
+    demo = commands.add_parser(
+        "demo",
+        help="write the example study's data and run it",
+        description="Write the example study (spec and invented BIDS-EEG data) into a folder and run it; "
+        "data already written there are reused.",
+    )
+    demo.add_argument(
+        "folder", type=Path, nargs="?", default=DEMO_FOLDER, help=f"where to write the study (default: {DEMO_FOLDER})"
+    )
+    demo.add_argument(
+        "--cores", type=_cores, default=os.cpu_count() or 1, metavar="N", help="cores to use (default: all)"
+    )
     demo.set_defaults(handler=command_demo)
 
-    bench = commands.add_parser("bench", help="time famwise's kernels against the plain, slow implementations of famwise.naive",
-                                description="Time famwise's kernels against the plain, slow implementations of famwise.naive.")
+    bench = commands.add_parser(
+        "bench",
+        help="time famwise's kernels against the plain, slow implementations of famwise.naive",
+        description="Time famwise's kernels against the plain, slow implementations of famwise.naive.",
+    )
     bench.add_argument("--quick", action="store_true", help="smaller sizes (under 2 minutes)")
     bench.add_argument("--json", type=Path, help="also write the table as JSON")
     bench.set_defaults(handler=command_bench)
 
     for command in commands.choices.values():  # --debug also after the subcommand
-        command.add_argument("--debug", action="store_true", default=argparse.SUPPRESS, help="show tracebacks of user errors")
+        command.add_argument(
+            "--debug", action="store_true", default=argparse.SUPPRESS, help="show tracebacks of user errors"
+        )
     return parser
 
 
@@ -118,8 +145,8 @@ def _parser() -> argparse.ArgumentParser:
 
 
 def command_check(args) -> int:
-    from famwise.job_benchmarks import describe_stage_costs
     from famwise.handoff.commands import verify_handoff
+    from famwise.job_benchmarks import describe_stage_costs
     from famwise.plan import Plan
     from famwise.preflight import preflight
     from famwise.summary import describe_plan, input_warnings
@@ -132,7 +159,10 @@ def command_check(args) -> int:
     from famwise.check_reasons import changed_settings, describe_reasons
 
     for path in plan.loaded.outside_paths():
-        print(f"famwise: note: {path} lies outside the spec's folder: the spec is tied to this machine's file system", file=sys.stderr)
+        print(
+            f"famwise: note: {path} lies outside the spec's folder: the spec is tied to this machine's file system",
+            file=sys.stderr,
+        )
     print()
     print("What would run and why:")
     jobs = planned_jobs(plan)
@@ -177,7 +207,7 @@ def planned_jobs(plan) -> dict[str, tuple[int, set[str]]]:
         text = line.strip()
         for prefix in ("rule ", "localrule "):
             if text.startswith(prefix) and text.endswith(":"):
-                rule = text[len(prefix):-1]
+                rule = text[len(prefix) : -1]
                 count, reasons = jobs.get(rule, (0, set()))
                 jobs[rule] = (count + 1, reasons)
         if text.startswith("reason:") and rule:
@@ -207,17 +237,29 @@ def command_run(args) -> int:
     if not args.profile or args.profile.resolve().name == "local":  # cluster jobs keep one thread each
         config["null_threads"] = max(1, args.cores // plan.study.inference.shards)
     started = time.time()
-    print(f"famwise {__version__}: {plan.study.name}: {len(plan.subjects)} subjects, "
-          f"{len(plan.study.contrasts)} contrast(s), {len(plan.study.inference.corrections)} correction(s) -> {plan.loaded.output}")
+    print(
+        f"famwise {__version__}: {plan.study.name}: {len(plan.subjects)} subjects, "
+        f"{len(plan.study.contrasts)} contrast(s), {len(plan.study.inference.corrections)} correction(s) -> {plan.loaded.output}"
+    )
     code, lines = run_snakemake(plan, options + args.snakemake_args, capture=False, config=config)
     if code == 0:
         from famwise import stage_warnings
 
-        _warn([line for line in stage_warnings.gather(plan.loaded.output, list(plan.subjects)) if stage_warnings.message_of(line) not in upfront])
+        _warn(
+            [
+                line
+                for line in stage_warnings.gather(plan.loaded.output, list(plan.subjects))
+                if stage_warnings.message_of(line) not in upfront
+            ]
+        )
         if any("Nothing to be done" in line for line in lines):
-            print(f"famwise: nothing needed to run: every result is up to date; report: {plan.loaded.output / 'report' / 'index.html'}")
+            print(
+                f"famwise: nothing needed to run: every result is up to date; report: {plan.loaded.output / 'report' / 'index.html'}"
+            )
         else:
-            print(f"famwise: done in {time.time() - started:.1f} s; report: {plan.loaded.output / 'report' / 'index.html'}")
+            print(
+                f"famwise: done in {time.time() - started:.1f} s; report: {plan.loaded.output / 'report' / 'index.html'}"
+            )
         return 0
     message = job_error(plan, started)
     if message:
@@ -227,7 +269,10 @@ def command_run(args) -> int:
         raise UserError(f"Snakemake: {refused[-1]} (arguments after --: {' '.join(args.snakemake_args)})")
     tail = [line for line in lines if line.strip()][-10:]
     print("\n".join(tail), file=sys.stderr)
-    print(f"famwise: the run failed; Snakemake's last lines are above, the jobs' logs under {plan.loaded.output / 'logs'}", file=sys.stderr)
+    print(
+        f"famwise: the run failed; Snakemake's last lines are above, the jobs' logs under {plan.loaded.output / 'logs'}",
+        file=sys.stderr,
+    )
     return 1
 
 

@@ -15,15 +15,68 @@ import numpy as np
 from famwise import bids
 
 CHANNELS = [
-    "Fp1", "Fp2", "AF3", "AF4", "F7", "F3", "Fz", "F4", "F8", "FC5", "FC1", "FC2", "FC6", "T7", "C3", "Cz",
-    "C4", "T8", "CP5", "CP1", "CP2", "CP6", "P7", "P3", "Pz", "P4", "P8", "PO3", "PO4", "O1", "Oz", "O2",
+    "Fp1",
+    "Fp2",
+    "AF3",
+    "AF4",
+    "F7",
+    "F3",
+    "Fz",
+    "F4",
+    "F8",
+    "FC5",
+    "FC1",
+    "FC2",
+    "FC6",
+    "T7",
+    "C3",
+    "Cz",
+    "C4",
+    "T8",
+    "CP5",
+    "CP1",
+    "CP2",
+    "CP6",
+    "P7",
+    "P3",
+    "Pz",
+    "P4",
+    "P8",
+    "PO3",
+    "PO4",
+    "O1",
+    "Oz",
+    "O2",
 ]
 # Share of the frontal-midline theta source seen at each channel (the rest see none).
 THETA_WEIGHTS = {
-    "Fz": 1.0, "FC1": 0.8, "FC2": 0.8, "F3": 0.6, "F4": 0.6, "Cz": 0.5, "AF3": 0.4, "AF4": 0.4,
-    "Fp1": 0.2, "Fp2": 0.2, "C3": 0.2, "C4": 0.2, "CP1": 0.15, "CP2": 0.15,
+    "Fz": 1.0,
+    "FC1": 0.8,
+    "FC2": 0.8,
+    "F3": 0.6,
+    "F4": 0.6,
+    "Cz": 0.5,
+    "AF3": 0.4,
+    "AF4": 0.4,
+    "Fp1": 0.2,
+    "Fp2": 0.2,
+    "C3": 0.2,
+    "C4": 0.2,
+    "CP1": 0.15,
+    "CP2": 0.15,
 }
-ALPHA_WEIGHTS = {"O1": 1.0, "Oz": 1.0, "O2": 1.0, "PO3": 0.8, "PO4": 0.8, "P3": 0.5, "Pz": 0.6, "P4": 0.5, "P7": 0.4, "P8": 0.4}
+ALPHA_WEIGHTS = {
+    "O1": 1.0,
+    "Oz": 1.0,
+    "O2": 1.0,
+    "PO3": 0.8,
+    "PO4": 0.8,
+    "P3": 0.5,
+    "Pz": 0.6,
+    "P4": 0.5,
+    "P7": 0.4,
+    "P8": 0.4,
+}
 SAMPLE_RATE_HZ = 250.0
 EPOCHS_PER_CONDITION = 40
 EVENT_SPACING_S = 3.0
@@ -57,8 +110,9 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
             shutil.copyfile(source, spec)
     root = folder / "data"
     marker = root / ".complete"
-    written = "written by famwise demo\n" + ("" if (fmt, resolution_uv) == ("edf", None)
-                                             else f"as {fmt}, resolution {resolution_uv} uV\n")
+    written = "written by famwise demo\n" + (
+        "" if (fmt, resolution_uv) == ("edf", None) else f"as {fmt}, resolution {resolution_uv} uV\n"
+    )
     if marker.exists() and marker.read_text() == written:
         return spec
     if root.exists():
@@ -68,8 +122,17 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
     for number in range(1, N_PARTICIPANTS + 1):
         subject = f"{number:02d}"
         data, events = simulate_recording(rng, gain=float(rng.normal(1.0, 0.25)), artefacts=subject == "03")
-        bids.write_subject(root, subject, data=data, sample_rate_hz=SAMPLE_RATE_HZ, channels=CHANNELS, events=events, task="lantern",
-                           fmt=fmt, resolution_uv=resolution_uv)
+        bids.write_subject(
+            root,
+            subject,
+            data=data,
+            sample_rate_hz=SAMPLE_RATE_HZ,
+            channels=CHANNELS,
+            events=events,
+            task="lantern",
+            fmt=fmt,
+            resolution_uv=resolution_uv,
+        )
         rows.append({"participant_id": f"sub-{subject}", "age": str(int(rng.integers(19, 36))), "handedness": "R"})
     bids.write_participants(root, rows)
     marker.write_text(written)
@@ -105,14 +168,16 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
     if artefacts:
         for onset in onsets[rng.choice(labels.size, 4, replace=False)]:
             start = int((onset + 0.3) * SAMPLE_RATE_HZ)
-            data[:2, start:start + 40] += 250e-6 * np.hanning(40)
+            data[:2, start : start + 40] += 250e-6 * np.hanning(40)
     events = [(float(onset), 0.0, str(label)) for onset, label in zip(onsets, labels)]
     return data, events
 
 
 def _background(rng: np.random.Generator, n_channels: int, n_samples: int) -> np.ndarray:
     """Spatially smeared 1/f noise, about 8 microvolts RMS, volts."""
-    spectrum = rng.normal(size=(n_channels, n_samples // 2 + 1)) + 1j * rng.normal(size=(n_channels, n_samples // 2 + 1))
+    spectrum = rng.normal(size=(n_channels, n_samples // 2 + 1)) + 1j * rng.normal(
+        size=(n_channels, n_samples // 2 + 1)
+    )
     freqs = np.fft.rfftfreq(n_samples, 1 / SAMPLE_RATE_HZ)
     spectrum /= np.sqrt(np.maximum(freqs, 1.0))
     noise = np.fft.irfft(spectrum, n=n_samples, axis=1)

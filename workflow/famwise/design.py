@@ -9,8 +9,8 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise.errors import UserError
 from famwise.atomic import save_npz
+from famwise.errors import UserError
 from famwise.settings import ContrastSettings
 from famwise.spec.base import did_you_mean
 
@@ -59,8 +59,14 @@ class ContrastData:
         if self.covariate is not None:
             extra["covariate"] = self.covariate
         save_npz(
-            path, x=self.x, test=self.test, subjects=np.array(self.subjects), channels=np.array(self.channels),
-            freqs=self.freqs, times=self.times, **extra,
+            path,
+            x=self.x,
+            test=self.test,
+            subjects=np.array(self.subjects),
+            channels=np.array(self.channels),
+            freqs=self.freqs,
+            times=self.times,
+            **extra,
         )
 
 
@@ -79,7 +85,9 @@ def load_contrast(path: Path) -> ContrastData:
         )
 
 
-def build_contrast(files: list[Path], *, settings: ContrastSettings, sampling_rates: list[float | None] | None = None) -> ContrastData:
+def build_contrast(
+    files: list[Path], *, settings: ContrastSettings, sampling_rates: list[float | None] | None = None
+) -> ContrastData:
     """Stack the subjects' maps for one contrast, restricted to the analysis region.
 
     Parameters
@@ -134,7 +142,9 @@ def _check_rates(rates: list[float | None], subjects: list[str]) -> None:
     known = [(rate, subject) for rate, subject in zip(rates, subjects) if rate is not None]
     for rate, subject in known[1:]:
         if abs(rate - known[0][0]) > 1e-9:
-            raise UserError(f"subject {subject}: sampling rate {rate:g} Hz differs from subject {known[0][1]} ({known[0][0]:g} Hz); resample the recordings to one rate")
+            raise UserError(
+                f"subject {subject}: sampling rate {rate:g} Hz differs from subject {known[0][1]} ({known[0][0]:g} Hz); resample the recordings to one rate"
+            )
 
 
 def _check_consistent(maps: list, subjects: list[str]) -> None:
@@ -143,7 +153,11 @@ def _check_consistent(maps: list, subjects: list[str]) -> None:
         if tf.channels != first.channels:
             extra = sorted(set(tf.channels) - set(first.channels))
             missing = sorted(set(first.channels) - set(tf.channels))
-            detail = f"extra: {', '.join(extra) or 'none'}; missing: {', '.join(missing) or 'none'}" if extra or missing else "same names in a different order"
+            detail = (
+                f"extra: {', '.join(extra) or 'none'}; missing: {', '.join(missing) or 'none'}"
+                if extra or missing
+                else "same names in a different order"
+            )
             raise UserError(f"subject {subject}: channels differ from subject {reference} ({detail})")
         if tf.freqs.shape != first.freqs.shape or not np.allclose(tf.freqs, first.freqs):
             raise UserError(f"subject {subject}: frequencies differ from subject {reference}")
@@ -154,7 +168,9 @@ def _check_consistent(maps: list, subjects: list[str]) -> None:
                 f"{first.times[0]:.3f} to {first.times[-1]:.3f} s in {first.times.size}; check sampling rates and epoch windows)"
             )
         if tf.measure != first.measure:
-            raise UserError(f"subject {subject}: measure '{tf.measure}' differs from subject {reference} ('{first.measure}')")
+            raise UserError(
+                f"subject {subject}: measure '{tf.measure}' differs from subject {reference} ('{first.measure}')"
+            )
 
 
 def _channel_index(channels: tuple[str, ...], wanted: list[str] | None) -> np.ndarray:
@@ -164,7 +180,9 @@ def _channel_index(channels: tuple[str, ...], wanted: list[str] | None) -> np.nd
     index = []
     for name in wanted:
         if name.lower() not in lookup:
-            raise UserError(f"analysis.channels: unknown channel '{name}'{did_you_mean(name, channels)} (the data have {len(channels)} channels: {', '.join(channels[:12])}{', ...' if len(channels) > 12 else ''})")
+            raise UserError(
+                f"analysis.channels: unknown channel '{name}'{did_you_mean(name, channels)} (the data have {len(channels)} channels: {', '.join(channels[:12])}{', ...' if len(channels) > 12 else ''})"
+            )
         index.append(lookup[name.lower()])
     return np.array(index)
 
@@ -174,7 +192,9 @@ def _freq_index(freqs: np.ndarray, band: list[float] | None) -> np.ndarray:
         return np.arange(freqs.size)
     index = np.flatnonzero((freqs >= band[0] - 1e-9) & (freqs <= band[1] + 1e-9))
     if index.size == 0:
-        raise UserError(f"analysis.freq_hz: no decomposed frequency lies in [{band[0]}, {band[1]}] Hz (frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)")
+        raise UserError(
+            f"analysis.freq_hz: no decomposed frequency lies in [{band[0]}, {band[1]}] Hz (frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)"
+        )
     return index
 
 
@@ -182,7 +202,9 @@ def _time_index(times: np.ndarray, valid: np.ndarray, freqs: np.ndarray, window_
     """Time points of the analysis window; every cell must be free of edge effects."""
     usable = valid.all(axis=0)
     if not usable.any():
-        raise UserError(f"analysis: no time point is free of edge effects at {freqs.min():.3g} Hz; use longer epochs or shorter wavelets")
+        raise UserError(
+            f"analysis: no time point is free of edge effects at {freqs.min():.3g} Hz; use longer epochs or shorter wavelets"
+        )
     first, last = np.flatnonzero(usable)[[0, -1]]
     fits = f"[{times[first] * 1e3:.0f}, {times[last] * 1e3:.0f}] ms"
     if window_ms is None:
@@ -190,7 +212,9 @@ def _time_index(times: np.ndarray, valid: np.ndarray, freqs: np.ndarray, window_
     inside = (times >= window_ms[0] / 1e3 - 1e-9) & (times <= window_ms[1] / 1e3 + 1e-9)
     index = np.flatnonzero(inside)
     if index.size == 0:
-        raise UserError(f"analysis.time_ms: no time point lies in [{window_ms[0]}, {window_ms[1]}] ms (maps cover {times[0] * 1e3:.0f} to {times[-1] * 1e3:.0f} ms)")
+        raise UserError(
+            f"analysis.time_ms: no time point lies in [{window_ms[0]}, {window_ms[1]}] ms (maps cover {times[0] * 1e3:.0f} to {times[-1] * 1e3:.0f} ms)"
+        )
     if not usable[index].all():
         worst = freqs[np.argmin(valid[:, index].sum(axis=1))]
         raise UserError(

@@ -21,9 +21,9 @@ from matplotlib.colors import ListedColormap  # noqa: E402
 from famwise.atomic import write_bytes  # noqa: E402
 
 _WHITE_D65 = np.array([0.95047, 1.0, 1.08883])
-_XYZ_TO_RGB = np.array([[3.2404542, -1.5371385, -0.4985314],
-                        [-0.9692660, 1.8760108, 0.0415560],
-                        [0.0556434, -0.2040259, 1.0572252]])
+_XYZ_TO_RGB = np.array(
+    [[3.2404542, -1.5371385, -0.4985314], [-0.9692660, 1.8760108, 0.0415560], [0.0556434, -0.2040259, 1.0572252]]
+)
 
 
 def lab_to_srgb(lab: np.ndarray) -> np.ndarray:
@@ -46,7 +46,7 @@ def lab_to_srgb(lab: np.ndarray) -> np.ndarray:
     fy = (lab[:, 0] + 16.0) / 116.0
     f = np.stack([fy + lab[:, 1] / 500.0, fy, fy - lab[:, 2] / 200.0], axis=1)
     delta = 6.0 / 29.0
-    xyz = np.where(f > delta, f ** 3, 3 * delta ** 2 * (f - 4.0 / 29.0)) * _WHITE_D65
+    xyz = np.where(f > delta, f**3, 3 * delta**2 * (f - 4.0 / 29.0)) * _WHITE_D65
     linear = xyz @ _XYZ_TO_RGB.T
     linear = np.clip(linear, 0.0, 1.0)
     rgb = np.where(linear <= 0.0031308, 12.92 * linear, 1.055 * linear ** (1 / 2.4) - 0.055)
@@ -63,12 +63,11 @@ _CENTRE = (97.0, 0.0, 0.0)
 _WARM = (38.0, 56.0, 38.0)
 
 DIVERGING = ListedColormap(
-    lab_to_srgb(np.vstack([_ramp(_COOL, _CENTRE, 128), _ramp(_CENTRE, _WARM, 128)])),
-    name="famwise_diverging")
+    lab_to_srgb(np.vstack([_ramp(_COOL, _CENTRE, 128), _ramp(_CENTRE, _WARM, 128)])), name="famwise_diverging"
+)
 """Diverging map for signed statistics and effects; use with a symmetric range."""
 
-SEQUENTIAL = ListedColormap(lab_to_srgb(_ramp((97.0, 0.0, 4.0), (22.0, 18.0, -42.0), 256)),
-                            name="famwise_sequential")
+SEQUENTIAL = ListedColormap(lab_to_srgb(_ramp((97.0, 0.0, 4.0), (22.0, 18.0, -42.0), 256)), name="famwise_sequential")
 """Sequential map for counts (light = few, dark = many)."""
 
 ACCENT = "#1b1b1b"

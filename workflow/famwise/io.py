@@ -57,7 +57,13 @@ def save_epochs(
         raise ValueError(f"{len(event_labels)} condition labels for {data.shape[0]} epochs")
     if sample_rate_hz <= 0:
         raise ValueError(f"sample_rate_hz must be positive, got {sample_rate_hz}")
-    arrays = dict(data=data, sample_rate_hz=float(sample_rate_hz), epoch_start_s=float(epoch_start_s), channels=np.array(channels), event_labels=np.array(event_labels))
+    arrays = dict(
+        data=data,
+        sample_rate_hz=float(sample_rate_hz),
+        epoch_start_s=float(epoch_start_s),
+        channels=np.array(channels),
+        event_labels=np.array(event_labels),
+    )
     if bad is not None:
         bad = np.asarray(bad, dtype=bool)
         if bad.shape != (data.shape[0],):
@@ -84,9 +90,15 @@ def load_epochs(path: Path, *, subject: str) -> Epochs:
     except (OSError, ValueError) as error:
         raise UserError(f"{where}: not a readable NPZ file ({error})") from None
     with archive:
-        missing = [key for key in ("data", "sample_rate_hz", "epoch_start_s", "channels", "event_labels") if key not in archive.files]
+        missing = [
+            key
+            for key in ("data", "sample_rate_hz", "epoch_start_s", "channels", "event_labels")
+            if key not in archive.files
+        ]
         if missing:
-            raise UserError(f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sample_rate_hz, epoch_start_s, channels, event_labels)")
+            raise UserError(
+                f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sample_rate_hz, epoch_start_s, channels, event_labels)"
+            )
         data = archive["data"]
         sample_rate_hz = float(archive["sample_rate_hz"])
         epoch_start_s = float(archive["epoch_start_s"])
@@ -107,7 +119,13 @@ def load_epochs(path: Path, *, subject: str) -> Epochs:
         raise UserError(f"{where}: NaN or inf samples (first in epoch {epoch}, channel {channels[channel]})")
     if bad is not None:
         data, labels = data[~bad], labels[~bad]
-    return Epochs(data=data.astype(np.float64, copy=False), sample_rate_hz=sample_rate_hz, epoch_start_s=epoch_start_s, channels=channels, labels=labels)
+    return Epochs(
+        data=data.astype(np.float64, copy=False),
+        sample_rate_hz=sample_rate_hz,
+        epoch_start_s=epoch_start_s,
+        channels=channels,
+        labels=labels,
+    )
 
 
 def subject_file(folder: Path, pattern: str, subject: str) -> Path:
@@ -119,7 +137,7 @@ def discover_pattern(folder: Path, pattern: str) -> list[str]:
     """Subject ids whose files match a ``{subject}`` pattern (relative to ``folder``, or absolute), sorted."""
     anchor = Path(pattern).anchor
     if anchor:
-        folder, pattern = Path(anchor), pattern[len(anchor):]
+        folder, pattern = Path(anchor), pattern[len(anchor) :]
     before, _, after = pattern.partition("{subject}")
     glob = before + "*" + after
     regex = re.compile(re.escape(before) + r"([A-Za-z0-9]+)" + re.escape(after) + "$")

@@ -56,8 +56,8 @@ def run_decompose(args, settings: types.DecomposeSettings) -> None:
 def _decompose_subject(args, settings: types.DecomposeSettings):
     """The subject's maps and sidecar record."""
     from famwise import bids
-    from famwise.io import load_epochs, subject_file
     from famwise.decomposition import decompose, frequency_grid, load_maps
+    from famwise.io import load_epochs, subject_file
 
     subject = args.subject
     source = settings.source
@@ -71,8 +71,13 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
         else:
             ep = settings.epochs
             epochs = bids.read_subject(
-                Path(settings.path), subject, task=settings.task, window_ms=ep.window_ms,
-                reject_peak_to_peak_uv=ep.reject_peak_to_peak_uv, reference=ep.reference, labels=set(labels),
+                Path(settings.path),
+                subject,
+                task=settings.task,
+                window_ms=ep.window_ms,
+                reject_peak_to_peak_uv=ep.reject_peak_to_peak_uv,
+                reference=ep.reference,
+                labels=set(labels),
             )
         sample_rate_hz = epochs.sample_rate_hz
         for label, count in epochs.rejected.items():
@@ -81,20 +86,35 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
         tf = settings.decomposition
         grid = tf.frequencies
         baseline = tf.baseline
-        _say(f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf.method} {tf.measure}")
+        _say(
+            f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf.method} {tf.measure}"
+        )
         maps = decompose(
-            epochs, subject=subject, conditions={name: list(group) for name, group in settings.conditions.items()},
+            epochs,
+            subject=subject,
+            conditions={name: list(group) for name, group in settings.conditions.items()},
             frequencies_hz=frequency_grid(grid.lowest_hz, grid.highest_hz, grid.count, grid.spacing),
-            method=tf.method, cycles=tf.cycles, fwhm_ms=tf.fwhm_ms,
-            taper_length_ms=tf.taper_length_ms, nw=tf.nw, measure=tf.measure,
-            time_step_ms=tf.time_step_ms, average=tf.average, trim=tf.trim,
-            baseline_mode=baseline.mode, baseline_window_ms=baseline.window_ms,
-            baseline_pooled=baseline.pooled, baseline_single_epoch=baseline.single_epoch,
-            min_epochs=settings.min_epochs, progress=_say,
+            method=tf.method,
+            cycles=tf.cycles,
+            fwhm_ms=tf.fwhm_ms,
+            taper_length_ms=tf.taper_length_ms,
+            nw=tf.nw,
+            measure=tf.measure,
+            time_step_ms=tf.time_step_ms,
+            average=tf.average,
+            trim=tf.trim,
+            baseline_mode=baseline.mode,
+            baseline_window_ms=baseline.window_ms,
+            baseline_pooled=baseline.pooled,
+            baseline_single_epoch=baseline.single_epoch,
+            min_epochs=settings.min_epochs,
+            progress=_say,
         )
     missing = [c for c in settings.conditions if c not in maps.conditions]
     if missing:
-        raise UserError(f"subject {subject}: no maps for condition(s) {', '.join(missing)} (found: {', '.join(maps.conditions)})")
+        raise UserError(
+            f"subject {subject}: no maps for condition(s) {', '.join(missing)} (found: {', '.join(maps.conditions)})"
+        )
     info = {
         "subject": subject,
         "sample_rate_hz": sample_rate_hz,
@@ -111,7 +131,11 @@ def run_subjects_table(args, settings: types.SubjectsTableSettings) -> None:
         record = json.loads(Path(path).read_text())
         info[record["subject"]] = record
     conditions = settings.conditions
-    header = ["subject", "status", "reason", "group"] + [f"n_{c}" for c in conditions] + [f"rejected_{c}" for c in conditions]
+    header = (
+        ["subject", "status", "reason", "group"]
+        + [f"n_{c}" for c in conditions]
+        + [f"rejected_{c}" for c in conditions]
+    )
     lines = ["\t".join(header)]
     for subject in settings.found:
         reason = settings.exclude.get(subject, "")
@@ -119,7 +143,11 @@ def run_subjects_table(args, settings: types.SubjectsTableSettings) -> None:
         counts = [str(record["n_epochs"].get(c, 0)) if record else "n/a" for c in conditions]
         rejected = [str(record["rejected"].get(c, 0)) if record else "n/a" for c in conditions]
         status = "excluded" if reason else "included"
-        lines.append("\t".join([subject, status, reason.replace("\t", " "), settings.groups.get(subject, "n/a"), *counts, *rejected]))
+        lines.append(
+            "\t".join(
+                [subject, status, reason.replace("\t", " "), settings.groups.get(subject, "n/a"), *counts, *rejected]
+            )
+        )
     write_text(Path(args.out), "\n".join(lines) + "\n")
 
 
@@ -141,7 +169,10 @@ def run_channel_graph(args, settings: types.GraphSettings) -> None:
             raise UserError(f"channels.positions: 'bids' but subject {subject} has no _electrodes.tsv")
     neighbors = settings.neighbors
     graph, positions = electrodes.channel_graph(
-        channels, positions=source, method=neighbors.method, max_distance_mm=neighbors.max_distance_mm,
+        channels,
+        positions=source,
+        method=neighbors.method,
+        max_distance_mm=neighbors.max_distance_mm,
         edges_file=Path(neighbors.edges_file) if neighbors.edges_file else None,
     )
     _say(electrodes.graph_summary(graph))
@@ -173,8 +204,12 @@ def run_null_shard(args, settings: types.NullSettings) -> None:
     from famwise.nulls.shard import null_shard
 
     arrays = null_shard(
-        Path(args.subjects), Path(args.observed), Path(args.graph) if args.graph.strip() else None,
-        shard=args.shard, settings=settings, progress=_say,
+        Path(args.subjects),
+        Path(args.observed),
+        Path(args.graph) if args.graph.strip() else None,
+        shard=args.shard,
+        settings=settings,
+        progress=_say,
     )
     save_npz(Path(args.out), **arrays)
 
@@ -184,8 +219,12 @@ def run_family_stepdown_shard(args, settings: types.NullSettings) -> None:
     from famwise.nulls.shard import family_stepdown_shard
 
     arrays = family_stepdown_shard(
-        [Path(p) for p in args.subjects.split()], [Path(p) for p in args.observed.split()],
-        shard=args.shard, settings=settings, key=args.key, progress=_say,
+        [Path(p) for p in args.subjects.split()],
+        [Path(p) for p in args.observed.split()],
+        shard=args.shard,
+        settings=settings,
+        key=args.key,
+        progress=_say,
     )
     save_npz(Path(args.out), **arrays)
 
@@ -230,8 +269,12 @@ def run_report(args, settings: types.ReportSettings) -> None:
     from famwise.report import build_report
 
     spec_path = Path(settings.spec)
-    build_report(Path("."), spec_text=spec_path.read_text(encoding="utf-8"), spec_path=spec_path,
-                 input_files={name: Path(f) for name, f in settings.input_files.items()})
+    build_report(
+        Path("."),
+        spec_text=spec_path.read_text(encoding="utf-8"),
+        spec_path=spec_path,
+        input_files={name: Path(f) for name, f in settings.input_files.items()},
+    )
 
 
 def run_calibrate_shard(args, settings: types.CalibrationSettings) -> None:
@@ -239,18 +282,28 @@ def run_calibrate_shard(args, settings: types.CalibrationSettings) -> None:
     from famwise.calibrate.datasets import calibration_shard
 
     graph = Path(args.graph) if args.graph.strip() else None
-    save_npz(Path(args.out), **calibration_shard(Path(args.subjects), graph, shard=args.shard, settings=settings, progress=_say))
+    save_npz(
+        Path(args.out),
+        **calibration_shard(Path(args.subjects), graph, shard=args.shard, settings=settings, progress=_say),
+    )
 
 
 def run_calibrate_table(args, settings: types.CalibrationSettings) -> None:
     """Shards -> ``calibration/<c>.tsv`` (+ .json, .png, .svg)."""
     from famwise.calibrate.table import summarize
 
-    rows = summarize([Path(p) for p in args.inputs], Path(args.out), settings=settings,
-                     subjects=Path(args.subjects), observed=Path(args.observed))
+    rows = summarize(
+        [Path(p) for p in args.inputs],
+        Path(args.out),
+        settings=settings,
+        subjects=Path(args.subjects),
+        observed=Path(args.observed),
+    )
     for row in rows:
-        _say(f"{settings.contrast}: {row.correction}: FWER {row.fwer:.3f} "
-             f"[{row.fwer_ci_low:.3f}, {row.fwer_ci_high:.3f}] (nominal {row.nominal:g})")
+        _say(
+            f"{settings.contrast}: {row.correction}: FWER {row.fwer:.3f} "
+            f"[{row.fwer_ci_low:.3f}, {row.fwer_ci_high:.3f}] (nominal {row.nominal:g})"
+        )
 
 
 STAGES = {

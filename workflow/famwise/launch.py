@@ -31,8 +31,18 @@ def run_snakemake(plan, options: list[str], *, capture: bool, config: dict | Non
     _clear_stale_lock(output)
     values = [f"{key}={value}" for key, value in {"spec": plan.loaded.path, **(config or {})}.items()]
     command = [
-        sys.executable, "-m", "snakemake", "--snakefile", str(workflow_entry()), "--directory", str(output),
-        "--rerun-incomplete", "--nocolor", *options, "--config", *values,
+        sys.executable,
+        "-m",
+        "snakemake",
+        "--snakefile",
+        str(workflow_entry()),
+        "--directory",
+        str(output),
+        "--rerun-incomplete",
+        "--nocolor",
+        *options,
+        "--config",
+        *values,
     ]
     pidfile = output / ".famwise-run.pid"
     pidfile.write_text(str(os.getpid()))
@@ -115,6 +125,6 @@ def job_error(plan, since: float) -> str | None:
             continue
         for line in log.read_text(errors="replace").splitlines():
             if line.startswith("famwise: error: "):
-                found.append((log.stat().st_mtime, line[len("famwise: error: "):]))
+                found.append((log.stat().st_mtime, line[len("famwise: error: ") :]))
                 break
     return min(found)[1] if found else None

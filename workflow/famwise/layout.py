@@ -86,8 +86,10 @@ def calibration_shard(contrast: str, shard) -> str:
 
 def calibration_files(contrast: str) -> dict[str, str]:
     """The calibration table of one contrast, its sidecar and its figure (PNG, SVG)."""
-    return {kind: f"calibration/{contrast}.{suffix}" for kind, suffix in
-            (("table", "tsv"), ("sidecar", "json"), ("figure", "png"), ("vector", "svg"))}
+    return {
+        kind: f"calibration/{contrast}.{suffix}"
+        for kind, suffix in (("table", "tsv"), ("sidecar", "json"), ("figure", "png"), ("vector", "svg"))
+    }
 
 
 def log(rule: str, name: str) -> str:

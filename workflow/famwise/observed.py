@@ -45,21 +45,36 @@ def observed_arrays(data: ContrastData, x: np.ndarray, settings: ObservedSetting
     from famwise.stats import compute
 
     statistic = {"statistic": settings.statistic, "trim": settings.trim, "equal_var": settings.equal_var}
-    result = compute(x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
-                     tail=settings.tail, **statistic)
+    result = compute(
+        x.astype(np.float64),
+        test=data.test,
+        groups=data.groups,
+        covariate=data.covariate,
+        tail=settings.tail,
+        **statistic,
+    )
     # The stored map is the permutation engine's identity row (equal to result.stat up to
     # float32 rounding), so that every correction compares the null with the same bits.
     stat = identity_statistic(replace(data, x=x), settings=settings)
     shape = data.shape
     arrays = {
-        "stat": stat.reshape(shape), "p": result.p.reshape(shape), "df": np.asarray(result.df),
-        "effect": result.effect.reshape(shape), "effect_size": result.effect_size.reshape(shape),
-        "channels": np.array(data.channels), "freqs": data.freqs, "times": data.times, "test": data.test,
-        "statistic": result.statistic, "n": result.n, "tail": result.effective_tail,
+        "stat": stat.reshape(shape),
+        "p": result.p.reshape(shape),
+        "df": np.asarray(result.df),
+        "effect": result.effect.reshape(shape),
+        "effect_size": result.effect_size.reshape(shape),
+        "channels": np.array(data.channels),
+        "freqs": data.freqs,
+        "times": data.times,
+        "test": data.test,
+        "statistic": result.statistic,
+        "n": result.n,
+        "tail": result.effective_tail,
     }
     for forming in settings.forming:
         arrays[FORMING_KEY.format(label=forming.label)] = np.array(
-            forming_threshold(forming, test=data.test, df=arrays["df"], tail=result.effective_tail))
+            forming_threshold(forming, test=data.test, df=arrays["df"], tail=result.effective_tail)
+        )
     return arrays
 
 

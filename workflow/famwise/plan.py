@@ -17,9 +17,23 @@ from famwise import bids, layout
 from famwise.errors import UserError
 from famwise.io import discover_pattern, subject_file
 from famwise.settings import (
-    ClusterNullSettings, ContrastSettings, CorrectionEntry, CorrectionSettings, DecomposeSettings, ExceedanceNullSettings,
-    FormingSettings, GraphSettings, MaxStatNullSettings, NullSettings, ObservedSettings, ReportSettings, StepDownNullSettings,
-    StudyRecordSettings, SubjectsTableSettings, SubjectValuesSettings, TFCENullSettings,
+    ClusterNullSettings,
+    ContrastSettings,
+    CorrectionEntry,
+    CorrectionSettings,
+    DecomposeSettings,
+    ExceedanceNullSettings,
+    FormingSettings,
+    GraphSettings,
+    MaxStatNullSettings,
+    NullSettings,
+    ObservedSettings,
+    ReportSettings,
+    StepDownNullSettings,
+    StudyRecordSettings,
+    SubjectsTableSettings,
+    SubjectValuesSettings,
+    TFCENullSettings,
 )
 from famwise.settings_codec import from_plain
 from famwise.spec import LoadedStudy, load_study
@@ -56,10 +70,14 @@ class Plan:
         else:
             found = discover_pattern(self.loaded.folder, spec.path)
         if not found:
-            raise UserError(f"{self.loaded.path.name} subjects.path: no subject data found for '{spec.path}' in {self.loaded.folder}")
+            raise UserError(
+                f"{self.loaded.path.name} subjects.path: no subject data found for '{spec.path}' in {self.loaded.folder}"
+            )
         for subject in found:
             if not IDENTIFIER.match(subject):
-                raise UserError(f"subject '{subject}' found in {spec.path} is not a plain identifier (letters and digits only); rename its files")
+                raise UserError(
+                    f"subject '{subject}' found in {spec.path} is not a plain identifier (letters and digits only); rename its files"
+                )
         return tuple(found)
 
     @cached_property
@@ -80,7 +98,9 @@ class Plan:
         """Group of each analysed subject that has one."""
         given = self.study.subjects.groups
         if given is None:
-            given = {s: row["group"] for s, row in self.participants.items() if row.get("group") not in (None, "", "n/a")}
+            given = {
+                s: row["group"] for s, row in self.participants.items() if row.get("group") not in (None, "", "n/a")
+            }
         return {s: given[s] for s in self.subjects if s in given}
 
     def covariate(self, name: str) -> dict[str, float]:
@@ -89,7 +109,9 @@ class Plan:
         where = f"{self.loaded.path.name} subjects.covariates.{name}"
         if given is None:
             if not self.participants:
-                raise UserError(f"{where}: covariate '{name}' has no values (give subjects.covariates or a participants.tsv column)")
+                raise UserError(
+                    f"{where}: covariate '{name}' has no values (give subjects.covariates or a participants.tsv column)"
+                )
             where = f"participants.tsv column '{name}'"
             given = {}
             for subject, row in self.participants.items():
@@ -125,7 +147,9 @@ class Plan:
                     folders = " or ".join(f"sub-{subject}/{f}" for f in bids.RECORDING_FOLDERS)
                     raise UserError(f"subject {subject}: no recording in {folders} of {self.loaded.resolve(spec.path)}")
             elif not Path(files[0]).is_file():
-                raise UserError(f"subject {subject}: file not found: {files[0]} (from {name} subjects.path '{spec.path}')")
+                raise UserError(
+                    f"subject {subject}: file not found: {files[0]} (from {name} subjects.path '{spec.path}')"
+                )
         for index, contrast in enumerate(self.study.contrasts):
             if contrast.test == "two-sample":
                 present = sorted(set(self.groups.values()))
@@ -141,11 +165,22 @@ class Plan:
 
     def _check_shared_table(self) -> None:
         """``family: all-contrasts`` needs one permutation table for every contrast."""
-        scheme = {"one-sample": "sign-flip", "paired": "sign-flip", "two-sample": "label", "repeated-measures": "within-subject", "correlation": "covariate"}
+        scheme = {
+            "one-sample": "sign-flip",
+            "paired": "sign-flip",
+            "two-sample": "label",
+            "repeated-measures": "within-subject",
+            "correlation": "covariate",
+        }
         first = None
         for contrast in self.study.contrasts:
             settings = self.contrast_settings(contrast.name)
-            design = (scheme[contrast.test], settings.subjects, settings.groups or (), len(contrast.conditions) if contrast.test == "repeated-measures" else 0)
+            design = (
+                scheme[contrast.test],
+                settings.subjects,
+                settings.groups or (),
+                len(contrast.conditions) if contrast.test == "repeated-measures" else 0,
+            )
             if first is None:
                 first = (contrast.name, design)
             elif design != first[1]:
@@ -159,7 +194,9 @@ class Plan:
         """Channel names of the first analysed subject, read without decomposing (None if unknown)."""
         subject = self.subjects[0]
         if self.study.subjects.source == "bids":
-            return bids.read_channel_names(self.loaded.resolve(self.study.subjects.path), subject, task=self.study.subjects.task)
+            return bids.read_channel_names(
+                self.loaded.resolve(self.study.subjects.path), subject, task=self.study.subjects.task
+            )
         with np.load(self.input_files(subject)[0], allow_pickle=False) as archive:
             return [str(c) for c in archive["channels"]] if "channels" in archive.files else None
 
@@ -176,8 +213,12 @@ class Plan:
             n_conditions = len(contrast.conditions) if contrast.test == "repeated-measures" else None
             groups = settings.groups
             table = make_table(
-                contrast.test, n_subjects=len(settings.subjects), permutations=inference.permutations,
-                seed=self.study.seed, groups=None if groups is None else np.asarray(groups), n_conditions=n_conditions,
+                contrast.test,
+                n_subjects=len(settings.subjects),
+                permutations=inference.permutations,
+                seed=self.study.seed,
+                groups=None if groups is None else np.asarray(groups),
+                n_conditions=n_conditions,
             )
             tail = "greater" if contrast.test == "repeated-measures" else inference.tail
             smallest = smallest_attainable_p(table, tail=tail)
@@ -199,11 +240,18 @@ class Plan:
 
     def decompose_settings(self) -> DecomposeSettings:
         s = self.study
-        return from_plain(DecomposeSettings, {
-            "source": s.subjects.source, "path": self.loaded.run_path(self.loaded.resolve(s.subjects.path)), "task": s.subjects.task,
-            "min_epochs": s.subjects.min_epochs, "conditions": s.conditions,
-            "epochs": s.epochs.model_dump(mode="json"), "decomposition": s.decomposition.model_dump(mode="json"),
-        })
+        return from_plain(
+            DecomposeSettings,
+            {
+                "source": s.subjects.source,
+                "path": self.loaded.run_path(self.loaded.resolve(s.subjects.path)),
+                "task": s.subjects.task,
+                "min_epochs": s.subjects.min_epochs,
+                "conditions": s.conditions,
+                "epochs": s.epochs.model_dump(mode="json"),
+                "decomposition": s.decomposition.model_dump(mode="json"),
+            },
+        )
 
     def graph_settings(self) -> GraphSettings:
         s = self.study
@@ -213,8 +261,16 @@ class Plan:
         neighbors = s.channels.neighbors.model_dump(mode="json")
         if neighbors["edges_file"]:
             neighbors["edges_file"] = self.loaded.run_path(self.loaded.resolve(neighbors["edges_file"]))
-        return from_plain(GraphSettings, {"positions": positions, "neighbors": neighbors, "analysis_channels": s.analysis.channels,
-                                          "bids_root": self._bids_root(), "task": s.subjects.task})
+        return from_plain(
+            GraphSettings,
+            {
+                "positions": positions,
+                "neighbors": neighbors,
+                "analysis_channels": s.analysis.channels,
+                "bids_root": self._bids_root(),
+                "task": s.subjects.task,
+            },
+        )
 
     def graph_inputs(self) -> list[str]:
         """Files the graph is built from (besides the first subject's map)."""
@@ -233,8 +289,12 @@ class Plan:
 
     def subjects_table_settings(self) -> SubjectsTableSettings:
         s = self.study
-        return SubjectsTableSettings(found=self.found_subjects, exclude=dict(s.subjects.exclude), groups=self.groups,
-                                     conditions=tuple(s.conditions))
+        return SubjectsTableSettings(
+            found=self.found_subjects,
+            exclude=dict(s.subjects.exclude),
+            groups=self.groups,
+            conditions=tuple(s.conditions),
+        )
 
     def contrast(self, name: str):
         """The spec's contrast of that name."""
@@ -250,10 +310,18 @@ class Plan:
         if contrast.test == "correlation":
             values = self.covariate(contrast.covariate)
             covariate = [values[sub] for sub in subjects]
-        return from_plain(ContrastSettings, {
-            "name": contrast.name, "test": contrast.test, "conditions": contrast.conditions, "subjects": subjects,
-            "analysis": self.study.analysis.model_dump(mode="json"), "groups": groups, "covariate": covariate,
-        })
+        return from_plain(
+            ContrastSettings,
+            {
+                "name": contrast.name,
+                "test": contrast.test,
+                "conditions": contrast.conditions,
+                "subjects": subjects,
+                "analysis": self.study.analysis.model_dump(mode="json"),
+                "groups": groups,
+                "covariate": covariate,
+            },
+        )
 
     def contrast_inputs(self, name: str) -> list[str]:
         """Time-frequency files a contrast reads."""
@@ -264,8 +332,11 @@ class Plan:
         return {"statistic": i.statistic, "trim": i.trim, "equal_var": i.equal_var, "tail": i.tail}
 
     def observed_settings(self) -> ObservedSettings:
-        forming = tuple(FormingSettings(label=c.label, forming_p=c.forming_p, forming_stat=c.forming_stat)
-                        for c in self.study.inference.corrections if c.method == "cluster")
+        forming = tuple(
+            FormingSettings(label=c.label, forming_p=c.forming_p, forming_stat=c.forming_stat)
+            for c in self.study.inference.corrections
+            if c.method == "cluster"
+        )
         return ObservedSettings(**self._statistic(), forming=forming)
 
     def null_collectors(self) -> tuple:
@@ -277,8 +348,14 @@ class Plan:
             if c.method == "max-stat":
                 collectors.append((StepDownNullSettings if c.step_down else MaxStatNullSettings)(key=c.label))
             elif c.method == "cluster":
-                collectors.append(ClusterNullSettings(key=c.label, cluster_stat=c.cluster_stat, dims=tuple(c.dims),
-                                                      min_supra_neighbors=c.min_supra_neighbors))
+                collectors.append(
+                    ClusterNullSettings(
+                        key=c.label,
+                        cluster_stat=c.cluster_stat,
+                        dims=tuple(c.dims),
+                        min_supra_neighbors=c.min_supra_neighbors,
+                    )
+                )
             elif c.method == "tfce":
                 collectors.append(TFCENullSettings(key=c.label, E=c.E, H=c.H, step=c.step, dims=tuple(c.dims)))
             else:
@@ -287,8 +364,14 @@ class Plan:
 
     def null_settings(self) -> NullSettings:
         i = self.study.inference
-        return NullSettings(seed=self.study.seed, permutations=i.permutations, shards=i.shards, family=i.family,
-                            collectors=self.null_collectors(), **self._statistic())
+        return NullSettings(
+            seed=self.study.seed,
+            permutations=i.permutations,
+            shards=i.shards,
+            family=i.family,
+            collectors=self.null_collectors(),
+            **self._statistic(),
+        )
 
     def correction(self, label: str):
         """The spec's correction whose result folder is ``label``."""
@@ -297,22 +380,35 @@ class Plan:
     def correction_settings(self, label: str) -> CorrectionSettings:
         i = self.study.inference
         entry = from_plain(CorrectionEntry, self.correction(label).model_dump(mode="json") | {"label": label})
-        return CorrectionSettings(correction=entry, alpha=i.alpha, tail=i.tail, family=i.family,
-                                  contrasts=tuple(x.name for x in self.study.contrasts))
+        return CorrectionSettings(
+            correction=entry,
+            alpha=i.alpha,
+            tail=i.tail,
+            family=i.family,
+            contrasts=tuple(x.name for x in self.study.contrasts),
+        )
 
     def subject_values_settings(self, name: str) -> SubjectValuesSettings:
         contrast = self.contrast(name)
         regions = [r.model_dump(mode="json") for r in self.study.planned_regions]
-        return from_plain(SubjectValuesSettings, {
-            "test": contrast.test, "conditions": contrast.conditions,
-            "group_names": contrast.groups if contrast.test == "two-sample" else None,
-            "covariate_name": contrast.covariate if contrast.test == "correlation" else None,
-            "regions": regions,
-        })
+        return from_plain(
+            SubjectValuesSettings,
+            {
+                "test": contrast.test,
+                "conditions": contrast.conditions,
+                "group_names": contrast.groups if contrast.test == "two-sample" else None,
+                "covariate_name": contrast.covariate if contrast.test == "correlation" else None,
+                "regions": regions,
+            },
+        )
 
     def subject_value_files(self) -> list[str]:
         """Every subject-values table and sidecar: per cluster or TFCE correction, and per planned regions."""
-        tables = [layout.subject_values(c.name, label) for c in self.study.contrasts for label in self.labels_with_cluster_table()]
+        tables = [
+            layout.subject_values(c.name, label)
+            for c in self.study.contrasts
+            for label in self.labels_with_cluster_table()
+        ]
         if self.study.planned_regions:
             tables += [layout.planned_values(c.name) for c in self.study.contrasts]
         return [f for table in tables for f in (table, layout.sidecar_of(table))]
@@ -347,7 +443,12 @@ class Plan:
                 files.extend(self.shard_files(name))
         if c.method in ("cluster", "tfce"):
             files.append(layout.CHANNEL_GRAPH)
-        if self.study.inference.family == "all-contrasts" and c.method == "max-stat" and c.step_down and len(contrasts) > 1:
+        if (
+            self.study.inference.family == "all-contrasts"
+            and c.method == "max-stat"
+            and c.step_down
+            and len(contrasts) > 1
+        ):
             files.extend(self.family_shard_files(label))
         return files
 
@@ -384,7 +485,13 @@ class Plan:
         the report then reruns because its inputs changed.
         """
         report = self.report_settings()
-        files = [report.spec, layout.STUDY_RECORD, layout.SUBJECTS_TABLE, *report.input_files.values(), *self.subject_value_files()]
+        files = [
+            report.spec,
+            layout.STUDY_RECORD,
+            layout.SUBJECTS_TABLE,
+            *report.input_files.values(),
+            *self.subject_value_files(),
+        ]
         if self.needs_graph:
             files.append(layout.CHANNEL_GRAPH)
         with_table = set(self.labels_with_cluster_table())
@@ -395,7 +502,10 @@ class Plan:
             for c in self.study.inference.corrections:
                 files.append(layout.result(contrast.name, c.label))
                 if c.label in with_table:
-                    files += [layout.cluster_table(contrast.name, c.label), layout.cluster_sidecar(contrast.name, c.label)]
+                    files += [
+                        layout.cluster_table(contrast.name, c.label),
+                        layout.cluster_sidecar(contrast.name, c.label),
+                    ]
             calibration = layout.calibration_files(contrast.name)
             if (self.loaded.output / calibration["table"]).is_file():
                 files += [*calibration.values(), layout.contrast_data(contrast.name)]
@@ -404,4 +514,3 @@ class Plan:
     def final_files(self) -> list[str]:
         """Every file ``rule all`` asks for."""
         return [layout.REPORT_PAGE, layout.SUBJECTS_TABLE, *self.result_files()]
-

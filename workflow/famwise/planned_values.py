@@ -17,8 +17,9 @@ from famwise.settings import PlannedRegionSettings, SubjectValuesSettings
 from famwise.subject_values import measure_text, write_subject_values
 
 
-def region_index(region: PlannedRegionSettings, number: int, channels, freqs: np.ndarray, times: np.ndarray,
-                 valid: np.ndarray) -> tuple:
+def region_index(
+    region: PlannedRegionSettings, number: int, channels, freqs: np.ndarray, times: np.ndarray, valid: np.ndarray
+) -> tuple:
     """Index arrays (channels, frequencies, times) of one planned region in a time-frequency grid.
 
     Parameters
@@ -41,16 +42,22 @@ def region_index(region: PlannedRegionSettings, number: int, channels, freqs: np
     low, high = region.freq_hz
     f = np.flatnonzero((freqs >= low - 1e-9) & (freqs <= high + 1e-9))
     if f.size == 0:
-        raise UserError(f"{where}.freq_hz: no decomposed frequency lies in [{low:g}, {high:g}] Hz "
-                        f"(frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)")
+        raise UserError(
+            f"{where}.freq_hz: no decomposed frequency lies in [{low:g}, {high:g}] Hz "
+            f"(frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)"
+        )
     start, stop = region.time_ms
     t = np.flatnonzero((times >= start / 1e3 - 1e-9) & (times <= stop / 1e3 + 1e-9))
     if t.size == 0:
-        raise UserError(f"{where}.time_ms: no time point lies in [{start:g}, {stop:g}] ms "
-                        f"(maps cover {times[0] * 1e3:.0f} to {times[-1] * 1e3:.0f} ms)")
+        raise UserError(
+            f"{where}.time_ms: no time point lies in [{start:g}, {stop:g}] ms "
+            f"(maps cover {times[0] * 1e3:.0f} to {times[-1] * 1e3:.0f} ms)"
+        )
     if not valid[np.ix_(f, t)].all():
-        raise UserError(f"{where}: the window reaches into the edge-affected cells (cone of influence); "
-                        "shorten it or use longer epochs")
+        raise UserError(
+            f"{where}: the window reaches into the edge-affected cells (cone of influence); "
+            "shorten it or use longer epochs"
+        )
     return np.array([lookup[c.lower()] for c in region.channels]), f, t
 
 
@@ -95,9 +102,18 @@ def run_planned(settings: SubjectValuesSettings, subjects: Path, files: list[Pat
             if test != "repeated-measures":
                 line["contrast"] = float(means[s, 0, r] - means[s, 1, r]) if test == "paired" else float(means[s, 0, r])
             lines.append(line)
-    write_subject_values(out, lines, _sidecar(test, conditions, regions, measure_text(files[0]),
-                                              grouped=test == "two-sample",
-                                              covariate=settings.covariate_name if data.covariate is not None else None))
+    write_subject_values(
+        out,
+        lines,
+        _sidecar(
+            test,
+            conditions,
+            regions,
+            measure_text(files[0]),
+            grouped=test == "two-sample",
+            covariate=settings.covariate_name if data.covariate is not None else None,
+        ),
+    )
 
 
 def _count(path: Path, region: PlannedRegionSettings, number: int) -> int:
@@ -108,12 +124,24 @@ def _count(path: Path, region: PlannedRegionSettings, number: int) -> int:
     return f.size * t.size
 
 
-def _sidecar(test: str, conditions: list[str], regions: tuple[PlannedRegionSettings, ...], measure: str, *, grouped: bool,
-             covariate: str | None) -> dict:
+def _sidecar(
+    test: str,
+    conditions: list[str],
+    regions: tuple[PlannedRegionSettings, ...],
+    measure: str,
+    *,
+    grouped: bool,
+    covariate: str | None,
+) -> dict:
     described = {
-        "id": {"Description": "Planned region name (spec key planned_regions).",
-               "Levels": {r.name: f"{','.join(r.channels)}; {r.freq_hz[0]:g} to {r.freq_hz[1]:g} Hz; "
-                                     f"{r.time_ms[0]:g} to {r.time_ms[1]:g} ms" for r in regions}},
+        "id": {
+            "Description": "Planned region name (spec key planned_regions).",
+            "Levels": {
+                r.name: f"{','.join(r.channels)}; {r.freq_hz[0]:g} to {r.freq_hz[1]:g} Hz; "
+                f"{r.time_ms[0]:g} to {r.time_ms[1]:g} ms"
+                for r in regions
+            },
+        },
         "n_points": {"Description": "Number of (channel, frequency, time) points averaged over."},
         "subject": {"Description": "Subject id."},
     }

@@ -73,8 +73,12 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
     try:
         if path.suffix.lower() == ".vhdr":
             header = brainvision.read_header(path)
-            return Recording(path, tuple(Signal(c.name, header.sample_rate_hz, c.unit) for c in header.channels),
-                             header.n_samples / header.sample_rate_hz, lambda indices: brainvision.read_samples(header, indices))
+            return Recording(
+                path,
+                tuple(Signal(c.name, header.sample_rate_hz, c.unit) for c in header.channels),
+                header.n_samples / header.sample_rate_hz,
+                lambda indices: brainvision.read_samples(header, indices),
+            )
         if path.suffix.lower() == ".bdf":
             edf = edfio.read_bdf(path)
         else:
@@ -84,12 +88,24 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
     except Exception as exc:
         raise UserError(f"subject {subject}: cannot read the recording {path}: {exc}") from None
     signals = edf.signals
-    return Recording(path, tuple(Signal(s.label, s.sampling_frequency, s.physical_dimension) for s in signals),
-                     edf.duration, lambda indices: np.stack([signals[i].data for i in indices]))
+    return Recording(
+        path,
+        tuple(Signal(s.label, s.sampling_frequency, s.physical_dimension) for s in signals),
+        edf.duration,
+        lambda indices: np.stack([signals[i].data for i in indices]),
+    )
 
 
-def write_recording(path: Path, data_uv: np.ndarray, *, sample_rate_hz: float, channels: list[str], fmt: str,
-                    markers: list[tuple[int, str]], resolution_uv: float | None = None) -> Path:
+def write_recording(
+    path: Path,
+    data_uv: np.ndarray,
+    *,
+    sample_rate_hz: float,
+    channels: list[str],
+    fmt: str,
+    markers: list[tuple[int, str]],
+    resolution_uv: float | None = None,
+) -> Path:
     """Write a continuous recording in µV as EDF, BDF or BrainVision; return the file written.
 
     Parameters
@@ -114,15 +130,19 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sample_rate_hz: float, c
     """
     if fmt == "brainvision":
         target = Path(f"{path}.vhdr")
-        brainvision.write(target, data_uv, sample_rate_hz=sample_rate_hz, channels=channels, markers=markers,
-                          resolution=resolution_uv)
+        brainvision.write(
+            target, data_uv, sample_rate_hz=sample_rate_hz, channels=channels, markers=markers, resolution=resolution_uv
+        )
         return target
     target = Path(f"{path}.{fmt}")
     signal_class, file_class = (edfio.EdfSignal, edfio.Edf) if fmt == "edf" else (edfio.BdfSignal, edfio.Bdf)
     record = int(round(sample_rate_hz)) if float(sample_rate_hz).is_integer() else data_uv.shape[1]
     padded = np.pad(data_uv, ((0, 0), (0, -data_uv.shape[1] % record)), mode="edge")
     if resolution_uv is None:
-        signals = [signal_class(row, sample_rate_hz, label=name, physical_dimension="uV") for row, name in zip(padded, channels)]
+        signals = [
+            signal_class(row, sample_rate_hz, label=name, physical_dimension="uV")
+            for row, name in zip(padded, channels)
+        ]
     else:
         limit, dtype = _EDF_DIGITAL[fmt]
         bound = float(np.floor(limit * resolution_uv))
@@ -130,9 +150,16 @@ def write_recording(path: Path, data_uv: np.ndarray, *, sample_rate_hz: float, c
         digital = np.round(padded / resolution_uv)
         if bound <= 0 or np.abs(digital).max() > steps:
             raise ValueError(f"samples beyond ±{bound:g} µV cannot be stored at {resolution_uv:g} µV per step")
-        signals = [signal_class.from_digital(row.astype(dtype), sample_rate_hz, label=name,
-                                             physical_dimension="uV", physical_range=(-bound, bound),
-                                             digital_range=(-steps, steps))
-                   for row, name in zip(digital, channels)]
+        signals = [
+            signal_class.from_digital(
+                row.astype(dtype),
+                sample_rate_hz,
+                label=name,
+                physical_dimension="uV",
+                physical_range=(-bound, bound),
+                digital_range=(-steps, steps),
+            )
+            for row, name in zip(digital, channels)
+        ]
     file_class(signals).write(target)
     return target

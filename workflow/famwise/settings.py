@@ -15,7 +15,6 @@ from typing import Literal
 
 from famwise.settings_codec import to_plain
 
-
 # ---- decomposition (famwise.decomposition via the decompose job) --------------------
 
 
@@ -225,7 +224,9 @@ class TFCENullSettings:
     kind: Literal["tfce"] = "tfce"
 
 
-CollectorSettings = ExceedanceNullSettings | MaxStatNullSettings | StepDownNullSettings | ClusterNullSettings | TFCENullSettings
+CollectorSettings = (
+    ExceedanceNullSettings | MaxStatNullSettings | StepDownNullSettings | ClusterNullSettings | TFCENullSettings
+)
 
 
 @dataclass(frozen=True)
@@ -286,7 +287,9 @@ class CorrectionSettings:
     def record(self) -> dict:
         """The settings as stored with the result (plain JSON values; the entry without the keys its method leaves unset)."""
         plain = to_plain(self)
-        plain["correction"] = {key: value for key, value in plain["correction"].items() if value is not None or key == "name"}
+        plain["correction"] = {
+            key: value for key, value in plain["correction"].items() if value is not None or key == "name"
+        }
         return plain
 
 

@@ -45,7 +45,9 @@ def _build(annotation, value):
     origin, args = typing.get_origin(annotation), typing.get_args(annotation)
     if dataclasses.is_dataclass(annotation):
         hints = _hints(annotation)
-        return annotation(**{f.name: _build(hints[f.name], value[f.name]) for f in dataclasses.fields(annotation) if f.name in value})
+        return annotation(
+            **{f.name: _build(hints[f.name], value[f.name]) for f in dataclasses.fields(annotation) if f.name in value}
+        )
     if origin in (typing.Union, types.UnionType):
         return _build_union([a for a in args if a is not type(None)], value)
     if origin is tuple:

@@ -9,8 +9,8 @@ from pathlib import Path
 import numpy as np
 
 from famwise import bids
-from famwise.errors import UserError
 from famwise.atomic import write_text
+from famwise.errors import UserError
 from famwise.io import discover_pattern
 
 
@@ -25,21 +25,42 @@ def write_starter_spec(data: Path, out: Path) -> None:
         raise UserError(f"{out} exists already; remove it or choose another file with --out")
     relative = Path(os.path.relpath(data, out.parent)).as_posix()
     if relative.startswith(".."):
-        raise UserError(f"{out}: the spec must sit in the data folder or above it (paths in a spec stay inside its folder)")
+        raise UserError(
+            f"{out}: the spec must sit in the data folder or above it (paths in a spec stay inside its folder)"
+        )
     subjects = bids.discover_subjects(data)
     found = ""
     if subjects:
         recordings = [p for subject in subjects for p in bids.recording_files(data, subject)]
         if not recordings:
-            raise UserError(f"{data}: the sub-* folders hold no recording famwise reads (sub-<id>_..._eeg.edf, .bdf "
-                            "or .vhdr); convert the recordings with a general-purpose converter to EDF or BrainVision")
+            raise UserError(
+                f"{data}: the sub-* folders hold no recording famwise reads (sub-<id>_..._eeg.edf, .bdf "
+                "or .vhdr); convert the recordings with a general-purpose converter to EDF or BrainVision"
+            )
         source, path, task, labels = "bids", relative, _bids_task(recordings[0]), _bids_labels(recordings)
         found = _formats_found(recordings)
     else:
         pattern = _epochs_pattern(data)
         subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
-        source, path, task, labels = "epochs", f"{relative}/{pattern}", None, _epochs_labels(out.parent, f"{relative}/{pattern}", subjects)
-    write_text(out, _starter_text(source, path, task, subjects, labels, name=data.name, found=found, timing=_timing(source, data, out.parent, path, task, subjects)))
+        source, path, task, labels = (
+            "epochs",
+            f"{relative}/{pattern}",
+            None,
+            _epochs_labels(out.parent, f"{relative}/{pattern}", subjects),
+        )
+    write_text(
+        out,
+        _starter_text(
+            source,
+            path,
+            task,
+            subjects,
+            labels,
+            name=data.name,
+            found=found,
+            timing=_timing(source, data, out.parent, path, task, subjects),
+        ),
+    )
 
 
 def _timing(source: str, data: Path, folder: Path, path: str, task: str | None, subjects: list[str]) -> dict:
@@ -106,15 +127,24 @@ def _condition_name(label: str) -> str:
 
 
 def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict) -> str:
-    conditions = "\n".join(
-        f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects" for label, count in sorted(labels.items())
-    ) or "  condition-a: [label-a]"
-    first = [_condition_name(label) for label in sorted(labels)[:2]] if len(labels) >= 2 else ["condition-a", "condition-b"]
+    conditions = (
+        "\n".join(
+            f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects"
+            for label, count in sorted(labels.items())
+        )
+        or "  condition-a: [label-a]"
+    )
+    first = (
+        [_condition_name(label) for label in sorted(labels)[:2]] if len(labels) >= 2 else ["condition-a", "condition-b"]
+    )
     task_line = f"  task: {task}\n" if task else ""
     epoch = timing["epoch_ms"] or (-500, 1500)
     baseline = timing["baseline_ms"]
-    baseline_text = (f"{{mode: db, window_ms: [{baseline[0]:g}, {baseline[1]:g}]}}   # free of edge effects at every frequency"
-                     if baseline else "{mode: none}   # the epochs leave no edge-free time before the event")
+    baseline_text = (
+        f"{{mode: db, window_ms: [{baseline[0]:g}, {baseline[1]:g}]}}   # free of edge effects at every frequency"
+        if baseline
+        else "{mode: none}   # the epochs leave no edge-free time before the event"
+    )
     return f"""# famwise study spec, written by `famwise init` from {len(subjects)} subject(s) found.
 # Check it with `famwise check <this file>`, run it with `famwise run <this file>`.
 # Every key is described in the README's spec reference.
@@ -126,7 +156,7 @@ seed: 1                  # the permutation table comes from this seed
 subjects:
   source: {source}{f"            # recordings found: {found}" if found else ""}
   path: {path}
-{task_line}  # ids: [...]           # omit to use every subject found: {', '.join(subjects[:10])}{' ...' if len(subjects) > 10 else ''}
+{task_line}  # ids: [...]           # omit to use every subject found: {", ".join(subjects[:10])}{" ..." if len(subjects) > 10 else ""}
   exclude: {{}}           # id: reason
   min_epochs: 10
 

@@ -28,8 +28,10 @@ from famwise.design import ContrastData, load_contrast
 from famwise.errors import UserError
 from famwise.settings import SubjectValuesSettings
 
-CAVEAT = ("Selected by the same data the test used (circular analysis; Kriegeskorte et al. 2009, "
-          "Nature Neuroscience 12:535-540): these values overstate the effect and must not be tested again.")
+CAVEAT = (
+    "Selected by the same data the test used (circular analysis; Kriegeskorte et al. 2009, "
+    "Nature Neuroscience 12:535-540): these values overstate the effect and must not be tested again."
+)
 
 
 def region_means(values: np.ndarray, labels: np.ndarray, ids: list[int]) -> np.ndarray:
@@ -65,8 +67,9 @@ def _axis_index(found: np.ndarray, wanted: np.ndarray, what: str, path: Path) ->
     return index
 
 
-def condition_means(files: list[Path], data: ContrastData, conditions: list[str], labels: np.ndarray,
-                    ids: list[int]) -> np.ndarray:
+def condition_means(
+    files: list[Path], data: ContrastData, conditions: list[str], labels: np.ndarray, ids: list[int]
+) -> np.ndarray:
     """Each subject's mean per condition over each label's points, from the time-frequency files.
 
     Parameters
@@ -94,8 +97,11 @@ def condition_means(files: list[Path], data: ContrastData, conditions: list[str]
         missing = [c for c in data.channels if c not in lookup]
         if missing:
             raise UserError(f"subject values: {path} lacks the channels {missing}; rerun the contrast stage")
-        region = np.ix_([lookup[c] for c in data.channels], _axis_index(tf.freqs, data.freqs, "frequencies", path),
-                        _axis_index(tf.times, data.times, "times", path))
+        region = np.ix_(
+            [lookup[c] for c in data.channels],
+            _axis_index(tf.freqs, data.freqs, "frequencies", path),
+            _axis_index(tf.times, data.times, "times", path),
+        )
         for k, name in enumerate(conditions):
             if name not in tf.conditions:
                 raise UserError(f"subject {data.subjects[s]}: condition '{name}' has no maps in {path}")
@@ -120,21 +126,34 @@ def significant_ids(result: Path, alpha: float | None = None) -> tuple[np.ndarra
     if not table.is_file():
         raise UserError(f"subject values: expected the cluster table at {table}; rerun the correction")
     with open(table, newline="", encoding="utf-8") as handle:
-        rows = [{"id": int(row["id"]), "sign": row["sign"], "p": float(row["p"]), "n_points": int(row["n_points"])}
-                for row in csv.DictReader(handle, delimiter="\t")]
+        rows = [
+            {"id": int(row["id"]), "sign": row["sign"], "p": float(row["p"]), "n_points": int(row["n_points"])}
+            for row in csv.DictReader(handle, delimiter="\t")
+        ]
     return labels, [row for row in rows if row["p"] <= alpha], method
 
 
-def subject_value_rows(data: ContrastData, condition_values: np.ndarray, conditions: list[str],
-                       rows: list[dict], labels: np.ndarray, groups: list[str] | None) -> list[dict]:
+def subject_value_rows(
+    data: ContrastData,
+    condition_values: np.ndarray,
+    conditions: list[str],
+    rows: list[dict],
+    labels: np.ndarray,
+    groups: list[str] | None,
+) -> list[dict]:
     """One row per (cluster, subject): id, sign, p, n_points, subject, [group], [covariate], conditions, contrast."""
     ids = [int(row["id"]) for row in rows]
     contrast = None if data.x.ndim == 3 else region_means(data.x, labels, ids)
     out = []
     for k, row in enumerate(rows):
         for s, subject in enumerate(data.subjects):
-            line = {"id": ids[k], "sign": row["sign"], "p": float(row["p"]), "n_points": int(row["n_points"]),
-                    "subject": subject}
+            line = {
+                "id": ids[k],
+                "sign": row["sign"],
+                "p": float(row["p"]),
+                "n_points": int(row["n_points"]),
+                "subject": subject,
+            }
             if groups is not None:
                 line["group"] = groups[int(data.groups[s])]
             if data.covariate is not None:
@@ -146,8 +165,9 @@ def subject_value_rows(data: ContrastData, condition_values: np.ndarray, conditi
     return out
 
 
-def sidecar(test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool,
-            covariate: str | None = None) -> dict:
+def sidecar(
+    test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool, covariate: str | None = None
+) -> dict:
     """Column descriptions of subject_values.tsv; ``measure`` describes the maps' values and unit."""
     described = {
         "id": {"Description": f"{noun.capitalize()} number as in clusters.tsv and the cluster_id map."},
@@ -161,12 +181,12 @@ def sidecar(test: str, conditions: list[str], measure: str, *, noun: str, groupe
     if covariate:
         described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
     for name in conditions:
-        described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the {noun}'s "
-                                          "points."}
+        described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over the {noun}'s points."}
     if test != "repeated-measures":
         what = f"{conditions[0]} minus {conditions[1]}" if test == "paired" else conditions[0]
-        described["contrast"] = {"Description": f"Mean over the {noun}'s points of the value the test used "
-                                                f"({what}; {measure})."}
+        described["contrast"] = {
+            "Description": f"Mean over the {noun}'s points of the value the test used ({what}; {measure})."
+        }
     described["Caveat"] = CAVEAT
     return described
 
@@ -187,14 +207,21 @@ def run(settings: SubjectValuesSettings, subjects: Path, result: Path, tf_files:
     data = load_contrast(subjects)
     labels, rows, method = significant_ids(result)
     if labels.size != int(np.prod(data.shape)):
-        raise UserError(f"subject values: {result} has {labels.size} points, the contrast {int(np.prod(data.shape))}; "
-                        "rerun the correction")
+        raise UserError(
+            f"subject values: {result} has {labels.size} points, the contrast {int(np.prod(data.shape))}; "
+            "rerun the correction"
+        )
     values = condition_means(tf_files, data, conditions, labels, [int(r["id"]) for r in rows])
     groups = list(settings.group_names) if settings.test == "two-sample" else None
     lines = subject_value_rows(data, values, conditions, rows, labels, groups)
-    columns = sidecar(settings.test, conditions, measure_text(tf_files[0]),
-                      noun="region" if method == "tfce" else "cluster", grouped=groups is not None,
-                      covariate=settings.covariate_name if data.covariate is not None else None)
+    columns = sidecar(
+        settings.test,
+        conditions,
+        measure_text(tf_files[0]),
+        noun="region" if method == "tfce" else "cluster",
+        grouped=groups is not None,
+        covariate=settings.covariate_name if data.covariate is not None else None,
+    )
     write_subject_values(out, lines, columns)
 
 

@@ -12,7 +12,10 @@ def describe_plan(plan: Plan) -> str:
     i = s.inference
     lines = [f"Study '{s.name}' ({plan.loaded.path.name}) is valid.", ""]
     excluded = s.subjects.exclude
-    lines.append(f"Subjects: {len(plan.subjects)} analysed ({s.subjects.source} input)" + (f", {len(excluded)} excluded:" if excluded else ""))
+    lines.append(
+        f"Subjects: {len(plan.subjects)} analysed ({s.subjects.source} input)"
+        + (f", {len(excluded)} excluded:" if excluded else "")
+    )
     for subject, reason in excluded.items():
         lines.append(f"  - {subject}: {reason}")
     if plan.groups:
@@ -28,13 +31,17 @@ def describe_plan(plan: Plan) -> str:
         grid = tf.frequencies
         lines.append(
             f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.lowest_hz:g}-{grid.highest_hz:g} Hz ({grid.spacing}), "
-            f"baseline {tf.baseline.mode}" + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
+            f"baseline {tf.baseline.mode}"
+            + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
         )
     a = s.analysis
     lines.append(
-        "Analysis region: time " + (f"{list(a.time_ms)} ms" if a.time_ms else "widest window free of edge effects")
-        + ", frequency " + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
-        + ", channels " + (", ".join(a.channels) if a.channels else "all")
+        "Analysis region: time "
+        + (f"{list(a.time_ms)} ms" if a.time_ms else "widest window free of edge effects")
+        + ", frequency "
+        + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
+        + ", channels "
+        + (", ".join(a.channels) if a.channels else "all")
     )
     lines.append("Contrasts:")
     for contrast in s.contrasts:
@@ -51,7 +58,10 @@ def describe_plan(plan: Plan) -> str:
     lines.append("Corrections:")
     for c in i.corrections:
         settings = c.model_dump(exclude={"name", "method"}, exclude_none=True)
-        lines.append(f"  - {c.label}: {c.method}" + (f" ({', '.join(f'{k}={v}' for k, v in settings.items())})" if settings else ""))
+        lines.append(
+            f"  - {c.label}: {c.method}"
+            + (f" ({', '.join(f'{k}={v}' for k, v in settings.items())})" if settings else "")
+        )
     if plan.needs_graph:
         lines.append("")
         lines.append(_graph_summary(plan))
@@ -83,7 +93,10 @@ def _graph_summary(plan: Plan) -> str:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         graph, _ = channel_graph(
-            channels, positions=positions, method=n.method, max_distance_mm=n.max_distance_mm,
+            channels,
+            positions=positions,
+            method=n.method,
+            max_distance_mm=n.max_distance_mm,
             edges_file=plan.loaded.resolve(n.edges_file) if n.edges_file else None,
         )
     text = "Channel graph:\n" + "\n".join("  " + line for line in graph_summary(graph).splitlines())

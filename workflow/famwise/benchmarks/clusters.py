@@ -15,11 +15,11 @@ from scipy import ndimage, stats
 
 from famwise.benchmarks import BenchRow
 from famwise.kernels._jit import thread_count
+from famwise.naive.clusters import cluster_null_reference
+from famwise.naive.tfce import tfce_null_reference
 from famwise.nulls.collectors.largest_cluster import ClusterCollector
 from famwise.nulls.collectors.largest_tfce import TFCECollector
 from famwise.nulls.engine import iter_null_blocks
-from famwise.naive.clusters import cluster_null_reference
-from famwise.naive.tfce import tfce_null_reference
 
 N_SUBJECTS, SHAPE = 24, (64, 30, 150)
 BLOCK = 64
@@ -90,10 +90,20 @@ def bench_clusters(quick: bool) -> list[BenchRow]:
     start = time.perf_counter()
     cluster_null_reference(data, _flips(n_ref), **settings)
     reference = (time.perf_counter() - start) / n_ref * n_perm
-    rows.append(_row("cluster-mass null, forming p 0.01", f"{size} x {n_perm:,} sign flips", total, reference,
-                     ">= 20x", n_ref, n_perm, quick,
-                     f"t blocks {1e3 * t_time / n_perm:.2f} ms/perm, cluster kernel {1e3 * k_time / n_perm:.2f} "
-                     f"ms/perm ({threads} threads); reference {1e3 * reference / n_perm:.0f} ms/perm"))
+    rows.append(
+        _row(
+            "cluster-mass null, forming p 0.01",
+            f"{size} x {n_perm:,} sign flips",
+            total,
+            reference,
+            ">= 20x",
+            n_ref,
+            n_perm,
+            quick,
+            f"t blocks {1e3 * t_time / n_perm:.2f} ms/perm, cluster kernel {1e3 * k_time / n_perm:.2f} "
+            f"ms/perm ({threads} threads); reference {1e3 * reference / n_perm:.0f} ms/perm",
+        )
+    )
 
     n_perm, n_ref = (40, 1) if quick else (1000, 4)
     start = time.perf_counter()
@@ -106,11 +116,21 @@ def bench_clusters(quick: bool) -> list[BenchRow]:
         warm.update(flat[:2].astype(np.float32))
         collector = TFCECollector(shape=SHAPE, indptr=indptr, indices=indices, step=step)
         total, t_time, k_time = _run(collector, flat, _flips(n_perm))
-        rows.append(_row(f"TFCE null, famwise {label} vs reference fixed-step 0.1",
-                         f"{size} x {n_perm:,} sign flips", total, reference, target, n_ref, n_perm, quick,
-                         f"t blocks {1e3 * t_time / n_perm:.2f} ms/perm, TFCE kernel {1e3 * k_time / n_perm:.1f} "
-                         f"ms/perm ({threads} threads), near its cache-resident floor; "
-                         f"reference {1e3 * reference / n_perm:.0f} ms/perm"))
+        rows.append(
+            _row(
+                f"TFCE null, famwise {label} vs reference fixed-step 0.1",
+                f"{size} x {n_perm:,} sign flips",
+                total,
+                reference,
+                target,
+                n_ref,
+                n_perm,
+                quick,
+                f"t blocks {1e3 * t_time / n_perm:.2f} ms/perm, TFCE kernel {1e3 * k_time / n_perm:.1f} "
+                f"ms/perm ({threads} threads), near its cache-resident floor; "
+                f"reference {1e3 * reference / n_perm:.0f} ms/perm",
+            )
+        )
     return rows
 
 
@@ -120,5 +140,12 @@ def _row(task, size, famwise_s, reference_s, target, n_ref, n_perm, quick, note)
     extra = f"; reference timed on {n_ref} of {n_perm} permutations and extrapolated linearly"
     if quick:
         extra += "; quick run: fewer permutations than the full benchmark"
-    return BenchRow(task=task, size=size, famwise_s=famwise_s, reference_s=reference_s, target=target,
-                    met=ratio >= needed, note=f"ratio {ratio:.1f}x; {note}{extra}")
+    return BenchRow(
+        task=task,
+        size=size,
+        famwise_s=famwise_s,
+        reference_s=reference_s,
+        target=target,
+        met=ratio >= needed,
+        note=f"ratio {ratio:.1f}x; {note}{extra}",
+    )

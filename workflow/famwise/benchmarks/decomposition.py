@@ -9,10 +9,8 @@ import numpy as np
 
 from famwise.benchmarks import BenchRow
 
-_FULL = {"epochs": 300, "channels": 64, "seconds": 2.5, "sample_rate_hz": 500.0, "freqs": 40,
-         "reference_channels": 1}
-_QUICK = {"epochs": 60, "channels": 8, "seconds": 2.5, "sample_rate_hz": 500.0, "freqs": 20,
-          "reference_channels": 1}
+_FULL = {"epochs": 300, "channels": 64, "seconds": 2.5, "sample_rate_hz": 500.0, "freqs": 40, "reference_channels": 1}
+_QUICK = {"epochs": 60, "channels": 8, "seconds": 2.5, "sample_rate_hz": 500.0, "freqs": 20, "reference_channels": 1}
 _TARGET = 5.0
 
 
@@ -26,15 +24,24 @@ def _synthetic_epochs(size: dict):
     data = rng.normal(0.0, 5e-6, (size["epochs"], size["channels"], n_samples))
     data += 3e-6 * np.sin(2 * np.pi * 10.0 * times) * ((times > 0.2) & (times < 0.8))
     labels = np.array(["left", "right"] * (size["epochs"] // 2) + ["left"] * (size["epochs"] % 2))
-    return Epochs(data=data, sample_rate_hz=size["sample_rate_hz"], epoch_start_s=-0.5,
-                  channels=tuple(f"E{i + 1}" for i in range(size["channels"])), labels=labels)
+    return Epochs(
+        data=data,
+        sample_rate_hz=size["sample_rate_hz"],
+        epoch_start_s=-0.5,
+        channels=tuple(f"E{i + 1}" for i in range(size["channels"])),
+        labels=labels,
+    )
 
 
 def _settings(size: dict) -> dict:
     from famwise.decomposition import frequency_grid
 
-    return {"frequencies_hz": frequency_grid(2.0, 45.0, size["freqs"], "log"), "method": "morlet",
-            "cycles": (3.0, 10.0), "measure": "power"}
+    return {
+        "frequencies_hz": frequency_grid(2.0, 45.0, size["freqs"], "log"),
+        "method": "morlet",
+        "cycles": (3.0, 10.0),
+        "measure": "power",
+    }
 
 
 def run_famwise(quick: bool) -> dict:
@@ -51,11 +58,9 @@ def run_famwise(quick: bool) -> dict:
     size = _QUICK if quick else _FULL
     epochs = _synthetic_epochs(size)
     start = time.perf_counter()
-    decompose(epochs, subject="bench", conditions={"left": ["left"], "right": ["right"]},
-              **_settings(size))
+    decompose(epochs, subject="bench", conditions={"left": ["left"], "right": ["right"]}, **_settings(size))
     seconds = time.perf_counter() - start
-    return {"seconds": seconds,
-            "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0}
+    return {"seconds": seconds, "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0}
 
 
 def bench_decomposition(quick: bool) -> BenchRow:
@@ -67,13 +72,15 @@ def bench_decomposition(quick: bool) -> BenchRow:
     one channel and is extrapolated linearly to all channels.
     """
     size = _QUICK if quick else _FULL
-    code = ("import json, sys; from famwise.benchmarks.decomposition import run_famwise; "
-            f"print(json.dumps(run_famwise({quick!r})))")
+    code = (
+        "import json, sys; from famwise.benchmarks.decomposition import run_famwise; "
+        f"print(json.dumps(run_famwise({quick!r})))"
+    )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     measured = json.loads(done.stdout.strip().splitlines()[-1])
 
-    from famwise.naive.decomposition import naive_decomposition
     from famwise.decomposition import wavelets
+    from famwise.naive.decomposition import naive_decomposition
 
     epochs = _synthetic_epochs(size)
     settings = _settings(size)
@@ -84,22 +91,25 @@ def bench_decomposition(quick: bool) -> BenchRow:
     start = time.perf_counter()
     for name in ("left", "right"):
         subset = epochs.data[epochs.labels == name][:, :n_ref]
-        naive_decomposition(subset, kernels, measure="power", scale=1.0,
-                       keep=slice(0, epochs.data.shape[-1], 1))
+        naive_decomposition(subset, kernels, measure="power", scale=1.0, keep=slice(0, epochs.data.shape[-1], 1))
     reference_s = (time.perf_counter() - start) * size["channels"] / n_ref
 
     famwise_s = measured["seconds"]
     ratio = reference_s / famwise_s
     return BenchRow(
         task="time-frequency decomposition (Morlet power, one subject)",
-        size=(f"{size['epochs']} epochs x {size['channels']} channels x {size['seconds']:g} s at "
-              f"{size['sample_rate_hz']:g} Hz x {size['freqs']} frequencies"),
+        size=(
+            f"{size['epochs']} epochs x {size['channels']} channels x {size['seconds']:g} s at "
+            f"{size['sample_rate_hz']:g} Hz x {size['freqs']} frequencies"
+        ),
         famwise_s=famwise_s,
         reference_s=reference_s,
         target=f">= {_TARGET:g}x",
         met=ratio >= _TARGET,
         peak_memory_mb=measured["peak_mb"],
-        note=(f"reference (one scipy.signal.fftconvolve per epoch, channel and frequency) timed on "
-              f"{n_ref} channel(s), extrapolated linearly to {size['channels']}; famwise timed in "
-              "a fresh process, peak memory = its ru_maxrss (interpreter and input data included)"),
+        note=(
+            f"reference (one scipy.signal.fftconvolve per epoch, channel and frequency) timed on "
+            f"{n_ref} channel(s), extrapolated linearly to {size['channels']}; famwise timed in "
+            "a fresh process, peak memory = its ru_maxrss (interpreter and input data included)"
+        ),
     )

@@ -6,10 +6,10 @@ import time
 import numpy as np
 
 from famwise.benchmarks import BenchRow
+from famwise.naive.stats import null_stats
 from famwise.nulls.collectors.maxima import MaxStatCollector
 from famwise.nulls.engine import run_shard
 from famwise.nulls.tables import make_table
-from famwise.naive.stats import null_stats
 
 N_SUBJECTS = 24
 N_POINTS = 288_000

@@ -7,9 +7,9 @@ import numpy as np
 
 from famwise.benchmarks import BenchRow
 from famwise.correct.maxstat import step_down
+from famwise.naive.stepdown import step_down_reference
 from famwise.nulls.collectors.maxima import StepDownCollector
 from famwise.nulls.engine import iter_null_blocks
-from famwise.naive.stepdown import step_down_reference
 
 _N_SUBJECTS = 24
 _BLOCK_ROWS = 64
@@ -116,8 +116,9 @@ def _step_down_from_blocks(blocks, n_rows):
 def _t_blocks(data, flips):
     """One-sample t maps (rows, n_points), float32, of sign-flipped ``data`` (n_subjects, n_points), block
     by block: the permutation engine of the pipeline's null jobs (`famwise.nulls.engine.iter_null_blocks`)."""
-    yield from iter_null_blocks(data, flips.astype(np.int8), test="one-sample", block_size=_BLOCK_ROWS,
-                                reuse_output=True)
+    yield from iter_null_blocks(
+        data, flips.astype(np.int8), test="one-sample", block_size=_BLOCK_ROWS, reuse_output=True
+    )
 
 
 def _t_maps_one_by_one(data, flips):

@@ -147,14 +147,27 @@ def calibration_shard(
 
 def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings) -> list[int]:
     """Significant points of one null dataset: uncorrected, then each correction."""
-    observed = observed_arrays(data, x, settings.observed)  # the observed stage's own record, forming thresholds included
+    observed = observed_arrays(
+        data, x, settings.observed
+    )  # the observed stage's own record, forming thresholds included
     inputs = [folder / "observed.npz"]
     save_observed(inputs[0], observed)
     if table is not None:
         collectors = make_collectors(settings.nulls.collectors, observed=observed, shape=data.shape, graph=graph)
-        statistic = {"statistic": settings.nulls.statistic, "trim": settings.nulls.trim, "equal_var": settings.nulls.equal_var}
-        arrays = run_shard(x, table.rows, collectors=collectors, test=data.test, groups=data.groups,
-                           covariate=data.covariate, **statistic)
+        statistic = {
+            "statistic": settings.nulls.statistic,
+            "trim": settings.nulls.trim,
+            "equal_var": settings.nulls.equal_var,
+        }
+        arrays = run_shard(
+            x,
+            table.rows,
+            collectors=collectors,
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            **statistic,
+        )
         arrays["rows"] = np.array([0, table.n_rows])
         arrays["n_rows.total"] = np.array(table.n_rows)
         inputs.append(folder / "nulls" / "shard-0.npz")

@@ -9,7 +9,9 @@ UNCORRECTED = "uncorrected"
 """Label of the reference row: parametric p <= alpha at any point, no correction."""
 
 
-def calibration_settings(plan, contrast: str, *, datasets: int, permutations: int | None, shards: int) -> CalibrationSettings:
+def calibration_settings(
+    plan, contrast: str, *, datasets: int, permutations: int | None, shards: int
+) -> CalibrationSettings:
     """Settings of one contrast's calibration (the rules pass them as JSON text).
 
     Parameters
@@ -32,9 +34,16 @@ def calibration_settings(plan, contrast: str, *, datasets: int, permutations: in
         raise UserError(f"--permutations must be a whole number of at least 1, got {permutations}")
     if int(shards) != shards or not 1 <= shards <= datasets:
         raise UserError(f"--shards must be between 1 and the number of datasets ({datasets}), got {shards}")
-    nulls = replace(plan.null_settings(), permutations=int(permutations if permutations is not None else inference.permutations))
+    nulls = replace(
+        plan.null_settings(), permutations=int(permutations if permutations is not None else inference.permutations)
+    )
     return CalibrationSettings(
-        contrast=contrast, datasets=int(datasets), shards=int(shards), study_permutations=inference.permutations,
-        alpha=inference.alpha, observed=plan.observed_settings(), nulls=nulls,
+        contrast=contrast,
+        datasets=int(datasets),
+        shards=int(shards),
+        study_permutations=inference.permutations,
+        alpha=inference.alpha,
+        observed=plan.observed_settings(),
+        nulls=nulls,
         corrections=tuple(plan.correction_settings(c.label) for c in inference.corrections),
     )

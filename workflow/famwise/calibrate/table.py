@@ -27,25 +27,42 @@ from famwise.errors import UserError
 from famwise.settings import CalibrationSettings
 from famwise.settings_codec import to_json
 
-COLUMNS = ("correction", "method", "datasets", "detections", "fwer", "fwer_ci_low", "fwer_ci_high", "mean_fdp",
-           "nominal", "permutations")
+COLUMNS = (
+    "correction",
+    "method",
+    "datasets",
+    "detections",
+    "fwer",
+    "fwer_ci_low",
+    "fwer_ci_high",
+    "mean_fdp",
+    "nominal",
+    "permutations",
+)
 SIDECAR = {
-    "correction": {"Description": "Correction name as in the study spec; 'uncorrected' is the reference row: "
-                                  "parametric p <= alpha at any point, no correction."},
+    "correction": {
+        "Description": "Correction name as in the study spec; 'uncorrected' is the reference row: "
+        "parametric p <= alpha at any point, no correction."
+    },
     "method": {"Description": "Correction method."},
     "datasets": {"Description": "Number of null datasets made from the subjects' own maps."},
     "detections": {"Description": "Null datasets with at least one significant point."},
     "fwer": {"Description": "Empirical family-wise error rate: detections / datasets."},
     "fwer_ci_low": {"Description": "Lower end of the exact binomial (Clopper-Pearson) 95% interval of fwer."},
     "fwer_ci_high": {"Description": "Upper end of the exact binomial (Clopper-Pearson) 95% interval of fwer."},
-    "mean_fdp": {"Description": "Mean false discovery proportion over the null datasets. Every point of a null "
-                                "dataset is a true null, so a dataset's FDP is 1 with any detection and 0 otherwise; "
-                                "the mean equals fwer."},
-    "nominal": {"Description": "The level the correction was run at: alpha (family-wise methods) or q "
-                               "(fdr-bh, fdr-by)."},
-    "permutations": {"Description": "Random permutations each null dataset was tested with (the study's own "
-                                    "number unless reduced with --permutations; all of them when the table is "
-                                    "exact); n/a for corrections on parametric p-values."},
+    "mean_fdp": {
+        "Description": "Mean false discovery proportion over the null datasets. Every point of a null "
+        "dataset is a true null, so a dataset's FDP is 1 with any detection and 0 otherwise; "
+        "the mean equals fwer."
+    },
+    "nominal": {
+        "Description": "The level the correction was run at: alpha (family-wise methods) or q (fdr-bh, fdr-by)."
+    },
+    "permutations": {
+        "Description": "Random permutations each null dataset was tested with (the study's own "
+        "number unless reduced with --permutations; all of them when the table is "
+        "exact); n/a for corrections on parametric p-values."
+    },
 }
 
 
@@ -80,15 +97,21 @@ def merge_shards(shards: list[dict[str, np.ndarray]], *, datasets: int) -> dict[
     indices = np.concatenate([c["datasets"] for c in shards])
     order = np.argsort(indices, kind="stable")
     if not np.array_equal(indices[order], np.arange(datasets)):
-        raise UserError(f"calibration: the shard files hold {indices.size} datasets, expected datasets 0 to {datasets - 1} once each "
-                        "(shards from different settings?); delete the calibration folder and rerun")
+        raise UserError(
+            f"calibration: the shard files hold {indices.size} datasets, expected datasets 0 to {datasets - 1} once each "
+            "(shards from different settings?); delete the calibration folder and rerun"
+        )
     labels = shards[0]["labels"]
     if any(not np.array_equal(c["labels"], labels) for c in shards):
-        raise UserError("calibration: the shard files list different corrections; delete the calibration folder and rerun")
+        raise UserError(
+            "calibration: the shard files list different corrections; delete the calibration folder and rerun"
+        )
     return {"labels": labels, "n_significant": np.concatenate([c["n_significant"] for c in shards])[order]}
 
 
-def calibration_rows(merged: dict[str, np.ndarray], *, settings: CalibrationSettings, table_rows: int | None) -> list[CalibrationRow]:
+def calibration_rows(
+    merged: dict[str, np.ndarray], *, settings: CalibrationSettings, table_rows: int | None
+) -> list[CalibrationRow]:
     """The table rows from merged shards.
 
     Parameters
@@ -112,16 +135,26 @@ def calibration_rows(merged: dict[str, np.ndarray], *, settings: CalibrationSett
         hits = int(detected[:, column].sum())
         n = int(detected.shape[0])
         low, high = fwer_interval(hits, n)
-        rows.append(CalibrationRow(
-            correction=label, method=method, datasets=n, detections=hits, fwer=hits / n, fwer_ci_low=low, fwer_ci_high=high,
-            mean_fdp=float(detected[:, column].mean()), nominal=float(nominal),
-            permutations=table_rows - 1 if uses_null and table_rows is not None else None,
-        ))
+        rows.append(
+            CalibrationRow(
+                correction=label,
+                method=method,
+                datasets=n,
+                detections=hits,
+                fwer=hits / n,
+                fwer_ci_low=low,
+                fwer_ci_high=high,
+                mean_fdp=float(detected[:, column].mean()),
+                nominal=float(nominal),
+                permutations=table_rows - 1 if uses_null and table_rows is not None else None,
+            )
+        )
     return rows
 
 
-def write_table(path: Path, rows: list[CalibrationRow], *, settings: CalibrationSettings, table_rows: int | None,
-                basis: dict) -> None:
+def write_table(
+    path: Path, rows: list[CalibrationRow], *, settings: CalibrationSettings, table_rows: int | None, basis: dict
+) -> None:
     """``<contrast>.tsv`` and its JSON sidecar (columns, the run's settings and its ``calibration_basis``)."""
     lines = ["\t".join(COLUMNS)]
     for row in rows:
@@ -142,8 +175,8 @@ def write_table(path: Path, rows: list[CalibrationRow], *, settings: Calibration
         "alpha": settings.alpha,
         "family": "each contrast on its own (per-contrast), whatever inference.family says",
         "null_datasets": "subjects' own maps with random sign flips (one-sample, paired), shuffled subject order "
-                         "against fixed labels or covariate (two-sample, correlation), or conditions shuffled within "
-                         "subject (repeated measures)",
+        "against fixed labels or covariate (two-sample, correlation), or conditions shuffled within "
+        "subject (repeated measures)",
         "basis": basis,
     }
     write_json(path.with_suffix(".json"), sidecar)
@@ -160,7 +193,9 @@ def read_table(path: Path) -> list[dict]:
     return rows
 
 
-def summarize(shard_files: list[Path], out: Path, *, settings: CalibrationSettings, subjects: Path, observed: Path) -> list[CalibrationRow]:
+def summarize(
+    shard_files: list[Path], out: Path, *, settings: CalibrationSettings, subjects: Path, observed: Path
+) -> list[CalibrationRow]:
     """Merge the shard files and write ``<contrast>.tsv``, ``.json``, ``.png`` and ``.svg``.
 
     Parameters
@@ -211,8 +246,17 @@ def calibration_figure(rows: list[dict], *, contrast: str, folder: Path, stem: s
         for x, row in zip(where, rows):
             ax.hlines(row["nominal"], x - 0.38, x + 0.38, colors=MUTED, linestyles="--", linewidth=1.0)
         inside = fwer <= top
-        ax.errorbar(where[inside], fwer[inside], yerr=[(fwer - low)[inside], (np.minimum(high, top) - fwer)[inside]],
-                    fmt="o", color=ACCENT, markersize=4.5, capsize=3, linewidth=1.0, clip_on=False)
+        ax.errorbar(
+            where[inside],
+            fwer[inside],
+            yerr=[(fwer - low)[inside], (np.minimum(high, top) - fwer)[inside]],
+            fmt="o",
+            color=ACCENT,
+            markersize=4.5,
+            capsize=3,
+            linewidth=1.0,
+            clip_on=False,
+        )
         for x, value in zip(where[~inside], fwer[~inside]):
             ax.plot([x], [top], marker="^", color=ACCENT, markersize=6, clip_on=False)
             ax.annotate(f"{value:.2f}", (x, top), xytext=(7, -3), textcoords="offset points", fontsize=7.5, va="top")
@@ -223,8 +267,16 @@ def calibration_figure(rows: list[dict], *, contrast: str, folder: Path, stem: s
         ax.set_ylabel("family-wise error rate\n(share of null datasets)")
         n = int(rows[0]["datasets"])
         ax.set_title(f"{contrast}: error rate in {n} null datasets")
-        ax.text(1.0, 1.0, "dashes: nominal level\nbars: 95% interval\n\u25b2 off scale (value shown)", transform=ax.transAxes,
-                ha="right", va="bottom", fontsize=7, color=MUTED)
+        ax.text(
+            1.0,
+            1.0,
+            "dashes: nominal level\nbars: 95% interval\n\u25b2 off scale (value shown)",
+            transform=ax.transAxes,
+            ha="right",
+            va="bottom",
+            fontsize=7,
+            color=MUTED,
+        )
         return save_figure(figure, folder, stem)
 
 
@@ -235,8 +287,9 @@ def calibration_basis(contrast_folder: Path, corrections: list[dict]) -> dict:
     return {
         "subjects_sha256": _arrays_sha256(contrast_folder / "subjects.npz"),
         "observed_sha256": _arrays_sha256(contrast_folder / "observed.npz"),
-        "corrections": [{key: c[key] for key in ("correction", "alpha", "tail", "forming") if key in c}
-                        for c in corrections],
+        "corrections": [
+            {key: c[key] for key in ("correction", "alpha", "tail", "forming") if key in c} for c in corrections
+        ],
     }
 
 

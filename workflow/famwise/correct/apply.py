@@ -12,10 +12,10 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.atomic import save_npz
 from famwise.correct import maxstat, pvalues
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
-from famwise.atomic import save_npz
 from famwise.nulls.collectors.protocol import merge_shard_arrays
 from famwise.observed import load_observed, stored_forming_threshold
 from famwise.settings import CorrectionSettings
@@ -38,7 +38,9 @@ def _merged_nulls(files: list[Path]) -> tuple[dict[str, np.ndarray], int]:
     return merged, n_rows
 
 
-def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionSettings) -> tuple[CorrectionResult, tuple]:
+def apply_correction(
+    inputs: list[Path], *, contrast: str, settings: CorrectionSettings
+) -> tuple[CorrectionResult, tuple]:
     """Run one correction for one contrast.
 
     Parameters
@@ -74,7 +76,9 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
     names = [c for c in settings.contrasts if c in observed]
     nulls = {name: _merged_nulls(files) for name, files in shards.items()}
     if len({n for _, n in nulls.values()}) > 1:
-        raise UserError("inference.family: all-contrasts needs contrasts that share one permutation table (same test design and subjects)")
+        raise UserError(
+            "inference.family: all-contrasts needs contrasts that share one permutation table (same test design and subjects)"
+        )
     mine = observed[contrast]
     shape = mine["stat"].shape
     tail = str(mine["tail"])
@@ -96,12 +100,18 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
         if correction.step_down and len(names) > 1:
             family, family_rows = _merged_nulls(family_shards)
             results = maxstat.step_down_family(
-                [observed[c]["stat"].reshape(-1) for c in names], family[f"{key}.count"], family_rows,
-                tail=tail, alpha=alpha, max_null=max_null,
+                [observed[c]["stat"].reshape(-1) for c in names],
+                family[f"{key}.count"],
+                family_rows,
+                tail=tail,
+                alpha=alpha,
+                max_null=max_null,
             )
             result = results[names.index(contrast)]
         elif correction.step_down:
-            result = maxstat.step_down(stat, nulls[contrast][0][f"{key}.count"], n_rows, tail=tail, alpha=alpha, max_null=max_null)
+            result = maxstat.step_down(
+                stat, nulls[contrast][0][f"{key}.count"], n_rows, tail=tail, alpha=alpha, max_null=max_null
+            )
         else:
             result = maxstat.single_step(stat, max_null, tail=tail, alpha=alpha)
     elif method in ("cluster", "tfce"):
@@ -115,22 +125,47 @@ def apply_correction(inputs: list[Path], *, contrast: str, settings: CorrectionS
             from famwise.correct import clusters  # numba kernels: imported only when used
 
             result = clusters.cluster_inference(
-                mine["stat"], max_null, threshold=stored_forming_threshold(mine, key), indptr=indptr, indices=indices,
-                dims=dims, cluster_stat=correction.cluster_stat, min_supra_neighbors=correction.min_supra_neighbors,
-                tail=tail, alpha=alpha, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
+                mine["stat"],
+                max_null,
+                threshold=stored_forming_threshold(mine, key),
+                indptr=indptr,
+                indices=indices,
+                dims=dims,
+                cluster_stat=correction.cluster_stat,
+                min_supra_neighbors=correction.min_supra_neighbors,
+                tail=tail,
+                alpha=alpha,
+                channels=[str(c) for c in mine["channels"]],
+                freqs=mine["freqs"],
+                times=mine["times"],
             )
         else:
             from famwise.correct import tfce
-
             from famwise.correct.regions import significant_regions
 
             result = tfce.tfce_inference(
-                mine["stat"], max_null, indptr=indptr, indices=indices, dims=dims, E=correction.E, H=correction.H,
-                step=correction.step, tail=tail, alpha=alpha,
+                mine["stat"],
+                max_null,
+                indptr=indptr,
+                indices=indices,
+                dims=dims,
+                E=correction.E,
+                H=correction.H,
+                step=correction.step,
+                tail=tail,
+                alpha=alpha,
             )
             region_id, rows = significant_regions(
-                result.maps["tfce"], result.p_corrected, result.mask, mine["stat"], indptr=indptr, indices=indices,
-                dims=dims, channels=[str(c) for c in mine["channels"]], freqs=mine["freqs"], times=mine["times"],
+                result.maps["tfce"],
+                result.p_corrected,
+                result.mask,
+                mine["stat"],
+                indptr=indptr,
+                indices=indices,
+                dims=dims,
+                channels=[str(c) for c in mine["channels"]],
+                freqs=mine["freqs"],
+                times=mine["times"],
             )
             result = dataclasses.replace(result, maps={**result.maps, "cluster_id": region_id}, clusters=rows)
     else:
@@ -143,8 +178,12 @@ def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionR
     start = sum(sizes[:index])
     stop = start + sizes[index]
     return CorrectionResult(
-        method=joint.method, p_corrected=joint.p_corrected[start:stop], mask=joint.mask[start:stop],
-        threshold=joint.threshold, threshold_kind=joint.threshold_kind, settings=joint.settings,
+        method=joint.method,
+        p_corrected=joint.p_corrected[start:stop],
+        mask=joint.mask[start:stop],
+        threshold=joint.threshold,
+        threshold_kind=joint.threshold_kind,
+        settings=joint.settings,
     )
 
 

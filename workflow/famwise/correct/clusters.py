@@ -42,18 +42,38 @@ from famwise.nulls.collectors.kernel_inputs import DIMS, check_cluster_settings,
 TIE_RTOL = 1e-9
 
 CLUSTER_COLUMNS = (
-    "id", "sign", "statistic", "p", "n_points", "channels", "time_start_ms", "time_end_ms",
-    "freq_low_hz", "freq_high_hz", "peak_stat", "peak_channel", "peak_freq_hz", "peak_time_ms",
+    "id",
+    "sign",
+    "statistic",
+    "p",
+    "n_points",
+    "channels",
+    "time_start_ms",
+    "time_end_ms",
+    "freq_low_hz",
+    "freq_high_hz",
+    "peak_stat",
+    "peak_channel",
+    "peak_freq_hz",
+    "peak_time_ms",
 )
 CLUSTER_SIDECAR = {
-    "id": {"Description": "Cluster number as in the cluster_id map: positive clusters 1, 2, ..., "
-                          "negative clusters -1, -2, ..., each numbered by descending statistic."},
-    "sign": {"Description": "Sign of the statistic in the cluster.",
-             "Levels": {"positive": "stat > +threshold", "negative": "stat < -threshold"}},
-    "statistic": {"Description": "Cluster statistic: mass (sum of |stat| over the cluster's points) or size "
-                                 "(number of points), as in the settings."},
-    "p": {"Description": "Permutation p-value: share of permutations (identity included) whose largest "
-                         "cluster statistic is at least this cluster's."},
+    "id": {
+        "Description": "Cluster number as in the cluster_id map: positive clusters 1, 2, ..., "
+        "negative clusters -1, -2, ..., each numbered by descending statistic."
+    },
+    "sign": {
+        "Description": "Sign of the statistic in the cluster.",
+        "Levels": {"positive": "stat > +threshold", "negative": "stat < -threshold"},
+    },
+    "statistic": {
+        "Description": "Cluster statistic: mass (sum of |stat| over the cluster's points) or size "
+        "(number of points), as in the settings."
+    },
+    "p": {
+        "Description": "Permutation p-value: share of permutations (identity included) whose largest "
+        "cluster statistic is at least this cluster's."
+    },
     "n_points": {"Description": "Number of (channel, frequency, time) points in the cluster."},
     "channels": {"Description": "Comma-separated names of the channels the cluster covers, in position-table order."},
     "time_start_ms": {"Description": "Earliest time point of the cluster.", "Units": "ms"},
@@ -91,8 +111,9 @@ def critical_value(null, alpha):
     return float(ordered[min(int(math.floor(alpha * len(ordered) + 1e-9)), len(ordered) - 1)])
 
 
-def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
-                   min_supra_neighbors=0, tail="two-sided"):
+def label_clusters(
+    stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass", min_supra_neighbors=0, tail="two-sided"
+):
     """Cluster labels of one map, numbered by descending statistic within each sign.
 
     Parameters
@@ -113,8 +134,19 @@ def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat=
     flat = stat.ravel()
     parent = np.empty(flat.size, np.int32)
     acc = np.empty(flat.size, np.float64)
-    _cluster_roots(flat, float(threshold), tail_code(tail), *shape, indptr, indices, *check_dims(dims),
-                   cluster_stat == "mass", int(min_supra_neighbors), parent, acc)
+    _cluster_roots(
+        flat,
+        float(threshold),
+        tail_code(tail),
+        *shape,
+        indptr,
+        indices,
+        *check_dims(dims),
+        cluster_stat == "mass",
+        int(min_supra_neighbors),
+        parent,
+        acc,
+    )
     roots = np.flatnonzero(parent == np.arange(flat.size))
     lookup = np.zeros(flat.size, np.int32)
     statistics = {}
@@ -129,8 +161,22 @@ def label_clusters(stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat=
     return cluster_id.reshape(stat.shape), statistics
 
 
-def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass",
-                      min_supra_neighbors=0, tail="two-sided", alpha=0.05, channels, freqs, times):
+def cluster_inference(
+    observed_stat,
+    null_max,
+    *,
+    threshold,
+    indptr,
+    indices,
+    dims=DIMS,
+    cluster_stat="mass",
+    min_supra_neighbors=0,
+    tail="two-sided",
+    alpha=0.05,
+    channels,
+    freqs,
+    times,
+):
     """Cluster-based permutation inference on the merged null.
 
     Parameters
@@ -170,8 +216,15 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
         raise ValueError(f"null_max must be a non-empty 1-D array, got shape {null_max.shape}")
     _check_axes(observed_stat.shape, channels, freqs, times)
     cluster_id, statistics = label_clusters(
-        observed_stat, threshold=threshold, indptr=indptr, indices=indices, dims=dims, cluster_stat=cluster_stat,
-        min_supra_neighbors=min_supra_neighbors, tail=tail)
+        observed_stat,
+        threshold=threshold,
+        indptr=indptr,
+        indices=indices,
+        dims=dims,
+        cluster_stat=cluster_stat,
+        min_supra_neighbors=min_supra_neighbors,
+        tail=tail,
+    )
     ids = np.array(sorted(statistics), dtype=np.int64)
     p_values = count_at_least(null_max, [statistics[i] for i in ids.tolist()])
     offset = int(np.abs(ids).max(initial=0))
@@ -179,22 +232,40 @@ def cluster_inference(observed_stat, null_max, *, threshold, indptr, indices, di
     p_lookup[ids + offset] = p_values
     flat_id = cluster_id.ravel()
     p_map = p_lookup[flat_id + offset].reshape(cluster_id.shape)
-    rows = [cluster_row(i, statistics[i], p, np.unravel_index(points, cluster_id.shape), observed_stat,
-                        channels, freqs, times)
-            for i, p, points in zip(ids.tolist(), p_values.tolist(), points_by_label(flat_id, ids))]
+    rows = [
+        cluster_row(
+            i, statistics[i], p, np.unravel_index(points, cluster_id.shape), observed_stat, channels, freqs, times
+        )
+        for i, p, points in zip(ids.tolist(), p_values.tolist(), points_by_label(flat_id, ids))
+    ]
     rows.sort(key=table_order)
     return CorrectionResult(
-        method="cluster", p_corrected=p_map, mask=p_map <= alpha, threshold=critical_value(null_max, alpha),
-        threshold_kind="cluster", maps={"cluster_id": cluster_id}, clusters=rows, null=null_max,
-        settings={"threshold": float(threshold), "dims": list(dims), "cluster_stat": cluster_stat,
-                  "min_supra_neighbors": int(min_supra_neighbors), "tail": tail, "alpha": float(alpha),
-                  "n_rows": int(null_max.size)})
+        method="cluster",
+        p_corrected=p_map,
+        mask=p_map <= alpha,
+        threshold=critical_value(null_max, alpha),
+        threshold_kind="cluster",
+        maps={"cluster_id": cluster_id},
+        clusters=rows,
+        null=null_max,
+        settings={
+            "threshold": float(threshold),
+            "dims": list(dims),
+            "cluster_stat": cluster_stat,
+            "min_supra_neighbors": int(min_supra_neighbors),
+            "tail": tail,
+            "alpha": float(alpha),
+            "n_rows": int(null_max.size),
+        },
+    )
 
 
 def _check_axes(shape, channels, freqs, times):
     if (len(channels), len(freqs), len(times)) != tuple(shape):
-        raise ValueError(f"observed map of shape {shape} does not match {len(channels)} channels, "
-                         f"{len(freqs)} frequencies and {len(times)} times")
+        raise ValueError(
+            f"observed map of shape {shape} does not match {len(channels)} channels, "
+            f"{len(freqs)} frequencies and {len(times)} times"
+        )
 
 
 def points_by_label(flat_labels, ids):
@@ -221,13 +292,20 @@ def cluster_row(cluster, statistic, p, where, stat, channels, freqs, times):
     peak = int(np.argmax(np.abs(values)))
     freqs, times = np.asarray(freqs, dtype=float), np.asarray(times, dtype=float)
     return {
-        "id": int(cluster), "sign": "positive" if cluster > 0 else "negative", "statistic": float(statistic),
-        "p": float(p), "n_points": int(values.size),
+        "id": int(cluster),
+        "sign": "positive" if cluster > 0 else "negative",
+        "statistic": float(statistic),
+        "p": float(p),
+        "n_points": int(values.size),
         "channels": ",".join(channels[c] for c in np.unique(where[0])),
-        "time_start_ms": _ms(times[where[2]].min()), "time_end_ms": _ms(times[where[2]].max()),
-        "freq_low_hz": _hz(freqs[where[1]].min()), "freq_high_hz": _hz(freqs[where[1]].max()),
-        "peak_stat": float(values[peak]), "peak_channel": channels[where[0][peak]],
-        "peak_freq_hz": _hz(freqs[where[1][peak]]), "peak_time_ms": _ms(times[where[2][peak]]),
+        "time_start_ms": _ms(times[where[2]].min()),
+        "time_end_ms": _ms(times[where[2]].max()),
+        "freq_low_hz": _hz(freqs[where[1]].min()),
+        "freq_high_hz": _hz(freqs[where[1]].max()),
+        "peak_stat": float(values[peak]),
+        "peak_channel": channels[where[0][peak]],
+        "peak_freq_hz": _hz(freqs[where[1][peak]]),
+        "peak_time_ms": _ms(times[where[2][peak]]),
     }
 
 

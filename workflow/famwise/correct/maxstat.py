@@ -161,8 +161,7 @@ def single_step_family(observed_list, max_null_list, *, tail, alpha=0.05):
     """
     if len(observed_list) == 0 or len(observed_list) != len(max_null_list):
         raise ValueError(
-            f"expected one max null per contrast; got {len(observed_list)} contrasts "
-            f"and {len(max_null_list)} nulls"
+            f"expected one max null per contrast; got {len(observed_list)} contrasts and {len(max_null_list)} nulls"
         )
     nulls = [_check_max_null(null) for null in max_null_list]
     if len({null.size for null in nulls}) != 1:

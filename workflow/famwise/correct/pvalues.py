@@ -161,7 +161,5 @@ def _check_adjust(p, method, alpha):
     if n_nan:
         raise UserError(f"{method}: p-values must not be NaN; found {n_nan} NaN of {p.size} points")
     if p.min() < 0 or p.max() > 1:
-        raise UserError(
-            f"{method}: p-values must lie in [0, 1]; found values from {p.min():g} to {p.max():g}"
-        )
+        raise UserError(f"{method}: p-values must lie in [0, 1]; found values from {p.min():g} to {p.max():g}")
     return p

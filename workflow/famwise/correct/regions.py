@@ -18,24 +18,28 @@ inference. NeuroImage 44(1):83-98.
 
 import numpy as np
 
-from famwise.correct.clusters import CLUSTER_SIDECAR, DIMS, cluster_row, label_clusters, points_by_label, \
-    table_order
+from famwise.correct.clusters import CLUSTER_SIDECAR, DIMS, cluster_row, label_clusters, points_by_label, table_order
 
 REGION_SIDECAR = CLUSTER_SIDECAR | {
-    "id": {"Description": "Region number as in the cluster_id map: positive regions 1, 2, ..., negative "
-                          "regions -1, -2, ..., each numbered by descending peak |TFCE|. A region is a "
-                          "connected set of points significant after TFCE correction."},
-    "sign": {"Description": "Sign of the statistic in the region.",
-             "Levels": {"positive": "stat > 0", "negative": "stat < 0"}},
+    "id": {
+        "Description": "Region number as in the cluster_id map: positive regions 1, 2, ..., negative "
+        "regions -1, -2, ..., each numbered by descending peak |TFCE|. A region is a "
+        "connected set of points significant after TFCE correction."
+    },
+    "sign": {
+        "Description": "Sign of the statistic in the region.",
+        "Levels": {"positive": "stat > 0", "negative": "stat < 0"},
+    },
     "statistic": {"Description": "Largest |TFCE| value in the region."},
-    "p": {"Description": "Smallest TFCE-corrected p in the region (the p at its TFCE peak): the share of "
-                         "permutations (identity included) whose largest |TFCE| reaches it."},
+    "p": {
+        "Description": "Smallest TFCE-corrected p in the region (the p at its TFCE peak): the share of "
+        "permutations (identity included) whose largest |TFCE| reaches it."
+    },
     "n_points": {"Description": "Number of significant (channel, frequency, time) points in the region."},
 }
 
 
-def significant_regions(enhanced, p_corrected, mask, stat, *, indptr, indices, dims=DIMS, channels, freqs,
-                        times):
+def significant_regions(enhanced, p_corrected, mask, stat, *, indptr, indices, dims=DIMS, channels, freqs, times):
     """Connected regions of the significant points, numbered by descending peak |TFCE| within each sign.
 
     Parameters
@@ -64,20 +68,24 @@ def significant_regions(enhanced, p_corrected, mask, stat, *, indptr, indices, d
     """
     enhanced = np.asarray(enhanced, dtype=np.float64)
     significant = np.where(mask, enhanced, 0.0)
-    labels, _ = label_clusters(significant, threshold=0.0, indptr=indptr, indices=indices, dims=dims,
-                               cluster_stat="size")
+    labels, _ = label_clusters(
+        significant, threshold=0.0, indptr=indptr, indices=indices, dims=dims, cluster_stat="size"
+    )
     flat = labels.ravel()
     ids = np.unique(flat[flat != 0])
     magnitude, p_flat = np.abs(enhanced).ravel(), np.asarray(p_corrected, dtype=np.float64).ravel()
-    regions = [(ident, float(magnitude[points].max()), float(p_flat[points].min()), points)
-               for ident, points in zip(ids.tolist(), points_by_label(flat, ids))]
+    regions = [
+        (ident, float(magnitude[points].max()), float(p_flat[points].min()), points)
+        for ident, points in zip(ids.tolist(), points_by_label(flat, ids))
+    ]
     region_id = np.zeros(flat.size, np.int32)
     rows = []
     for sign in (1, -1):
         mine = sorted((r for r in regions if np.sign(r[0]) == sign), key=lambda r: (-r[1], r[3][0]))
         for k, (_, peak, p, points) in enumerate(mine, start=1):
             region_id[points] = sign * k
-            rows.append(cluster_row(sign * k, peak, p, np.unravel_index(points, labels.shape), stat, channels,
-                                    freqs, times))
+            rows.append(
+                cluster_row(sign * k, peak, p, np.unravel_index(points, labels.shape), stat, channels, freqs, times)
+            )
     rows.sort(key=table_order)
     return region_id.reshape(labels.shape), rows

@@ -24,8 +24,14 @@ from famwise.correct.clusters import check_alpha, count_at_least, critical_value
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.kernels.tfce_sweep import _tfce_map, _tfce_workspace
-from famwise.nulls.collectors.kernel_inputs import DIMS, INFINITE_STATISTIC, check_dims, check_graph, \
-    check_tfce_settings, tail_code
+from famwise.nulls.collectors.kernel_inputs import (
+    DIMS,
+    INFINITE_STATISTIC,
+    check_dims,
+    check_graph,
+    check_tfce_settings,
+    tail_code,
+)
 
 
 def tfce_map(stat, *, indptr, indices, dims=DIMS, E=0.5, H=2.0, step=None, tail="two-sided"):
@@ -61,13 +67,25 @@ def tfce_map(stat, *, indptr, indices, dims=DIMS, E=0.5, H=2.0, step=None, tail=
     if np.isinf(stat).any():
         raise UserError(INFINITE_STATISTIC)
     out = np.empty(stat.size)
-    _tfce_map(stat.ravel(), tail_code(tail), float(E), float(H), step_code, *shape, indptr, indices,
-              *check_dims(dims), *_tfce_workspace(1, stat.size, indptr), out)
+    _tfce_map(
+        stat.ravel(),
+        tail_code(tail),
+        float(E),
+        float(H),
+        step_code,
+        *shape,
+        indptr,
+        indices,
+        *check_dims(dims),
+        *_tfce_workspace(1, stat.size, indptr),
+        out,
+    )
     return out.reshape(stat.shape)
 
 
-def tfce_inference(observed_stat, null_max, *, indptr, indices, dims=DIMS, E=0.5, H=2.0, step=None,
-                   tail="two-sided", alpha=0.05):
+def tfce_inference(
+    observed_stat, null_max, *, indptr, indices, dims=DIMS, E=0.5, H=2.0, step=None, tail="two-sided", alpha=0.05
+):
     """TFCE permutation inference on the merged null.
 
     Parameters
@@ -99,7 +117,20 @@ def tfce_inference(observed_stat, null_max, *, indptr, indices, dims=DIMS, E=0.5
     enhanced = tfce_map(observed_stat, indptr=indptr, indices=indices, dims=dims, E=E, H=H, step=step, tail=tail)
     p_map = count_at_least(null_max, np.abs(enhanced).ravel()).reshape(enhanced.shape)
     return CorrectionResult(
-        method="tfce", p_corrected=p_map, mask=p_map <= alpha, threshold=critical_value(null_max, alpha),
-        threshold_kind="tfce", maps={"tfce": enhanced}, null=null_max,
-        settings={"dims": list(dims), "E": float(E), "H": float(H), "step": step, "tail": tail,
-                  "alpha": float(alpha), "n_rows": int(null_max.size)})
+        method="tfce",
+        p_corrected=p_map,
+        mask=p_map <= alpha,
+        threshold=critical_value(null_max, alpha),
+        threshold_kind="tfce",
+        maps={"tfce": enhanced},
+        null=null_max,
+        settings={
+            "dims": list(dims),
+            "E": float(E),
+            "H": float(H),
+            "step": step,
+            "tail": tail,
+            "alpha": float(alpha),
+            "n_rows": int(null_max.size),
+        },
+    )

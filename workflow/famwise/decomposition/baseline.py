@@ -76,8 +76,7 @@ def normalise(power: np.ndarray, mean: np.ndarray, sd: np.ndarray, *, mode: str)
     raise ValueError(f"baseline mode must be one of {MODES}, got {mode!r}")
 
 
-def describe(mode: str, window_ms: tuple[float, float] | None, *, pooled: bool,
-             single_epoch: bool) -> str:
+def describe(mode: str, window_ms: tuple[float, float] | None, *, pooled: bool, single_epoch: bool) -> str:
     """A one-line description of the baseline, stored in the time-frequency file.
 
     Examples: ``"dB change from -400 to -100 ms, per condition"``, ``"none"``.

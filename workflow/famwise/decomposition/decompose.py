@@ -16,13 +16,13 @@ import numpy as np
 import scipy.fft
 from scipy.stats import trim_mean
 
-from famwise.epochs import Epochs
-from famwise.errors import FamwiseWarning, UserError
 from famwise.decomposition import baseline as _baseline
 from famwise.decomposition import multitaper as _mt
 from famwise.decomposition import wavelets as _wl
-from famwise.kernels.tf_power import _add_mean_power, _add_epoch_power
 from famwise.decomposition.maps import TimeFreqMaps
+from famwise.epochs import Epochs
+from famwise.errors import FamwiseWarning, UserError
+from famwise.kernels.tf_power import _add_epoch_power, _add_mean_power
 
 METHODS = ("morlet", "multitaper")
 MEASURES = ("power", "induced", "itpc")
@@ -52,11 +52,11 @@ def frequency_grid(lowest_hz: float, highest_hz: float, count: int, spacing: str
     if spacing not in SPACINGS:
         raise UserError(f"frequency spacing must be one of {list(SPACINGS)}, got {spacing!r}")
     if int(count) != count or count < 1:
-        raise UserError("the number of frequencies must be a whole number of at least 1, "
-                        f"got {count}")
+        raise UserError(f"the number of frequencies must be a whole number of at least 1, got {count}")
     if not 0 < lowest_hz <= highest_hz or (count > 1 and lowest_hz == highest_hz):
-        raise UserError(f"frequencies must satisfy 0 < start < stop, got start {lowest_hz:g} Hz "
-                        f"and stop {highest_hz:g} Hz")
+        raise UserError(
+            f"frequencies must satisfy 0 < start < stop, got start {lowest_hz:g} Hz and stop {highest_hz:g} Hz"
+        )
     if spacing == "log":
         return np.geomspace(lowest_hz, highest_hz, int(count))
     return np.linspace(lowest_hz, highest_hz, int(count))
@@ -164,22 +164,41 @@ def decompose(
     Thomson DJ (1982). Proc IEEE 70(9):1055-1096.
     """
     freqs = np.asarray(frequencies_hz, dtype=float)
-    _check_options(epochs, subject=subject, freqs=freqs, method=method, cycles=cycles,
-                   fwhm_ms=fwhm_ms, taper_length_ms=taper_length_ms, nw=nw,
-                   measure=measure, average=average, trim=trim, baseline_mode=baseline_mode,
-                   baseline_window_ms=baseline_window_ms, baseline_pooled=baseline_pooled,
-                   baseline_single_epoch=baseline_single_epoch, conditions=conditions)
+    _check_options(
+        epochs,
+        subject=subject,
+        freqs=freqs,
+        method=method,
+        cycles=cycles,
+        fwhm_ms=fwhm_ms,
+        taper_length_ms=taper_length_ms,
+        nw=nw,
+        measure=measure,
+        average=average,
+        trim=trim,
+        baseline_mode=baseline_mode,
+        baseline_window_ms=baseline_window_ms,
+        baseline_pooled=baseline_pooled,
+        baseline_single_epoch=baseline_single_epoch,
+        conditions=conditions,
+    )
     members = _select_epochs(epochs, subject=subject, conditions=conditions, min_epochs=min_epochs)
     _check_finite(epochs, np.unique(np.concatenate(members)), subject=subject)
-    kernels = _build_kernels(freqs, epochs.sample_rate_hz, method=method, cycles=cycles, fwhm_ms=fwhm_ms,
-                             taper_length_ms=taper_length_ms, nw=nw)
+    kernels = _build_kernels(
+        freqs,
+        epochs.sample_rate_hz,
+        method=method,
+        cycles=cycles,
+        fwhm_ms=fwhm_ms,
+        taper_length_ms=taper_length_ms,
+        nw=nw,
+    )
     keep = _output_samples(epochs, time_step_ms, subject=subject)
     all_times = epochs.times
     times = all_times[keep]
     valid = _cone_of_influence(kernels, all_times, times)
     _check_fits(kernels, freqs, valid, all_times, subject=subject)
-    in_window = _baseline_points(times, all_times, valid, freqs, baseline_mode,
-                                 baseline_window_ms, subject=subject)
+    in_window = _baseline_points(times, all_times, valid, freqs, baseline_mode, baseline_window_ms, subject=subject)
 
     # each condition's epochs in one run of rows (an epoch in two conditions appears twice)
     order = np.concatenate(members)
@@ -194,15 +213,24 @@ def decompose(
             if n_fft not in spectra:
                 spectra[n_fft] = scipy.fft.fft(signal, n=n_fft, axis=-1).astype(np.complex64)
             raw[:, ch, rows] = _block_measure(
-                spectra[n_fft], kernel_fft, keep, spans, scale=kernels.scale, measure=measure,
-                average=average, trim=trim, single_epoch_mode=baseline_mode
-                if baseline_single_epoch else "none", in_window=in_window)
+                spectra[n_fft],
+                kernel_fft,
+                keep,
+                spans,
+                scale=kernels.scale,
+                measure=measure,
+                average=average,
+                trim=trim,
+                single_epoch_mode=baseline_mode if baseline_single_epoch else "none",
+                in_window=in_window,
+            )
         if progress is not None:
             progress(f"subject {subject}: channel {ch + 1}/{len(epochs.channels)} ({name}) done")
 
     if baseline_mode != "none" and not baseline_single_epoch:
-        raw = _apply_baseline(raw, np.array([m.size for m in members]), in_window,
-                              mode=baseline_mode, pooled=baseline_pooled)
+        raw = _apply_baseline(
+            raw, np.array([m.size for m in members]), in_window, mode=baseline_mode, pooled=baseline_pooled
+        )
     return TimeFreqMaps(
         values=raw.astype(np.float32),
         conditions=tuple(conditions),
@@ -210,54 +238,85 @@ def decompose(
         freqs=freqs,
         times=times,
         measure=measure,
-        baseline=_baseline.describe(baseline_mode, baseline_window_ms, pooled=baseline_pooled,
-                                    single_epoch=baseline_single_epoch),
+        baseline=_baseline.describe(
+            baseline_mode, baseline_window_ms, pooled=baseline_pooled, single_epoch=baseline_single_epoch
+        ),
         n_epochs=np.array([m.size for m in members], dtype=np.int64),
         valid=valid,
     )
 
 
-def _check_options(epochs, *, subject, freqs, method, cycles, fwhm_ms, taper_length_ms, nw,
-                   measure, average, trim, baseline_mode, baseline_window_ms, baseline_pooled,
-                   baseline_single_epoch, conditions) -> None:
+def _check_options(
+    epochs,
+    *,
+    subject,
+    freqs,
+    method,
+    cycles,
+    fwhm_ms,
+    taper_length_ms,
+    nw,
+    measure,
+    average,
+    trim,
+    baseline_mode,
+    baseline_window_ms,
+    baseline_pooled,
+    baseline_single_epoch,
+    conditions,
+) -> None:
     """Raise UserError for settings that cannot work, before any computation."""
     who = f"subject {subject}:"
-    for setting, value, allowed in (("method", method, METHODS), ("measure", measure, MEASURES),
-                                    ("average", average, AVERAGES),
-                                    ("baseline mode", baseline_mode, _baseline.MODES)):
+    for setting, value, allowed in (
+        ("method", method, METHODS),
+        ("measure", measure, MEASURES),
+        ("average", average, AVERAGES),
+        ("baseline mode", baseline_mode, _baseline.MODES),
+    ):
         if value not in allowed:
             raise UserError(f"{who} {setting} must be one of {list(allowed)}, got {value!r}")
     if not conditions:
         raise UserError(f"{who} no conditions were given")
     nyquist = epochs.sample_rate_hz / 2.0
-    if (freqs.ndim != 1 or freqs.size == 0 or np.any(freqs <= 0) or np.any(np.diff(freqs) <= 0)
-            or freqs[-1] >= nyquist):
-        raise UserError(f"{who} frequencies must be increasing, positive and below the Nyquist "
-                        f"frequency {nyquist:g} Hz, got {np.round(freqs, 3).tolist()}")
+    if freqs.ndim != 1 or freqs.size == 0 or np.any(freqs <= 0) or np.any(np.diff(freqs) <= 0) or freqs[-1] >= nyquist:
+        raise UserError(
+            f"{who} frequencies must be increasing, positive and below the Nyquist "
+            f"frequency {nyquist:g} Hz, got {np.round(freqs, 3).tolist()}"
+        )
     if method == "morlet":
         if (cycles is None) == (fwhm_ms is None):
-            raise UserError(f"{who} Morlet wavelets need exactly one of cycles or fwhm_ms, "
-                            f"got cycles={cycles!r} and fwhm_ms={fwhm_ms!r}")
+            raise UserError(
+                f"{who} Morlet wavelets need exactly one of cycles or fwhm_ms, "
+                f"got cycles={cycles!r} and fwhm_ms={fwhm_ms!r}"
+            )
         width = cycles if cycles is not None else fwhm_ms
         label = "cycles" if cycles is not None else "fwhm_ms"
         values = np.atleast_1d(np.asarray(width, dtype=float))
         if values.size not in (1, 2) or np.any(values <= 0):
-            raise UserError(f"{who} {label} must be a positive number or a pair of positive "
-                            f"numbers (lowest, highest frequency), got {width!r}")
+            raise UserError(
+                f"{who} {label} must be a positive number or a pair of positive "
+                f"numbers (lowest, highest frequency), got {width!r}"
+            )
     else:
         if taper_length_ms is None or nw is None or taper_length_ms <= 0 or nw < 1:
-            raise UserError(f"{who} multitaper needs taper_length_ms > 0 and nw >= 1, "
-                            f"got taper_length_ms={taper_length_ms!r} and nw={nw!r}")
+            raise UserError(
+                f"{who} multitaper needs taper_length_ms > 0 and nw >= 1, "
+                f"got taper_length_ms={taper_length_ms!r} and nw={nw!r}"
+            )
     if average == "trimmed" and not 0 <= trim < 0.5:
         raise UserError(f"{who} trim must be in [0, 0.5), got {trim!r}")
     if measure == "itpc" and (method != "morlet" or baseline_mode != "none" or average != "mean"):
-        raise UserError(f"{who} ITPC needs method 'morlet', baseline mode 'none' and average "
-                        f"'mean', got {method!r}, {baseline_mode!r} and {average!r}")
+        raise UserError(
+            f"{who} ITPC needs method 'morlet', baseline mode 'none' and average "
+            f"'mean', got {method!r}, {baseline_mode!r} and {average!r}"
+        )
     if baseline_mode != "none" and baseline_window_ms is None:
         raise UserError(f"{who} baseline mode {baseline_mode!r} needs a baseline window (ms)")
     if baseline_pooled and baseline_single_epoch:
-        raise UserError(f"{who} a pooled baseline and single-epoch baselines exclude each "
-                        "other: single-epoch normalisation uses each epoch's own baseline")
+        raise UserError(
+            f"{who} a pooled baseline and single-epoch baselines exclude each "
+            "other: single-epoch normalisation uses each epoch's own baseline"
+        )
 
 
 def _select_epochs(epochs: Epochs, *, subject, conditions, min_epochs) -> list[np.ndarray]:
@@ -267,12 +326,15 @@ def _select_epochs(epochs: Epochs, *, subject, conditions, min_epochs) -> list[n
     for name, wanted in conditions.items():
         idx = np.flatnonzero(np.isin(labels, [str(w) for w in wanted]))
         if idx.size == 0:
-            raise UserError(f"subject {subject}: no epochs for condition {name!r} (labels "
-                            f"{list(wanted)}); the epochs carry the labels "
-                            f"{sorted(set(labels.tolist()))}")
+            raise UserError(
+                f"subject {subject}: no epochs for condition {name!r} (labels "
+                f"{list(wanted)}); the epochs carry the labels "
+                f"{sorted(set(labels.tolist()))}"
+            )
         if idx.size < min_epochs:
-            raise UserError(f"subject {subject}: condition {name!r} has {idx.size} epochs, "
-                            f"fewer than the minimum of {min_epochs}")
+            raise UserError(
+                f"subject {subject}: condition {name!r} has {idx.size} epochs, fewer than the minimum of {min_epochs}"
+            )
         members.append(idx)
     return members
 
@@ -283,9 +345,11 @@ def _check_finite(epochs: Epochs, used: np.ndarray, *, subject) -> None:
         bad = ~np.isfinite(epochs.data[epoch])
         if bad.any():
             channel = epochs.channels[int(np.flatnonzero(bad.any(axis=-1))[0])]
-            raise UserError(f"subject {subject}: epoch {epoch} (label "
-                            f"{str(epochs.labels[epoch])!r}), channel {channel} holds NaN or "
-                            "infinite samples")
+            raise UserError(
+                f"subject {subject}: epoch {epoch} (label "
+                f"{str(epochs.labels[epoch])!r}), channel {channel} holds NaN or "
+                "infinite samples"
+            )
 
 
 def _build_kernels(freqs, sample_rate_hz, *, method, cycles, fwhm_ms, taper_length_ms, nw) -> _Kernels:
@@ -300,8 +364,9 @@ def _build_kernels(freqs, sample_rate_hz, *, method, cycles, fwhm_ms, taper_leng
     half = int(round(taper_length_ms * sample_rate_hz / 2000.0))
     tapers, _ = _mt.dpss_tapers(2 * half + 1, nw)
     kernels = [_mt.multitaper_kernels(f, tapers, sample_rate_hz) for f in freqs]
-    return _Kernels(kernels, np.full(freqs.size, half / sample_rate_hz), _mt.psd_scale(sample_rate_hz),
-                    "multitaper window")
+    return _Kernels(
+        kernels, np.full(freqs.size, half / sample_rate_hz), _mt.psd_scale(sample_rate_hz), "multitaper window"
+    )
 
 
 def _output_samples(epochs: Epochs, time_step_ms, *, subject) -> slice:
@@ -311,9 +376,11 @@ def _output_samples(epochs: Epochs, time_step_ms, *, subject) -> slice:
         return slice(0, n_samples, 1)
     step = time_step_ms * epochs.sample_rate_hz / 1000.0
     if step < 0.5 or abs(step - round(step)) > 1e-6:
-        raise UserError(f"subject {subject}: time_step_ms must be a positive multiple of the "
-                        f"sample interval ({1000.0 / epochs.sample_rate_hz:g} ms at {epochs.sample_rate_hz:g} Hz), "
-                        f"got {time_step_ms:g}")
+        raise UserError(
+            f"subject {subject}: time_step_ms must be a positive multiple of the "
+            f"sample interval ({1000.0 / epochs.sample_rate_hz:g} ms at {epochs.sample_rate_hz:g} Hz), "
+            f"got {time_step_ms:g}"
+        )
     step = int(round(step))
     zero = -int(round(epochs.epoch_start_s * epochs.sample_rate_hz))
     return slice(zero % step, n_samples, step)
@@ -338,7 +405,8 @@ def _check_fits(kernels: _Kernels, freqs, valid, all_times, *, subject) -> None:
             f"subject {subject}: the {kernels.name} at {np.round(freqs[empty], 2).tolist()} Hz "
             f"reaches up to {worst:.0f} ms to each side, longer than the epoch ({first:g} to "
             f"{last:g} ms, {last - first:g} ms) allows: lengthen the epoch, shorten the "
-            "wavelets/window or drop those frequencies")
+            "wavelets/window or drop those frequencies"
+        )
 
 
 def _baseline_points(times, all_times, valid, freqs, mode, window_ms, *, subject) -> np.ndarray:
@@ -349,19 +417,27 @@ def _baseline_points(times, all_times, valid, freqs, mode, window_ms, *, subject
     tol_ms = 1e-6
     first, last = all_times[0] * 1000.0, all_times[-1] * 1000.0
     if not (start < stop and start >= first - tol_ms and stop <= last + tol_ms):
-        raise UserError(f"subject {subject}: baseline window {start:g} to {stop:g} ms lies "
-                        f"outside the epoch ({first:g} to {last:g} ms)")
+        raise UserError(
+            f"subject {subject}: baseline window {start:g} to {stop:g} ms lies "
+            f"outside the epoch ({first:g} to {last:g} ms)"
+        )
     ms = times * 1000.0
     inside = (ms >= start - tol_ms) & (ms <= stop + tol_ms)
     needed = 2 if mode == "zscore" else 1
     if inside.sum() < needed:
-        raise UserError(f"subject {subject}: baseline window {start:g} to {stop:g} ms holds "
-                        f"{inside.sum()} output time points, {mode} needs at least {needed}")
+        raise UserError(
+            f"subject {subject}: baseline window {start:g} to {stop:g} ms holds "
+            f"{inside.sum()} output time points, {mode} needs at least {needed}"
+        )
     edge = ~valid[:, inside].all(axis=1)
     if edge.any():
-        warnings.warn(f"subject {subject}: baseline window {start:g} to {stop:g} ms reaches into "
-                      f"the edge zone (cone of influence) at {np.round(freqs[edge], 2).tolist()} "
-                      "Hz", FamwiseWarning, stacklevel=3)
+        warnings.warn(
+            f"subject {subject}: baseline window {start:g} to {stop:g} ms reaches into "
+            f"the edge zone (cone of influence) at {np.round(freqs[edge], 2).tolist()} "
+            "Hz",
+            FamwiseWarning,
+            stacklevel=3,
+        )
     return inside
 
 
@@ -373,7 +449,7 @@ def _frequency_blocks(kernels: _Kernels, n_samples: int, n_epochs: int):
     while start < n_freqs:
         stop = start + 1
         while stop < n_freqs:
-            half = max(k.shape[1] for k in kernels.kernels[start:stop + 1]) // 2
+            half = max(k.shape[1] for k in kernels.kernels[start : stop + 1]) // 2
             n_fft = scipy.fft.next_fast_len(n_samples + half)
             if (stop + 1 - start) * n_epochs * n_fft * 8 > BLOCK_BYTES:
                 break
@@ -401,8 +477,9 @@ def _centred_spectrum(kernel: np.ndarray, n_fft: int) -> np.ndarray:
     return scipy.fft.fft(buffer, axis=-1).astype(np.complex64)
 
 
-def _block_measure(spectrum, kernel_fft, keep, spans, *, scale, measure, average, trim,
-                   single_epoch_mode, in_window) -> np.ndarray:
+def _block_measure(
+    spectrum, kernel_fft, keep, spans, *, scale, measure, average, trim, single_epoch_mode, in_window
+) -> np.ndarray:
     """The measure of one channel and frequency block per condition.
 
     Parameters
@@ -423,8 +500,9 @@ def _block_measure(spectrum, kernel_fft, keep, spans, *, scale, measure, average
     n_out = len(range(*keep.indices(spectrum.shape[-1])))
     per_epoch = average == "trimmed" or single_epoch_mode != "none"
     result = np.zeros((len(spans), n_freqs, n_out))
-    epoch_maps = [np.zeros((span.stop - span.start, n_freqs, n_out), dtype=np.float32)
-              for span in spans] if per_epoch else []
+    epoch_maps = (
+        [np.zeros((span.stop - span.start, n_freqs, n_out), dtype=np.float32) for span in spans] if per_epoch else []
+    )
     weight = scale / n_tapers
     for taper in range(n_tapers):
         product = spectrum[:, None, :] * kernel_fft[None, :, taper, :]
@@ -441,14 +519,11 @@ def _block_measure(spectrum, kernel_fft, keep, spans, *, scale, measure, average
             elif per_epoch:
                 _add_epoch_power(coef, span.start, keep.start, keep.step, weight, epoch_maps[c])
             else:
-                _add_mean_power(coef, span.start, span.stop, keep.start, keep.step, weight,
-                                result[c])
+                _add_mean_power(coef, span.start, span.stop, keep.start, keep.step, weight, result[c])
     for c, values in enumerate(epoch_maps):
         if single_epoch_mode != "none":
-            values = _baseline.normalise(values, *_baseline.baseline_stats(values, in_window),
-                                         mode=single_epoch_mode)
-        result[c] = (values.mean(axis=0, dtype=float) if average == "mean"
-                     else trim_mean(values, trim, axis=0))
+            values = _baseline.normalise(values, *_baseline.baseline_stats(values, in_window), mode=single_epoch_mode)
+        result[c] = values.mean(axis=0, dtype=float) if average == "mean" else trim_mean(values, trim, axis=0)
     return result
 
 

@@ -80,8 +80,7 @@ class TimeFreqMaps:
         if not ok.any():
             return None
         idx = np.flatnonzero(ok)
-        return (round(float(self.times[idx[0]]) * 1000.0, 6),
-                round(float(self.times[idx[-1]]) * 1000.0, 6))
+        return (round(float(self.times[idx[0]]) * 1000.0, 6), round(float(self.times[idx[-1]]) * 1000.0, 6))
 
 
 def load_maps(path: Path | str) -> TimeFreqMaps:
@@ -114,28 +113,32 @@ def load_maps(path: Path | str) -> TimeFreqMaps:
         raise UserError(f"time-frequency file {path} is not a readable NPZ file ({exc})") from None
     missing = [key for key in _KEYS if key not in found]
     if missing:
-        raise UserError(f"time-frequency file {path} lacks the keys {missing}; "
-                        f"expected {list(_KEYS)}, found {sorted(found)}")
+        raise UserError(
+            f"time-frequency file {path} lacks the keys {missing}; expected {list(_KEYS)}, found {sorted(found)}"
+        )
     values = found["values"]
     if values.ndim != 4 or not np.issubdtype(values.dtype, np.floating):
-        raise UserError(f"time-frequency file {path}: 'values' must be a float array "
-                        f"(n_conditions, n_channels, n_freqs, n_times), found {values.dtype} "
-                        f"with shape {values.shape}")
+        raise UserError(
+            f"time-frequency file {path}: 'values' must be a float array "
+            f"(n_conditions, n_channels, n_freqs, n_times), found {values.dtype} "
+            f"with shape {values.shape}"
+        )
     n_cond, n_chan, n_freq, n_time = values.shape
-    expected = {"conditions": n_cond, "channels": n_chan, "freqs": n_freq, "times": n_time,
-                "n_epochs": n_cond}
+    expected = {"conditions": n_cond, "channels": n_chan, "freqs": n_freq, "times": n_time, "n_epochs": n_cond}
     for key, length in expected.items():
         if found[key].shape != (length,):
-            raise UserError(f"time-frequency file {path}: '{key}' must have shape ({length},) "
-                            f"to match 'values' {values.shape}, found {found[key].shape}")
+            raise UserError(
+                f"time-frequency file {path}: '{key}' must have shape ({length},) "
+                f"to match 'values' {values.shape}, found {found[key].shape}"
+            )
     valid = found.get("valid", np.ones((n_freq, n_time), dtype=bool))
     if valid.shape != (n_freq, n_time):
-        raise UserError(f"time-frequency file {path}: 'valid' must have shape "
-                        f"({n_freq}, {n_time}), found {valid.shape}")
+        raise UserError(
+            f"time-frequency file {path}: 'valid' must have shape ({n_freq}, {n_time}), found {valid.shape}"
+        )
     freqs = found["freqs"].astype(float)
     if np.any(freqs <= 0) or np.any(np.diff(freqs) <= 0):
-        raise UserError(f"time-frequency file {path}: 'freqs' must be positive and increasing, "
-                        f"found {freqs}")
+        raise UserError(f"time-frequency file {path}: 'freqs' must be positive and increasing, found {freqs}")
     if not np.all(np.isfinite(values)):
         raise UserError(f"time-frequency file {path}: 'values' holds NaN or infinite entries")
     return TimeFreqMaps(

@@ -46,8 +46,7 @@ def dpss_tapers(n_samples: int, nw: float) -> tuple[np.ndarray, np.ndarray]:
     ratios : ndarray, shape (K,)
         Spectral concentration of each taper within +-W.
     """
-    return windows.dpss(n_samples, nw, Kmax=taper_count(nw),
-                        return_ratios=True)
+    return windows.dpss(n_samples, nw, Kmax=taper_count(nw), return_ratios=True)
 
 
 def psd_scale(sample_rate_hz: float) -> float:

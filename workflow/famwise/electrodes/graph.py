@@ -10,7 +10,6 @@ from scipy.spatial import ConvexHull, Delaunay, QhullError
 from scipy.spatial.distance import cdist
 
 from famwise.atomic import save_npz
-from famwise.errors import FamwiseWarning, UserError
 from famwise.electrodes.positions import (
     SYSTEMS,
     Positions,
@@ -20,6 +19,7 @@ from famwise.electrodes.positions import (
     read_tsv,
     system_positions,
 )
+from famwise.errors import FamwiseWarning, UserError
 
 METHODS = ("delaunay", "distance", "edges")
 RIM_FACTOR = 2.0  # outline edges longer than this x the median edge are cut (Delaunay without max_distance_mm)
@@ -52,15 +52,18 @@ class ChannelGraph:
         n = len(channels)
         indptr = np.ascontiguousarray(self.indptr, dtype=np.int32)
         indices = np.ascontiguousarray(self.indices, dtype=np.int32)
-        if indptr.shape != (n + 1,) or indptr[0] != 0 or np.any(np.diff(indptr) < 0) \
-                or indptr[-1] != indices.size:
+        if indptr.shape != (n + 1,) or indptr[0] != 0 or np.any(np.diff(indptr) < 0) or indptr[-1] != indices.size:
             raise ValueError(f"indptr must be non-decreasing, shape ({n + 1},), from 0 to len(indices)")
         if indices.size and (indices.min() < 0 or indices.max() >= n):
             raise ValueError("indices must lie in [0, C)")
         dense = _dense(indptr, indices, n)
         rows = np.repeat(np.arange(n), np.diff(indptr))
-        if np.any(dense.diagonal()) or not np.array_equal(dense, dense.T) \
-                or dense.sum() != indices.size or np.any(np.diff(indices)[np.diff(rows) == 0] <= 0):
+        if (
+            np.any(dense.diagonal())
+            or not np.array_equal(dense, dense.T)
+            or dense.sum() != indices.size
+            or np.any(np.diff(indices)[np.diff(rows) == 0] <= 0)
+        ):
             raise ValueError("the graph must be symmetric, without self loops, with sorted unique neighbors")
         indptr.setflags(write=False)
         indices.setflags(write=False)
@@ -89,7 +92,7 @@ class ChannelGraph:
         if channel_key(channel) not in keys:
             raise UserError(f"channel {channel!r} is not in the graph")
         i = keys.index(channel_key(channel))
-        return tuple(self.channels[j] for j in self.indices[self.indptr[i]:self.indptr[i + 1]])
+        return tuple(self.channels[j] for j in self.indices[self.indptr[i] : self.indptr[i + 1]])
 
     def edges(self) -> list[tuple[str, str]]:
         """Undirected edges as name pairs ``(a, b)`` with a before b in ``channels``."""
@@ -135,8 +138,9 @@ def azimuthal_projection(xyz: np.ndarray) -> np.ndarray:
     return np.column_stack([theta * np.cos(phi), theta * np.sin(phi)])
 
 
-def neighbor_graph(positions: Positions, *, method: str = "delaunay", max_distance_mm: float | None = None,
-                   edges_file=None) -> ChannelGraph:
+def neighbor_graph(
+    positions: Positions, *, method: str = "delaunay", max_distance_mm: float | None = None, edges_file=None
+) -> ChannelGraph:
     """Neighbor graph over the channels of ``positions``.
 
     Parameters
@@ -185,14 +189,18 @@ def neighbor_graph(positions: Positions, *, method: str = "delaunay", max_distan
         first, second = _edge_file_pairs(Path(edges_file), positions.names)
     graph = graph_from_pairs(positions.names, first, second, method)
     if graph.isolated:
-        warnings.warn(f"channel graph ({method}): {len(graph.isolated)} channel(s) without neighbors: "
-                      f"{', '.join(graph.isolated)}; they can only form single-channel clusters",
-                      FamwiseWarning, stacklevel=2)
+        warnings.warn(
+            f"channel graph ({method}): {len(graph.isolated)} channel(s) without neighbors: "
+            f"{', '.join(graph.isolated)}; they can only form single-channel clusters",
+            FamwiseWarning,
+            stacklevel=2,
+        )
     return graph
 
 
-def channel_graph(channels, *, positions="10-10", method: str = "delaunay", max_distance_mm: float | None = None,
-                  edges_file=None) -> tuple[ChannelGraph, Positions]:
+def channel_graph(
+    channels, *, positions="10-10", method: str = "delaunay", max_distance_mm: float | None = None, edges_file=None
+) -> tuple[ChannelGraph, Positions]:
     """Positions of the analysed channels and their neighbor graph, in one call.
 
     Parameters
@@ -244,8 +252,10 @@ def _delaunay_pairs(positions):
     gaps = cdist(flat, flat) + np.eye(n)
     i, j = np.unravel_index(np.argmin(gaps), gaps.shape)
     if gaps[i, j] < 1e-9:
-        raise UserError(f"channels {names[i]!r} and {names[j]!r} lie in the same direction from the "
-                        "head centre; the triangulation needs distinct positions")
+        raise UserError(
+            f"channels {names[i]!r} and {names[j]!r} lie in the same direction from the "
+            "head centre; the triangulation needs distinct positions"
+        )
     centred = flat - flat.mean(axis=0)
     _, singular, axes = np.linalg.svd(centred, full_matrices=False)
     if singular[1] < 1e-9 * singular[0]:
@@ -299,9 +309,16 @@ def _cocircular_complete(triangulation, flat, rtol=1e-6):
 
     for s, (a, b, c) in enumerate(flat[simplices]):
         d = 2 * (a[0] * (b[1] - c[1]) + b[0] * (c[1] - a[1]) + c[0] * (a[1] - b[1]))
-        sq = (a ** 2).sum(), (b ** 2).sum(), (c ** 2).sum()
-        centre = np.array([sq[0] * (b[1] - c[1]) + sq[1] * (c[1] - a[1]) + sq[2] * (a[1] - b[1]),
-                           sq[0] * (c[0] - b[0]) + sq[1] * (a[0] - c[0]) + sq[2] * (b[0] - a[0])]) / d
+        sq = (a**2).sum(), (b**2).sum(), (c**2).sum()
+        centre = (
+            np.array(
+                [
+                    sq[0] * (b[1] - c[1]) + sq[1] * (c[1] - a[1]) + sq[2] * (a[1] - b[1]),
+                    sq[0] * (c[0] - b[0]) + sq[1] * (a[0] - c[0]) + sq[2] * (b[0] - a[0]),
+                ]
+            )
+            / d
+        )
         radius = np.linalg.norm(a - centre)
         for t in adjacent[s]:
             if t > s:
@@ -319,8 +336,10 @@ def _edge_file_pairs(path: Path, channels):
     """Index pairs from an edge-list TSV with columns channel_a, channel_b."""
     header, rows, _ = read_tsv(path)
     if "channel_a" not in header or "channel_b" not in header:
-        raise UserError(f"{path}: expected a header with the columns channel_a, channel_b "
-                        f"(tab-separated), found: {', '.join(header)}")
+        raise UserError(
+            f"{path}: expected a header with the columns channel_a, channel_b "
+            f"(tab-separated), found: {', '.join(header)}"
+        )
     ca, cb = header.index("channel_a"), header.index("channel_b")
     index = {channel_key(c): i for i, c in enumerate(channels)}
     first, second, unknown = [], [], []
@@ -335,8 +354,10 @@ def _edge_file_pairs(path: Path, channels):
             first.append(index[channel_key(a)])
             second.append(index[channel_key(b)])
     if unknown:
-        raise UserError(f"{path}: the edge list names channels that are not analysed: {', '.join(unknown)}; "
-                        f"analysed channels: {', '.join(channels)}")
+        raise UserError(
+            f"{path}: the edge list names channels that are not analysed: {', '.join(unknown)}; "
+            f"analysed channels: {', '.join(channels)}"
+        )
     return np.array(first, dtype=int), np.array(second, dtype=int)
 
 
@@ -344,12 +365,14 @@ def graph_summary(graph: ChannelGraph) -> str:
     """A few lines describing the graph: method, size, degree statistics, isolated channels."""
     degrees = graph.degrees
     isolated = ", ".join(graph.isolated) if graph.isolated else "none"
-    return "\n".join([
-        f"channel graph: {graph.method}",
-        f"channels: {len(graph.channels)}, edges: {graph.n_edges}",
-        f"neighbors per channel: min {degrees.min()}, median {np.median(degrees):g}, max {degrees.max()}",
-        f"isolated channels: {isolated}",
-    ])
+    return "\n".join(
+        [
+            f"channel graph: {graph.method}",
+            f"channels: {len(graph.channels)}, edges: {graph.n_edges}",
+            f"neighbors per channel: min {degrees.min()}, median {np.median(degrees):g}, max {degrees.max()}",
+            f"isolated channels: {isolated}",
+        ]
+    )
 
 
 def save_graph(path, graph: ChannelGraph, positions: Positions) -> None:
@@ -367,9 +390,16 @@ def save_graph(path, graph: ChannelGraph, positions: Positions) -> None:
     if positions.names != graph.channels:
         raise ValueError("positions must list exactly the graph's channels, in the same order")
     path = Path(path)
-    save_npz(path, format=np.str_(FILE_FORMAT), channels=np.array(graph.channels, dtype=str),
-             indptr=graph.indptr, indices=graph.indices, method=np.str_(graph.method),
-             xyz_mm=positions.xyz, source=np.str_(positions.source))
+    save_npz(
+        path,
+        format=np.str_(FILE_FORMAT),
+        channels=np.array(graph.channels, dtype=str),
+        indptr=graph.indptr,
+        indices=graph.indices,
+        method=np.str_(graph.method),
+        xyz_mm=positions.xyz,
+        source=np.str_(positions.source),
+    )
 
 
 def load_graph(path) -> tuple[ChannelGraph, Positions]:

@@ -35,10 +35,27 @@ def plot_graph(graph: ChannelGraph, positions: Positions, ax) -> None:
     flat = azimuthal_projection(positions.xyz)
     radius = max(np.pi / 2, 1.06 * float(np.hypot(flat[:, 0], flat[:, 1]).max(initial=0.0)))
     for side in (-1, 1):
-        ax.add_patch(Ellipse((side * radius, 0), 0.12 * radius, 0.32 * radius,
-                             facecolor=SCALP, edgecolor=OUTLINE, linewidth=1.2, zorder=0))
-    ax.add_patch(Polygon([(-0.1 * radius, 0.99 * radius), (0, 1.12 * radius), (0.1 * radius, 0.99 * radius)],
-                         closed=True, facecolor=SCALP, edgecolor=OUTLINE, linewidth=1.2, zorder=0))
+        ax.add_patch(
+            Ellipse(
+                (side * radius, 0),
+                0.12 * radius,
+                0.32 * radius,
+                facecolor=SCALP,
+                edgecolor=OUTLINE,
+                linewidth=1.2,
+                zorder=0,
+            )
+        )
+    ax.add_patch(
+        Polygon(
+            [(-0.1 * radius, 0.99 * radius), (0, 1.12 * radius), (0.1 * radius, 0.99 * radius)],
+            closed=True,
+            facecolor=SCALP,
+            edgecolor=OUTLINE,
+            linewidth=1.2,
+            zorder=0,
+        )
+    )
     ax.add_patch(Circle((0, 0), radius, facecolor=SCALP, edgecolor=OUTLINE, linewidth=1.2, zorder=1))
     index = {name: i for i, name in enumerate(graph.channels)}
     for a, b in graph.edges():
@@ -48,8 +65,17 @@ def plot_graph(graph: ChannelGraph, positions: Positions, ax) -> None:
     ax.scatter(flat[:, 0], flat[:, 1], s=22, c=colours, edgecolors=OUTLINE, linewidths=0.8, zorder=3)
     size = 7 if len(graph.channels) <= 64 else 5
     for name, (x, y) in zip(graph.channels, flat):
-        ax.annotate(name, (x, y), xytext=(0, 4), textcoords="offset points", ha="center", va="bottom",
-                    fontsize=size, color="#222222", zorder=4)
+        ax.annotate(
+            name,
+            (x, y),
+            xytext=(0, 4),
+            textcoords="offset points",
+            ha="center",
+            va="bottom",
+            fontsize=size,
+            color="#222222",
+            zorder=4,
+        )
     ax.set_xlim(-1.2 * radius, 1.2 * radius)
     ax.set_ylim(-1.1 * radius, 1.2 * radius)
     ax.set_aspect("equal")

@@ -6,7 +6,7 @@ import json
 import warnings
 from collections.abc import Sequence
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache
 from importlib import resources
 from pathlib import Path
 
@@ -59,7 +59,7 @@ def channel_key(name: str) -> str:
     return OLD_NAMES.get(key, key)
 
 
-@lru_cache(maxsize=None)
+@cache
 def system_positions(system: str = "10-10") -> Positions:
     """Idealised spherical positions of an electrode system, from the system's definition.
 
@@ -116,17 +116,23 @@ def read_positions(path, *, units: str | None = None) -> Positions:
     if units is None:
         units = "mm"
         if path.name.endswith("_electrodes.tsv"):
-            warnings.warn(f"{path}: no EEGCoordinateUnits in a sibling _coordsystem.json; "
-                          "assuming the coordinates are in mm", FamwiseWarning, stacklevel=2)
+            warnings.warn(
+                f"{path}: no EEGCoordinateUnits in a sibling _coordsystem.json; assuming the coordinates are in mm",
+                FamwiseWarning,
+                stacklevel=2,
+            )
     if units not in UNITS_TO_MM:
         raise UserError(f"{path}: coordinate units must be one of m, cm, mm, got {units!r}")
     xyz = xyz * UNITS_TO_MM[units]
     if len(names) >= 3:
         extent = float(np.ptp(xyz, axis=0).max())
         if not 20.0 <= extent <= 1000.0:
-            warnings.warn(f"{path}: the electrodes span {extent:.3g} mm after reading the coordinates "
-                          f"as {units}; a head spans about 150-200 mm, so the units may be wrong",
-                          FamwiseWarning, stacklevel=2)
+            warnings.warn(
+                f"{path}: the electrodes span {extent:.3g} mm after reading the coordinates "
+                f"as {units}; a head spans about 150-200 mm, so the units may be wrong",
+                FamwiseWarning,
+                stacklevel=2,
+            )
     return Positions(names, xyz, str(path))
 
 
@@ -162,8 +168,10 @@ def match_channels(positions: Positions, channels: Sequence[str]) -> Positions:
     missing = [c for c in channels if channel_key(c) not in index]
     if missing:
         listed = ", ".join(_with_suggestion(c, positions.names) for c in missing)
-        raise UserError(f"no position in {positions.source} for {len(missing)} analysed "
-                        f"channel{'s' if len(missing) > 1 else ''}: {listed}")
+        raise UserError(
+            f"no position in {positions.source} for {len(missing)} analysed "
+            f"channel{'s' if len(missing) > 1 else ''}: {listed}"
+        )
     rows = [index[channel_key(c)] for c in channels]
     return Positions(tuple(channels), positions.xyz[rows], positions.source)
 
@@ -194,8 +202,10 @@ def read_tsv(path: Path) -> tuple[list[str], list[tuple[int, list[str]]], list[s
             header = [f.strip().lower() for f in fields]
         else:
             if len(fields) != len(header):
-                raise UserError(f"{path}, line {number}: expected {len(header)} tab-separated "
-                                f"fields as in the header, found {len(fields)}")
+                raise UserError(
+                    f"{path}, line {number}: expected {len(header)} tab-separated "
+                    f"fields as in the header, found {len(fields)}"
+                )
             rows.append((number, [f.strip() for f in fields]))
     if header is None:
         raise UserError(f"{path}: the file has no header line")
@@ -207,8 +217,9 @@ def _read_table(path: Path):
     header, rows, comments = read_tsv(path)
     needed = ("name", "x", "y", "z")
     if any(col not in header for col in needed):
-        raise UserError(f"{path}: expected a header with the columns name, x, y, z "
-                        f"(tab-separated), found: {', '.join(header)}")
+        raise UserError(
+            f"{path}: expected a header with the columns name, x, y, z (tab-separated), found: {', '.join(header)}"
+        )
     cols = [header.index(c) for c in needed]
     names, xyz, first_row = [], [], {}
     for number, fields in rows:
@@ -224,15 +235,18 @@ def _read_table(path: Path):
             except ValueError:
                 value = np.nan
             if not np.isfinite(value):
-                raise UserError(f"{path}, line {number}: coordinate {axis} of {name!r} must be "
-                                f"a finite number, found {text!r}")
+                raise UserError(
+                    f"{path}, line {number}: coordinate {axis} of {name!r} must be a finite number, found {text!r}"
+                )
             values.append(value)
         key = channel_key(name)
         if key in first_row:
             other, other_line = first_row[key]
             same = "" if other.lower() == name.lower() else " (T3-T6 are the old names of T7, T8, P7, P8)"
-            raise UserError(f"{path}, line {number}: duplicate electrode {name!r}, already given "
-                            f"as {other!r} on line {other_line}{same}")
+            raise UserError(
+                f"{path}, line {number}: duplicate electrode {name!r}, already given "
+                f"as {other!r} on line {other_line}{same}"
+            )
         first_row[key] = (name, number)
         names.append(name)
         xyz.append(values)

@@ -106,14 +106,24 @@ def differences(first: dict, second: dict) -> Differences:
     """What went into two runs and differs, from their provenance records."""
     a, b = first["spec_settings"], second["spec_settings"]
     missing = object()
-    settings = {key: (a.get(key, missing), b.get(key, missing)) for key in sorted(set(a) | set(b))
-                if a.get(key, missing) != b.get(key, missing) and key not in ("seed", "inference.permutations")}
+    settings = {
+        key: (a.get(key, missing), b.get(key, missing))
+        for key in sorted(set(a) | set(b))
+        if a.get(key, missing) != b.get(key, missing) and key not in ("seed", "inference.permutations")
+    }
     settings = {key: tuple("(unset)" if v is missing else v for v in pair) for key, pair in settings.items()}
-    packages = {name: (first["packages"].get(name, "(none)"), second["packages"].get(name, "(none)"))
-                for name in RESULT_PACKAGES if first["packages"].get(name) != second["packages"].get(name)}
-    return Differences(inputs=input_differences(first["input_files"], second["input_files"]),
-                       settings=settings, seed=_changed(first, second, "seed"),
-                       permutations=_changed(first, second, "permutations"), packages=packages)
+    packages = {
+        name: (first["packages"].get(name, "(none)"), second["packages"].get(name, "(none)"))
+        for name in RESULT_PACKAGES
+        if first["packages"].get(name) != second["packages"].get(name)
+    }
+    return Differences(
+        inputs=input_differences(first["input_files"], second["input_files"]),
+        settings=settings,
+        seed=_changed(first, second, "seed"),
+        permutations=_changed(first, second, "permutations"),
+        packages=packages,
+    )
 
 
 def _changed(first: dict, second: dict, key: str) -> tuple | None:
@@ -183,8 +193,11 @@ def _detail(a: dict, b: dict, result: str) -> str:
     if result == STATISTICS:
         return ", ".join(sorted(k for k in set(a) | set(b) if a.get(k) != b.get(k))) + " differ"
     arrays, tables = (a["arrays"], b["arrays"]), (a.get("tables", {}), b.get("tables", {}))
-    other = sorted(k for k in set(arrays[0]) | set(arrays[1])
-                   if k not in ("mask", "n_significant") and arrays[0].get(k) != arrays[1].get(k))
+    other = sorted(
+        k
+        for k in set(arrays[0]) | set(arrays[1])
+        if k not in ("mask", "n_significant") and arrays[0].get(k) != arrays[1].get(k)
+    )
     other += sorted(k for k in set(tables[0]) | set(tables[1]) if tables[0].get(k) != tables[1].get(k))
     if arrays[0].get("mask") == arrays[1].get("mask"):
         mask = "mask identical"
@@ -223,13 +236,16 @@ def compare_records(first: dict, second: dict) -> tuple[list[Outcome], Differenc
             outcomes.append(Outcome(contrast, result, "identical"))
             continue
         causes = causes_of(found, _result(first, second, contrast, result))
-        outcomes.append(Outcome(contrast, result, "different", _detail(a[key], b[key], result),
-                                causes, failure=not causes))
+        outcomes.append(
+            Outcome(contrast, result, "different", _detail(a[key], b[key], result), causes, failure=not causes)
+        )
     return outcomes, found
 
 
-FAILURE = ("DIFFERENT NUMBERS from the same inputs, settings, seed, permutations and library versions: "
-           "a reproducibility failure (please report it with both records)")
+FAILURE = (
+    "DIFFERENT NUMBERS from the same inputs, settings, seed, permutations and library versions: "
+    "a reproducibility failure (please report it with both records)"
+)
 
 
 def _line(outcome: Outcome) -> str:
@@ -240,16 +256,16 @@ def _line(outcome: Outcome) -> str:
     return f"{name}: different ({outcome.detail}): {why}"
 
 
-def comparison_text(outcomes: list[Outcome], found: Differences, *, first: tuple[str, dict],
-                    second: tuple[str, dict]) -> str:
+def comparison_text(
+    outcomes: list[Outcome], found: Differences, *, first: tuple[str, dict], second: tuple[str, dict]
+) -> str:
     """A few lines for an e-mail: fingerprints, one line per contrast's identical results,
     one per other result, notes on settings that cannot change results, a verdict.
 
     ``first`` and ``second`` are (label, record); values are shown first -> second.
     """
     prints = [record.get("results_fingerprint", "?")[:12] for _, record in (first, second)]
-    lines = [f"famwise compare: {first[0]} -> {second[0]}",
-             f"results fingerprint: {prints[0]} -> {prints[1]}"]
+    lines = [f"famwise compare: {first[0]} -> {second[0]}", f"results fingerprint: {prints[0]} -> {prints[1]}"]
     for contrast in dict.fromkeys(o.contrast for o in outcomes):
         same = [o.result for o in outcomes if o.contrast == contrast and o.status == "identical"]
         if same:
@@ -263,6 +279,8 @@ def comparison_text(outcomes: list[Outcome], found: Differences, *, first: tuple
     if not differ:
         lines.append(f"all {len(outcomes)} results identical")
     else:
-        lines.append(f"{differ} of {len(outcomes)} results differ"
-                     + (f"; {failures} of them a REPRODUCIBILITY FAILURE" if failures else ""))
+        lines.append(
+            f"{differ} of {len(outcomes)} results differ"
+            + (f"; {failures} of them a REPRODUCIBILITY FAILURE" if failures else "")
+        )
     return "\n".join(lines)

@@ -35,8 +35,14 @@ def build_manifest(spec: Path, files: StudyFiles, *, data_included: bool) -> dic
     """The manifest of a study: its spec's hash and an entry per file, named as the spec names it."""
     entries = {name: file_entry(p, "channels") for name, p in files.channel_files.items()}
     entries |= {name: file_entry(p, "data") for name, p in files.data_files.items()}
-    return {"famwise_manifest": FORMAT, "famwise": __version__, "spec": Path(spec).name,
-            "spec_sha256": file_sha256(spec), "data_included": data_included, "files": entries}
+    return {
+        "famwise_manifest": FORMAT,
+        "famwise": __version__,
+        "spec": Path(spec).name,
+        "spec_sha256": file_sha256(spec),
+        "data_included": data_included,
+        "files": entries,
+    }
 
 
 def _read(path: Path) -> dict:
@@ -47,8 +53,11 @@ def _read(path: Path) -> dict:
     if not isinstance(manifest, dict):
         manifest = {}
     files = manifest.get("files")
-    if manifest.get("famwise_manifest") != FORMAT or not isinstance(files, dict) or not all(
-            isinstance(e, dict) and {"bytes", "sha256"} <= set(e) for e in files.values()):
+    if (
+        manifest.get("famwise_manifest") != FORMAT
+        or not isinstance(files, dict)
+        or not all(isinstance(e, dict) and {"bytes", "sha256"} <= set(e) for e in files.values())
+    ):
         raise UserError(f"{path}: not a famwise manifest (format {FORMAT} with 'files' sizes and hashes)")
     return manifest
 
@@ -90,9 +99,13 @@ def verify_manifest(spec: Path) -> tuple[str, list[str]] | None:
         if problem:
             problems.append(f"{name} {problem}")
     if problems:
-        named = "; ".join(problems[:MAX_NAMED]) + (f"; and {len(problems) - MAX_NAMED} more" if len(problems) > MAX_NAMED else "")
-        raise UserError(f"{path.name}: {len(problems)} of {len(manifest['files'])} files differ from the packed study: "
-                        f"{named}. Get these files as they were packed (or remove {path.name} to run on the files you have)")
+        named = "; ".join(problems[:MAX_NAMED]) + (
+            f"; and {len(problems) - MAX_NAMED} more" if len(problems) > MAX_NAMED else ""
+        )
+        raise UserError(
+            f"{path.name}: {len(problems)} of {len(manifest['files'])} files differ from the packed study: "
+            f"{named}. Get these files as they were packed (or remove {path.name} to run on the files you have)"
+        )
     warnings = []
     if spec.is_file() and file_sha256(spec) != manifest.get("spec_sha256"):
         warnings.append(f"{spec.name} was edited after it was packed; results may differ from the sender's")

@@ -68,7 +68,7 @@ def pack_study(spec: Path, archive: Path, *, with_data: bool = False) -> Packed:
     files = study_files(plan)
     manifest = build_manifest(spec, files, data_included=with_data)
     packed = {spec.name: spec, **files.channel_files, **(files.data_files if with_data else {})}
-    top = archive.name[:-len(archive.suffix)]
+    top = archive.name[: -len(archive.suffix)]
     archive.parent.mkdir(parents=True, exist_ok=True)
     partial = archive.with_name(archive.name + ".partial")
     with zipfile.ZipFile(partial, "w", compression=zipfile.ZIP_DEFLATED) as handle:
@@ -76,5 +76,10 @@ def pack_study(spec: Path, archive: Path, *, with_data: bool = False) -> Packed:
             handle.write(path, f"{top}/{name}")
         handle.writestr(f"{top}/{manifest_path(spec).name}", json.dumps(manifest, indent=2) + "\n")
     os.replace(partial, archive)
-    return Packed(archive=archive, channel_files=len(files.channel_files), data_files=len(files.data_files),
-                  data_bytes=sum(p.stat().st_size for p in files.data_files.values()), data_included=with_data)
+    return Packed(
+        archive=archive,
+        channel_files=len(files.channel_files),
+        data_files=len(files.data_files),
+        data_bytes=sum(p.stat().st_size for p in files.data_files.values()),
+        data_included=with_data,
+    )

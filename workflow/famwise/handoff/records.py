@@ -25,8 +25,7 @@ def record_path(path: Path) -> Path:
 
     record = load_study(path).output / "report" / "provenance.json"
     if not record.is_file():
-        raise UserError(f"{path}: this study has no provenance record yet ({record}); "
-                        f"run it first: famwise run {path}")
+        raise UserError(f"{path}: this study has no provenance record yet ({record}); run it first: famwise run {path}")
     return record
 
 
@@ -34,12 +33,19 @@ def _check_results(results, path: Path) -> None:
     if not isinstance(results, dict):
         raise UserError(f"{path}: 'results' is not a mapping of contrasts; not a famwise provenance record")
     for contrast, entry in results.items():
-        if not (isinstance(entry, dict) and isinstance(entry.get("statistics"), dict)
-                and isinstance(entry.get("corrections"), dict)
-                and all(isinstance(c, dict) and isinstance(c.get("arrays"), dict) and isinstance(c.get("tables", {}), dict)
-                        for c in entry["corrections"].values())):
-            raise UserError(f"{path}: results of contrast '{contrast}' are malformed "
-                            "(expected 'statistics' and 'corrections' with 'arrays' hashes)")
+        if not (
+            isinstance(entry, dict)
+            and isinstance(entry.get("statistics"), dict)
+            and isinstance(entry.get("corrections"), dict)
+            and all(
+                isinstance(c, dict) and isinstance(c.get("arrays"), dict) and isinstance(c.get("tables", {}), dict)
+                for c in entry["corrections"].values()
+            )
+        ):
+            raise UserError(
+                f"{path}: results of contrast '{contrast}' are malformed "
+                "(expected 'statistics' and 'corrections' with 'arrays' hashes)"
+            )
 
 
 def read_record(path: Path) -> dict:
@@ -70,8 +76,10 @@ def read_record(path: Path) -> dict:
         raise UserError(f"{path}: not a provenance record (expected a JSON object)")
     missing = [key for key in REQUIRED_KEYS if key not in record]
     if "results" in missing and "spec_fingerprint" in record:
-        raise UserError(f"{path}: this record has no result hashes (written by famwise "
-                        f"{record.get('packages', {}).get('famwise', '?')}); rerun that study's report with this famwise")
+        raise UserError(
+            f"{path}: this record has no result hashes (written by famwise "
+            f"{record.get('packages', {}).get('famwise', '?')}); rerun that study's report with this famwise"
+        )
     if missing:
         raise UserError(f"{path}: not a famwise provenance record (missing {', '.join(missing)})")
     for key in ("spec_settings", "packages", "input_files"):
@@ -79,6 +87,8 @@ def read_record(path: Path) -> dict:
             raise UserError(f"{path}: '{key}' is not a mapping; not a famwise provenance record")
     _check_results(record["results"], path)
     if record.get("results_fingerprint") != results_fingerprint(record["results"]):
-        raise UserError(f"{path}: the results fingerprint does not match the record's result hashes; "
-                        "the record was altered after famwise wrote it")
+        raise UserError(
+            f"{path}: the results fingerprint does not match the record's result hashes; "
+            "the record was altered after famwise wrote it"
+        )
     return record

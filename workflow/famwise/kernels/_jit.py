@@ -35,6 +35,15 @@ def thread_count() -> int:
 
 
 __all__ = [
-    "JIT_DISABLED", "OPTIONS", "cgutils", "intrinsic", "jit", "jit_inline", "jit_parallel", "overload", "prange",
-    "thread_count", "types",
+    "JIT_DISABLED",
+    "OPTIONS",
+    "cgutils",
+    "intrinsic",
+    "jit",
+    "jit_inline",
+    "jit_parallel",
+    "overload",
+    "prange",
+    "thread_count",
+    "types",
 ]

@@ -122,8 +122,26 @@ def _component_sums(stat, parent, selected, n, use_mass, acc):
 
 
 @jit
-def _label_row(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-               use_mass, min_neighbors, sign, kept, parent, selected, acc):
+def _label_row(
+    stat,
+    threshold,
+    tail_code,
+    n_ch,
+    n_f,
+    n_t,
+    indptr,
+    indices,
+    link_ch,
+    link_f,
+    link_t,
+    use_mass,
+    min_neighbors,
+    sign,
+    kept,
+    parent,
+    selected,
+    acc,
+):
     """Components of one map: fills parent (roots of the selected points) and acc; returns the largest
     cluster statistic."""
     _mark_signs(stat, threshold, tail_code, sign)
@@ -135,8 +153,26 @@ def _label_row(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link
 
 
 @jit_parallel
-def _cluster_max_block(stats, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f,
-                       link_t, use_mass, min_neighbors, n_chunks, signs, ints, accs, out):
+def _cluster_max_block(
+    stats,
+    threshold,
+    tail_code,
+    n_ch,
+    n_f,
+    n_t,
+    indptr,
+    indices,
+    link_ch,
+    link_f,
+    link_t,
+    use_mass,
+    min_neighbors,
+    n_chunks,
+    signs,
+    ints,
+    accs,
+    out,
+):
     """Largest cluster statistic of each row of ``stats`` (n_rows, n_points) into ``out`` (n_rows,).
 
     The rows are split into ``n_chunks`` contiguous chunks run in parallel,
@@ -147,14 +183,46 @@ def _cluster_max_block(stats, threshold, tail_code, n_ch, n_f, n_t, indptr, indi
     n_rows = stats.shape[0]
     for chunk in prange(n_chunks):
         for row in range(chunk * n_rows // n_chunks, (chunk + 1) * n_rows // n_chunks):
-            out[row] = _label_row(stats[row], threshold, tail_code, n_ch, n_f, n_t, indptr, indices,
-                                  link_ch, link_f, link_t, use_mass, min_neighbors, signs[chunk, 0],
-                                  signs[chunk, 1], ints[chunk, 0], ints[chunk, 1], accs[chunk])
+            out[row] = _label_row(
+                stats[row],
+                threshold,
+                tail_code,
+                n_ch,
+                n_f,
+                n_t,
+                indptr,
+                indices,
+                link_ch,
+                link_f,
+                link_t,
+                use_mass,
+                min_neighbors,
+                signs[chunk, 0],
+                signs[chunk, 1],
+                ints[chunk, 0],
+                ints[chunk, 1],
+                accs[chunk],
+            )
 
 
 @jit
-def _cluster_roots(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-                   use_mass, min_neighbors, parent, acc):
+def _cluster_roots(
+    stat,
+    threshold,
+    tail_code,
+    n_ch,
+    n_f,
+    n_t,
+    indptr,
+    indices,
+    link_ch,
+    link_f,
+    link_t,
+    use_mass,
+    min_neighbors,
+    parent,
+    acc,
+):
     """Components of one map, with the same arithmetic as ``_cluster_max_block``.
 
     Fills ``parent`` (root point index per point, -1 outside clusters) and ``acc``
@@ -165,5 +233,23 @@ def _cluster_roots(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, 
     kept = np.empty(n_pts, np.int8)
     selected = np.empty(n_pts, np.int32)
     parent[:] = -1
-    return _label_row(stat, threshold, tail_code, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-                      use_mass, min_neighbors, sign, kept, parent, selected, acc)
+    return _label_row(
+        stat,
+        threshold,
+        tail_code,
+        n_ch,
+        n_f,
+        n_t,
+        indptr,
+        indices,
+        link_ch,
+        link_f,
+        link_t,
+        use_mass,
+        min_neighbors,
+        sign,
+        kept,
+        parent,
+        selected,
+        acc,
+    )

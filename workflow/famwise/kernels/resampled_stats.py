@@ -99,8 +99,7 @@ def _signflip_t(codes, grid, n_ss, factor, group, tile_size, out):
 
 
 @jit_parallel
-def _label_t(codes, grid_x, grid_q, total_x, total_q, unit_x, unit_q, n0, n1, equal_var, group, tile_size,
-             out):
+def _label_t(codes, grid_x, grid_q, total_x, total_q, unit_x, unit_q, n0, n1, equal_var, group, tile_size, out):
     """out[r, p] = two-sample t (label 0 minus label 1), from exact group-0 sums of subset-sum tables.
 
     ``codes[r]`` flags the subjects labelled 0 in row r (groups of

@@ -6,8 +6,9 @@ from famwise.kernels._jit import jit
 
 
 @jit
-def _add_mean_power(coef: np.ndarray, row_start: int, row_stop: int, t_start: int, t_step: int,
-                    weight: float, out: np.ndarray) -> None:
+def _add_mean_power(
+    coef: np.ndarray, row_start: int, row_stop: int, t_start: int, t_step: int, weight: float, out: np.ndarray
+) -> None:
     """out[f, j] += weight * mean over rows r of |coef[r, f, t_start + j t_step]|^2.
 
     coef : complex64 (n_rows, n_freqs, n_fft), C-contiguous; out : float64 (n_freqs, n_out).
@@ -22,8 +23,9 @@ def _add_mean_power(coef: np.ndarray, row_start: int, row_stop: int, t_start: in
 
 
 @jit
-def _add_epoch_power(coef: np.ndarray, row_start: int, t_start: int, t_step: int,
-                     weight: float, out: np.ndarray) -> None:
+def _add_epoch_power(
+    coef: np.ndarray, row_start: int, t_start: int, t_step: int, weight: float, out: np.ndarray
+) -> None:
     """out[r, f, j] += weight * |coef[row_start + r, f, t_start + j t_step]|^2.
 
     coef : complex64 (n_rows, n_freqs, n_fft), C-contiguous;

@@ -46,8 +46,17 @@ inference. NeuroImage 44(1):83-98.
 import numpy as np
 from llvmlite import ir
 
-from famwise.kernels._jit import JIT_DISABLED, cgutils, intrinsic, jit, jit_inline, jit_parallel, overload, prange, \
-    types
+from famwise.kernels._jit import (
+    JIT_DISABLED,
+    cgutils,
+    intrinsic,
+    jit,
+    jit_inline,
+    jit_parallel,
+    overload,
+    prange,
+    types,
+)
 
 PREFETCH_AHEAD = 16  # points ahead whose memory is requested early in the random-access passes
 FIXED_SLOTS = 4  # neighbor slots the sweep always visits (most points have at most 4 earlier neighbors)
@@ -55,9 +64,11 @@ MAX_RADIX_BITS = 11  # most bits of the sort key per radix pass (three passes co
 
 
 if JIT_DISABLED:
+
     def _prefetch(arr, index):
         """No-op when kernels run as plain Python."""
 else:
+
     @intrinsic
     def _prefetch(typingctx, arr, index):
         """Ask the CPU to bring ``arr[index]`` (1-D array) into cache for writing (LLVM prefetch)."""
@@ -69,8 +80,10 @@ else:
             address = builder.bitcast(builder.gep(array.data, [args[1]]), ir.IntType(8).as_pointer())
             i32 = ir.IntType(32)
             function = cgutils.get_or_insert_function(
-                builder.module, ir.FunctionType(ir.VoidType(), [ir.IntType(8).as_pointer(), i32, i32, i32]),
-                "llvm.prefetch.p0i8")
+                builder.module,
+                ir.FunctionType(ir.VoidType(), [ir.IntType(8).as_pointer(), i32, i32, i32]),
+                "llvm.prefetch.p0i8",
+            )
             builder.call(function, [address, ir.Constant(i32, 1), ir.Constant(i32, 3), ir.Constant(i32, 1)])
             return context.get_dummy_value()
 
@@ -78,10 +91,12 @@ else:
 
 
 if JIT_DISABLED:
+
     def _float32_from_bits(bits):
         """The float32 whose bits are ``bits`` (uint32)."""
         return np.uint32(bits).view(np.float32)
 else:
+
     @intrinsic
     def _float32_from_bits(typingctx, bits):
         """The float32 whose bits are ``bits`` (uint32)."""
@@ -235,7 +250,7 @@ def _order_steps(stat, tail_code, top, step, H, order, rank, nlev):
     g[0] = 0.0
     for k in range(1, k_max + 1):
         h = k * step
-        g[k] = g[k - 1] + (h * h if H == 2.0 else h ** H) * step
+        g[k] = g[k - 1] + (h * h if H == 2.0 else h**H) * step
     start = np.zeros(k_max + 2, np.int64)
     inv_step = 1.0 / step
     for q in range(stat.shape[0]):
@@ -273,7 +288,7 @@ def _extent_power(size, E):
         return np.sqrt(size)
     if E == 1.0:
         return float(size)
-    return size ** E
+    return size**E
 
 
 @jit
@@ -413,8 +428,33 @@ def _sweep(order, n, rank, E, nbr, par, cur, npar, nsize, nlev, val, out):
 
 
 @jit
-def _tfce_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-              order, rank, nsize, par, cur, npar, nlev, val, buf, hist, nbr, out):
+def _tfce_row(
+    stat,
+    tail_code,
+    E,
+    H,
+    step,
+    n_ch,
+    n_f,
+    n_t,
+    indptr,
+    indices,
+    link_ch,
+    link_f,
+    link_t,
+    order,
+    rank,
+    nsize,
+    par,
+    cur,
+    npar,
+    nlev,
+    val,
+    buf,
+    hist,
+    nbr,
+    out,
+):
     """TFCE of one map (exact when step <= 0); returns max |TFCE|, fills ``out`` if it has the map's length."""
     n_sel, top, bottom = _scan(stat, tail_code)
     if out.shape[0] == stat.shape[0]:
@@ -439,23 +479,91 @@ def _tfce_workspace(n_chunks, n_pts, indptr):
     node values; radix-sort entries; radix histograms; earlier-neighbor lists.
     """
     max_neighbors = 4 + int(np.max(np.diff(indptr), initial=0))
-    return (np.empty((n_chunks, 6, n_pts), np.int32), np.empty((n_chunks, 2, n_pts), np.float64),
-            np.empty((n_chunks, 2, n_pts), np.uint64), np.empty((n_chunks, 3, 1 << MAX_RADIX_BITS), np.int32),
-            np.empty((n_chunks, n_pts, 1 + max_neighbors), np.int32))
+    return (
+        np.empty((n_chunks, 6, n_pts), np.int32),
+        np.empty((n_chunks, 2, n_pts), np.float64),
+        np.empty((n_chunks, 2, n_pts), np.uint64),
+        np.empty((n_chunks, 3, 1 << MAX_RADIX_BITS), np.int32),
+        np.empty((n_chunks, n_pts, 1 + max_neighbors), np.int32),
+    )
 
 
 @jit
-def _tfce_chunk_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-                    chunk, i32, f64, buf, hist, nbr, out):
+def _tfce_chunk_row(
+    stat,
+    tail_code,
+    E,
+    H,
+    step,
+    n_ch,
+    n_f,
+    n_t,
+    indptr,
+    indices,
+    link_ch,
+    link_f,
+    link_t,
+    chunk,
+    i32,
+    f64,
+    buf,
+    hist,
+    nbr,
+    out,
+):
     """``_tfce_row`` on the workspace of one chunk."""
-    return _tfce_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-                     i32[chunk, 0], i32[chunk, 1], i32[chunk, 2], i32[chunk, 3], i32[chunk, 4], i32[chunk, 5],
-                     f64[chunk, 0], f64[chunk, 1], buf[chunk], hist[chunk], nbr[chunk], out)
+    return _tfce_row(
+        stat,
+        tail_code,
+        E,
+        H,
+        step,
+        n_ch,
+        n_f,
+        n_t,
+        indptr,
+        indices,
+        link_ch,
+        link_f,
+        link_t,
+        i32[chunk, 0],
+        i32[chunk, 1],
+        i32[chunk, 2],
+        i32[chunk, 3],
+        i32[chunk, 4],
+        i32[chunk, 5],
+        f64[chunk, 0],
+        f64[chunk, 1],
+        buf[chunk],
+        hist[chunk],
+        nbr[chunk],
+        out,
+    )
 
 
 @jit_parallel
-def _tfce_max_block(stats, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f,
-                    link_t, n_chunks, i32, f64, buf, hist, nbr, out):
+def _tfce_max_block(
+    stats,
+    tail_code,
+    E,
+    H,
+    step,
+    n_ch,
+    n_f,
+    n_t,
+    indptr,
+    indices,
+    link_ch,
+    link_f,
+    link_t,
+    n_chunks,
+    i32,
+    f64,
+    buf,
+    hist,
+    nbr,
+    out,
+):
     """max |TFCE| of each row of ``stats`` (n_rows, n_points) into ``out`` (n_rows,); step <= 0 means exact.
 
     The rows are split into ``n_chunks`` contiguous chunks run in parallel,
@@ -466,14 +574,55 @@ def _tfce_max_block(stats, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indice
     no_map = np.empty(0, np.float64)
     for chunk in prange(n_chunks):
         for row in range(chunk * n_rows // n_chunks, (chunk + 1) * n_rows // n_chunks):
-            out[row] = _tfce_chunk_row(stats[row], tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices,
-                                       link_ch, link_f, link_t, chunk, i32, f64, buf, hist, nbr, no_map)
+            out[row] = _tfce_chunk_row(
+                stats[row],
+                tail_code,
+                E,
+                H,
+                step,
+                n_ch,
+                n_f,
+                n_t,
+                indptr,
+                indices,
+                link_ch,
+                link_f,
+                link_t,
+                chunk,
+                i32,
+                f64,
+                buf,
+                hist,
+                nbr,
+                no_map,
+            )
 
 
 @jit
-def _tfce_map(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t,
-              i32, f64, buf, hist, nbr, out):
+def _tfce_map(
+    stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f, link_t, i32, f64, buf, hist, nbr, out
+):
     """Signed TFCE of one map into ``out`` (n_points,) on workspace 0, same arithmetic as
     ``_tfce_max_block``; returns max |TFCE|."""
-    return _tfce_chunk_row(stat, tail_code, E, H, step, n_ch, n_f, n_t, indptr, indices, link_ch, link_f,
-                           link_t, 0, i32, f64, buf, hist, nbr, out)
+    return _tfce_chunk_row(
+        stat,
+        tail_code,
+        E,
+        H,
+        step,
+        n_ch,
+        n_f,
+        n_t,
+        indptr,
+        indices,
+        link_ch,
+        link_f,
+        link_t,
+        0,
+        i32,
+        f64,
+        buf,
+        hist,
+        nbr,
+        out,
+    )

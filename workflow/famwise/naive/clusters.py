@@ -74,8 +74,18 @@ def _selected_signs(stat, threshold, tail, indptr, indices, min_supra_neighbors)
     return out
 
 
-def cluster_labels_reference(stat, *, threshold, indptr, indices, dims=("channel", "freq", "time"),
-                             cluster_stat="mass", min_supra_neighbors=0, tail="two-sided", adjacency=None):
+def cluster_labels_reference(
+    stat,
+    *,
+    threshold,
+    indptr,
+    indices,
+    dims=("channel", "freq", "time"),
+    cluster_stat="mass",
+    min_supra_neighbors=0,
+    tail="two-sided",
+    adjacency=None,
+):
     """Clusters of one map.
 
     Returns
@@ -99,8 +109,18 @@ def cluster_labels_reference(stat, *, threshold, indptr, indices, dims=("channel
     return clusters
 
 
-def cluster_null_reference(data, flips, *, threshold, indptr, indices, dims=("channel", "freq", "time"),
-                           cluster_stat="mass", min_supra_neighbors=0, tail="two-sided"):
+def cluster_null_reference(
+    data,
+    flips,
+    *,
+    threshold,
+    indptr,
+    indices,
+    dims=("channel", "freq", "time"),
+    cluster_stat="mass",
+    min_supra_neighbors=0,
+    tail="two-sided",
+):
     """Largest cluster statistic of the one-sample t map of every sign-flip row.
 
     Parameters
@@ -119,8 +139,15 @@ def cluster_null_reference(data, flips, *, threshold, indptr, indices, dims=("ch
     out = np.zeros(len(flips))
     for row, signs in enumerate(flips):
         stat = one_sample_t(data * signs[:, None, None, None])
-        clusters = cluster_labels_reference(stat, threshold=threshold, indptr=indptr, indices=indices,
-                                            cluster_stat=cluster_stat, min_supra_neighbors=min_supra_neighbors,
-                                            tail=tail, adjacency=adjacency)
+        clusters = cluster_labels_reference(
+            stat,
+            threshold=threshold,
+            indptr=indptr,
+            indices=indices,
+            cluster_stat=cluster_stat,
+            min_supra_neighbors=min_supra_neighbors,
+            tail=tail,
+            adjacency=adjacency,
+        )
         out[row] = max((value for _, _, value in clusters), default=0.0)
     return out

@@ -8,8 +8,9 @@ import numpy as np
 from scipy.signal import fftconvolve
 
 
-def naive_decomposition(data: np.ndarray, kernels: list[np.ndarray], *, measure: str, scale: float,
-                   keep: slice) -> np.ndarray:
+def naive_decomposition(
+    data: np.ndarray, kernels: list[np.ndarray], *, measure: str, scale: float, keep: slice
+) -> np.ndarray:
     """Condition-average measure of epochs by direct convolution loops.
 
     Parameters

@@ -17,8 +17,9 @@ from scipy.sparse.csgraph import connected_components
 from famwise.naive.clusters import one_sample_t, product_adjacency
 
 
-def tfce_reference(stat, *, indptr, indices, dims=("channel", "freq", "time"), E=0.5, H=2.0, step=0.1,
-                   tail="two-sided", adjacency=None):
+def tfce_reference(
+    stat, *, indptr, indices, dims=("channel", "freq", "time"), E=0.5, H=2.0, step=0.1, tail="two-sided", adjacency=None
+):
     """Fixed-step TFCE by labeling at every level k * step, k = 1, 2, ...
 
     Parameters
@@ -66,8 +67,9 @@ def tfce_reference(stat, *, indptr, indices, dims=("channel", "freq", "time"), E
     return out.reshape(stat.shape)
 
 
-def tfce_null_reference(data, flips, *, indptr, indices, dims=("channel", "freq", "time"), E=0.5, H=2.0,
-                        step=0.1, tail="two-sided"):
+def tfce_null_reference(
+    data, flips, *, indptr, indices, dims=("channel", "freq", "time"), E=0.5, H=2.0, step=0.1, tail="two-sided"
+):
     """max |TFCE| of the one-sample t map of every sign-flip row, recomputed from the data.
 
     Parameters
@@ -85,6 +87,7 @@ def tfce_null_reference(data, flips, *, indptr, indices, dims=("channel", "freq"
     out = np.empty(len(flips))
     for row, signs in enumerate(flips):
         stat = one_sample_t(data * signs[:, None, None, None])
-        out[row] = np.abs(tfce_reference(stat, indptr=indptr, indices=indices, E=E, H=H, step=step,
-                                         tail=tail, adjacency=adjacency)).max()
+        out[row] = np.abs(
+            tfce_reference(stat, indptr=indptr, indices=indices, E=E, H=H, step=step, tail=tail, adjacency=adjacency)
+        ).max()
     return out

@@ -37,8 +37,14 @@ from math import sqrt
 import numpy as np
 
 from famwise.errors import UserError
-from famwise.kernels.resampled_stats import _condition_sums, _label_t, _label_yuen, _signflip_t, _signflip_yuen, \
-    _weighted_sums
+from famwise.kernels.resampled_stats import (
+    _condition_sums,
+    _label_t,
+    _label_yuen,
+    _signflip_t,
+    _signflip_yuen,
+    _weighted_sums,
+)
 from famwise.nulls.collectors.protocol import NullCollector, merge_shard_arrays
 from famwise.nulls.tables import PermutationTable, shard_bounds
 from famwise.stats import check_design
@@ -255,8 +261,21 @@ def _label_t_block(x, groups, equal_var):
     def block(rows, out=None):
         if out is None:
             out = np.empty((rows.shape[0], x.shape[1]), dtype=np.float32)
-        _label_t(_subset_codes(groups[rows] == 0), grid_x, grid_q, total_x, total_q, 1.0 / scale_x, 1.0 / scale_q,
-                 n0, n1, equal_var, _GROUP, _TILE, out)
+        _label_t(
+            _subset_codes(groups[rows] == 0),
+            grid_x,
+            grid_q,
+            total_x,
+            total_q,
+            1.0 / scale_x,
+            1.0 / scale_q,
+            n0,
+            n1,
+            equal_var,
+            _GROUP,
+            _TILE,
+            out,
+        )
         return out
 
     return block

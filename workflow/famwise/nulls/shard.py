@@ -23,8 +23,12 @@ def table_for(data: ContrastData, *, settings: NullSettings):
     """The study's permutation table for one contrast."""
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
     return make_table(
-        data.test, n_subjects=len(data.subjects), permutations=settings.permutations, seed=settings.seed,
-        groups=data.groups, n_conditions=n_conditions,
+        data.test,
+        n_subjects=len(data.subjects),
+        permutations=settings.permutations,
+        seed=settings.seed,
+        groups=data.groups,
+        n_conditions=n_conditions,
     )
 
 
@@ -35,12 +39,19 @@ def identity_statistic(data: ContrastData, *, settings: ObservedSettings | NullS
     same bits the null's identity row gets, whatever the block or shard.
     """
     n_conditions = data.x.shape[1] if data.test == "repeated-measures" else None
-    identity = make_table(data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups,
-                          n_conditions=n_conditions).rows[:1]
+    identity = make_table(
+        data.test, n_subjects=len(data.subjects), permutations=1, seed=0, groups=data.groups, n_conditions=n_conditions
+    ).rows[:1]
     block = next(
         iter_null_blocks(
-            data.x, identity, test=data.test, groups=data.groups, covariate=data.covariate,
-            statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
+            data.x,
+            identity,
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            statistic=settings.statistic,
+            trim=settings.trim,
+            equal_var=settings.equal_var,
         )
     )
     return np.asarray(block[0], dtype=np.float64)
@@ -87,20 +98,38 @@ def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, sha
             collectors.append(MaxStatCollector(tail=tail, key=key))
             collectors.append(StepDownCollector(stat, tail=tail, key=key))
         elif kind == "cluster":
-            from famwise.nulls.collectors.largest_cluster import ClusterCollector  # numba kernels: imported only when used
+            from famwise.nulls.collectors.largest_cluster import (
+                ClusterCollector,
+            )  # numba kernels: imported only when used
 
             collectors.append(
                 ClusterCollector(
-                    threshold=stored_forming_threshold(observed, key), shape=shape, indptr=indptr, indices=indices,
-                    dims=spec.dims, cluster_stat=spec.cluster_stat,
-                    min_supra_neighbors=spec.min_supra_neighbors, tail=tail, key=key,
+                    threshold=stored_forming_threshold(observed, key),
+                    shape=shape,
+                    indptr=indptr,
+                    indices=indices,
+                    dims=spec.dims,
+                    cluster_stat=spec.cluster_stat,
+                    min_supra_neighbors=spec.min_supra_neighbors,
+                    tail=tail,
+                    key=key,
                 )
             )
         elif kind == "tfce":
             from famwise.nulls.collectors.largest_tfce import TFCECollector
 
             collectors.append(
-                TFCECollector(shape=shape, indptr=indptr, indices=indices, dims=spec.dims, E=spec.E, H=spec.H, step=spec.step, tail=tail, key=key)
+                TFCECollector(
+                    shape=shape,
+                    indptr=indptr,
+                    indices=indices,
+                    dims=spec.dims,
+                    E=spec.E,
+                    H=spec.H,
+                    step=spec.step,
+                    tail=tail,
+                    key=key,
+                )
             )
         else:
             raise ValueError(f"unknown collector kind {kind!r}")
@@ -129,10 +158,19 @@ def null_shard(
     collectors = make_collectors(settings.collectors, observed=observed, shape=data.shape, graph=graph)
     if progress:
         kind = "exact enumeration" if table.exact else "Monte Carlo"
-        progress(f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points")
+        progress(
+            f"shard {shard}: rows {start}..{stop} of {table.n_rows} ({table.scheme}, {kind}), {data.x.shape[-1]} points"
+        )
     arrays = run_shard(
-        data.x, table.rows[start:stop], collectors=collectors, test=data.test, groups=data.groups, covariate=data.covariate,
-        statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
+        data.x,
+        table.rows[start:stop],
+        collectors=collectors,
+        test=data.test,
+        groups=data.groups,
+        covariate=data.covariate,
+        statistic=settings.statistic,
+        trim=settings.trim,
+        equal_var=settings.equal_var,
     )
     arrays["rows"] = np.array([start, stop])
     arrays["n_rows.total"] = np.array(table.n_rows)
@@ -167,8 +205,14 @@ def family_stepdown_shard(
     collector = StepDownCollector(np.concatenate([stat for stat, _ in observed]), tail=observed[0][1], key=key)
     streams = [
         iter_null_blocks(
-            data.x, table.rows[start:stop], test=data.test, groups=data.groups, covariate=data.covariate,
-            statistic=settings.statistic, trim=settings.trim, equal_var=settings.equal_var,
+            data.x,
+            table.rows[start:stop],
+            test=data.test,
+            groups=data.groups,
+            covariate=data.covariate,
+            statistic=settings.statistic,
+            trim=settings.trim,
+            equal_var=settings.equal_var,
         )
         for data in datas
     ]

@@ -46,7 +46,9 @@ def check_windows_fit(headers: dict[str, SubjectHeader], where: Where) -> None:
     """Every wanted event's epoch window lies inside its recording (BIDS)."""
     for subject, header in headers.items():
         if header.beyond:
-            raise UserError(f"{where('epochs', 'window_ms')}: subject {subject}: the epoch window around {header.beyond} runs beyond the recording")
+            raise UserError(
+                f"{where('epochs', 'window_ms')}: subject {subject}: the epoch window around {header.beyond} runs beyond the recording"
+            )
 
 
 def check_consistent(headers: dict[str, SubjectHeader]) -> None:
@@ -56,8 +58,14 @@ def check_consistent(headers: dict[str, SubjectHeader]) -> None:
         if header.channels is not None and first.channels is not None and header.channels != first.channels:
             extra = sorted(set(header.channels) - set(first.channels))
             missing = sorted(set(first.channels) - set(header.channels))
-            detail = f"extra: {', '.join(extra) or 'none'}; missing: {', '.join(missing) or 'none'}" if extra or missing else "same names in a different order"
-            raise UserError(f"subject {subject}: channels differ from subject {reference} ({detail}) in {header.source}")
+            detail = (
+                f"extra: {', '.join(extra) or 'none'}; missing: {', '.join(missing) or 'none'}"
+                if extra or missing
+                else "same names in a different order"
+            )
+            raise UserError(
+                f"subject {subject}: channels differ from subject {reference} ({detail}) in {header.source}"
+            )
         if first.sample_rate_hz and header.sample_rate_hz and abs(header.sample_rate_hz - first.sample_rate_hz) > 1e-9:
             raise UserError(
                 f"subject {subject}: sampling rate {header.sample_rate_hz:g} Hz differs from subject {reference} "

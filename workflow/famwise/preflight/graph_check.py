@@ -15,7 +15,9 @@ def check_channels(plan, channels: list[str] | None, where: Where) -> list[str]:
         lookup = {c.lower(): c for c in channels}
         unknown = [name for name in wanted if name.lower() not in lookup]
         if unknown:
-            raise UserError(f"{where('analysis', 'channels')}: not in the data: {', '.join(unknown)} (channels: {', '.join(channels)})")
+            raise UserError(
+                f"{where('analysis', 'channels')}: not in the data: {', '.join(unknown)} (channels: {', '.join(channels)})"
+            )
         channels = [lookup[name.lower()] for name in wanted]
     spec = plan.study.channels
     if not plan.needs_graph or spec.positions == "bids":
@@ -28,8 +30,13 @@ def check_channels(plan, channels: list[str] | None, where: Where) -> list[str]:
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:
-            channel_graph(channels, positions=positions, method=n.method, max_distance_mm=n.max_distance_mm,
-                          edges_file=plan.loaded.resolve(n.edges_file) if n.edges_file else None)
+            channel_graph(
+                channels,
+                positions=positions,
+                method=n.method,
+                max_distance_mm=n.max_distance_mm,
+                edges_file=plan.loaded.resolve(n.edges_file) if n.edges_file else None,
+            )
         except UserError as error:
             raise UserError(f"{where(*key)}: {error}") from None
     return [str(w.message) for w in caught]

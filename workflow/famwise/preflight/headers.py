@@ -53,9 +53,15 @@ def npz_epochs_header(path: Path, subject: str) -> SubjectHeader:
     where = f"subject {subject} ({path})"
     try:
         with np.load(path, allow_pickle=False) as archive:
-            missing = [k for k in ("data", "sample_rate_hz", "epoch_start_s", "channels", "event_labels") if k not in archive.files]
+            missing = [
+                k
+                for k in ("data", "sample_rate_hz", "epoch_start_s", "channels", "event_labels")
+                if k not in archive.files
+            ]
             if missing:
-                raise UserError(f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sample_rate_hz, epoch_start_s, channels, event_labels)")
+                raise UserError(
+                    f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sample_rate_hz, epoch_start_s, channels, event_labels)"
+                )
             sample_rate_hz, epoch_start_s = float(archive["sample_rate_hz"]), float(archive["epoch_start_s"])
             channels = [str(c) for c in archive["channels"]]
             labels = np.array([str(c) for c in archive["event_labels"]])
@@ -66,10 +72,14 @@ def npz_epochs_header(path: Path, subject: str) -> SubjectHeader:
     if len(shape) != 3:
         raise UserError(f"{where}: data must have shape (n_epochs, n_channels, n_times), got {shape}")
     if len(channels) != shape[1] or labels.shape != (shape[0],) or bad.shape != labels.shape:
-        raise UserError(f"{where}: {len(channels)} channel names and {labels.size} condition labels for data of shape {shape}")
+        raise UserError(
+            f"{where}: {len(channels)} channel names and {labels.size} condition labels for data of shape {shape}"
+        )
     if not sample_rate_hz > 0:
         raise UserError(f"{where}: sample_rate_hz must be positive, got {sample_rate_hz}")
-    return SubjectHeader(sample_rate_hz, epoch_start_s, shape[2], channels, Counter(labels[~bad].tolist()), source=str(path))
+    return SubjectHeader(
+        sample_rate_hz, epoch_start_s, shape[2], channels, Counter(labels[~bad].tolist()), source=str(path)
+    )
 
 
 def _npy_shape(path: Path, member: str) -> tuple[int, ...]:
@@ -81,7 +91,9 @@ def _npy_shape(path: Path, member: str) -> tuple[int, ...]:
     return tuple(shape)
 
 
-def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float], wanted: set[str]) -> SubjectHeader:
+def bids_header(
+    root: Path, subject: str, *, task: str | None, window_ms: tuple[float, float], wanted: set[str]
+) -> SubjectHeader:
     """Header of one BIDS subject: the recordings pooled as `famwise.bids.read_subject` pools them."""
     recordings = bids.find_recordings(Path(root), subject, task)
     channels, labels, rates, beyond = [], Counter(), set(), None
@@ -98,12 +110,21 @@ def bids_header(root: Path, subject: str, *, task: str | None, window_ms: tuple[
     if len(channels) < len(recordings):
         return SubjectHeader(None, 0.0, 0, None, labels, source=str(recordings[0].parent))
     if len(rates) != 1:
-        raise UserError(f"subject {subject}: the recordings {[p.name for p in recordings]} have different sampling rates {sorted(rates)} Hz")
+        raise UserError(
+            f"subject {subject}: the recordings {[p.name for p in recordings]} have different sampling rates {sorted(rates)} Hz"
+        )
     sample_rate_hz = rates.pop()
     first = int(round(window_ms[0] * sample_rate_hz / 1000.0))
     n_samples = int(round(window_ms[1] * sample_rate_hz / 1000.0)) - first + 1
-    return SubjectHeader(sample_rate_hz, first / sample_rate_hz, n_samples, bids._shared(channels), labels, beyond,
-                         source=str(recordings[0].parent))
+    return SubjectHeader(
+        sample_rate_hz,
+        first / sample_rate_hz,
+        n_samples,
+        bids._shared(channels),
+        labels,
+        beyond,
+        source=str(recordings[0].parent),
+    )
 
 
 def _recording_signals(path: Path, subject: str) -> tuple[dict[str, float], float]:
@@ -120,14 +141,18 @@ def _recording_signals(path: Path, subject: str) -> tuple[dict[str, float], floa
             count = int(fixed[252:256].decode("ascii"))
             block = stream.read(256 * count)
         records, seconds = int(fixed[236:244].decode("ascii")), float(fixed[244:252].decode("ascii"))
-        names = [block[16 * i:16 * (i + 1)].decode("latin-1").strip() for i in range(count)]
+        names = [block[16 * i : 16 * (i + 1)].decode("latin-1").strip() for i in range(count)]
         start = 216 * count
-        samples = [int(block[start + 8 * i:start + 8 * (i + 1)].decode("ascii")) for i in range(count)]
+        samples = [int(block[start + 8 * i : start + 8 * (i + 1)].decode("ascii")) for i in range(count)]
     except (OSError, ValueError, UnicodeDecodeError) as error:
-        raise UserError(f"subject {subject}: cannot read the recording {path}: not an EDF/BDF header ({error})") from None
+        raise UserError(
+            f"subject {subject}: cannot read the recording {path}: not an EDF/BDF header ({error})"
+        ) from None
     if len(block) != 256 * count or seconds <= 0:
         raise UserError(f"subject {subject}: cannot read the recording {path}: truncated or invalid EDF/BDF header")
-    signals = {name: n / seconds for name, n in zip(names, samples) if name not in ("EDF Annotations", "BDF Annotations")}
+    signals = {
+        name: n / seconds for name, n in zip(names, samples) if name not in ("EDF Annotations", "BDF Annotations")
+    }
     return signals, records * seconds
 
 
@@ -140,12 +165,16 @@ def _kept(signals: dict[str, float], table, recording: Path, subject: str) -> di
         names = [n for n in table if n not in left_out]
         missing = [n for n in names if n not in signals]
         if missing:
-            raise UserError(f"subject {subject}: channels {missing} of the channels file are not in {recording}, which holds {list(signals)}")
+            raise UserError(
+                f"subject {subject}: channels {missing} of the channels file are not in {recording}, which holds {list(signals)}"
+            )
         kept = {n: signals[n] for n in names}
     if not kept:
         raise UserError(f"subject {subject}: no good EEG channel in {recording}")
     if len(set(kept.values())) > 1:
-        raise UserError(f"subject {subject}: the EEG channels of {recording} have different sampling rates {sorted(set(kept.values()))} Hz")
+        raise UserError(
+            f"subject {subject}: the EEG channels of {recording} have different sampling rates {sorted(set(kept.values()))} Hz"
+        )
     return kept
 
 
@@ -165,11 +194,15 @@ def _events(path: Path, subject: str) -> list[tuple[float, str]]:
         try:
             events.append((float(row["onset"]), row["trial_type"]))
         except ValueError:
-            raise UserError(f"subject {subject}: events file {path}, line {line}: onset {row['onset']!r} is not a number") from None
+            raise UserError(
+                f"subject {subject}: events file {path}, line {line}: onset {row['onset']!r} is not a number"
+            ) from None
     return events
 
 
-def _first_beyond(events, wanted: set[str], window_ms, duration: float, sample_rate_hz: float, recording: Path) -> str | None:
+def _first_beyond(
+    events, wanted: set[str], window_ms, duration: float, sample_rate_hz: float, recording: Path
+) -> str | None:
     """The first wanted event whose epoch window leaves the recording (in samples, as the epochs are cut)."""
     first_offset = int(round(window_ms[0] * sample_rate_hz / 1000.0))
     n_samples = int(round(window_ms[1] * sample_rate_hz / 1000.0)) - first_offset + 1

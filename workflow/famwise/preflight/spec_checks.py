@@ -1,6 +1,5 @@
 """Checks of the spec against the subjects found: exclusions, group sizes, shards."""
 
-
 import numpy as np
 
 from famwise.errors import UserError
@@ -48,7 +47,10 @@ def check_shards(plan, where: Where) -> None:
         settings = plan.contrast_settings(contrast.name)
         groups = settings.groups
         table = make_table(
-            contrast.test, n_subjects=len(settings.subjects), permutations=inference.permutations, seed=plan.study.seed,
+            contrast.test,
+            n_subjects=len(settings.subjects),
+            permutations=inference.permutations,
+            seed=plan.study.seed,
             groups=None if groups is None else np.asarray(groups),
             n_conditions=len(contrast.conditions) if contrast.test == "repeated-measures" else None,
         )

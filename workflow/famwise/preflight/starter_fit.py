@@ -47,7 +47,12 @@ def starter_timing(sample_rate_hz: float, epoch_ms: tuple[float, float] | None) 
     halfwidth = edge_halfwidth_ms(highest_hz)
     if epoch_ms is None:
         start = -100.0 * math.ceil((halfwidth - BASELINE_MS[0]) / 100.0)
-        return {"highest_hz": highest_hz, "time_step_ms": step_ms, "epoch_ms": (start, EPOCH_END_MS), "baseline_ms": BASELINE_MS}
+        return {
+            "highest_hz": highest_hz,
+            "time_step_ms": step_ms,
+            "epoch_ms": (start, EPOCH_END_MS),
+            "baseline_ms": BASELINE_MS,
+        }
     free_from = 10.0 * math.ceil((epoch_ms[0] + halfwidth) / 10.0 + 1e-9)
     baseline = (max(free_from, BASELINE_MS[0]), BASELINE_MS[1])
     if baseline[1] - baseline[0] < 100.0:

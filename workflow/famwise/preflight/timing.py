@@ -31,8 +31,11 @@ def check_timing(plan, headers: dict[str, SubjectHeader], where: Where) -> list[
     return found
 
 
-def _check_span(plan, where: Where, sample_rate_hz: float, epoch_start_s: float, n_samples: int, subject: str) -> list[str]:
+def _check_span(
+    plan, where: Where, sample_rate_hz: float, epoch_start_s: float, n_samples: int, subject: str
+) -> list[str]:
     from famwise.design import _freq_index, _time_index
+
     dec = _decomposition()
     tf = plan.study.decomposition
     grid = tf.frequencies
@@ -43,9 +46,18 @@ def _check_span(plan, where: Where, sample_rate_hz: float, epoch_start_s: float,
             f"{nyquist:g} Hz of subject {subject}'s data (sampled at {sample_rate_hz:g} Hz)"
         )
     freqs = dec.frequency_grid(grid.lowest_hz, grid.highest_hz, grid.count, grid.spacing)
-    kernels = dec._build_kernels(freqs, sample_rate_hz, method=tf.method, cycles=_pair(tf.cycles), fwhm_ms=_pair(tf.fwhm_ms),
-                                 taper_length_ms=tf.taper_length_ms, nw=tf.nw)
-    epochs = SimpleNamespace(data=np.empty((0, 0, n_samples)), sample_rate_hz=sample_rate_hz, epoch_start_s=epoch_start_s)
+    kernels = dec._build_kernels(
+        freqs,
+        sample_rate_hz,
+        method=tf.method,
+        cycles=_pair(tf.cycles),
+        fwhm_ms=_pair(tf.fwhm_ms),
+        taper_length_ms=tf.taper_length_ms,
+        nw=tf.nw,
+    )
+    epochs = SimpleNamespace(
+        data=np.empty((0, 0, n_samples)), sample_rate_hz=sample_rate_hz, epoch_start_s=epoch_start_s
+    )
     try:
         keep = dec._output_samples(epochs, tf.time_step_ms, subject=subject)
     except UserError as error:
@@ -53,7 +65,11 @@ def _check_span(plan, where: Where, sample_rate_hz: float, epoch_start_s: float,
     all_times = epoch_start_s + np.arange(n_samples) / sample_rate_hz
     times = all_times[keep]
     valid = dec._cone_of_influence(kernels, all_times, times)
-    width_key = ("decomposition", "window_ms") if tf.method == "multitaper" else ("decomposition", "fwhm_ms" if tf.fwhm_ms is not None else "cycles")
+    width_key = (
+        ("decomposition", "window_ms")
+        if tf.method == "multitaper"
+        else ("decomposition", "fwhm_ms" if tf.fwhm_ms is not None else "cycles")
+    )
     try:
         dec._check_fits(kernels, freqs, valid, all_times, subject=subject)
     except UserError as error:

@@ -4,28 +4,40 @@ The report only renders: it reads the result files of a run (layout in
 DESIGN.md, "Data contracts") and never recomputes statistics.
 """
 
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
+from famwise.figure_style import write_atomic
+from famwise.report.calibration import calibration_section_html
 from famwise.report.explorer import assets as explorer_assets
 from famwise.report.html import anchor, markdown, page
 from famwise.report.methods import methods_from_run, methods_text
 from famwise.report.provenance import write_provenance
 from famwise.report.results import read_run
-from famwise.report.sections import (FigureWriter, contrast_section, graph_section,
-                                     provenance_section, study_section, subjects_section)
-from famwise.figure_style import write_atomic
-from famwise.report.calibration import calibration_section_html
+from famwise.report.sections import (
+    FigureWriter,
+    contrast_section,
+    graph_section,
+    provenance_section,
+    study_section,
+    subjects_section,
+)
 
 __all__ = ["build_report", "methods_text", "write_provenance"]
 
 
 def _now() -> str:
-    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+    return datetime.now(UTC).isoformat(timespec="seconds")
 
 
-def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_files: list[Path] | dict[str, Path],
-                 started: str | None = None) -> Path:
+def build_report(
+    output_dir: Path,
+    *,
+    spec_text: str,
+    spec_path: Path,
+    input_files: list[Path] | dict[str, Path],
+    started: str | None = None,
+) -> Path:
     """Write the study report of a finished run.
 
     Writes ``report/index.html`` (self-contained), ``report/figures/*.png``
@@ -61,18 +73,25 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     write = FigureWriter(folder / "figures")
     body = [study_section(run, spec_text), subjects_section(run), graph_section(run, write)]
     body += [contrast_section(run, contrast, write) for contrast in run.contrasts]
-    calibration = calibration_section_html(output_dir, {c.name: [x.settings for x in c.corrections]
-                                                        for c in run.contrasts})
+    calibration = calibration_section_html(
+        output_dir, {c.name: [x.settings for x in c.corrections] for c in run.contrasts}
+    )
     if calibration:
         body.append(calibration)
     methods = methods_from_run(run)
     write_atomic(folder / "methods.md", methods.encode("utf-8"))
-    record = write_provenance(folder / "provenance.json", spec_text=spec_text, study=run.study,
-                              input_files=input_files, started=started, finished=_now(),
-                              root=Path(spec_path).parent, output_dir=output_dir)
+    record = write_provenance(
+        folder / "provenance.json",
+        spec_text=spec_text,
+        study=run.study,
+        input_files=input_files,
+        started=started,
+        finished=_now(),
+        root=Path(spec_path).parent,
+        output_dir=output_dir,
+    )
     paragraph = markdown(methods.removeprefix("## Methods\n"))
-    body += [f'<h2 id="methods">Methods</h2><div class="methods">{paragraph}</div>',
-             provenance_section(record)]
+    body += [f'<h2 id="methods">Methods</h2><div class="methods">{paragraph}</div>', provenance_section(record)]
     if any('class="explorer"' in part for part in body):
         body.append(explorer_assets())
     nav = [("study", "Study"), ("subjects", "Subjects"), ("channels", "Channel graph")]
@@ -81,10 +100,12 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
         nav.append(("calibration", "Calibration"))
     nav += [("methods", "Methods"), ("provenance", "Provenance")]
     title = f"famwise report: {run.study.get('name', output_dir.name)}"
-    subtitle = (f"{len(run.contrasts)} contrasts, "
-                f"{len((run.study.get('inference') or {}).get('corrections', []))} corrections; "
-                f"results fingerprint {record['results_fingerprint'][:12]}; "
-                f"spec fingerprint {record['spec_fingerprint'][:12]}; finished {record['finished']}")
+    subtitle = (
+        f"{len(run.contrasts)} contrasts, "
+        f"{len((run.study.get('inference') or {}).get('corrections', []))} corrections; "
+        f"results fingerprint {record['results_fingerprint'][:12]}; "
+        f"spec fingerprint {record['spec_fingerprint'][:12]}; finished {record['finished']}"
+    )
     index = folder / "index.html"
     write_atomic(index, page(title=title, subtitle=subtitle, nav=nav, body="".join(body)).encode("utf-8"))
     kept = set(write.stems)

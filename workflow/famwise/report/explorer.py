@@ -23,17 +23,31 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.html import anchor, esc, note
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.study_words import named
-from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.values import CAVEAT, categories, read_values
 
 P_SCALE = 1000.0
 """Quantisation steps per decade of p."""
 STAT_STEPS = 32767
-_TABLE_COLUMNS = ("id", "sign", "statistic", "p", "n_points", "channels", "time_start_ms", "time_end_ms",
-                  "freq_low_hz", "freq_high_hz", "peak_stat", "peak_channel", "peak_freq_hz", "peak_time_ms")
+_TABLE_COLUMNS = (
+    "id",
+    "sign",
+    "statistic",
+    "p",
+    "n_points",
+    "channels",
+    "time_start_ms",
+    "time_end_ms",
+    "freq_low_hz",
+    "freq_high_hz",
+    "peak_stat",
+    "peak_channel",
+    "peak_freq_hz",
+    "peak_time_ms",
+)
 
 
 def _b64(array: np.ndarray) -> str:
@@ -74,9 +88,16 @@ def colour_table(steps: int = 64) -> list[str]:
 
 
 def _correction_data(correction: ReportedCorrection, alpha: float, folder: Path) -> dict:
-    data = {"name": correction.name, "method": correction.method, "noun": correction.table_noun,
-            "n_significant": correction.n_significant, "p": pack_p(correction.p_corrected),
-            "mask": pack_mask(correction.mask), "clusters": [], "values": {}}
+    data = {
+        "name": correction.name,
+        "method": correction.method,
+        "noun": correction.table_noun,
+        "n_significant": correction.n_significant,
+        "p": pack_p(correction.p_corrected),
+        "mask": pack_mask(correction.mask),
+        "clusters": [],
+        "values": {},
+    }
     if correction.cluster_id is not None:
         data["ids"] = _b64(np.asarray(correction.cluster_id).astype("<i2").ravel())
         significant = [row for row in correction.clusters if float(row["p"]) <= alpha]
@@ -90,8 +111,17 @@ def _strips(columns: list[str], rows: list[dict]) -> list[dict]:
     return [dict(strip, values=[round(v, 6) for v in strip["values"]]) for strip in categories(columns, rows)]
 
 
-def explorer_data(contrast: ReportedContrast, folder: Path, *, flat: np.ndarray, alpha: float, stat_label: str,
-                  unit: str, positive: str, negative: str) -> dict:
+def explorer_data(
+    contrast: ReportedContrast,
+    folder: Path,
+    *,
+    flat: np.ndarray,
+    alpha: float,
+    stat_label: str,
+    unit: str,
+    positive: str,
+    negative: str,
+) -> dict:
     """Everything the script draws for one contrast, as JSON-ready values.
 
     Parameters
@@ -109,12 +139,20 @@ def explorer_data(contrast: ReportedContrast, folder: Path, *, flat: np.ndarray,
     """
     limit = symmetric_limit(contrast.stat)
     return {
-        "contrast": contrast.name, "shape": list(contrast.stat.shape), "channels": list(contrast.channels),
+        "contrast": contrast.name,
+        "shape": list(contrast.stat.shape),
+        "channels": list(contrast.channels),
         "xy": np.round(np.asarray(flat, dtype=float), 4).tolist(),
         "freqs": [round(float(f), 4) for f in contrast.freqs],
         "times": [round(float(t) * 1000.0, 3) for t in contrast.times],
-        "limit": limit, "stat": pack_stat(contrast.stat, limit), "p": pack_p(contrast.p),
-        "statLabel": stat_label, "unit": unit, "alpha": alpha, "positive": positive, "negative": negative,
+        "limit": limit,
+        "stat": pack_stat(contrast.stat, limit),
+        "p": pack_p(contrast.p),
+        "statLabel": stat_label,
+        "unit": unit,
+        "alpha": alpha,
+        "positive": positive,
+        "negative": negative,
         "colours": colour_table(),
         "corrections": [_correction_data(c, alpha, Path(folder)) for c in contrast.corrections],
     }
@@ -130,27 +168,30 @@ def explorer_block(data: dict) -> str:
     """The explorer's HTML for one contrast: controls, canvases, cluster list and its data."""
     ident = anchor("explore", data["contrast"])
     payload = json.dumps(data, separators=(",", ":")).replace("</", "<\\/")
-    options = "".join(f'<option value="{k}">{esc(named(c["name"], c["method"]))}</option>'
-                      for k, c in enumerate(data["corrections"]))
+    options = "".join(
+        f'<option value="{k}">{esc(named(c["name"], c["method"]))}</option>' for k, c in enumerate(data["corrections"])
+    )
     caveat = note(CAVEAT, warning=True)
-    return (f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'
-            f'<div class="explorer" data-explorer="{ident}">'
-            '<p class="xp-nojs">The explorer needs JavaScript; the figures above show the same results.</p>'
-            '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see '
-            "their mean statistic over time and frequency, and click the map to see the scalp at that point. "
-            "Selecting a cluster or region below shows its channels, its extent, its row of the table and each "
-            "subject's value.</p>"
-            '<div class="xp-bar"><label>correction <select class="xp-correction">'
-            f'{options}</select></label><span class="xp-selection"></span>'
-            '<button type="button" class="xp-clear">clear selection</button></div>'
-            '<div class="xp-views"><figure class="xp-head-fig"><canvas class="xp-head" width="320" height="340">'
-            '</canvas><figcaption class="xp-head-caption"></figcaption></figure>'
-            '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="345"></canvas>'
-            '<figcaption class="xp-tf-caption"></figcaption></figure></div>'
-            '<div class="xp-readout" aria-live="polite">Hover over the map or a channel.</div>'
-            '<div class="xp-lower"><div class="xp-list"></div><div class="xp-detail"></div></div>'
-            f'<div class="xp-caveat">{caveat}</div>'
-            f'<script type="application/json" class="xp-data">{payload}</script></div>')
+    return (
+        f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'
+        f'<div class="explorer" data-explorer="{ident}">'
+        '<p class="xp-nojs">The explorer needs JavaScript; the figures above show the same results.</p>'
+        '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see '
+        "their mean statistic over time and frequency, and click the map to see the scalp at that point. "
+        "Selecting a cluster or region below shows its channels, its extent, its row of the table and each "
+        "subject's value.</p>"
+        '<div class="xp-bar"><label>correction <select class="xp-correction">'
+        f'{options}</select></label><span class="xp-selection"></span>'
+        '<button type="button" class="xp-clear">clear selection</button></div>'
+        '<div class="xp-views"><figure class="xp-head-fig"><canvas class="xp-head" width="320" height="340">'
+        '</canvas><figcaption class="xp-head-caption"></figcaption></figure>'
+        '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="345"></canvas>'
+        '<figcaption class="xp-tf-caption"></figcaption></figure></div>'
+        '<div class="xp-readout" aria-live="polite">Hover over the map or a channel.</div>'
+        '<div class="xp-lower"><div class="xp-list"></div><div class="xp-detail"></div></div>'
+        f'<div class="xp-caveat">{caveat}</div>'
+        f'<script type="application/json" class="xp-data">{payload}</script></div>'
+    )
 
 
 CSS = """

@@ -9,9 +9,9 @@ import numpy as np
 from matplotlib.ticker import MaxNLocator
 
 from famwise.electrodes import ChannelGraph, Positions, plot_graph
+from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.scalp import topography
-from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
 
 _FINE = 4
 
@@ -30,8 +30,17 @@ def effect_unit(study: dict) -> str:
     mode = str((tf.get("baseline") or {}).get("mode", "none")).lower()
     if measure.lower() not in {"power", "induced"}:
         return f"{measure} difference"
-    units = {"db": "dB", "decibel": "dB", "percent": "%", "percentage": "%", "zscore": "z",
-             "z": "z", "ratio": "ratio", "logratio": "log10 ratio", "log_ratio": "log10 ratio"}
+    units = {
+        "db": "dB",
+        "decibel": "dB",
+        "percent": "%",
+        "percentage": "%",
+        "zscore": "z",
+        "z": "z",
+        "ratio": "ratio",
+        "logratio": "log10 ratio",
+        "log_ratio": "log10 ratio",
+    }
     return units.get(mode, "power, input units²")
 
 
@@ -86,8 +95,7 @@ def _freq_axis(ax, freqs: np.ndarray) -> None:
     ax.set_ylabel("frequency (Hz)")
 
 
-def outline(ax, mask: np.ndarray, times_ms: np.ndarray, *, color: str = ACCENT,
-            lw: float = 1.1) -> None:
+def outline(ax, mask: np.ndarray, times_ms: np.ndarray, *, color: str = ACCENT, lw: float = 1.1) -> None:
     """Outline the cells of a boolean (F, T) mask on a time-frequency image."""
     if not np.any(mask):
         return
@@ -99,13 +107,29 @@ def outline(ax, mask: np.ndarray, times_ms: np.ndarray, *, color: str = ACCENT,
     ax.contour(xs, ys, fine, levels=[0.5], colors=color, linewidths=lw)
 
 
-def tf_image(ax, image: np.ndarray, freqs: np.ndarray, times_ms: np.ndarray, *,
-             limit: float, cmap=DIVERGING, vmin: float | None = None, fade: np.ndarray | None = None):
+def tf_image(
+    ax,
+    image: np.ndarray,
+    freqs: np.ndarray,
+    times_ms: np.ndarray,
+    *,
+    limit: float,
+    cmap=DIVERGING,
+    vmin: float | None = None,
+    fade: np.ndarray | None = None,
+):
     """Draw an (F, T) image with time in ms and frequency in Hz; returns the image."""
     t0, t1 = _time_extent(times_ms)
     extent = (t0, t1, -0.5, len(freqs) - 0.5)
-    shown = ax.imshow(image, origin="lower", aspect="auto", extent=extent, cmap=cmap,
-                      vmin=-limit if vmin is None else vmin, vmax=limit)
+    shown = ax.imshow(
+        image,
+        origin="lower",
+        aspect="auto",
+        extent=extent,
+        cmap=cmap,
+        vmin=-limit if vmin is None else vmin,
+        vmax=limit,
+    )
     if fade is not None and np.any(fade):
         veil = np.zeros(image.shape + (4,))
         veil[..., :3] = 1.0
@@ -124,8 +148,7 @@ def peak_channel(contrast: ReportedContrast) -> int:
     return int(np.unravel_index(np.argmax(stat), stat.shape)[0])
 
 
-def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int, title: str,
-               subtitle: str):
+def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int, title: str, subtitle: str):
     """A correction's (or the uncorrected) significant points on one contrast.
 
     Top: the statistic at the peak channel, points not significant there
@@ -144,22 +167,25 @@ def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int
     times_ms = contrast.times * 1000.0
     channel = peak_channel(contrast)
     limit = symmetric_limit(contrast.stat)
-    figure, (top, bottom) = plt.subplots(2, 1, figsize=(3.5, 4.9), sharex=True,
-                                         layout="constrained")
+    figure, (top, bottom) = plt.subplots(2, 1, figsize=(3.5, 4.9), sharex=True, layout="constrained")
     figure.suptitle(f"{title}\n{subtitle}", x=0.02, ha="left", fontsize=9)
-    image = tf_image(top, contrast.stat[channel], contrast.freqs, times_ms, limit=limit,
-                     fade=~mask[channel])
+    image = tf_image(top, contrast.stat[channel], contrast.freqs, times_ms, limit=limit, fade=~mask[channel])
     outline(top, mask[channel], times_ms)
-    top.set_title(f"{stat_label(contrast)} at {contrast.channels[channel]} (peak channel)",
-                  fontsize=8, fontweight="normal")
+    top.set_title(
+        f"{stat_label(contrast)} at {contrast.channels[channel]} (peak channel)", fontsize=8, fontweight="normal"
+    )
     top.set_xlabel("")
     figure.colorbar(image, ax=top, label=stat_label(contrast), shrink=0.9)
     counts = mask.sum(axis=0)
-    shown = tf_image(bottom, counts, contrast.freqs, times_ms, limit=count_limit,
-                     cmap=SEQUENTIAL, vmin=0)
+    shown = tf_image(bottom, counts, contrast.freqs, times_ms, limit=count_limit, cmap=SEQUENTIAL, vmin=0)
     bottom.set_title("significant channels per point", fontsize=8, fontweight="normal")
-    figure.colorbar(shown, ax=bottom, label="channels (count)", shrink=0.9,
-                    extend="max" if counts.max() > count_limit else "neither")
+    figure.colorbar(
+        shown,
+        ax=bottom,
+        label="channels (count)",
+        shrink=0.9,
+        extend="max" if counts.max() > count_limit else "neither",
+    )
     return figure
 
 
@@ -199,13 +225,13 @@ def null_figure(correction: ReportedCorrection, contrast: ReportedContrast):
     """Histogram of a permutation null with the observed maxima and the critical value."""
     figure, ax = plt.subplots(figsize=(6.4, 2.6), layout="constrained")
     null = correction.null[np.isfinite(correction.null)]
-    ax.hist(null, bins=min(60, max(10, len(null) // 20)), color="#b9c3d6", edgecolor="#7d8aa3",
-            lw=0.4)
+    ax.hist(null, bins=min(60, max(10, len(null) // 20)), color="#b9c3d6", edgecolor="#7d8aa3", lw=0.4)
     ax.set_xlabel(null_axis_label(correction, contrast))
     ax.set_ylabel("permutations (count)")
     if np.isfinite(correction.threshold) and correction.threshold_kind != "p":
-        ax.axvline(correction.threshold, color=ACCENT, lw=1.2, ls="--",
-                   label=f"critical value {correction.threshold:.4g}")
+        ax.axvline(
+            correction.threshold, color=ACCENT, lw=1.2, ls="--", label=f"critical value {correction.threshold:.4g}"
+        )
     styles = {"+": ("#b2182b", "-"), "-": ("#2a4d9b", "-.")}
     for sign, value in observed_maxima(correction, contrast).items():
         color, line = styles[sign]
@@ -229,15 +255,18 @@ def cluster_points(correction: ReportedCorrection, contrast: ReportedContrast, r
     names = set(str(row["channels"]).split(","))
     in_channels = np.array([c in names for c in contrast.channels])[:, None, None]
     times_ms = contrast.times * 1000.0
-    in_time = ((times_ms >= float(row["time_start_ms"]) - 1e-6)
-               & (times_ms <= float(row["time_end_ms"]) + 1e-6))[None, None, :]
-    in_freq = ((contrast.freqs >= float(row["freq_low_hz"]) - 1e-6)
-               & (contrast.freqs <= float(row["freq_high_hz"]) + 1e-6))[None, :, None]
+    in_time = ((times_ms >= float(row["time_start_ms"]) - 1e-6) & (times_ms <= float(row["time_end_ms"]) + 1e-6))[
+        None, None, :
+    ]
+    in_freq = (
+        (contrast.freqs >= float(row["freq_low_hz"]) - 1e-6) & (contrast.freqs <= float(row["freq_high_hz"]) + 1e-6)
+    )[None, :, None]
     return correction.mask & in_channels & in_time & in_freq & (np.sign(contrast.stat) == sign)
 
 
-def cluster_figure(contrast: ReportedContrast, correction: ReportedCorrection, row: dict, flat: np.ndarray,
-                   *, unit: str):
+def cluster_figure(
+    contrast: ReportedContrast, correction: ReportedCorrection, row: dict, flat: np.ndarray, *, unit: str
+):
     """Three views of one cluster: TF image, scalp map at its peak, time course.
 
     Parameters
@@ -258,13 +287,19 @@ def cluster_figure(contrast: ReportedContrast, correction: ReportedCorrection, r
         members = points.any(axis=(1, 2))
     times_ms = contrast.times * 1000.0
     figure, (tf_ax, scalp_ax, course_ax) = plt.subplots(
-        1, 3, figsize=(11.5, 3.0), layout="constrained", width_ratios=[1.25, 1.0, 1.1])
+        1, 3, figsize=(11.5, 3.0), layout="constrained", width_ratios=[1.25, 1.0, 1.1]
+    )
     figure.get_layout_engine().set(wspace=0.06)  # room between a colour bar's label and the next axis
     start_ms, end_ms = float(row["time_start_ms"]), float(row["time_end_ms"])
-    figure.suptitle(f"{contrast.name}, {correction.name}: {noun} {row['id']} at "
-                    f"{float(row['freq_low_hz']):.3g}-{float(row['freq_high_hz']):.3g} Hz and "
-                    f"{start_ms:.0f} to {end_ms:.0f} ms (p = {float(row['p']):.4g})",
-                    x=0.01, ha="left", fontsize=9, fontweight="bold")
+    figure.suptitle(
+        f"{contrast.name}, {correction.name}: {noun} {row['id']} at "
+        f"{float(row['freq_low_hz']):.3g}-{float(row['freq_high_hz']):.3g} Hz and "
+        f"{start_ms:.0f} to {end_ms:.0f} ms (p = {float(row['p']):.4g})",
+        x=0.01,
+        ha="left",
+        fontsize=9,
+        fontweight="bold",
+    )
     mean_effect = contrast.effect[members].mean(axis=0)
     limit = symmetric_limit(mean_effect)
     image = tf_image(tf_ax, mean_effect, contrast.freqs, times_ms, limit=limit)
@@ -275,9 +310,12 @@ def cluster_figure(contrast: ReportedContrast, correction: ReportedCorrection, r
     t_index = int(np.argmin(np.abs(times_ms - float(row["peak_time_ms"]))))
     scalp = contrast.effect[:, f_index, t_index]
     shown = topography(scalp_ax, scalp, flat, limit=symmetric_limit(scalp), marked=members)
-    scalp_ax.set_title(f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, "
-                       f"{times_ms[t_index]:.0f} ms\n(filled dots: the {noun}'s channels)",
-                       fontsize=8, fontweight="normal")
+    scalp_ax.set_title(
+        f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, "
+        f"{times_ms[t_index]:.0f} ms\n(filled dots: the {noun}'s channels)",
+        fontsize=8,
+        fontweight="normal",
+    )
     figure.colorbar(shown, ax=scalp_ax, label=f"effect ({unit})", shrink=0.8)
     rows_in = points.any(axis=(0, 2))
     course = contrast.effect[members][:, rows_in].mean(axis=(0, 1))
@@ -285,8 +323,12 @@ def cluster_figure(contrast: ReportedContrast, correction: ReportedCorrection, r
     course_ax.plot(times_ms, course, color=ACCENT, lw=1.3)
     _span_bar(course_ax, start_ms, end_ms)
     band = contrast.freqs[rows_in]
-    course_ax.set_title(f"time course, {band.min():.3g}-{band.max():.3g} Hz, {noun} channels\n"
-                        f"(bar under the axis: the {noun}'s time span)", fontsize=8, fontweight="normal")
+    course_ax.set_title(
+        f"time course, {band.min():.3g}-{band.max():.3g} Hz, {noun} channels\n"
+        f"(bar under the axis: the {noun}'s time span)",
+        fontsize=8,
+        fontweight="normal",
+    )
     course_ax.set_xlabel("time (ms)")
     course_ax.set_ylabel(f"effect ({unit})")
     return figure
@@ -295,8 +337,15 @@ def cluster_figure(contrast: ReportedContrast, correction: ReportedCorrection, r
 def _span_bar(ax, start_ms: float, end_ms: float) -> None:
     """A bar just under the time axis from ``start_ms`` to ``end_ms`` (tick labels moved below it)."""
     ax.tick_params(axis="x", pad=7)
-    ax.plot([start_ms, end_ms], [-0.045, -0.045], transform=ax.get_xaxis_transform(), color=ACCENT,
-            lw=3.5, solid_capstyle="butt", clip_on=False)
+    ax.plot(
+        [start_ms, end_ms],
+        [-0.045, -0.045],
+        transform=ax.get_xaxis_transform(),
+        color=ACCENT,
+        lw=3.5,
+        solid_capstyle="butt",
+        clip_on=False,
+    )
 
 
 def graph_figure(graph: ChannelGraph, positions: Positions):

@@ -68,8 +68,14 @@ def anchor(*parts: str) -> str:
     return re.sub(r"[^A-Za-z0-9_-]+", "-", "--".join(parts)).strip("-") or "x"
 
 
-def table(columns: list[str], rows: list[list], *, titles: dict | None = None,
-          row_classes: list[str] | None = None, table_class: str = "") -> str:
+def table(
+    columns: list[str],
+    rows: list[list],
+    *,
+    titles: dict | None = None,
+    row_classes: list[str] | None = None,
+    table_class: str = "",
+) -> str:
     """An HTML table; numbers are right-aligned and printed with :func:`fmt`."""
     titles = titles or {}
     head = "".join(f'<th title="{esc(titles.get(c, ""))}">{esc(c)}</th>' for c in columns)
@@ -81,21 +87,21 @@ def table(columns: list[str], rows: list[list], *, titles: dict | None = None,
                 cells.append(f'<td class="num">{esc(fmt(value))}</td>')
             else:
                 text = str(value)
-                cells.append(f'<td class="wrap">{esc(text)}</td>' if len(text) > 40
-                             else f"<td>{esc(text)}</td>")
+                cells.append(f'<td class="wrap">{esc(text)}</td>' if len(text) > 40 else f"<td>{esc(text)}</td>")
         css = f' class="{row_classes[index]}"' if row_classes and row_classes[index] else ""
         body.append(f"<tr{css}>{''.join(cells)}</tr>")
     css = f' class="{table_class}"' if table_class else ""
-    return (f'<div class="scroll"><table{css}><thead><tr>{head}</tr></thead>'
-            f"<tbody>{''.join(body)}</tbody></table></div>")
+    return f'<div class="scroll"><table{css}><thead><tr>{head}</tr></thead><tbody>{"".join(body)}</tbody></table></div>'
 
 
 def figure(png: bytes, *, caption: str, alt: str, link: str | None = None) -> str:
     """A figure with the PNG embedded as base64; ``caption`` is HTML."""
     data = base64.b64encode(png).decode("ascii")
     extra = f' <a href="{esc(link)}">SVG</a>' if link else ""
-    return (f'<figure><img alt="{esc(alt)}" src="data:image/png;base64,{data}">'
-            f"<figcaption>{caption}{extra}</figcaption></figure>")
+    return (
+        f'<figure><img alt="{esc(alt)}" src="data:image/png;base64,{data}">'
+        f"<figcaption>{caption}{extra}</figcaption></figure>"
+    )
 
 
 def note(text: str, *, warning: bool = False) -> str:
@@ -136,9 +142,11 @@ def markdown(text: str) -> str:
 def page(*, title: str, subtitle: str, nav: list[tuple[str, str]], body: str) -> str:
     """The whole self-contained page."""
     links = "".join(f'<a href="#{esc(target)}">{esc(label)}</a>' for target, label in nav)
-    return ("<!doctype html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-            "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">"
-            "<link rel=\"icon\" href=\"data:,\">"
-            f"<title>{esc(title)}</title><style>{CSS}</style></head><body>"
-            f"<header><h1>{esc(title)}</h1><p>{esc(subtitle)}</p></header>"
-            f"<nav>{links}</nav><main>{body}</main></body></html>\n")
+    return (
+        '<!doctype html>\n<html lang="en"><head><meta charset="utf-8">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        '<link rel="icon" href="data:,">'
+        f"<title>{esc(title)}</title><style>{CSS}</style></head><body>"
+        f"<header><h1>{esc(title)}</h1><p>{esc(subtitle)}</p></header>"
+        f"<nav>{links}</nav><main>{body}</main></body></html>\n"
+    )

@@ -13,35 +13,30 @@ from famwise.report.results import ReportedContrast, ReportedCorrection, Run, co
 REFERENCES = {
     "bonferroni": "Dunn OJ (1961). Multiple comparisons among means. J Am Stat Assoc 56(293):52-64.",
     "sidak": "Šidák Z (1967). Rectangular confidence regions for the means of multivariate normal "
-             "distributions. J Am Stat Assoc 62(318):626-633.",
-    "holm": "Holm S (1979). A simple sequentially rejective multiple test procedure. "
-            "Scand J Stat 6(2):65-70.",
+    "distributions. J Am Stat Assoc 62(318):626-633.",
+    "holm": "Holm S (1979). A simple sequentially rejective multiple test procedure. Scand J Stat 6(2):65-70.",
     "hochberg": "Hochberg Y (1988). A sharper Bonferroni procedure for multiple tests of "
-                "significance. Biometrika 75(4):800-802.",
+    "significance. Biometrika 75(4):800-802.",
     "bh": "Benjamini Y, Hochberg Y (1995). Controlling the false discovery rate: a practical and "
-          "powerful approach to multiple testing. J R Stat Soc B 57(1):289-300.",
+    "powerful approach to multiple testing. J R Stat Soc B 57(1):289-300.",
     "by": "Benjamini Y, Yekutieli D (2001). The control of the false discovery rate in multiple "
-          "testing under dependency. Ann Stat 29(4):1165-1188.",
+    "testing under dependency. Ann Stat 29(4):1165-1188.",
     "maxstat": "Westfall PH, Young SS (1993). Resampling-Based Multiple Testing. Wiley, New York.",
     "cluster": "Maris E, Oostenveld R (2007). Nonparametric statistical testing of EEG- and "
-               "MEG-data. J Neurosci Methods 164(1):177-190.",
+    "MEG-data. J Neurosci Methods 164(1):177-190.",
     "tfce": "Smith SM, Nichols TE (2009). Threshold-free cluster enhancement: addressing problems "
-            "of smoothing, threshold dependence and localisation in cluster inference. "
-            "NeuroImage 44(1):83-98.",
-    "yuen": "Yuen KK (1974). The two-sample trimmed t for unequal population variances. "
-            "Biometrika 61(1):165-170.",
+    "of smoothing, threshold dependence and localisation in cluster inference. "
+    "NeuroImage 44(1):83-98.",
+    "yuen": "Yuen KK (1974). The two-sample trimmed t for unequal population variances. Biometrika 61(1):165-170.",
     "phipson": "Phipson B, Smyth GK (2010). Permutation p-values should never be zero: calculating "
-               "exact p-values when permutations are randomly drawn. Stat Appl Genet Mol Biol "
-               "9(1):Article 39.",
-    "edges": "Torrence C, Compo GP (1998). A practical guide to wavelet analysis. "
-              "Bull Am Meteorol Soc 79(1):61-78.",
-    "multitaper": "Thomson DJ (1982). Spectrum estimation and harmonic analysis. "
-                  "Proc IEEE 70(9):1055-1096.",
-    "nw": "Percival DB, Walden AT (1993). Spectral Analysis for Physical Applications. "
-          "Cambridge University Press.",
+    "exact p-values when permutations are randomly drawn. Stat Appl Genet Mol Biol "
+    "9(1):Article 39.",
+    "edges": "Torrence C, Compo GP (1998). A practical guide to wavelet analysis. Bull Am Meteorol Soc 79(1):61-78.",
+    "multitaper": "Thomson DJ (1982). Spectrum estimation and harmonic analysis. Proc IEEE 70(9):1055-1096.",
+    "nw": "Percival DB, Walden AT (1993). Spectral Analysis for Physical Applications. Cambridge University Press.",
     "clusterwarn": "Sassenhagen J, Draschkow D (2019). Cluster-based permutation tests of MEG/EEG "
-                   "data do not establish significance of effect latency or location. "
-                   "Psychophysiology 56(6):e13335.",
+    "data do not establish significance of effect latency or location. "
+    "Psychophysiology 56(6):e13335.",
 }
 """Full references, by the key of the method that cites them."""
 
@@ -51,8 +46,7 @@ _DESCRIPTIONS = {
     "holm": "Holm's step-down procedure (Holm 1979)",
     "hochberg": "Hochberg's step-up procedure (Hochberg 1988)",
     "bh": "Benjamini-Hochberg false discovery rate procedure (Benjamini & Hochberg 1995)",
-    "by": "Benjamini-Yekutieli false discovery rate procedure for arbitrary dependence "
-          "(Benjamini & Yekutieli 2001)",
+    "by": "Benjamini-Yekutieli false discovery rate procedure for arbitrary dependence (Benjamini & Yekutieli 2001)",
     "maxstat": "maximum-statistic permutation correction (Westfall & Young 1993)",
     "cluster": "cluster-based permutation inference (Maris & Oostenveld 2007)",
     "tfce": "threshold-free cluster enhancement with permutation inference (Smith & Nichols 2009)",
@@ -78,12 +72,22 @@ def method_kind(method: str) -> str:
     return "other"
 
 
-_NEIGHBORS = {"delaunay": "Delaunay triangulation of the projected positions",
-              "distance": "channels within a distance", "edges": "an edge list given by the user"}
-_MEASURES = {"power": "Power", "induced": "Induced power (each condition's average response "
-              "removed from its epochs first)", "itpc": "Inter-trial phase coherence"}
-_MODES = {"db": "decibel change (10 log10 of the ratio)", "percent": "percent change",
-          "zscore": "z-scores", "ratio": "the ratio"}
+_NEIGHBORS = {
+    "delaunay": "Delaunay triangulation of the projected positions",
+    "distance": "channels within a distance",
+    "edges": "an edge list given by the user",
+}
+_MEASURES = {
+    "power": "Power",
+    "induced": "Induced power (each condition's average response removed from its epochs first)",
+    "itpc": "Inter-trial phase coherence",
+}
+_MODES = {
+    "db": "decibel change (10 log10 of the ratio)",
+    "percent": "percent change",
+    "zscore": "z-scores",
+    "ratio": "the ratio",
+}
 
 
 def fmt(value) -> str:
@@ -123,8 +127,7 @@ def correction_parameters(spec_entry: dict, correction: ReportedCorrection | Non
     settings = correction.settings if correction is not None else {}
     parameters = dict(settings.get("correction") or {})
     parameters.update(spec_entry)
-    parameters = {k: v for k, v in parameters.items()
-                  if k not in {"name", "method", "label"} and v is not None}
+    parameters = {k: v for k, v in parameters.items() if k not in {"name", "method", "label"} and v is not None}
     for key, value in (settings.get("result") or {}).items():
         if key == "threshold" and method_kind(correction.method) == "cluster":
             key = "forming threshold (statistic)"
@@ -133,8 +136,10 @@ def correction_parameters(spec_entry: dict, correction: ReportedCorrection | Non
 
 
 def _parameter_text(parameters: dict) -> str:
-    return "; ".join(f"{k} = {fmt(v) if not isinstance(v, (list, dict)) else v}"
-                     for k, v in parameters.items()) or "no parameters"
+    return (
+        "; ".join(f"{k} = {fmt(v) if not isinstance(v, (list, dict)) else v}" for k, v in parameters.items())
+        or "no parameters"
+    )
 
 
 def _subjects(run: Run, study: dict) -> str:
@@ -146,14 +151,17 @@ def _subjects(run: Run, study: dict) -> str:
         text += f"; {len(excluded)} {'was' if len(excluded) == 1 else 'were'} excluded ({listed})"
     text += "."
     if (study.get("subjects") or {}).get("min_epochs"):
-        text += (f" A participant needed at least {fmt(study['subjects']['min_epochs'])} epochs "
-                 "per condition after rejection.")
+        text += (
+            f" A participant needed at least {fmt(study['subjects']['min_epochs'])} epochs "
+            "per condition after rejection."
+        )
     epochs = study.get("epochs") or {}
     if epochs.get("window_ms") and (study.get("subjects") or {}).get("source") == "bids":
         text += f" Epochs ran from {_span(epochs['window_ms'], 'ms')} around each event"
         if epochs.get("reject_peak_to_peak_uv") is not None:
-            text += (f"; epochs with a peak-to-peak amplitude above "
-                     f"{fmt(epochs['reject_peak_to_peak_uv'])} µV were rejected")
+            text += (
+                f"; epochs with a peak-to-peak amplitude above {fmt(epochs['reject_peak_to_peak_uv'])} µV were rejected"
+            )
         if epochs.get("reference") == "average":
             text += "; data were re-referenced to the average of all EEG channels"
         elif epochs.get("reference"):
@@ -162,8 +170,10 @@ def _subjects(run: Run, study: dict) -> str:
     for condition in study.get("conditions", {}):
         counts = [float(r[f"n_{condition}"]) for r in included if r.get(f"n_{condition}", "") != ""]
         if counts:
-            text += (f" Epochs kept for condition {condition}: mean {fmt(float(np.mean(counts)))}, "
-                     f"range {fmt(int(min(counts)))} to {fmt(int(max(counts)))} per participant.")
+            text += (
+                f" Epochs kept for condition {condition}: mean {fmt(float(np.mean(counts)))}, "
+                f"range {fmt(int(min(counts)))} to {fmt(int(max(counts)))} per participant."
+            )
     return text
 
 
@@ -171,18 +181,24 @@ def _decomposition(study: dict) -> str:
     tf = study.get("decomposition") or {}
     freqs = tf.get("frequencies") or {}
     method = str(tf.get("method", "morlet")).lower()
-    grid = (f"at {fmt(freqs.get('count'))} frequencies from "
-            f"{fmt(freqs.get('lowest_hz', freqs.get('start')))} to "
-            f"{fmt(freqs.get('highest_hz', freqs.get('stop')))} Hz ({freqs.get('spacing', 'log')} spacing)")
+    grid = (
+        f"at {fmt(freqs.get('count'))} frequencies from "
+        f"{fmt(freqs.get('lowest_hz', freqs.get('start')))} to "
+        f"{fmt(freqs.get('highest_hz', freqs.get('stop')))} Hz ({freqs.get('spacing', 'log')} spacing)"
+    )
     measure = _MEASURES.get(str(tf.get("measure", "power")), str(tf.get("measure")))
     if method == "multitaper":
-        text = (f"{measure} was estimated with multitaper analysis using discrete "
-                f"prolate spheroidal (DPSS) tapers (Thomson 1982) {grid}")
+        text = (
+            f"{measure} was estimated with multitaper analysis using discrete "
+            f"prolate spheroidal (DPSS) tapers (Thomson 1982) {grid}"
+        )
         if tf.get("taper_length_ms") is not None:
             text += f", with tapers {fmt(tf['taper_length_ms'])} ms long"
         if tf.get("nw") is not None:
-            text += (f" and a time-half-bandwidth product NW of {fmt(tf['nw'])} "
-                     f"({fmt(2 * float(tf['nw']) - 1)} tapers; Percival & Walden 1993)")
+            text += (
+                f" and a time-half-bandwidth product NW of {fmt(tf['nw'])} "
+                f"({fmt(2 * float(tf['nw']) - 1)} tapers; Percival & Walden 1993)"
+            )
     else:
         text = f"{measure} was estimated by convolution with complex Morlet wavelets {grid}"
         if tf.get("fwhm_ms") is not None:
@@ -192,15 +208,19 @@ def _decomposition(study: dict) -> str:
     if tf.get("time_step_ms") is not None:
         text += f"; values were kept every {fmt(tf['time_step_ms'])} ms"
     kernel = "window" if method == "multitaper" else "wavelet"
-    text += (f". Points whose {kernel} reached beyond the epoch (the cone of influence; Torrence & Compo "
-             "1998) were left out of the analysis.")
+    text += (
+        f". Points whose {kernel} reached beyond the epoch (the cone of influence; Torrence & Compo "
+        "1998) were left out of the analysis."
+    )
     if tf.get("average") == "trimmed":
         text += f" Epochs were averaged with a trimmed mean (trim {fmt(tf.get('trim'))} per end)."
     baseline = tf.get("baseline") or {}
     mode = baseline.get("mode")
     if mode and str(mode).lower() != "none":
-        text += (f" Values were expressed as {_MODES.get(str(mode), str(mode))} relative to the baseline from "
-                 f"{_span(baseline.get('window_ms'), 'ms')}")
+        text += (
+            f" Values were expressed as {_MODES.get(str(mode), str(mode))} relative to the baseline from "
+            f"{_span(baseline.get('window_ms'), 'ms')}"
+        )
         text += ", pooled over conditions" if baseline.get("pooled") else ", per condition"
         text += ", on single epochs." if baseline.get("single_epoch") else ", after averaging epochs."
     else:
@@ -214,31 +234,42 @@ def _baseline_caveat(run: Run) -> str:
     for line in run.warnings:
         if line.startswith("baseline window"):
             message = stage_warnings.message_of(line)
-            who = line[len(message):].strip(" ()")
+            who = line[len(message) :].strip(" ()")
             message = re.sub(r"\[([^\]]*)\] Hz", lambda m: _hz_list(m.group(1)), message)
-            sentences.append(f" Caveat: in {who}, the {message.replace(' reaches ', ' reached ')}, so the baseline "
-                             "there includes edge-affected values.")
+            sentences.append(
+                f" Caveat: in {who}, the {message.replace(' reaches ', ' reached ')}, so the baseline "
+                "there includes edge-affected values."
+            )
     return "".join(sentences)
 
 
 def _window(study: dict, run: Run) -> str:
     analysis = study.get("analysis") or {}
     channels = analysis.get("channels")
-    text = (f"Statistics were computed at every channel, frequency and time point within "
-            f"{_span(analysis.get('time_ms'), 'ms', whole='all times')} and "
-            f"{_span(analysis.get('freq_hz'), 'Hz', whole='all frequencies')}"
-            f" ({'all channels' if not channels else ', '.join(map(str, channels))}).")
+    text = (
+        f"Statistics were computed at every channel, frequency and time point within "
+        f"{_span(analysis.get('time_ms'), 'ms', whole='all times')} and "
+        f"{_span(analysis.get('freq_hz'), 'Hz', whole='all frequencies')}"
+        f" ({'all channels' if not channels else ', '.join(map(str, channels))})."
+    )
     if run.contrasts:
         shape = run.contrasts[0].stat.shape
-        text += (f" Each contrast thus comprised {shape[0]} channels × {shape[1]} frequencies × "
-                 f"{shape[2]} time points = {int(np.prod(shape))} tests.")
+        text += (
+            f" Each contrast thus comprised {shape[0]} channels × {shape[1]} frequencies × "
+            f"{shape[2]} time points = {int(np.prod(shape))} tests."
+        )
     neighbors = (study.get("channels") or {}).get("neighbors") or {}
     if run.graph is not None:
         method = neighbors.get("method", run.graph.method)
-        text += (f" Channel neighbors ({_NEIGHBORS.get(method, method)}"
-                 + (f", maximum distance {fmt(neighbors['max_distance_mm'])} mm"
-                    if neighbors.get("max_distance_mm") is not None else "")
-                 + f") formed {run.graph.n_edges} neighbor pairs among {len(run.graph.channels)} channels.")
+        text += (
+            f" Channel neighbors ({_NEIGHBORS.get(method, method)}"
+            + (
+                f", maximum distance {fmt(neighbors['max_distance_mm'])} mm"
+                if neighbors.get("max_distance_mm") is not None
+                else ""
+            )
+            + f") formed {run.graph.n_edges} neighbor pairs among {len(run.graph.channels)} channels."
+        )
     return text
 
 
@@ -254,8 +285,10 @@ def _contrast(contrast: ReportedContrast, spec: dict, study: dict) -> str:
         design = ", " + " − ".join(map(str, spec["conditions"]))
     if spec.get("groups"):
         design += " between groups " + " and ".join(map(str, spec["groups"]))
-    return (f"Contrast {contrast.name} ({contrast.test}{design}) was tested at each point with a "
-            f"{test}, {contrast.tail}, across n = {contrast.n} participants.")
+    return (
+        f"Contrast {contrast.name} ({contrast.test}{design}) was tested at each point with a "
+        f"{test}, {contrast.tail}, across n = {contrast.n} participants."
+    )
 
 
 def _resampling(contrast: ReportedContrast, study: dict) -> str:
@@ -264,25 +297,35 @@ def _resampling(contrast: ReportedContrast, study: dict) -> str:
         return ""
     scheme = info.get("scheme", "permutation")
     if info.get("exact"):
-        text = (f" Its permutation null enumerated all {fmt(info.get('n_rows'))} {scheme} "
-                f"assignments (an exact test; p = share of assignments at least as extreme, "
-                f"the observed one included)")
+        text = (
+            f" Its permutation null enumerated all {fmt(info.get('n_rows'))} {scheme} "
+            f"assignments (an exact test; p = share of assignments at least as extreme, "
+            f"the observed one included)"
+        )
     else:
-        text = (f" Its permutation null used {fmt(info.get('permutations'))} random {scheme} "
-                f"assignments drawn with seed {fmt(study.get('seed'))} ({fmt(info.get('n_rows'))} "
-                f"rows, the observed assignment included; p = (1 + b)/(1 + m), Phipson & Smyth 2010)")
+        text = (
+            f" Its permutation null used {fmt(info.get('permutations'))} random {scheme} "
+            f"assignments drawn with seed {fmt(study.get('seed'))} ({fmt(info.get('n_rows'))} "
+            f"rows, the observed assignment included; p = (1 + b)/(1 + m), Phipson & Smyth 2010)"
+        )
     return text + f"; the smallest attainable p was {fmt(info.get('smallest_p'))}."
 
 
 def _correction(contrast: ReportedContrast, correction: ReportedCorrection, entry: dict) -> str:
     kind = method_kind(correction.method)
     described = _DESCRIPTIONS.get(kind, f"the '{correction.method}' correction")
-    text = (f"In contrast {contrast.name}, correction {correction.name} ({described}; "
-            f"{_parameter_text(correction_parameters(entry, correction))}) declared "
-            f"{correction.n_significant} of {correction.mask.size} points significant")
+    text = (
+        f"In contrast {contrast.name}, correction {correction.name} ({described}; "
+        f"{_parameter_text(correction_parameters(entry, correction))}) declared "
+        f"{correction.n_significant} of {correction.mask.size} points significant"
+    )
     if np.isfinite(correction.threshold):
-        what = {"p": "p threshold", "stat": "critical |statistic|",
-                "cluster": "critical cluster statistic", "tfce": "critical TFCE value"}
+        what = {
+            "p": "p threshold",
+            "stat": "critical |statistic|",
+            "cluster": "critical cluster statistic",
+            "tfce": "critical TFCE value",
+        }
         text += f" ({what.get(correction.threshold_kind, 'threshold')} {fmt(correction.threshold)})"
     return text + _cluster_count(correction) + "."
 
@@ -308,7 +351,11 @@ def _cluster_count(correction: ReportedCorrection) -> str:
     if formed == 0:
         return "; no cluster formed at the forming threshold"
     if significant == 0:
-        return "; the one cluster formed was not significant" if formed == 1 else f"; none of the {formed} clusters formed was significant"
+        return (
+            "; the one cluster formed was not significant"
+            if formed == 1
+            else f"; none of the {formed} clusters formed was significant"
+        )
     if significant == formed:
         return f", in {_plural(formed, 'cluster')}"
     return f", in {significant} of the {formed} clusters formed"
@@ -341,19 +388,27 @@ def methods_from_run(run: Run) -> str:
     inference = study.get("inference") or {}
     entries = correction_entries(study)
     specs = {c["name"]: c for c in study.get("contrasts", [])}
-    parts = ["## Methods", "", _subjects(run, study), "", _decomposition(study) + _baseline_caveat(run), "",
-             _window(study, run)]
+    parts = [
+        "## Methods",
+        "",
+        _subjects(run, study),
+        "",
+        _decomposition(study) + _baseline_caveat(run),
+        "",
+        _window(study, run),
+    ]
     for contrast in run.contrasts:
-        parts += ["", _contrast(contrast, specs.get(contrast.name, {}), study)
-                  + _resampling(contrast, study)]
-    parts += ["", f"Corrections for multiple comparisons used α = {fmt(inference.get('alpha'))}"
-              f" ({inference.get('tail', 'two-sided')}; family: {inference.get('family', 'each contrast')})."]
+        parts += ["", _contrast(contrast, specs.get(contrast.name, {}), study) + _resampling(contrast, study)]
+    parts += [
+        "",
+        f"Corrections for multiple comparisons used α = {fmt(inference.get('alpha'))}"
+        f" ({inference.get('tail', 'two-sided')}; family: {inference.get('family', 'each contrast')}).",
+    ]
     for contrast in run.contrasts:
         for correction in contrast.corrections:
             parts += [f"- {_correction(contrast, correction, entries.get(correction.name, {}))}"]
     versions = ", ".join(f"{name} {version}" for name, version in package_versions().items())
-    parts += ["", f"Analyses ran in famwise with {versions} (seed {fmt(study.get('seed'))}).",
-              "", "### References", ""]
+    parts += ["", f"Analyses ran in famwise with {versions} (seed {fmt(study.get('seed'))}).", "", "### References", ""]
     parts += [f"- {REFERENCES[kind]}" for kind in kinds_used(run)]
     return "\n".join(parts) + "\n"
 

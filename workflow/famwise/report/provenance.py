@@ -85,9 +85,17 @@ def spec_settings(study: dict) -> dict:
     return flat
 
 
-def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: list[Path] | dict[str, Path],
-                     started: str | None, finished: str | None, root: Path | None = None,
-                     output_dir: Path | None = None) -> dict:
+def write_provenance(
+    path: Path,
+    *,
+    spec_text: str,
+    study: dict,
+    input_files: list[Path] | dict[str, Path],
+    started: str | None,
+    finished: str | None,
+    root: Path | None = None,
+    output_dir: Path | None = None,
+) -> dict:
     """Write ``provenance.json`` and return its content.
 
     Parameters
@@ -123,8 +131,7 @@ def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: li
         input_files = {_label(p, root): p for p in input_files}
     for file in input_files.values():
         if not Path(file).is_file():
-            raise UserError(f"provenance: expected the input file {file} of this run, "
-                            "found no such file")
+            raise UserError(f"provenance: expected the input file {file} of this run, found no such file")
     inference = study.get("inference", {}) or {}
     record = {
         "spec_fingerprint": spec_fingerprint(study),
@@ -133,8 +140,9 @@ def write_provenance(path: Path, *, spec_text: str, study: dict, input_files: li
         "seed": study.get("seed"),
         "permutations": inference.get("permutations"),
         "packages": package_versions(),
-        "input_files": {name: {"sha256": file_sha256(p), "bytes": Path(p).stat().st_size}
-                        for name, p in sorted(input_files.items())},
+        "input_files": {
+            name: {"sha256": file_sha256(p), "bytes": Path(p).stat().st_size} for name, p in sorted(input_files.items())
+        },
         "started": started,
         "finished": finished,
     }

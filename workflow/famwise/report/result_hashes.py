@@ -37,8 +37,9 @@ def npz_hashes(path: Path) -> dict[str, str]:
 
 def _need(path: Path, what: str) -> Path:
     if not path.is_file():
-        raise UserError(f"provenance: expected {what} at {path}, found no such file; "
-                        "run the earlier stages before the report")
+        raise UserError(
+            f"provenance: expected {what} at {path}, found no such file; run the earlier stages before the report"
+        )
     return path
 
 
@@ -46,8 +47,11 @@ def _correction_hashes(folder: Path, contrast: str, name: str) -> dict:
     result = _need(folder / "result.npz", f"the result of correction '{name}' of contrast '{contrast}'")
     with np.load(result, allow_pickle=False) as data:
         significant = int(np.count_nonzero(data["mask"]))
-    tables = {table: hashlib.sha256((folder / table).read_bytes()).hexdigest()
-              for table in TABLE_FILES if (folder / table).is_file()}
+    tables = {
+        table: hashlib.sha256((folder / table).read_bytes()).hexdigest()
+        for table in TABLE_FILES
+        if (folder / table).is_file()
+    }
     return {"n_significant": significant, "arrays": npz_hashes(result), "tables": tables}
 
 

@@ -13,8 +13,8 @@ from pathlib import Path
 import numpy as np
 
 from famwise import layout, stage_warnings
-from famwise.errors import UserError
 from famwise.electrodes import ChannelGraph, Positions, load_graph
+from famwise.errors import UserError
 from famwise.observed import load_observed
 
 
@@ -153,8 +153,9 @@ def _text(value) -> str:
 
 def _need(path: Path, what: str) -> Path:
     if not path.is_file():
-        raise UserError(f"report: expected {what} at {path}, found no such file; "
-                        "run the earlier stages before the report")
+        raise UserError(
+            f"report: expected {what} at {path}, found no such file; run the earlier stages before the report"
+        )
     return path
 
 
@@ -183,8 +184,9 @@ def read_clusters(folder: Path) -> tuple[list[dict], dict]:
     tsv = folder / "clusters.tsv"
     if not tsv.is_file():
         return [], {}
-    rows = [{key: _number(value) if key != "channels" else value for key, value in row.items()}
-            for row in read_tsv(tsv)]
+    rows = [
+        {key: _number(value) if key != "channels" else value for key, value in row.items()} for row in read_tsv(tsv)
+    ]
     sidecar = folder / "clusters.json"
     columns = json.loads(sidecar.read_text(encoding="utf-8")) if sidecar.is_file() else {}
     return rows, columns
@@ -203,7 +205,8 @@ def _read_correction(result_file: Path, name: str) -> ReportedCorrection:
             threshold=float(data["threshold"]) if "threshold" in keys else float("nan"),
             threshold_kind=_text(data["threshold_kind"]) if "threshold_kind" in keys else "p",
             settings=json.loads(settings) if settings else {},
-            n_significant=int(data["n_significant"]) if "n_significant" in keys
+            n_significant=int(data["n_significant"])
+            if "n_significant" in keys
             else int(np.count_nonzero(data["mask"])),
             null=np.asarray(data["null"], dtype=float) if "null" in keys else None,
             tfce=np.asarray(data["tfce"], dtype=float) if "tfce" in keys else None,
@@ -220,10 +223,12 @@ def _read_contrast(output_dir: Path, name: str, correction_names: list[str]) -> 
     data = load_observed(observed)
     stat = np.asarray(data["stat"], dtype=float)
     if stat.ndim != 3:
-        raise UserError(f"report: expected 'stat' in {observed} with shape (channels, "
-                        f"frequencies, times), found shape {stat.shape}")
+        raise UserError(
+            f"report: expected 'stat' in {observed} with shape (channels, frequencies, times), found shape {stat.shape}"
+        )
     contrast = dict(
-        name=name, stat=stat,
+        name=name,
+        stat=stat,
         p=np.asarray(data["p"], dtype=float),
         effect=np.asarray(data["effect"], dtype=float),
         effect_size=np.asarray(data["effect_size"], dtype=float),
@@ -239,9 +244,11 @@ def _read_contrast(output_dir: Path, name: str, correction_names: list[str]) -> 
     corrections = [_read_correction(output_dir / layout.result(name, c), c) for c in correction_names]
     for correction in corrections:
         if correction.mask.shape != stat.shape:
-            raise UserError(f"report: expected the mask of correction '{correction.name}' of "
-                            f"contrast '{name}' to have shape {stat.shape}, found "
-                            f"{correction.mask.shape}; rerun the corrections")
+            raise UserError(
+                f"report: expected the mask of correction '{correction.name}' of "
+                f"contrast '{name}' to have shape {stat.shape}, found "
+                f"{correction.mask.shape}; rerun the corrections"
+            )
     return ReportedContrast(nulls=nulls, corrections=corrections, **contrast)
 
 
@@ -262,10 +269,16 @@ def read_run(output_dir: Path) -> Run:
     subjects_path = output_dir / layout.SUBJECTS_TABLE
     subjects = read_tsv(subjects_path) if subjects_path.is_file() else []
     names = list(correction_entries(study))
-    contrasts = [_read_contrast(output_dir, c["name"], names)
-                 for c in study.get("contrasts", [])]
+    contrasts = [_read_contrast(output_dir, c["name"], names) for c in study.get("contrasts", [])]
     graph_path = output_dir / layout.CHANNEL_GRAPH
     graph, positions = load_graph(graph_path) if graph_path.is_file() else (None, None)
     included = [row["subject"] for row in subjects if row.get("status", "included") == "included"]
-    return Run(output_dir=output_dir, study=study, subjects=subjects, graph=graph,
-               positions=positions, contrasts=contrasts, warnings=stage_warnings.gather(output_dir, included))
+    return Run(
+        output_dir=output_dir,
+        study=study,
+        subjects=subjects,
+        graph=graph,
+        positions=positions,
+        contrasts=contrasts,
+        warnings=stage_warnings.gather(output_dir, included),
+    )

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.figure_style import figure_style, save_figure
 from famwise.report import figures
 from famwise.report.explorer import explorer_block, explorer_data
 from famwise.report.html import anchor, esc, figure, note, table
@@ -15,7 +16,6 @@ from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
 from famwise.report.study_words import baseline_words, decomposition_words, inference_words, named, window_words
-from famwise.figure_style import figure_style, save_figure
 from famwise.report.values import planned_block, values_block
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
@@ -79,13 +79,15 @@ def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> s
         signs.append(f"{positive} with {esc(direction(spec, True))}")
     if negative:
         signs.append(f"{negative} with {esc(direction(spec, False))}")
-    return (f"Significant points lie between {fmt(float(times_ms[times.min()]))} and "
-            f"{fmt(float(times_ms[times.max()]))} ms and {contrast.freqs[freqs.min()]:.3g} and "
-            f"{contrast.freqs[freqs.max()]:.3g} Hz on {len(order)} "
-            f"channel{'s' if len(order) != 1 else ''} ({esc(listed)}); "
-            f"{'; '.join(signs)}. Strongest: {figures.stat_label(contrast)} = "
-            f"{contrast.stat[c, f, t]:.3g} at {esc(contrast.channels[c])}, "
-            f"{contrast.freqs[f]:.3g} Hz, {times_ms[t]:.0f} ms.")
+    return (
+        f"Significant points lie between {fmt(float(times_ms[times.min()]))} and "
+        f"{fmt(float(times_ms[times.max()]))} ms and {contrast.freqs[freqs.min()]:.3g} and "
+        f"{contrast.freqs[freqs.max()]:.3g} Hz on {len(order)} "
+        f"channel{'s' if len(order) != 1 else ''} ({esc(listed)}); "
+        f"{'; '.join(signs)}. Strongest: {figures.stat_label(contrast)} = "
+        f"{contrast.stat[c, f, t]:.3g} at {esc(contrast.channels[c])}, "
+        f"{contrast.freqs[f]:.3g} Hz, {times_ms[t]:.0f} ms."
+    )
 
 
 def study_section(run: Run, spec_text: str) -> str:
@@ -97,26 +99,34 @@ def study_section(run: Run, spec_text: str) -> str:
     rows = [
         ["study", study.get("name", "")],
         ["seed", study.get("seed", "")],
-        ["conditions", "; ".join(f"{k}: {', '.join(map(str, v))}"
-                                 for k, v in (study.get("conditions") or {}).items())],
+        ["conditions", "; ".join(f"{k}: {', '.join(map(str, v))}" for k, v in (study.get("conditions") or {}).items())],
         ["decomposition", decomposition_words(tf)],
         ["baseline", baseline_words(tf.get("baseline") or {})],
         ["analysis window", window_words(analysis)],
-        ["contrasts", "; ".join(f"{c['name']} ({c.get('test', '')})"
-                                for c in study.get("contrasts", []))],
+        ["contrasts", "; ".join(f"{c['name']} ({c.get('test', '')})" for c in study.get("contrasts", []))],
         ["inference", inference_words(inference)],
-        ["corrections", "; ".join(named(name, entry.get("method", ""))
-                                  for name, entry in correction_entries(study).items())],
+        [
+            "corrections",
+            "; ".join(named(name, entry.get("method", "")) for name, entry in correction_entries(study).items()),
+        ],
     ]
-    window = note("The analysis window (times, frequencies, channels) and the corrections must "
-                  "have been chosen before looking at the data. A window picked after seeing "
-                  "where the effect is makes every p-value in this report too small, whatever "
-                  "the correction.")
+    window = note(
+        "The analysis window (times, frequencies, channels) and the corrections must "
+        "have been chosen before looking at the data. A window picked after seeing "
+        "where the effect is makes every p-value in this report too small, whatever "
+        "the correction."
+    )
     if run.warnings:
-        window += note("Warnings raised while the subjects were decomposed: "
-                       + "; ".join(esc(line) for line in run.warnings) + ".", warning=True)
-    return (f'<h2 id="study">Study</h2>{table(["setting", "value"], rows)}{window}'
-            f"<details><summary>Full spec as written</summary><pre>{esc(spec_text)}</pre></details>")
+        window += note(
+            "Warnings raised while the subjects were decomposed: "
+            + "; ".join(esc(line) for line in run.warnings)
+            + ".",
+            warning=True,
+        )
+    return (
+        f'<h2 id="study">Study</h2>{table(["setting", "value"], rows)}{window}'
+        f"<details><summary>Full spec as written</summary><pre>{esc(spec_text)}</pre></details>"
+    )
 
 
 def subjects_section(run: Run) -> str:
@@ -125,14 +135,15 @@ def subjects_section(run: Run) -> str:
         return '<h2 id="subjects">Subjects</h2><p>No subjects table was found for this run.</p>'
     columns = list(run.subjects[0].keys())
     counted = [c for c in columns if c.startswith(("n_", "rejected_"))]
-    rows = [[_cell(r.get(c, "")) if c in counted else r.get(c, "") for c in columns]
-            for r in run.subjects]
+    rows = [[_cell(r.get(c, "")) if c in counted else r.get(c, "") for c in columns] for r in run.subjects]
     classes = ["excluded" if r.get("status") == "excluded" else "" for r in run.subjects]
     included = sum(r.get("status", "included") == "included" for r in run.subjects)
-    return (f'<h2 id="subjects">Subjects</h2><p class="summary">{included} included, '
-            f"{len(run.subjects) - included} excluded. Columns n_&lt;condition&gt; give the epochs "
-            f"kept after rejection, rejected_&lt;condition&gt; the epochs rejected.</p>"
-            + table(columns, rows, row_classes=classes))
+    return (
+        f'<h2 id="subjects">Subjects</h2><p class="summary">{included} included, '
+        f"{len(run.subjects) - included} excluded. Columns n_&lt;condition&gt; give the epochs "
+        f"kept after rejection, rejected_&lt;condition&gt; the epochs rejected.</p>"
+        + table(columns, rows, row_classes=classes)
+    )
 
 
 def _cell(value: str):
@@ -149,11 +160,14 @@ def graph_section(run: Run, write: FigureWriter) -> str:
         return '<h2 id="channels">Channel graph</h2><p>No channel graph was found for this run.</p>'
     with figure_style():
         fig = figures.graph_figure(run.graph, run.positions)
-    caption = (f"<b>Channel neighbor graph.</b> {len(run.graph.channels)} channels, "
-               f"{run.graph.n_edges} neighbor pairs; seen from above, nose up. Clusters grow "
-               "only along these links.")
-    return ('<h2 id="channels">Channel graph</h2>'
-            + write(fig, "channel_graph", caption=caption, alt="channel neighbor graph"))
+    caption = (
+        f"<b>Channel neighbor graph.</b> {len(run.graph.channels)} channels, "
+        f"{run.graph.n_edges} neighbor pairs; seen from above, nose up. Clusters grow "
+        "only along these links."
+    )
+    return '<h2 id="channels">Channel graph</h2>' + write(
+        fig, "channel_graph", caption=caption, alt="channel neighbor graph"
+    )
 
 
 def channel_flat(run: Run, contrast: ReportedContrast) -> np.ndarray | None:
@@ -174,16 +188,24 @@ def permutation_notes(contrast: ReportedContrast, study: dict) -> str:
     alpha = alpha_of(study)
     smallest = float(info["smallest_p"])
     rows = fmt(info.get("n_rows"))
-    why = (f"with n = {contrast.n} participants only {rows} distinct assignments exist"
-           if info.get("exact") else f"the null has {rows} rows")
+    why = (
+        f"with n = {contrast.n} participants only {rows} distinct assignments exist"
+        if info.get("exact")
+        else f"the null has {rows} rows"
+    )
     if smallest > alpha:
-        return note(f"<b>No permutation result can be significant:</b> {why}, so the smallest "
-                    f"attainable p is {fmt(smallest)}, above α = {fmt(alpha)}.", warning=True)
+        return note(
+            f"<b>No permutation result can be significant:</b> {why}, so the smallest "
+            f"attainable p is {fmt(smallest)}, above α = {fmt(alpha)}.",
+            warning=True,
+        )
     text = f"The smallest attainable permutation p is {fmt(smallest)} ({why})."
     if smallest > alpha / 10:
-        return note(text + " Permutation p-values come in steps this coarse, so p near α is "
-                    "imprecise; " + ("more participants" if info.get("exact")
-                                     else "more permutations") + " would sharpen it.", warning=True)
+        return note(
+            text + " Permutation p-values come in steps this coarse, so p near α is "
+            "imprecise; " + ("more participants" if info.get("exact") else "more permutations") + " would sharpen it.",
+            warning=True,
+        )
     return note(text)
 
 
@@ -192,39 +214,61 @@ def correction_notes(correction: ReportedCorrection, contrast: ReportedContrast,
     kind = method_kind(correction.method)
     alpha = alpha_of(study)
     if kind in {"bh", "by"}:
-        text = ("False discovery rate: among the points declared significant, the expected "
-                "share of false discoveries is bounded; it does not bound the chance that any "
-                "single point is a false positive.")
+        text = (
+            "False discovery rate: among the points declared significant, the expected "
+            "share of false discoveries is bounded; it does not bound the chance that any "
+            "single point is a false positive."
+        )
     elif kind == "cluster":
-        text = ("A cluster's p-value supports a claim about the cluster as a whole (there is an "
-                "effect somewhere in it), not about its exact onset, frequency edges or channel "
-                "set (Sassenhagen &amp; Draschkow 2019).")
+        text = (
+            "A cluster's p-value supports a claim about the cluster as a whole (there is an "
+            "effect somewhere in it), not about its exact onset, frequency edges or channel "
+            "set (Sassenhagen &amp; Draschkow 2019)."
+        )
     elif kind == "tfce":
-        text = ("TFCE p-values are per point and control the chance of any false positive "
-                "among all points; the borders of a significant region still depend on power "
-                "and are not precise evidence of an effect's onset or extent.")
+        text = (
+            "TFCE p-values are per point and control the chance of any false positive "
+            "among all points; the borders of a significant region still depend on power "
+            "and are not precise evidence of an effect's onset or extent."
+        )
     else:
         text = "Family-wise error: the chance of any false positive among all points is at most α."
     warning = ""
     settings = correction_parameters({}, correction)
-    if (kind in _FWER_P and str(settings.get("pvalues", "")) == "permutation"
-            and contrast.nulls.get("smallest_p") is not None
-            and float(contrast.nulls["smallest_p"]) > alpha / correction.mask.size):
-        warning = note(f"With permutation p-values the smallest attainable p "
-                       f"({fmt(float(contrast.nulls['smallest_p']))}) is above α/m = "
-                       f"{fmt(alpha / correction.mask.size)}: this procedure cannot declare any "
-                       "point significant.", warning=True)
+    if (
+        kind in _FWER_P
+        and str(settings.get("pvalues", "")) == "permutation"
+        and contrast.nulls.get("smallest_p") is not None
+        and float(contrast.nulls["smallest_p"]) > alpha / correction.mask.size
+    ):
+        warning = note(
+            f"With permutation p-values the smallest attainable p "
+            f"({fmt(float(contrast.nulls['smallest_p']))}) is above α/m = "
+            f"{fmt(alpha / correction.mask.size)}: this procedure cannot declare any "
+            "point significant.",
+            warning=True,
+        )
     return note(text) + warning
 
 
-def cluster_block(contrast: ReportedContrast, correction: ReportedCorrection, spec: dict, study: dict,
-                  flat: np.ndarray | None, write: FigureWriter | None) -> str:
+def cluster_block(
+    contrast: ReportedContrast,
+    correction: ReportedCorrection,
+    spec: dict,
+    study: dict,
+    flat: np.ndarray | None,
+    write: FigureWriter | None,
+) -> str:
     """Cluster table (significant clusters and the largest others) and one figure per
     significant cluster; figures are skipped when ``flat`` (projected positions) is None."""
     alpha = alpha_of(study)
     columns = list(correction.clusters[0].keys())
-    titles = {k: (v.get("Description", "") + (f" ({v['Units']})" if v.get("Units") else ""))
-              if isinstance(v, dict) else str(v) for k, v in correction.cluster_columns.items()}
+    titles = {
+        k: (v.get("Description", "") + (f" ({v['Units']})" if v.get("Units") else ""))
+        if isinstance(v, dict)
+        else str(v)
+        for k, v in correction.cluster_columns.items()
+    }
     significant = [row for row in correction.clusters if float(row["p"]) <= alpha]
     others = [row for row in correction.clusters if float(row["p"]) > alpha]
     shown = significant + others[:_OTHER_CLUSTERS]
@@ -232,28 +276,33 @@ def cluster_block(contrast: ReportedContrast, correction: ReportedCorrection, sp
     classes = ["significant" if float(row["p"]) <= alpha else "" for row in shown]
     ident = anchor(contrast.name, correction.name, "clusters")
     noun = correction.table_noun
-    html = (f"<h4>{noun.capitalize()}s: {len(significant)} of {len(correction.clusters)} with p ≤ "
-            f"{fmt(alpha)} (bold)</h4>"
-            + table(columns, rows, titles=titles, row_classes=classes,
-                    table_class=f"clusters {ident}"))
+    html = (
+        f"<h4>{noun.capitalize()}s: {len(significant)} of {len(correction.clusters)} with p ≤ "
+        f"{fmt(alpha)} (bold)</h4>"
+        + table(columns, rows, titles=titles, row_classes=classes, table_class=f"clusters {ident}")
+    )
     if len(others) > _OTHER_CLUSTERS:
-        html += (f"<p>{len(others) - _OTHER_CLUSTERS} smaller {noun}s with p &gt; {fmt(alpha)} "
-                 f"are not shown; every {noun} is in contrasts/{esc(contrast.name)}/"
-                 f"{esc(correction.name)}/clusters.tsv.</p>")
+        html += (
+            f"<p>{len(others) - _OTHER_CLUSTERS} smaller {noun}s with p &gt; {fmt(alpha)} "
+            f"are not shown; every {noun} is in contrasts/{esc(contrast.name)}/"
+            f"{esc(correction.name)}/clusters.tsv.</p>"
+        )
     unit = figures.effect_unit(study)
     for row in correction.clusters:
         if float(row["p"]) > alpha or flat is None:
             continue
         positive = str(row.get("sign", "+")).strip().lower() not in {"-", "negative", "-1"}
-        words = (f"<b>{noun.capitalize()} {esc(row['id'])}</b> ({esc(direction(spec, positive))}), p = "
-                 f"{fmt(float(row['p']))}: roughly {fmt(row['time_start_ms'])} to "
-                 f"{fmt(row['time_end_ms'])} ms, {fmt(row['freq_low_hz'])} to "
-                 f"{fmt(row['freq_high_hz'])} Hz, {len(str(row['channels']).split(','))} channels; "
-                 f"peak {figures.stat_label(contrast)} = {fmt(row['peak_stat'])} at "
-                 f"{esc(row['peak_channel'])}, {fmt(row['peak_freq_hz'])} Hz, "
-                 f"{fmt(row['peak_time_ms'])} ms. Left: effect over the {noun}'s channels, {noun} "
-                 f"outlined; middle: scalp map at the peak; right: time course over the {noun}'s "
-                 "channels and frequencies.")
+        words = (
+            f"<b>{noun.capitalize()} {esc(row['id'])}</b> ({esc(direction(spec, positive))}), p = "
+            f"{fmt(float(row['p']))}: roughly {fmt(row['time_start_ms'])} to "
+            f"{fmt(row['time_end_ms'])} ms, {fmt(row['freq_low_hz'])} to "
+            f"{fmt(row['freq_high_hz'])} Hz, {len(str(row['channels']).split(','))} channels; "
+            f"peak {figures.stat_label(contrast)} = {fmt(row['peak_stat'])} at "
+            f"{esc(row['peak_channel'])}, {fmt(row['peak_freq_hz'])} Hz, "
+            f"{fmt(row['peak_time_ms'])} ms. Left: effect over the {noun}'s channels, {noun} "
+            f"outlined; middle: scalp map at the peak; right: time course over the {noun}'s "
+            "channels and frequencies."
+        )
         with figure_style():
             fig = figures.cluster_figure(contrast, correction, row, flat, unit=unit)
         number = int(row["id"])
@@ -269,101 +318,158 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
     spec = next((c for c in study.get("contrasts", []) if c["name"] == contrast.name), {})
     alpha = alpha_of(study)
     total = contrast.stat.size
-    head = (f'<h2 id="{anchor("contrast", contrast.name)}">Contrast {esc(contrast.name)}</h2>'
-            f'<p class="summary">{esc(contrast.test)}'
-            + (f", {esc(' − '.join(map(str, spec['conditions'])))}" if spec.get("conditions") else "")
-            + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
-            f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
-            f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
-            f"mean {esc(direction(spec, True))}.</p>" + permutation_notes(contrast, study))
+    head = (
+        f'<h2 id="{anchor("contrast", contrast.name)}">Contrast {esc(contrast.name)}</h2>'
+        f'<p class="summary">{esc(contrast.test)}'
+        + (f", {esc(' − '.join(map(str, spec['conditions'])))}" if spec.get("conditions") else "")
+        + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
+        f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
+        f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
+        f"mean {esc(direction(spec, True))}.</p>" + permutation_notes(contrast, study)
+    )
     uncorrected = contrast.p <= alpha
     base = anchor(contrast.name)
     counts = max([1] + [int(c.mask.sum(axis=0).max()) for c in contrast.corrections])
     cards = []
     with figure_style():
-        fig = figures.map_figure(contrast, uncorrected, count_limit=counts, title="uncorrected",
-                                 subtitle=f"{int(uncorrected.sum())} of {total} points p ≤ {fmt(alpha)}")
-    cards.append(write(fig, f"{base}__uncorrected__map",
-                       caption=f"<b>uncorrected</b>: {int(uncorrected.sum())} of {total} points "
-                               f"with p ≤ {fmt(alpha)}. Not a basis for claims.",
-                       alt="uncorrected map"))
+        fig = figures.map_figure(
+            contrast,
+            uncorrected,
+            count_limit=counts,
+            title="uncorrected",
+            subtitle=f"{int(uncorrected.sum())} of {total} points p ≤ {fmt(alpha)}",
+        )
+    cards.append(
+        write(
+            fig,
+            f"{base}__uncorrected__map",
+            caption=f"<b>uncorrected</b>: {int(uncorrected.sum())} of {total} points "
+            f"with p ≤ {fmt(alpha)}. Not a basis for claims.",
+            alt="uncorrected map",
+        )
+    )
     details = []
     for correction in contrast.corrections:
         with figure_style():
-            fig = figures.map_figure(contrast, correction.mask, count_limit=counts,
-                                     title=correction.name,
-                                     subtitle=f"{correction.method}: {correction.n_significant} "
-                                              f"of {total} points")
-        cards.append(write(fig, f"{base}__{anchor(correction.name)}__map",
-                           caption=f"<b>{esc(named(correction.name, correction.method))}</b>: "
-                                   f"{correction.n_significant} significant points",
-                           alt=f"{correction.name} map"))
+            fig = figures.map_figure(
+                contrast,
+                correction.mask,
+                count_limit=counts,
+                title=correction.name,
+                subtitle=f"{correction.method}: {correction.n_significant} of {total} points",
+            )
+        cards.append(
+            write(
+                fig,
+                f"{base}__{anchor(correction.name)}__map",
+                caption=f"<b>{esc(named(correction.name, correction.method))}</b>: "
+                f"{correction.n_significant} significant points",
+                alt=f"{correction.name} map",
+            )
+        )
         details.append(_correction_detail(run, contrast, correction, spec, write))
-    grid = (f"<h3>Uncorrected and corrected, side by side</h3><p>Top: the statistic at the peak "
-            "channel, points not significant there faded, significant ones outlined. Bottom: "
-            "number of significant channels at each time and frequency.</p>"
-            f'<div class="grid">{"".join(cards)}</div>')
+    grid = (
+        f"<h3>Uncorrected and corrected, side by side</h3><p>Top: the statistic at the peak "
+        "channel, points not significant there faded, significant ones outlined. Bottom: "
+        "number of significant channels at each time and frequency.</p>"
+        f'<div class="grid">{"".join(cards)}</div>'
+    )
     flat = channel_flat(run, contrast)
-    explorer = "" if flat is None else explorer_block(explorer_data(
-        contrast, run.output_dir / "contrasts" / contrast.name, flat=flat, alpha=alpha,
-        stat_label=figures.stat_label(contrast), unit=figures.effect_unit(study),
-        positive=direction(spec, True), negative=direction(spec, False)))
-    planned = planned_block(run.output_dir / "contrasts" / contrast.name, f"{base}__planned__values",
-                            unit=figures.effect_unit(study), write=write)
+    explorer = (
+        ""
+        if flat is None
+        else explorer_block(
+            explorer_data(
+                contrast,
+                run.output_dir / "contrasts" / contrast.name,
+                flat=flat,
+                alpha=alpha,
+                stat_label=figures.stat_label(contrast),
+                unit=figures.effect_unit(study),
+                positive=direction(spec, True),
+                negative=direction(spec, False),
+            )
+        )
+    )
+    planned = planned_block(
+        run.output_dir / "contrasts" / contrast.name,
+        f"{base}__planned__values",
+        unit=figures.effect_unit(study),
+        write=write,
+    )
     return head + grid + explorer + planned + "".join(details)
 
 
-def _correction_detail(run: Run, contrast: ReportedContrast, correction: ReportedCorrection, spec: dict,
-                       write: FigureWriter) -> str:
+def _correction_detail(
+    run: Run, contrast: ReportedContrast, correction: ReportedCorrection, spec: dict, write: FigureWriter
+) -> str:
     study = run.study
     entry = correction_entries(study).get(correction.name, {})
     parameters = correction_parameters(entry, correction)
-    listed = ", ".join(f"{k} = {fmt(v) if not isinstance(v, (list, dict)) else v}"
-                       for k, v in parameters.items())
-    threshold = (f"; threshold ({correction.threshold_kind}) {fmt(correction.threshold)}"
-                 if np.isfinite(correction.threshold) else "")
-    html = (f'<h3 id="{anchor(contrast.name, correction.name)}">{esc(contrast.name)} · '
-            f"{esc(correction.name)}</h3><p class=\"summary\">Method {esc(correction.method)}"
-            f" ({esc(listed) or 'no parameters'}){esc(threshold)}: "
-            f"<b>{correction.n_significant} significant points</b>. "
-            f"{describe_mask(contrast, correction.mask, spec)}</p>"
-            + correction_notes(correction, contrast, study))
+    listed = ", ".join(f"{k} = {fmt(v) if not isinstance(v, (list, dict)) else v}" for k, v in parameters.items())
+    threshold = (
+        f"; threshold ({correction.threshold_kind}) {fmt(correction.threshold)}"
+        if np.isfinite(correction.threshold)
+        else ""
+    )
+    html = (
+        f'<h3 id="{anchor(contrast.name, correction.name)}">{esc(contrast.name)} · '
+        f'{esc(correction.name)}</h3><p class="summary">Method {esc(correction.method)}'
+        f" ({esc(listed) or 'no parameters'}){esc(threshold)}: "
+        f"<b>{correction.n_significant} significant points</b>. "
+        f"{describe_mask(contrast, correction.mask, spec)}</p>" + correction_notes(correction, contrast, study)
+    )
     if correction.null is not None and np.isfinite(correction.null).any():
         with figure_style():
             fig = figures.null_figure(correction, contrast)
-        html += write(fig, f"{anchor(contrast.name)}__{anchor(correction.name)}__null",
-                      caption=f"<b>Permutation null</b> of {esc(correction.name)}: the largest "
-                              "value per permutation, the critical value (dashed) and the "
-                              "observed largest values. Observed values right of the critical "
-                              "value are significant.", alt=f"null of {correction.name}")
+        html += write(
+            fig,
+            f"{anchor(contrast.name)}__{anchor(correction.name)}__null",
+            caption=f"<b>Permutation null</b> of {esc(correction.name)}: the largest "
+            "value per permutation, the critical value (dashed) and the "
+            "observed largest values. Observed values right of the critical "
+            "value are significant.",
+            alt=f"null of {correction.name}",
+        )
     if correction.clusters:
         flat = channel_flat(run, contrast)
         html += cluster_block(contrast, correction, spec, study, flat, write)
-        html += values_block(run.output_dir / "contrasts" / contrast.name / correction.name,
-                             f"{anchor(contrast.name)}__{anchor(correction.name)}__values",
-                             noun=correction.table_noun, unit=figures.effect_unit(study), write=write)
+        html += values_block(
+            run.output_dir / "contrasts" / contrast.name / correction.name,
+            f"{anchor(contrast.name)}__{anchor(correction.name)}__values",
+            noun=correction.table_noun,
+            unit=figures.effect_unit(study),
+            write=write,
+        )
     return html
 
 
 def provenance_section(record: dict) -> str:
     """Fingerprints, versions, result and input hashes."""
-    rows = [["results fingerprint (SHA-256)", record.get("results_fingerprint")],
-            ["spec fingerprint (SHA-256)", record["spec_fingerprint"]],
-            ["seed", record.get("seed")], ["permutations", record.get("permutations")],
-            ["started", record.get("started")], ["finished", record.get("finished")]]
+    rows = [
+        ["results fingerprint (SHA-256)", record.get("results_fingerprint")],
+        ["spec fingerprint (SHA-256)", record["spec_fingerprint"]],
+        ["seed", record.get("seed")],
+        ["permutations", record.get("permutations")],
+        ["started", record.get("started")],
+        ["finished", record.get("finished")],
+    ]
     rows += [[f"package {k}", v] for k, v in record["packages"].items()]
     files = [[name, info["bytes"], info["sha256"]] for name, info in record["input_files"].items()]
-    masks = [[f"{contrast}/{name}", info["n_significant"], info["arrays"]["mask"]]
-             for contrast, entry in record.get("results", {}).items()
-             for name, info in entry["corrections"].items()]
-    html = ('<h2 id="provenance">Provenance</h2><p>A rerun of the same spec on the same inputs '
-            "gives the same provenance.json apart from the start and end times. Two runs with the "
-            "same results fingerprint have identical statistics, corrected p-values, masks and "
-            "cluster tables; <code>famwise compare</code> names what differs.</p>"
-            + table(["item", "value"], [[k, "" if v is None else v] for k, v in rows]))
+    masks = [
+        [f"{contrast}/{name}", info["n_significant"], info["arrays"]["mask"]]
+        for contrast, entry in record.get("results", {}).items()
+        for name, info in entry["corrections"].items()
+    ]
+    html = (
+        '<h2 id="provenance">Provenance</h2><p>A rerun of the same spec on the same inputs '
+        "gives the same provenance.json apart from the start and end times. Two runs with the "
+        "same results fingerprint have identical statistics, corrected p-values, masks and "
+        "cluster tables; <code>famwise compare</code> names what differs.</p>"
+        + table(["item", "value"], [[k, "" if v is None else v] for k, v in rows])
+    )
     if masks:
         html += "<h4>Significance masks</h4>" + table(["contrast/correction", "points", "SHA-256"], masks)
     if files:
         html += "<h4>Input files</h4>" + table(["file", "bytes", "SHA-256"], files)
     return html
-

@@ -40,8 +40,10 @@ def decomposition_words(tf: dict) -> str:
     else:
         how = f"Morlet wavelets ({_width(tf.get('cycles'))} cycles)"
     spacing = {"log": "log-spaced ", "linear": "evenly spaced "}.get(str(grid.get("spacing", "")), "")
-    return (f"{tf.get('measure', 'power')} from {how} at {fmt(grid.get('count'))} {spacing}frequencies, "
-            f"{_span((grid.get('lowest_hz'), grid.get('highest_hz')), 'Hz')}")
+    return (
+        f"{tf.get('measure', 'power')} from {how} at {fmt(grid.get('count'))} {spacing}frequencies, "
+        f"{_span((grid.get('lowest_hz'), grid.get('highest_hz')), 'Hz')}"
+    )
 
 
 def _width(value) -> str:
@@ -53,14 +55,18 @@ def window_words(analysis: dict) -> str:
     time = analysis.get("time_ms")
     band = analysis.get("freq_hz")
     channels = analysis.get("channels")
-    return ", ".join([
-        _span(time, "ms") if time else "the widest time window free of edge effects",
-        _span(band, "Hz") if band else "every frequency",
-        f"channels {', '.join(channels)}" if channels else "every channel",
-    ])
+    return ", ".join(
+        [
+            _span(time, "ms") if time else "the widest time window free of edge effects",
+            _span(band, "Hz") if band else "every frequency",
+            f"channels {', '.join(channels)}" if channels else "every channel",
+        ]
+    )
 
 
 def inference_words(inference: dict) -> str:
     """E.g. 't statistic, two-sided at alpha 0.05, 999 permutations'."""
-    return (f"{inference.get('statistic', 't')} statistic, {_TAIL.get(str(inference.get('tail', 'two-sided')), inference.get('tail'))}"
-            f" at alpha {fmt(inference.get('alpha'))}, {fmt(inference.get('permutations'))} permutations")
+    return (
+        f"{inference.get('statistic', 't')} statistic, {_TAIL.get(str(inference.get('tail', 'two-sided')), inference.get('tail'))}"
+        f" at alpha {fmt(inference.get('alpha'))}, {fmt(inference.get('permutations'))} permutations"
+    )

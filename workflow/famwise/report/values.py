@@ -9,19 +9,21 @@ from pathlib import Path
 import matplotlib.pyplot as plt
 import numpy as np
 
+from famwise.figure_style import ACCENT, DIVERGING, MUTED, figure_style
 from famwise.report.html import esc, note
 from famwise.report.results import read_tsv
-from famwise.figure_style import ACCENT, DIVERGING, MUTED, figure_style
 
 _MOST = 8
 """Clusters drawn in the static figure (the TSV has every significant one)."""
 
-CAVEAT = ("<b>Circular analysis:</b> these values come from points selected by the same data the test used, "
-          "so they overstate the effect (Kriegeskorte et al. 2009, Nature Neuroscience 12:535-540). Use them "
-          "to plot the effect, spot outliers or relate it to behaviour descriptively; never test them again. "
-          "An unbiased value comes from a region fixed in advance (from earlier work or independent data): "
-          "name it in the spec under <code>planned_regions</code> (channels, a frequency band, a time window) "
-          "and the report gives each subject's mean over it.")
+CAVEAT = (
+    "<b>Circular analysis:</b> these values come from points selected by the same data the test used, "
+    "so they overstate the effect (Kriegeskorte et al. 2009, Nature Neuroscience 12:535-540). Use them "
+    "to plot the effect, spot outliers or relate it to behaviour descriptively; never test them again. "
+    "An unbiased value comes from a region fixed in advance (from earlier work or independent data): "
+    "name it in the spec under <code>planned_regions</code> (channels, a frequency band, a time window) "
+    "and the report gives each subject's mean over it."
+)
 
 
 def read_values(folder: Path, name: str = "subject_values.tsv") -> tuple[list[str], dict[str, list[dict]]]:
@@ -52,9 +54,14 @@ def categories(columns: list[str], rows: list[dict]) -> list[dict]:
     for name in shown:
         for group in groups or [None]:
             mine = [r for r in rows if group is None or r.get("group") == group]
-            out.append({"label": name if group is None else f"{name} ({group})",
-                        "subjects": [r["subject"] for r in mine], "values": [float(r[name]) for r in mine],
-                        "paired": not groups and len(shown) == 3 and shown[2] == "contrast"})
+            out.append(
+                {
+                    "label": name if group is None else f"{name} ({group})",
+                    "subjects": [r["subject"] for r in mine],
+                    "values": [float(r[name]) for r in mine],
+                    "paired": not groups and len(shown) == 3 and shown[2] == "contrast",
+                }
+            )
     return out
 
 
@@ -62,14 +69,19 @@ def strip_figure(columns: list[str], clusters: dict[str, list[dict]], *, noun: s
     """Small multiples: per cluster, each subject's value per strip as dots, the group mean as a bar."""
     shown = list(clusters.items())[:_MOST]
     width = len(categories(columns, shown[0][1]))
-    figure, axes = plt.subplots(1, len(shown), figsize=(0.9 + max(2.1, 1.05 * width) * len(shown), 2.9),
-                                layout="constrained", squeeze=False)
+    figure, axes = plt.subplots(
+        1, len(shown), figsize=(0.9 + max(2.1, 1.05 * width) * len(shown), 2.9), layout="constrained", squeeze=False
+    )
     for ax, (ident, rows) in zip(axes[0], shown):
         strips = categories(columns, rows)
         if strips[0]["paired"]:
             spread = (np.arange(len(rows)) * 0.618034 % 1 - 0.5) * 0.36
-            ax.plot(np.array([0, 1])[:, None] + spread, np.array([strips[0]["values"], strips[1]["values"]]),
-                    color="#b8bcc4", lw=0.7)
+            ax.plot(
+                np.array([0, 1])[:, None] + spread,
+                np.array([strips[0]["values"], strips[1]["values"]]),
+                color="#b8bcc4",
+                lw=0.7,
+            )
         for k, strip in enumerate(strips):
             values = np.array(strip["values"])
             spread = (np.arange(len(values)) * 0.618034 % 1 - 0.5) * 0.36
@@ -92,12 +104,17 @@ def values_block(folder: Path, stem: str, *, noun: str, unit: str, write) -> str
     with figure_style():
         fig = strip_figure(columns, clusters, noun=noun, unit=unit)
     more = len(clusters) - _MOST
-    caption = (f"<b>Per-subject values</b>: each subject's mean over the points of each significant {noun} "
-               f"(dots), the group mean (bar); columns are the conditions and the tested contrast. "
-               + (f"The first {_MOST} of {len(clusters)} {noun}s are drawn; " if more > 0 else "")
-               + f"every value is in {esc(Path(folder).parent.name)}/{esc(Path(folder).name)}/subject_values.tsv.")
-    return (f"<h4>Per-subject values of the significant {noun}s</h4>" + note(CAVEAT, warning=True)
-            + write(fig, stem, caption=caption, alt=f"per-subject values of each {noun}"))
+    caption = (
+        f"<b>Per-subject values</b>: each subject's mean over the points of each significant {noun} "
+        f"(dots), the group mean (bar); columns are the conditions and the tested contrast. "
+        + (f"The first {_MOST} of {len(clusters)} {noun}s are drawn; " if more > 0 else "")
+        + f"every value is in {esc(Path(folder).parent.name)}/{esc(Path(folder).name)}/subject_values.tsv."
+    )
+    return (
+        f"<h4>Per-subject values of the significant {noun}s</h4>"
+        + note(CAVEAT, warning=True)
+        + write(fig, stem, caption=caption, alt=f"per-subject values of each {noun}")
+    )
 
 
 def planned_block(folder: Path, stem: str, *, unit: str, write) -> str:
@@ -110,11 +127,18 @@ def planned_block(folder: Path, stem: str, *, unit: str, write) -> str:
         return ""
     with figure_style():
         fig = strip_figure(columns, regions, noun="region", unit=unit)
-    caption = ("<b>Planned regions</b>: each subject's mean over each region named in the spec's "
-               "<code>planned_regions</code> (dots), the group mean (bar). Every value is in "
-               f"{esc(Path(folder).name)}/planned_values.tsv, the regions' definitions in its sidecar.")
-    text = ("<p>These regions were named before the analysis, so their values were not selected by this "
-            "result: if the regions really were fixed before looking at the data, they estimate the effect "
-            "without the bias of a significant cluster's values.</p>")
-    return ("<h3>Planned regions</h3>" + text
-            + write(fig, stem, caption=caption, alt="per-subject values of the planned regions"))
+    caption = (
+        "<b>Planned regions</b>: each subject's mean over each region named in the spec's "
+        "<code>planned_regions</code> (dots), the group mean (bar). Every value is in "
+        f"{esc(Path(folder).name)}/planned_values.tsv, the regions' definitions in its sidecar."
+    )
+    text = (
+        "<p>These regions were named before the analysis, so their values were not selected by this "
+        "result: if the regions really were fixed before looking at the data, they estimate the effect "
+        "without the bias of a significant cluster's values.</p>"
+    )
+    return (
+        "<h3>Planned regions</h3>"
+        + text
+        + write(fig, stem, caption=caption, alt="per-subject values of the planned regions")
+    )

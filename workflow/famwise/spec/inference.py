@@ -1,6 +1,6 @@
 """Spec models of the inference section: statistic, resampling and the corrections."""
 
-from typing import Annotated, Literal, Union
+from typing import Annotated, Literal
 
 from pydantic import Field, field_validator, model_validator
 
@@ -14,7 +14,9 @@ Dimension = Literal["channel", "freq", "time"]
 
 
 class _Correction(SpecModel):
-    name: str | None = Field(default=None, description="Name of this correction's result folder; defaults to the method.")
+    name: str | None = Field(
+        default=None, description="Name of this correction's result folder; defaults to the method."
+    )
 
     @field_validator("name")
     @classmethod
@@ -30,9 +32,18 @@ class _Correction(SpecModel):
 class PValueCorrection(_Correction):
     """A p-value procedure applied point by point."""
 
-    method: PValueMethod = Field(description="bonferroni, sidak, holm (step-down), hochberg (step-up), fdr-bh (Benjamini-Hochberg) or fdr-by (Benjamini-Yekutieli).")
-    level: float | None = Field(default=None, gt=0, lt=1, description="alpha (FWER methods) or q (FDR methods) for this correction; defaults to inference.alpha.")
-    pvalues: Literal["parametric", "permutation"] = Field(default="parametric", description="Input p-values: from the test's distribution or from the permutation null.")
+    method: PValueMethod = Field(
+        description="bonferroni, sidak, holm (step-down), hochberg (step-up), fdr-bh (Benjamini-Hochberg) or fdr-by (Benjamini-Yekutieli)."
+    )
+    level: float | None = Field(
+        default=None,
+        gt=0,
+        lt=1,
+        description="alpha (FWER methods) or q (FDR methods) for this correction; defaults to inference.alpha.",
+    )
+    pvalues: Literal["parametric", "permutation"] = Field(
+        default="parametric", description="Input p-values: from the test's distribution or from the permutation null."
+    )
 
     @property
     def needs_null(self) -> bool:
@@ -54,11 +65,26 @@ class ClusterCorrection(_Correction):
     """Cluster-based permutation inference."""
 
     method: Literal["cluster"] = Field(description="Cluster-based permutation (Maris & Oostenveld 2007).")
-    forming_p: float | None = Field(default=0.01, gt=0, lt=1, description="Cluster-forming threshold as a p-value of the test's own distribution (two-sided: halved per tail). The default applies when forming_stat is not given.")
-    forming_stat: float | None = Field(default=None, gt=0, description="Cluster-forming threshold as a statistic value.")
-    cluster_stat: Literal["mass", "size"] = Field(default="mass", description="Cluster statistic: mass (sum of |stat|) or size (number of points).")
-    dims: list[Dimension] = Field(default_factory=lambda: ["channel", "freq", "time"], min_length=1, description="Dimensions clusters extend over.")
-    min_supra_neighbors: int = Field(default=0, ge=0, description="Fewest supra-threshold neighbor channels a point needs to join a cluster.")
+    forming_p: float | None = Field(
+        default=0.01,
+        gt=0,
+        lt=1,
+        description="Cluster-forming threshold as a p-value of the test's own distribution (two-sided: halved per tail). The default applies when forming_stat is not given.",
+    )
+    forming_stat: float | None = Field(
+        default=None, gt=0, description="Cluster-forming threshold as a statistic value."
+    )
+    cluster_stat: Literal["mass", "size"] = Field(
+        default="mass", description="Cluster statistic: mass (sum of |stat|) or size (number of points)."
+    )
+    dims: list[Dimension] = Field(
+        default_factory=lambda: ["channel", "freq", "time"],
+        min_length=1,
+        description="Dimensions clusters extend over.",
+    )
+    min_supra_neighbors: int = Field(
+        default=0, ge=0, description="Fewest supra-threshold neighbor channels a point needs to join a cluster."
+    )
 
     @property
     def needs_null(self) -> bool:
@@ -85,8 +111,14 @@ class TFCECorrection(_Correction):
     method: Literal["tfce"] = Field(description="Threshold-free cluster enhancement.")
     E: float = Field(default=0.5, gt=0, description="Extent exponent.")
     H: float = Field(default=2.0, gt=0, description="Height exponent.")
-    step: float | None = Field(default=None, gt=0, description="Fixed integration step in statistic units; omit for the exact integral.")
-    dims: list[Dimension] = Field(default_factory=lambda: ["channel", "freq", "time"], min_length=1, description="Dimensions clusters extend over.")
+    step: float | None = Field(
+        default=None, gt=0, description="Fixed integration step in statistic units; omit for the exact integral."
+    )
+    dims: list[Dimension] = Field(
+        default_factory=lambda: ["channel", "freq", "time"],
+        min_length=1,
+        description="Dimensions clusters extend over.",
+    )
 
     @property
     def needs_null(self) -> bool:
@@ -94,7 +126,7 @@ class TFCECorrection(_Correction):
 
 
 Correction = Annotated[
-    Union[PValueCorrection, MaxStatCorrection, ClusterCorrection, TFCECorrection],
+    PValueCorrection | MaxStatCorrection | ClusterCorrection | TFCECorrection,
     Field(discriminator="method"),
 ]
 
@@ -102,15 +134,33 @@ Correction = Annotated[
 class Inference(SpecModel):
     """Statistics, resampling and corrections."""
 
-    alpha: float = Field(default=0.05, gt=0, lt=1, description="Significance level (FWER methods) and default FDR level q.")
+    alpha: float = Field(
+        default=0.05, gt=0, lt=1, description="Significance level (FWER methods) and default FDR level q."
+    )
     tail: Tail = Field(default="two-sided", description="'two-sided', 'greater' or 'less'.")
-    statistic: StatisticName = Field(default="t", description="'t' or 'yuen' (trimmed-mean t, Yuen 1974) for one-sample, paired and two-sample tests.")
+    statistic: StatisticName = Field(
+        default="t",
+        description="'t' or 'yuen' (trimmed-mean t, Yuen 1974) for one-sample, paired and two-sample tests.",
+    )
     trim: float = Field(default=0.2, ge=0, lt=0.5, description="Trimming proportion of the Yuen statistic.")
     equal_var: bool = Field(default=True, description="Two-sample: Student's t (true) or Welch's t (false).")
-    permutations: int = Field(default=1000, ge=1, description="Number of random permutations; all of them (exact test) when fewer distinct ones exist.")
-    shards: int = Field(default=1, ge=1, description="Number of pieces the permutations are split into (one job each); results do not depend on it.")
-    family: Family = Field(default="per-contrast", description="'per-contrast', or 'all-contrasts' to correct over every contrast of the study together.")
-    corrections: list[Correction] = Field(min_length=1, description="Corrections to apply, each with its own settings and an optional name.")
+    permutations: int = Field(
+        default=1000,
+        ge=1,
+        description="Number of random permutations; all of them (exact test) when fewer distinct ones exist.",
+    )
+    shards: int = Field(
+        default=1,
+        ge=1,
+        description="Number of pieces the permutations are split into (one job each); results do not depend on it.",
+    )
+    family: Family = Field(
+        default="per-contrast",
+        description="'per-contrast', or 'all-contrasts' to correct over every contrast of the study together.",
+    )
+    corrections: list[Correction] = Field(
+        min_length=1, description="Corrections to apply, each with its own settings and an optional name."
+    )
 
     @model_validator(mode="after")
     def _unique_names(self) -> "Inference":

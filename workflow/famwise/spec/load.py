@@ -106,7 +106,9 @@ def _read_text(path: Path) -> str:
     try:
         text = raw.decode("utf-8")
     except UnicodeDecodeError as error:
-        raise UserError(f"{path.name}: not a text file (byte {error.start} is not UTF-8); give the study's YAML spec") from None
+        raise UserError(
+            f"{path.name}: not a text file (byte {error.start} is not UTF-8); give the study's YAML spec"
+        ) from None
     if "\0" in text:
         raise UserError(f"{path.name}: not a text file (it holds NUL bytes); give the study's YAML spec")
     return text
@@ -159,7 +161,11 @@ def _describe(error: ValidationError, root, file_name: str) -> str:
 
 def _without_union_tags(loc: tuple) -> tuple:
     """Drop the discriminator tags pydantic puts in union locations."""
-    return tuple(part for part in loc if part not in ("bonferroni", "sidak", "holm", "hochberg", "fdr-bh", "fdr-by", "max-stat", "cluster", "tfce"))
+    return tuple(
+        part
+        for part in loc
+        if part not in ("bonferroni", "sidak", "holm", "hochberg", "fdr-bh", "fdr-by", "max-stat", "cluster", "tfce")
+    )
 
 
 def _plain_message(err: dict, loc: tuple) -> str:
@@ -185,7 +191,7 @@ def _plain_message(err: dict, loc: tuple) -> str:
         return "each correction needs a 'method'"
     message = err["msg"]
     if message.startswith("Value error, "):
-        message = message[len("Value error, "):]
+        message = message[len("Value error, ") :]
     found = err.get("input")
     if kind not in ("value_error", "assertion_error") and not isinstance(found, (dict, list)):
         message = f"{message[0].lower()}{message[1:]}, got {found!r}"

@@ -12,9 +12,25 @@ from typing import Literal
 
 from pydantic import Field, field_validator, model_validator
 
-from famwise.spec.base import IDENTIFIER, LocatedError, SpecModel, check_name, check_relative, check_window, did_you_mean
+from famwise.spec.base import (
+    IDENTIFIER,
+    LocatedError,
+    SpecModel,
+    check_name,
+    check_relative,
+    check_window,
+    did_you_mean,
+)
 from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's models in one namespace)
-    ClusterCorrection, Correction, Dimension, Family, Inference, MaxStatCorrection, PValueCorrection, StatisticName, Tail,
+    ClusterCorrection,
+    Correction,
+    Dimension,
+    Family,
+    Inference,
+    MaxStatCorrection,
+    PValueCorrection,
+    StatisticName,
+    Tail,
     TFCECorrection,
 )
 
@@ -35,7 +51,10 @@ class Subjects(SpecModel):
         description="For 'epochs' and 'maps': a file pattern with '{subject}', relative to "
         "the spec's folder (e.g. 'data/sub-{subject}.npz') or absolute. For 'bids': the BIDS root folder.",
     )
-    task: str | None = Field(default=None, description="BIDS task label (the 'task-<label>' part); required when the folder holds several tasks. A subject's runs and sessions of the task are pooled.")
+    task: str | None = Field(
+        default=None,
+        description="BIDS task label (the 'task-<label>' part); required when the folder holds several tasks. A subject's runs and sessions of the task are pooled.",
+    )
     ids: list[str] | None = Field(
         default=None,
         description="Subject ids to analyse (letters and digits only: they become file names). "
@@ -80,7 +99,9 @@ class Subjects(SpecModel):
     @model_validator(mode="after")
     def _pattern_has_subject(self) -> "Subjects":
         if self.source != "bids" and "{subject}" not in self.path:
-            raise LocatedError(("path",), f"pattern {self.path!r} must contain '{{subject}}' for source '{self.source}'")
+            raise LocatedError(
+                ("path",), f"pattern {self.path!r} must contain '{{subject}}' for source '{self.source}'"
+            )
         return self
 
 
@@ -91,9 +112,13 @@ class EpochWindow(SpecModel):
         default=(-500.0, 1500.0), description="Epoch window around each event, [start, end] in ms."
     )
     reject_peak_to_peak_uv: float | None = Field(
-        default=None, gt=0, description="Reject epochs whose peak-to-peak amplitude on any channel exceeds this (microvolts); omit to keep all."
+        default=None,
+        gt=0,
+        description="Reject epochs whose peak-to-peak amplitude on any channel exceeds this (microvolts); omit to keep all.",
     )
-    reference: Literal["average", "none"] = Field(default="none", description="Re-reference to the average of all EEG channels, or keep the recorded reference.")
+    reference: Literal["average", "none"] = Field(
+        default="none", description="Re-reference to the average of all EEG channels, or keep the recorded reference."
+    )
 
     @field_validator("window_ms")
     @classmethod
@@ -112,16 +137,24 @@ class FrequencyGrid(SpecModel):
     @model_validator(mode="after")
     def _ordered(self) -> "FrequencyGrid":
         if self.highest_hz < self.lowest_hz:
-            raise LocatedError(("highest_hz",), f"must be at least lowest_hz ({self.lowest_hz} Hz), got {self.highest_hz} Hz")
+            raise LocatedError(
+                ("highest_hz",), f"must be at least lowest_hz ({self.lowest_hz} Hz), got {self.highest_hz} Hz"
+            )
         return self
 
 
 class Baseline(SpecModel):
     """Baseline normalisation of time-frequency maps."""
 
-    mode: BaselineMode = Field(default="db", description="'db' (10 log10 of the ratio), 'percent' change, 'zscore', 'ratio' or 'none'.")
-    window_ms: tuple[float, float] | None = Field(default=(-400.0, -100.0), description="Baseline window [start, end] in ms relative to the event.")
-    pooled: bool = Field(default=False, description="Baseline from all conditions together instead of each condition's own.")
+    mode: BaselineMode = Field(
+        default="db", description="'db' (10 log10 of the ratio), 'percent' change, 'zscore', 'ratio' or 'none'."
+    )
+    window_ms: tuple[float, float] | None = Field(
+        default=(-400.0, -100.0), description="Baseline window [start, end] in ms relative to the event."
+    )
+    pooled: bool = Field(
+        default=False, description="Baseline from all conditions together instead of each condition's own."
+    )
     single_epoch: bool = Field(default=False, description="Normalise every epoch before averaging.")
 
     @field_validator("window_ms")
@@ -139,7 +172,9 @@ class Baseline(SpecModel):
 class Decomposition(SpecModel):
     """Per-subject time-frequency decomposition."""
 
-    method: Literal["morlet", "multitaper"] = Field(default="morlet", description="Complex Morlet wavelets or DPSS multitaper.")
+    method: Literal["morlet", "multitaper"] = Field(
+        default="morlet", description="Complex Morlet wavelets or DPSS multitaper."
+    )
     frequencies: FrequencyGrid = Field(default_factory=FrequencyGrid, description="Frequency grid.")
     cycles: float | tuple[float, float] | None = Field(
         default=7.0,
@@ -148,13 +183,27 @@ class Decomposition(SpecModel):
         "and applies to method 'morlet' when fwhm_ms is not given.",
     )
     fwhm_ms: float | tuple[float, float] | None = Field(
-        default=None, description="Morlet width as temporal full width at half maximum in ms (a number or [at lowest, at highest])."
+        default=None,
+        description="Morlet width as temporal full width at half maximum in ms (a number or [at lowest, at highest]).",
     )
-    taper_length_ms: float | None = Field(default=None, gt=0, description="Multitaper taper length in ms (one window of the DPSS tapers).")
-    nw: float | None = Field(default=None, gt=0, description="Multitaper time-half-bandwidth product NW (Percival & Walden 1993); 2NW - 1 tapers.")
-    measure: Measure = Field(default="power", description="'power' (total), 'induced' (the condition's average response removed first) or 'itpc' (inter-trial phase coherence).")
-    time_step_ms: float | None = Field(default=20.0, gt=0, description="Output time step in ms (decimation after convolution); omit for every sample.")
-    average: Literal["mean", "trimmed"] = Field(default="mean", description="Average over epochs: mean or trimmed mean.")
+    taper_length_ms: float | None = Field(
+        default=None, gt=0, description="Multitaper taper length in ms (one window of the DPSS tapers)."
+    )
+    nw: float | None = Field(
+        default=None,
+        gt=0,
+        description="Multitaper time-half-bandwidth product NW (Percival & Walden 1993); 2NW - 1 tapers.",
+    )
+    measure: Measure = Field(
+        default="power",
+        description="'power' (total), 'induced' (the condition's average response removed first) or 'itpc' (inter-trial phase coherence).",
+    )
+    time_step_ms: float | None = Field(
+        default=20.0, gt=0, description="Output time step in ms (decimation after convolution); omit for every sample."
+    )
+    average: Literal["mean", "trimmed"] = Field(
+        default="mean", description="Average over epochs: mean or trimmed mean."
+    )
     trim: float = Field(default=0.2, ge=0, lt=0.5, description="Proportion trimmed from each end for the trimmed mean.")
     baseline: Baseline = Field(default_factory=Baseline, description="Baseline normalisation.")
 
@@ -162,14 +211,20 @@ class Decomposition(SpecModel):
     @classmethod
     def _positive_width(cls, value):
         if value is not None and any(v <= 0 for v in (value if isinstance(value, tuple) else (value,))):
-            raise ValueError(f"a wavelet width must be positive, got {list(value) if isinstance(value, tuple) else value}")
+            raise ValueError(
+                f"a wavelet width must be positive, got {list(value) if isinstance(value, tuple) else value}"
+            )
         return value
 
     @model_validator(mode="before")
     @classmethod
     def _cycles_default_only_for_morlet(cls, data):
         """The cycles default does not apply when the width is given otherwise (fwhm_ms, multitaper)."""
-        if isinstance(data, dict) and "cycles" not in data and (data.get("fwhm_ms") is not None or data.get("method") == "multitaper"):
+        if (
+            isinstance(data, dict)
+            and "cycles" not in data
+            and (data.get("fwhm_ms") is not None or data.get("method") == "multitaper")
+        ):
             return {**data, "cycles": None}
         return data
 
@@ -196,7 +251,9 @@ class Decomposition(SpecModel):
             if self.average != "mean":
                 raise LocatedError(("average",), "'itpc' averages unit phase vectors; use average 'mean'")
         if self.baseline.pooled and self.baseline.single_epoch:
-            raise LocatedError(("baseline", "single_epoch"), "a pooled baseline cannot also be applied epoch by epoch; choose one")
+            raise LocatedError(
+                ("baseline", "single_epoch"), "a pooled baseline cannot also be applied epoch by epoch; choose one"
+            )
         return self
 
 
@@ -208,7 +265,9 @@ class Analysis(SpecModel):
         description="Time window [start, end] in ms. Omit for the widest window free of edge effects "
         "(cone of influence). Choose it before looking at the data.",
     )
-    freq_hz: tuple[float, float] | None = Field(default=None, description="Frequency band [low, high] in Hz; omit for all frequencies.")
+    freq_hz: tuple[float, float] | None = Field(
+        default=None, description="Frequency band [low, high] in Hz; omit for all frequencies."
+    )
     channels: list[str] | None = Field(default=None, description="Channels to analyse; omit for all.")
 
     @field_validator("time_ms")
@@ -250,7 +309,11 @@ class Neighbors(SpecModel):
         "median edge are cut, or every edge longer than max_distance_mm when given), 'distance' "
         "(3-D distance up to max_distance_mm) or 'edges' (an edge-list TSV).",
     )
-    max_distance_mm: float | None = Field(default=None, gt=0, description="Largest neighbor distance in mm (method 'distance'; optional cut for 'delaunay').")
+    max_distance_mm: float | None = Field(
+        default=None,
+        gt=0,
+        description="Largest neighbor distance in mm (method 'distance'; optional cut for 'delaunay').",
+    )
     edges_file: str | None = Field(default=None, description="TSV with columns channel_a, channel_b (method 'edges').")
 
     @field_validator("edges_file")
@@ -290,8 +353,13 @@ class Contrast(SpecModel):
     """One group-level question."""
 
     name: str = Field(description="Contrast name (letters, digits, '-', '_', '.'; it becomes a folder name).")
-    test: TestName = Field(description="'one-sample', 'paired' (first minus second condition), 'two-sample' (first minus second group), 'repeated-measures' (F over 3+ conditions) or 'correlation' (with a covariate).")
-    conditions: list[str] = Field(min_length=1, description="Conditions compared: one (one-sample, two-sample, correlation), two (paired) or three or more (repeated-measures).")
+    test: TestName = Field(
+        description="'one-sample', 'paired' (first minus second condition), 'two-sample' (first minus second group), 'repeated-measures' (F over 3+ conditions) or 'correlation' (with a covariate)."
+    )
+    conditions: list[str] = Field(
+        min_length=1,
+        description="Conditions compared: one (one-sample, two-sample, correlation), two (paired) or three or more (repeated-measures).",
+    )
     groups: list[str] | None = Field(default=None, description="Two groups for 'two-sample' (first minus second).")
     covariate: str | None = Field(default=None, description="Covariate name for 'correlation'.")
 
@@ -302,7 +370,13 @@ class Contrast(SpecModel):
 
     @model_validator(mode="after")
     def _shape(self) -> "Contrast":
-        wanted = {"one-sample": (1, 1), "paired": (2, 2), "two-sample": (1, 1), "correlation": (1, 1), "repeated-measures": (3, 99)}
+        wanted = {
+            "one-sample": (1, 1),
+            "paired": (2, 2),
+            "two-sample": (1, 1),
+            "correlation": (1, 1),
+            "repeated-measures": (3, 99),
+        }
         low, high = wanted[self.test]
         n = len(self.conditions)
         if not low <= n <= high:
@@ -325,14 +399,25 @@ class Study(SpecModel):
 
     version: Literal[1] = Field(description="Spec format version; always 1.")
     name: str = Field(description="Study name (shown in the report).")
-    output: str = Field(default="results", description="Output folder, relative to the spec's folder, or an absolute path (e.g. a scratch disk; `check` notes that the spec is then tied to this machine).")
+    output: str = Field(
+        default="results",
+        description="Output folder, relative to the spec's folder, or an absolute path (e.g. a scratch disk; `check` notes that the spec is then tied to this machine).",
+    )
     seed: int = Field(default=1, ge=0, description="Seed of the permutation table; the same seed gives the same masks.")
     subjects: Subjects = Field(description="Subject inputs.")
     conditions: dict[str, list[str]] = Field(min_length=1, description="Condition name -> event labels pooled into it.")
-    epochs: EpochWindow = Field(default_factory=EpochWindow, description="Epoching of continuous recordings (BIDS input).")
-    decomposition: Decomposition = Field(default_factory=Decomposition, description="Time-frequency decomposition (epochs and BIDS input).")
-    analysis: Analysis = Field(default_factory=Analysis, description="A-priori restriction of time, frequency and channels.")
-    channels: Channels = Field(default_factory=Channels, description="Electrode positions and neighbor graph (cluster and TFCE corrections).")
+    epochs: EpochWindow = Field(
+        default_factory=EpochWindow, description="Epoching of continuous recordings (BIDS input)."
+    )
+    decomposition: Decomposition = Field(
+        default_factory=Decomposition, description="Time-frequency decomposition (epochs and BIDS input)."
+    )
+    analysis: Analysis = Field(
+        default_factory=Analysis, description="A-priori restriction of time, frequency and channels."
+    )
+    channels: Channels = Field(
+        default_factory=Channels, description="Electrode positions and neighbor graph (cluster and TFCE corrections)."
+    )
     contrasts: list[Contrast] = Field(min_length=1, description="Group-level contrasts.")
     inference: Inference = Field(description="Statistics, resampling and corrections.")
     planned_regions: list[PlannedRegion] = Field(
@@ -361,7 +446,10 @@ class Study(SpecModel):
         names = {}
         for index, contrast in enumerate(self.contrasts):
             if contrast.name in names:
-                raise LocatedError(("contrasts", index, "name"), f"duplicate contrast name '{contrast.name}' (also contrasts[{names[contrast.name]}])")
+                raise LocatedError(
+                    ("contrasts", index, "name"),
+                    f"duplicate contrast name '{contrast.name}' (also contrasts[{names[contrast.name]}])",
+                )
             names[contrast.name] = index
             for condition in contrast.conditions:
                 if condition not in self.conditions:
@@ -393,13 +481,21 @@ class Study(SpecModel):
         ids = self.subjects.ids
         for subject in self.subjects.exclude:
             if not IDENTIFIER.match(subject):
-                raise LocatedError(("subjects", "exclude", subject), f"subject id {subject!r} is not a plain identifier (letters and digits only)")
+                raise LocatedError(
+                    ("subjects", "exclude", subject),
+                    f"subject id {subject!r} is not a plain identifier (letters and digits only)",
+                )
             if ids is not None and subject not in ids:
-                raise LocatedError(("subjects", "exclude", subject), f"excluded subject '{subject}' is not in subjects.ids")
+                raise LocatedError(
+                    ("subjects", "exclude", subject), f"excluded subject '{subject}' is not in subjects.ids"
+                )
         if self.subjects.groups is not None:
             for subject in self.subjects.groups:
                 if not IDENTIFIER.match(subject):
-                    raise LocatedError(("subjects", "groups", subject), f"subject id {subject!r} is not a plain identifier (letters and digits only)")
+                    raise LocatedError(
+                        ("subjects", "groups", subject),
+                        f"subject id {subject!r} is not a plain identifier (letters and digits only)",
+                    )
         return self
 
     @model_validator(mode="after")

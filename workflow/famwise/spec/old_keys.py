@@ -53,11 +53,15 @@ def _walk(node, file_name: str, written: tuple, path: tuple) -> None:
         line = key.start_mark.line + 1
         new = RENAMED_KEYS.get(here)
         if new is not None:
-            raise UserError(f"{file_name}:{line} {_dotted(written + (key.value,))}: renamed; write '{new}' instead of '{key.value}'")
+            raise UserError(
+                f"{file_name}:{line} {_dotted(written + (key.value,))}: renamed; write '{new}' instead of '{key.value}'"
+            )
         renamed = RENAMED_VALUES.get(here, {})
         if isinstance(value, yaml.ScalarNode) and value.value in renamed:
-            raise UserError(f"{file_name}:{value.start_mark.line + 1} {_dotted(written + (key.value,))}: "
-                            f"'{value.value}' is now written '{renamed[value.value]}'")
+            raise UserError(
+                f"{file_name}:{value.start_mark.line + 1} {_dotted(written + (key.value,))}: "
+                f"'{value.value}' is now written '{renamed[value.value]}'"
+            )
         _walk(value, file_name, written + (key.value,), here)
 
 

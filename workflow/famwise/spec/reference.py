@@ -58,7 +58,10 @@ def _table(model: type[BaseModel], prefix: str, out: list[str], nested: list) ->
     for name, field in model.model_fields.items():
         annotation = field.annotation
         out.append(f"| `{prefix}{name}` | {_type_name(annotation)} | {_default(field)} | {field.description} |")
-        inner = next((a for a in (annotation, *typing.get_args(annotation)) if isinstance(a, type) and issubclass(a, BaseModel)), None)
+        inner = next(
+            (a for a in (annotation, *typing.get_args(annotation)) if isinstance(a, type) and issubclass(a, BaseModel)),
+            None,
+        )
         if inner is not None:
             nested.append((inner, f"{prefix}{name}."))
 

@@ -214,15 +214,12 @@ def check_design(x, *, test, groups=None, covariate=None, statistic="t", trim=0.
     if n < MIN_SUBJECTS:
         raise UserError(f"the {test} test needs at least {MIN_SUBJECTS} subjects, got {n}")
     if statistic == "yuen" and test not in ("one-sample", "paired", "two-sample"):
-        raise UserError(
-            f"statistic 'yuen' is available for the one-sample, paired and two-sample tests, not '{test}'"
-        )
+        raise UserError(f"statistic 'yuen' is available for the one-sample, paired and two-sample tests, not '{test}'")
     if statistic == "yuen" and not 0.0 <= trim < 0.5:
         raise UserError(f"`trim` must be at least 0 and below 0.5, got {trim}")
     if test == "repeated-measures" and x.shape[1] < 3:
         raise UserError(
-            f"the repeated-measures test needs at least 3 conditions, got {x.shape[1]} "
-            "(use the paired test for two)"
+            f"the repeated-measures test needs at least 3 conditions, got {x.shape[1]} (use the paired test for two)"
         )
     if test == "two-sample":
         groups = _check_groups(groups, n)

@@ -68,4 +68,3 @@ def permutation_p(counts, n_rows: int) -> np.ndarray:
     if (counts < 0).any() or (counts > n_rows).any():
         raise ValueError(f"exceedance counts must lie between 0 and n_rows ({n_rows})")
     return counts / float(n_rows)
-

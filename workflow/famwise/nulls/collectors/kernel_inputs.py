@@ -24,19 +24,23 @@ def check_graph(shape, indptr, indices):
     indptr = np.ascontiguousarray(indptr, dtype=np.int32)
     indices = np.ascontiguousarray(indices, dtype=np.int32)
     if indptr.shape != (n_ch + 1,) or indptr[0] != 0 or indptr[-1] != len(indices) or np.any(np.diff(indptr) < 0):
-        raise UserError(f"the channel neighbor graph must be CSR arrays for {n_ch} channels "
-                        f"(indptr of length {n_ch + 1}, from 0 to len(indices)), got indptr of length {len(indptr)}")
+        raise UserError(
+            f"the channel neighbor graph must be CSR arrays for {n_ch} channels "
+            f"(indptr of length {n_ch + 1}, from 0 to len(indices)), got indptr of length {len(indptr)}"
+        )
     if len(indices) and (indices.min() < 0 or indices.max() >= n_ch):
-        raise UserError(f"the channel neighbor graph names channel index {int(indices.max())} "
-                        f"but there are {n_ch} channels")
+        raise UserError(
+            f"the channel neighbor graph names channel index {int(indices.max())} but there are {n_ch} channels"
+        )
     rows = np.repeat(np.arange(n_ch), np.diff(indptr))
     if np.any(rows == indices):
         raise UserError(f"the channel neighbor graph has a self loop at channel {int(rows[rows == indices][0])}")
     edges = set(zip(rows.tolist(), indices.tolist()))
     missing = next(((a, b) for a, b in edges if (b, a) not in edges), None)
     if missing is not None:
-        raise UserError(f"the channel neighbor graph is not symmetric: {missing[0]} -> {missing[1]} "
-                        f"has no reverse edge")
+        raise UserError(
+            f"the channel neighbor graph is not symmetric: {missing[0]} -> {missing[1]} has no reverse edge"
+        )
     return tuple(int(n) for n in shape), indptr, indices
 
 
@@ -80,8 +84,9 @@ def check_cluster_settings(threshold, cluster_stat, min_supra_neighbors):
         raise UserError(f"min_supra_neighbors must be a whole number >= 0, got {min_supra_neighbors}")
 
 
-INFINITE_STATISTIC = ("the statistic map has infinite values (a point with zero variance across subjects?); "
-                      "TFCE needs finite statistics")
+INFINITE_STATISTIC = (
+    "the statistic map has infinite values (a point with zero variance across subjects?); TFCE needs finite statistics"
+)
 
 
 def check_tfce_settings(E, H, step):

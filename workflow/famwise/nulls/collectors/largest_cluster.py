@@ -9,8 +9,14 @@ import numpy as np
 
 from famwise.kernels._jit import thread_count
 from famwise.kernels.components import _cluster_max_block
-from famwise.nulls.collectors.kernel_inputs import DIMS, check_cluster_settings, check_dims, check_graph, \
-    statistic_block, tail_code
+from famwise.nulls.collectors.kernel_inputs import (
+    DIMS,
+    check_cluster_settings,
+    check_dims,
+    check_graph,
+    statistic_block,
+    tail_code,
+)
 
 
 class ClusterCollector:
@@ -40,8 +46,19 @@ class ClusterCollector:
     array.
     """
 
-    def __init__(self, *, threshold, shape, indptr, indices, dims=DIMS, cluster_stat="mass",
-                 min_supra_neighbors=0, tail="two-sided", key="cluster"):
+    def __init__(
+        self,
+        *,
+        threshold,
+        shape,
+        indptr,
+        indices,
+        dims=DIMS,
+        cluster_stat="mass",
+        min_supra_neighbors=0,
+        tail="two-sided",
+        key="cluster",
+    ):
         check_cluster_settings(threshold, cluster_stat, min_supra_neighbors)
         self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
         self._links = check_dims(dims)
@@ -61,11 +78,25 @@ class ClusterCollector:
         if stats.shape[0]:
             n_chunks = min(stats.shape[0], thread_count())
             if self._workspace is None or len(self._workspace[0]) < n_chunks:  # reused by every block
-                self._workspace = (np.empty((n_chunks, 2, n_pts), np.int8), np.empty((n_chunks, 2, n_pts), np.int32),
-                                   np.empty((n_chunks, n_pts), np.float64))
-            _cluster_max_block(stats, self._threshold, self._tail_code, *self._shape, self._indptr,
-                               self._indices, *self._links, self._use_mass, self._min_neighbors, n_chunks,
-                               *self._workspace, out)
+                self._workspace = (
+                    np.empty((n_chunks, 2, n_pts), np.int8),
+                    np.empty((n_chunks, 2, n_pts), np.int32),
+                    np.empty((n_chunks, n_pts), np.float64),
+                )
+            _cluster_max_block(
+                stats,
+                self._threshold,
+                self._tail_code,
+                *self._shape,
+                self._indptr,
+                self._indices,
+                *self._links,
+                self._use_mass,
+                self._min_neighbors,
+                n_chunks,
+                *self._workspace,
+                out,
+            )
         self._parts.append(out)
 
     def arrays(self):

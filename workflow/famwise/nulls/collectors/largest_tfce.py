@@ -9,8 +9,15 @@ import numpy as np
 from famwise.errors import UserError
 from famwise.kernels._jit import thread_count
 from famwise.kernels.tfce_sweep import _tfce_max_block, _tfce_workspace
-from famwise.nulls.collectors.kernel_inputs import DIMS, INFINITE_STATISTIC, check_dims, check_graph, \
-    check_tfce_settings, statistic_block, tail_code
+from famwise.nulls.collectors.kernel_inputs import (
+    DIMS,
+    INFINITE_STATISTIC,
+    check_dims,
+    check_graph,
+    check_tfce_settings,
+    statistic_block,
+    tail_code,
+)
 
 
 class TFCECollector:
@@ -25,8 +32,7 @@ class TFCECollector:
     A float32 block gives the same maxima as the same values in float64.
     """
 
-    def __init__(self, *, shape, indptr, indices, dims=DIMS, E=0.5, H=2.0, step=None, tail="two-sided",
-                 key="tfce"):
+    def __init__(self, *, shape, indptr, indices, dims=DIMS, E=0.5, H=2.0, step=None, tail="two-sided", key="tfce"):
         self._step = check_tfce_settings(E, H, step)
         self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
         self._links = check_dims(dims)
@@ -45,8 +51,20 @@ class TFCECollector:
             n_chunks = min(stats.shape[0], thread_count())
             if self._workspace is None or len(self._workspace[0]) < n_chunks:  # reused by every block
                 self._workspace = _tfce_workspace(n_chunks, n_pts, self._indptr)
-            _tfce_max_block(stats, self._tail_code, self._E, self._H, self._step, *self._shape, self._indptr,
-                            self._indices, *self._links, n_chunks, *self._workspace, out)
+            _tfce_max_block(
+                stats,
+                self._tail_code,
+                self._E,
+                self._H,
+                self._step,
+                *self._shape,
+                self._indptr,
+                self._indices,
+                *self._links,
+                n_chunks,
+                *self._workspace,
+                out,
+            )
             if np.isinf(out).any():
                 raise UserError(INFINITE_STATISTIC)
         self._parts.append(out)

@@ -124,7 +124,9 @@ class StepDownCollector:
         if stats.dtype not in (np.float32, np.float64):
             stats = stats.astype(np.float64)
         # float32 blocks stay float32: a float64 copy of a 64 x 288,000 block costs more than the scan.
-        _successive_max_counts(np.ascontiguousarray(stats), self._rising, self._observed_rising, _TAIL_CODES[self.tail], self._count_rising)
+        _successive_max_counts(
+            np.ascontiguousarray(stats), self._rising, self._observed_rising, _TAIL_CODES[self.tail], self._count_rising
+        )
 
     def arrays(self):
         """``{"<key>.count": int64 (n_points,)}``, per point in flat point order."""
