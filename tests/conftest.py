@@ -45,11 +45,11 @@ def write_tiny_subject(
     *,
     effect: float = 2.0,
     n_per_condition: int = 12,
-    sfreq: float = 100.0,
+    sample_rate_hz: float = 100.0,
     channels=TINY_CHANNELS,
 ) -> None:
     """One subject's epochs: noise plus a 7 Hz burst on Fz/FC1/FC2, stronger in condition 'high'. Invented data."""
-    times = np.arange(-0.6, 1.0, 1 / sfreq)
+    times = np.arange(-0.6, 1.0, 1 / sample_rate_hz)
     labels = ["high"] * n_per_condition + ["low"] * n_per_condition
     data = rng.normal(scale=5e-6, size=(len(labels), len(channels), times.size))
     envelope = np.exp(-0.5 * ((times - 0.4) / 0.12) ** 2)
@@ -59,7 +59,14 @@ def write_tiny_subject(
         for name in ("Fz", "FC1", "FC2"):
             if name in channels:
                 data[epoch, list(channels).index(name)] += burst
-    famwise.io.save_epochs(path, data, sfreq=sfreq, tmin=float(times[0]), channels=list(channels), conditions=labels)
+    famwise.io.save_epochs(
+        path,
+        data,
+        sample_rate_hz=sample_rate_hz,
+        epoch_start_s=float(times[0]),
+        channels=list(channels),
+        event_labels=labels,
+    )
 
 
 TINY_SPEC = """\
@@ -73,13 +80,13 @@ subjects:
 conditions:
   high: [high]
   low: [low]
-timefreq:
-  freqs_hz: {{start_hz: 6, stop_hz: 14, count: 3, spacing: linear}}
+decomposition:
+  frequencies: {{lowest_hz: 6, highest_hz: 14, count: 3, spacing: linear}}
   cycles: 3
   time_step_ms: 50
   baseline: {{mode: db, window_ms: [-400, -200]}}
 channels:
-  positions: standard-10-10
+  positions: 10-10
 contrasts:
   - name: high-vs-low
     test: paired

@@ -14,13 +14,13 @@ from pathlib import Path
 import numpy as np
 from scipy import stats
 
+from famwise.decomposition.maps import TimeFreqMaps
 from famwise.design import ContrastData
-from famwise.montage import match_channels, neighbor_graph, save_graph, standard_positions
+from famwise.electrodes import match_channels, neighbor_graph, save_graph, system_positions
 from famwise.planned_values import run_planned
 from famwise.settings import SubjectValuesSettings
 from famwise.settings_codec import from_plain
 from famwise.subject_values import run as run_subject_values
-from famwise.timefreq.maps import TimeFreqMaps
 
 CHANNELS = [
     "Fp1",
@@ -56,7 +56,7 @@ CORRECTIONS = [
         "forming_stat": None,
         "cluster_stat": "mass",
         "dims": ["channel", "freq", "time"],
-        "min_neighbor_channels": 0,
+        "min_supra_neighbors": 0,
     },
     {"name": "tfce", "method": "tfce", "E": 0.5, "H": 2.0, "step": None, "dims": ["channel", "freq", "time"]},
 ]
@@ -81,18 +81,18 @@ def study_dict(*, alpha: float = 0.05, permutations: int = 999, statistic: str =
         },
         "conditions": {"attend": ["att"], "ignore": ["ign"]},
         "epochs": {"window_ms": [-500.0, 1000.0], "reject_peak_to_peak_uv": 150.0, "reference": "average"},
-        "timefreq": {
+        "decomposition": {
             "method": "morlet",
-            "freqs_hz": {"start_hz": 4.0, "stop_hz": 30.0, "count": 8, "spacing": "log"},
+            "frequencies": {"lowest_hz": 4.0, "highest_hz": 30.0, "count": 8, "spacing": "log"},
             "cycles": [3.0, 7.0],
             "fwhm_ms": None,
             "window_ms": None,
-            "time_bandwidth": None,
+            "nw": None,
             "measure": "power",
             "time_step_ms": 20.0,
             "average": "mean",
             "trim": 0.2,
-            "baseline": {"mode": "db", "window_ms": [-400.0, -100.0], "pooled": False, "single_trial": False},
+            "baseline": {"mode": "db", "window_ms": [-400.0, -100.0], "pooled": False, "single_epoch": False},
         },
         "analysis": {"time_ms": [-200.0, 600.0], "freq_hz": None, "channels": None},
         "channels": {
@@ -192,7 +192,7 @@ def write_output(
     study = study_dict(alpha=alpha, permutations=permutations, statistic=statistic)
     (folder / "study.json").write_text(json.dumps(study, indent=2))
     _subjects(folder, n_included)
-    positions = match_channels(standard_positions("10-10"), CHANNELS)
+    positions = match_channels(system_positions("10-10"), CHANNELS)
     save_graph(
         folder / "channels" / "graph.npz", neighbor_graph(positions, method="distance", max_distance_mm=75.0), positions
     )
@@ -331,7 +331,7 @@ def _subject_values(folder: Path, contrast: Path, n: int, freqs: np.ndarray, tim
             times=times,
             measure="power",
             baseline="dB change from -400 to -100 ms",
-            n_trials=np.array([40, 40]),
+            n_epochs=np.array([40, 40]),
             valid=np.ones((len(freqs), len(times)), bool),
         ).save(files[-1])
     stacked = np.stack([np.load(f)["values"] for f in files])

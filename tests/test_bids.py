@@ -31,7 +31,7 @@ def _write(root, subject="01", data=None, events=None, **options):
     data = _recording() if data is None else data
     events = _events({"face": 8, "house": 6, "catch": 3}) if events is None else events
     bids_writing.write_subject(
-        root, subject, data=data, sfreq=FS, channels=CHANNELS, events=events, task="view", **options
+        root, subject, data=data, sample_rate_hz=FS, channels=CHANNELS, events=events, task="view", **options
     )
     return data, events
 
@@ -58,7 +58,7 @@ def test_round_trip_samples_and_events(tmp_path, fmt, bits):
         assert signal.label == CHANNELS[ch] and signal.physical_dimension == "uV"
         np.testing.assert_allclose(signal.data[: data.shape[1]] * 1e-6, data[ch], atol=step[ch] * 0.51 + 1e-12)
     epochs = _read(tmp_path)
-    assert epochs.sfreq == FS and epochs.tmin == pytest.approx(-0.2)
+    assert epochs.sample_rate_hz == FS and epochs.epoch_start_s == pytest.approx(-0.2)
     assert epochs.channels == tuple(CHANNELS)
     assert epochs.data.shape == (len(events), 4, 201)  # -200..600 ms inclusive at 250 Hz
     assert epochs.labels.tolist() == [label for _, _, label in events]
@@ -231,7 +231,7 @@ def test_write_errors(tmp_path):
         r"n_samples\), got \(3, 100\)",
     ):
         bids_writing.write_subject(
-            tmp_path, "01", data=np.zeros((3, 100)), sfreq=FS, channels=CHANNELS, events=[], task="view"
+            tmp_path, "01", data=np.zeros((3, 100)), sample_rate_hz=FS, channels=CHANNELS, events=[], task="view"
         )
     with pytest.raises(UserError, match=r"format must be one of edf, bdf, brainvision, got 'gdf'"):
         _write(tmp_path, fmt="gdf")
@@ -272,7 +272,7 @@ def test_more_file_errors(tmp_path):
             tmp_path,
             "02",
             data=np.zeros((1, 500)),
-            sfreq=FS,
+            sample_rate_hz=FS,
             channels=["a-very-long-channel-name"],
             events=[],
             task="view",
@@ -312,7 +312,7 @@ def test_written_electrodes_are_read_back_in_their_sidecar_units(tmp_path):
     # BIDS: _coordsystem.json's EEGCoordinateUnits gives the unit of _electrodes.tsv (bidsschematools 2.0.1 schema)
     import warnings
 
-    from famwise.montage.positions import read_positions
+    from famwise.electrodes.positions import read_positions
 
     positions = {"Fz": (0.0, 60.0, 60.0), "Cz": (0.0, 0.0, 85.0), "Pz": (0.0, -60.0, 60.0), "Oz": (0.0, -85.0, 0.0)}
     _write(tmp_path, electrodes=positions)

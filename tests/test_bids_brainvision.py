@@ -25,7 +25,15 @@ def _events(n=12):
 def _write(root, fmt, subject="01", data=None, **options):
     data = _recording() if data is None else data
     bids_writing.write_subject(
-        root, subject, data=data, sfreq=FS, channels=CHANNELS, events=_events(), task="view", fmt=fmt, **options
+        root,
+        subject,
+        data=data,
+        sample_rate_hz=FS,
+        channels=CHANNELS,
+        events=_events(),
+        task="view",
+        fmt=fmt,
+        **options,
     )
     return root / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-view_"
 
@@ -63,7 +71,7 @@ def test_brainvision_and_edf_give_identical_epochs(tmp_path, other):
     assert vision.channels == edf.channels == ("Fz", "Cz", "Pz", "Oz")
     assert 0 < sum(vision.rejected.values()) < 12 and vision.rejected == edf.rejected
     assert np.array_equal(vision.data, edf.data) and np.array_equal(vision.labels, edf.labels)
-    assert vision.sfreq == edf.sfreq and vision.tmin == edf.tmin
+    assert vision.sample_rate_hz == edf.sample_rate_hz and vision.epoch_start_s == edf.epoch_start_s
     # and those values are the written samples to within half a step (0.125 µV), plus as much in the removed mean
     first = _read(tmp_path / "brainvision").data[0]
     start = int(round(1.0 * FS)) - 50

@@ -82,7 +82,7 @@ def test_reads_files_of_a_general_purpose_writer(tmp_path, fmt, resolution, tole
         events=np.array([[100, 1], [600, 2]]),
     )
     header = brainvision.read_header(tmp_path / "rec.vhdr")
-    assert [c.name for c in header.channels] == NAMES and header.sfreq == 500.0 and header.n_samples == 1000
+    assert [c.name for c in header.channels] == NAMES and header.sample_rate_hz == 500.0 and header.n_samples == 1000
     assert [c.unit for c in header.channels] == ["µV"] * 3
     values = brainvision.read_samples(header)
     # int16 stores truncated steps of 0.1 µV; float32 keeps about 7 digits
@@ -128,7 +128,7 @@ def test_hand_built_variants(tmp_path, orientation, binary_format, big_endian):
         big_endian=big_endian,
     )
     header = brainvision.read_header(path)
-    assert header.n_samples == 5 and header.sfreq == 500.0 and header.orientation == orientation
+    assert header.n_samples == 5 and header.sample_rate_hz == 500.0 and header.orientation == orientation
     # Source: the format specification (BrainVision Core Data Format 1.0): value = stored x resolution, in the unit.
     expected = stored * np.array([[0.1], [1.0], [2.0]])
     np.testing.assert_array_equal(brainvision.read_samples(header), expected)
@@ -239,7 +239,12 @@ def test_markers(tmp_path):
 def test_written_files_read_back(tmp_path):
     data = np.array([[0.5, -1.0, 40000.25], [2.0, 3.0, -4.0]])  # µV
     brainvision.write(
-        tmp_path / "a.vhdr", data, sfreq=250.0, channels=["F,z", "Cz"], markers=[(1, "go, now")], resolution=0.25
+        tmp_path / "a.vhdr",
+        data,
+        sample_rate_hz=250.0,
+        channels=["F,z", "Cz"],
+        markers=[(1, "go, now")],
+        resolution=0.25,
     )
     header = brainvision.read_header(tmp_path / "a.vhdr")
     assert header.binary_format == "INT_32"  # 40000.25 / 0.25 does not fit 16 bits
@@ -251,12 +256,12 @@ def test_written_files_read_back(tmp_path):
             brainvision.write(
                 tmp_path / "c.vhdr",
                 data + [[0, 0, bad], [0, 0, 0]],
-                sfreq=250.0,
+                sample_rate_hz=250.0,
                 channels=["Fz", "Cz"],
                 markers=[],
                 resolution=0.25,
             )
-    brainvision.write(tmp_path / "b.vhdr", data, sfreq=250.0, channels=["Fz", "Cz"], markers=[])
+    brainvision.write(tmp_path / "b.vhdr", data, sample_rate_hz=250.0, channels=["Fz", "Cz"], markers=[])
     header = brainvision.read_header(tmp_path / "b.vhdr")
     assert header.binary_format == "IEEE_FLOAT_32"
     np.testing.assert_array_equal(brainvision.read_samples(header), data.astype(np.float32))

@@ -20,12 +20,12 @@ seed: 3
 subjects: {source: bids, path: data, task: mem, min_epochs: 5}
 conditions: {high: [high], low: [low]}
 epochs: {window_ms: [-600, 1000]}
-timefreq:
-  freqs_hz: {start_hz: 6, stop_hz: 14, count: 3, spacing: linear}
+decomposition:
+  frequencies: {lowest_hz: 6, highest_hz: 14, count: 3, spacing: linear}
   cycles: 3
   time_step_ms: 50
   baseline: {mode: db, window_ms: [-400, -200]}
-channels: {positions: standard-10-10}
+channels: {positions: 10-10}
 contrasts:
   - {name: high-vs-low, test: paired, conditions: [high, low]}
 inference:
@@ -61,7 +61,7 @@ def _write_study(folder, n_subjects=5):
             folder / "data",
             subject,
             data=data,
-            sfreq=FS,
+            sample_rate_hz=FS,
             channels=CHANNELS,
             task="mem",
             events=[(float(t), 0.0, lab) for t, lab in zip(onsets, labels)],

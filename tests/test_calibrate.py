@@ -11,8 +11,8 @@ from scipy.ndimage import gaussian_filter
 
 from famwise.atomic import save_npz
 from famwise.calibrate import calibration_settings, fwer_interval, summarize
-from famwise.calibrate.datasets import calibration_chunk, dataset_rng, null_dataset
-from famwise.calibrate.table import merge_chunks, read_table
+from famwise.calibrate.datasets import calibration_shard, dataset_rng, null_dataset
+from famwise.calibrate.table import merge_shards, read_table
 from famwise.design import ContrastData
 from famwise.errors import UserError
 from famwise.plan import Plan
@@ -53,8 +53,8 @@ def _plan(folder, *, corrections="- method: bonferroni\n", permutations=99, seed
     return Plan(load_study(spec))  # no subject files: only the inference settings are used
 
 
-def _settings(plan, *, datasets, chunks=1, permutations=None):
-    return calibration_settings(plan, "c1", datasets=datasets, permutations=permutations, chunks=chunks)
+def _settings(plan, *, datasets, shards=1, permutations=None):
+    return calibration_settings(plan, "c1", datasets=datasets, permutations=permutations, shards=shards)
 
 
 def _smooth_maps(rng, n, shape=(4, 5, 12), *, test="one-sample", k=None):
@@ -90,9 +90,9 @@ def _chain_graph(path, n_channels):
 
 
 def _run(subjects, graph, settings):
-    """Every chunk of a calibration, merged."""
-    chunks = [calibration_chunk(subjects, graph, chunk=k, settings=settings) for k in range(settings.chunks)]
-    return chunks, merge_chunks(chunks, datasets=settings.datasets)
+    """Every shard of a calibration, merged."""
+    shards = [calibration_shard(subjects, graph, shard=k, settings=settings) for k in range(settings.shards)]
+    return shards, merge_shards(shards, datasets=settings.datasets)
 
 
 def _upper_bound_holds(detections, datasets, alpha, confidence=0.99):
@@ -166,8 +166,8 @@ def _fwer_check(tmp_path, *, n_subjects, permutations, datasets, seed):
     data.save(tmp_path / "subjects.npz")
     graph = _chain_graph(tmp_path / "graph.npz", 4)
     plan = _plan(tmp_path, corrections=FWER_CORRECTIONS, permutations=permutations, seed=seed)
-    settings = _settings(plan, datasets=datasets, chunks=2)
-    chunks, merged = _run(tmp_path / "subjects.npz", graph, settings)
+    settings = _settings(plan, datasets=datasets, shards=2)
+    shards, merged = _run(tmp_path / "subjects.npz", graph, settings)
     detected = merged["n_significant"] > 0
     labels = [str(label) for label in merged["labels"]]
     assert labels == ["uncorrected", "bonferroni", "holm", "max-stat", "step-down", "cluster", "tfce"]
@@ -176,7 +176,7 @@ def _fwer_check(tmp_path, *, n_subjects, permutations, datasets, seed):
     for column, label in enumerate(labels[1:], start=1):
         # Each correction controls the FWER at alpha: binomial bound (Clopper & Pearson 1934).
         assert _upper_bound_holds(int(detected[:, column].sum()), datasets, 0.05), label
-    return chunks, settings
+    return shards, settings
 
 
 def test_corrections_control_fwer_on_smooth_null_maps_exact_table(tmp_path):
@@ -190,16 +190,16 @@ def test_corrections_control_fwer_on_smooth_null_maps_large(tmp_path):
     _fwer_check(tmp_path, n_subjects=14, permutations=199, datasets=600, seed=22)
 
 
-def test_result_is_the_same_for_1_or_4_chunks_and_reproducible(tmp_path):
+def test_result_is_the_same_for_1_or_4_shards_and_reproducible(tmp_path):
     rng = np.random.default_rng(4)
     _contrast(_smooth_maps(rng, 8)).save(tmp_path / "subjects.npz")
     graph = _chain_graph(tmp_path / "graph.npz", 4)
     plan = _plan(tmp_path, corrections="- method: holm\n- method: max-stat\n- method: tfce\n", permutations=31)
-    one = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, chunks=1))[1]
-    four_chunks, four = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, chunks=4))
-    assert [c["datasets"].tolist() for c in four_chunks] == [[0, 1, 2], [3, 4, 5], [6, 7, 8], [9]]
+    one = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, shards=1))[1]
+    four_shards, four = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, shards=4))
+    assert [c["datasets"].tolist() for c in four_shards] == [[0, 1, 2], [3, 4, 5], [6, 7, 8], [9]]
     assert np.array_equal(one["n_significant"], four["n_significant"])
-    again = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, chunks=4))[1]
+    again = _run(tmp_path / "subjects.npz", graph, _settings(plan, datasets=10, shards=4))[1]
     assert np.array_equal(again["n_significant"], four["n_significant"])
     other = _run(
         tmp_path / "subjects.npz",
@@ -256,14 +256,14 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
         corrections="- method: bonferroni\n- method: fdr-bh\n  level: 0.1\n- method: max-stat\n",
         permutations=31,
     )
-    settings = _settings(plan, datasets=6, chunks=2, permutations=15)
+    settings = _settings(plan, datasets=6, shards=2, permutations=15)
     files = []
     for k in range(2):
         save_npz(
-            tmp_path / f"chunk-{k}.npz",
-            **calibration_chunk(tmp_path / "subjects.npz", None, chunk=k, settings=settings),
+            tmp_path / f"shard-{k}.npz",
+            **calibration_shard(tmp_path / "subjects.npz", None, shard=k, settings=settings),
         )
-        files.append(tmp_path / f"chunk-{k}.npz")
+        files.append(tmp_path / f"shard-{k}.npz")
     out = tmp_path / "output" / "calibration" / "c1.tsv"
     contrast = tmp_path / "output" / "contrasts" / "c1"
     contrast.mkdir(parents=True)
@@ -305,19 +305,19 @@ def test_summarize_writes_table_sidecar_figure_and_report_section(tmp_path):
 def test_merge_refuses_missing_datasets(tmp_path):
     rng = np.random.default_rng(7)
     _contrast(_smooth_maps(rng, 6)).save(tmp_path / "subjects.npz")
-    settings = _settings(_plan(tmp_path), datasets=4, chunks=2)
-    part = calibration_chunk(tmp_path / "subjects.npz", None, chunk=0, settings=settings)
-    with pytest.raises(UserError, match=r"the chunk files hold 2 datasets, expected datasets 0 to 3 once each"):
-        merge_chunks([part], datasets=4)
+    settings = _settings(_plan(tmp_path), datasets=4, shards=2)
+    part = calibration_shard(tmp_path / "subjects.npz", None, shard=0, settings=settings)
+    with pytest.raises(UserError, match=r"the shard files hold 2 datasets, expected datasets 0 to 3 once each"):
+        merge_shards([part], datasets=4)
 
 
 @pytest.mark.parametrize(
     "options,message",
     [
-        ({"datasets": 0, "chunks": 1}, r"--datasets must be a whole number of at least 1, got 0"),
-        ({"datasets": 5, "chunks": 6}, r"--chunks must be between 1 and the number of datasets \(5\), got 6"),
+        ({"datasets": 0, "shards": 1}, r"--datasets must be a whole number of at least 1, got 0"),
+        ({"datasets": 5, "shards": 6}, r"--shards must be between 1 and the number of datasets \(5\), got 6"),
         (
-            {"datasets": 5, "chunks": 1, "permutations": 0},
+            {"datasets": 5, "shards": 1, "permutations": 0},
             r"--permutations must be a whole number of at least 1, got 0",
         ),
     ],
@@ -333,7 +333,7 @@ def test_uncorrected_reference_is_parametric_p_at_alpha(tmp_path):
     data = _contrast(rng.normal(size=(10, 20)).astype(np.float32), shape=(1, 4, 5))
     data.save(tmp_path / "subjects.npz")
     settings = _settings(_plan(tmp_path), datasets=3)
-    part = calibration_chunk(tmp_path / "subjects.npz", None, chunk=0, settings=settings)
+    part = calibration_shard(tmp_path / "subjects.npz", None, shard=0, settings=settings)
     for row, index in enumerate(part["datasets"]):
         x = null_dataset(data, dataset_rng(settings.nulls.seed, "c1", int(index))).astype(np.float64)
         p = scipy.stats.ttest_1samp(x, 0.0).pvalue  # reference: scipy.stats.ttest_1samp
@@ -342,19 +342,19 @@ def test_uncorrected_reference_is_parametric_p_at_alpha(tmp_path):
     assert math.isclose(float(part["detected"].mean()), float((part["n_significant"] > 0).mean()))
 
 
-def test_summarize_refuses_chunks_from_other_settings(tmp_path):
+def test_summarize_refuses_shards_from_other_settings(tmp_path):
     rng = np.random.default_rng(9)
     _contrast(_smooth_maps(rng, 6)).save(tmp_path / "subjects.npz")
     plan = _plan(tmp_path)
-    old = _settings(plan, datasets=2, chunks=1)
-    save_npz(tmp_path / "chunk-0.npz", **calibration_chunk(tmp_path / "subjects.npz", None, chunk=0, settings=old))
+    old = _settings(plan, datasets=2, shards=1)
+    save_npz(tmp_path / "shard-0.npz", **calibration_shard(tmp_path / "subjects.npz", None, shard=0, settings=old))
     with pytest.raises(
-        UserError, match=r"chunk-0.npz was computed with other calibration settings; delete it and rerun"
+        UserError, match=r"shard-0.npz was computed with other calibration settings; delete it and rerun"
     ):
         summarize(
-            [tmp_path / "chunk-0.npz"],
+            [tmp_path / "shard-0.npz"],
             tmp_path / "c1.tsv",
-            settings=_settings(plan, datasets=2, chunks=1, permutations=7),
+            settings=_settings(plan, datasets=2, shards=1, permutations=7),
             subjects=tmp_path / "subjects.npz",
             observed=tmp_path / "observed.npz",
         )

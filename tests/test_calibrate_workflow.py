@@ -1,4 +1,4 @@
-"""famwise calibrate through Snakemake: chunks as jobs, resume, the command's output, the report's section."""
+"""famwise calibrate through Snakemake: shards as jobs, resume, the command's output, the report's section."""
 
 import argparse
 import contextlib
@@ -19,7 +19,7 @@ CORRECTIONS = """\
 - method: bonferroni
 - method: max-stat
 """
-OPTIONS = ["--datasets", "6", "--chunks", "3", "--permutations", "15", "--cores", "2"]
+OPTIONS = ["--datasets", "6", "--shards", "3", "--permutations", "15", "--cores", "2"]
 
 
 def _calibrate(spec, options=OPTIONS):
@@ -49,40 +49,40 @@ def test_calibrate_writes_table_figure_and_prints_it(calibrated):
     assert all(r["datasets"] == 6 for r in rows)
     assert rows[2]["permutations"] == 15  # 2^4 = 16 sign flips fit in 1 + 15 rows: all of them, identity aside
     assert (folder / "high-vs-low.png").is_file() and (folder / "high-vs-low.json").is_file()
-    assert sorted(p.name for p in (folder / "high-vs-low").iterdir()) == ["chunk-0.npz", "chunk-1.npz", "chunk-2.npz"]
+    assert sorted(p.name for p in (folder / "high-vs-low").iterdir()) == ["shard-0.npz", "shard-1.npz", "shard-2.npz"]
     assert "(reduced from the study's 31)" in out
     assert "uncorrected" in out and "max-stat" in out and "[" in out
     assert "calibration: 0/6 null datasets done" in err and "calibration: 6/6 null datasets done" in err
     logs = spec.parent / "results" / "logs"
-    assert sorted(p.name for p in (logs / "calibrate_chunk").glob("*.benchmark.tsv")) == [
+    assert sorted(p.name for p in (logs / "calibrate_shard").glob("*.benchmark.tsv")) == [
         f"high-vs-low-{k}.benchmark.tsv" for k in range(3)
     ]
     assert (logs / "calibrate_table" / "high-vs-low.benchmark.tsv").is_file()
 
 
-def test_interrupted_run_recomputes_only_the_missing_chunk(calibrated):
+def test_interrupted_run_recomputes_only_the_missing_shard(calibrated):
     spec, _, again = calibrated
     folder = spec.parent / "results" / "calibration" / "high-vs-low"
     before = {p.name: p.stat().st_mtime_ns for p in folder.iterdir()}
     table = folder.parent / "high-vs-low.tsv"
     table_before = table.read_text()
-    # An interrupted run: one chunk never finished, so neither did the table.
-    (folder / "chunk-1.npz").unlink()
+    # An interrupted run: one shard never finished, so neither did the table.
+    (folder / "shard-1.npz").unlink()
     table.unlink()
     code, out, err = again()
     assert code == 0, out + err
-    assert out.count("calibrate_chunk") == 1 and "chunk=1" in out
+    assert out.count("calibrate_shard") == 1 and "shard=1" in out
     after = {p.name: p.stat().st_mtime_ns for p in folder.iterdir()}
-    assert after["chunk-0.npz"] == before["chunk-0.npz"] and after["chunk-2.npz"] == before["chunk-2.npz"]
-    assert after["chunk-1.npz"] != before["chunk-1.npz"]
+    assert after["shard-0.npz"] == before["shard-0.npz"] and after["shard-2.npz"] == before["shard-2.npz"]
+    assert after["shard-1.npz"] != before["shard-1.npz"]
     assert table.read_text() == table_before  # same datasets, same outcome
     assert "calibration: 4/6 null datasets done" in err and "calibration: 6/6 null datasets done" in err
 
 
 def test_bad_option_is_a_user_error_before_snakemake(calibrated):
     spec, _, _ = calibrated
-    with pytest.raises(UserError, match=r"--chunks must be between 1 and the number of datasets \(3\), got 5"):
-        _calibrate(spec, ["--datasets", "3", "--chunks", "5"])
+    with pytest.raises(UserError, match=r"--shards must be between 1 and the number of datasets \(3\), got 5"):
+        _calibrate(spec, ["--datasets", "3", "--shards", "5"])
 
 
 def test_famwise_calibrate_command_is_wired(calibrated, capsys):

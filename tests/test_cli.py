@@ -99,7 +99,7 @@ def test_channels_differ_between_subjects(tmp_path):
 @pytest.mark.workflow
 def test_sampling_rates_differ(tmp_path):
     spec = write_tiny_study(tmp_path, n_subjects=4, corrections=HOLM_ONLY)
-    write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sfreq=200.0)
+    write_tiny_subject(tmp_path / "data" / "sub-02.npz", np.random.default_rng(3), sample_rate_hz=200.0)
     _assert_one_line_error(
         famwise_cli("run", spec, "--cores", "2"), "subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz)"
     )
@@ -115,10 +115,10 @@ def test_nan_in_data(tmp_path):
     famwise.io.save_epochs(
         path,
         arrays["data"],
-        sfreq=float(arrays["sfreq"]),
-        tmin=float(arrays["tmin"]),
+        sample_rate_hz=float(arrays["sample_rate_hz"]),
+        epoch_start_s=float(arrays["epoch_start_s"]),
         channels=list(arrays["channels"]),
-        conditions=list(arrays["conditions"]),
+        event_labels=list(arrays["event_labels"]),
     )
     _assert_one_line_error(
         famwise_cli("run", spec, "--cores", "2"), "subject 02", "sub-02.npz", "NaN or inf", "epoch 3, channel FC1"

@@ -143,10 +143,10 @@ def test_demo_says_whether_it_wrote_the_data(tmp_path, monkeypatch, capsys):
 
 def test_reasons_name_the_changed_setting(tmp_path):
     (tmp_path / "study.json").write_text(
-        '{"inference": {"permutations": 1000, "alpha": 0.05}, "timefreq": {"cycles": 3}}'
+        '{"inference": {"permutations": 1000, "alpha": 0.05}, "decomposition": {"cycles": 3}}'
     )
     changes = changed_settings(
-        tmp_path, {"inference": {"permutations": 2000, "alpha": 0.05}, "timefreq": {"cycles": 3}}
+        tmp_path, {"inference": {"permutations": 2000, "alpha": 0.05}, "decomposition": {"cycles": 3}}
     )
     assert changes == ["inference.permutations 1000 -> 2000"]
     reason = "Params have changed since last execution: " + "x" * 300
@@ -177,3 +177,15 @@ def test_ctrl_c_during_a_real_run_exits_130(tiny_study):
     err = process.stderr.read()
     assert process.wait(timeout=120) == 130
     assert "famwise: interrupted" in err and "the run failed" not in err and "Traceback" not in err
+
+
+def test_help_lists_the_commands_in_the_order_of_work(capsys):
+    with pytest.raises(SystemExit):
+        main(["--help"])
+    listed = [
+        line.split()[0]
+        for line in capsys.readouterr().out.splitlines()
+        if line.startswith("    ") and not line.startswith("     ")
+    ]
+    assert listed[:4] == ["init", "check", "run", "calibrate"]
+    assert listed.index("calibrate") < listed.index("demo") < listed.index("bench")

@@ -8,8 +8,8 @@ from scipy.sparse.csgraph import connected_components
 
 from famwise.correct.clusters import label_clusters
 from famwise.errors import UserError
+from famwise.naive.clusters import cluster_labels_reference, cluster_null_reference, one_sample_t
 from famwise.nulls.collectors.largest_cluster import ClusterCollector
-from famwise.reference.clusters import cluster_labels_reference, cluster_null_reference, one_sample_t
 
 from conftest import ring
 
@@ -84,7 +84,7 @@ def test_product_graph_equals_csgraph(seed):
 
 @pytest.mark.parametrize("dims", [("freq", "time"), ("channel", "time"), ("channel",), ("time",)])
 def test_restricted_dims_match_reference(dims):
-    # reference: famwise.reference.clusters (scipy.sparse.csgraph on the explicit product graph)
+    # reference: famwise.naive.clusters (scipy.sparse.csgraph on the explicit product graph)
     rng = np.random.default_rng(3)
     indptr, indices = ring_arrays(6)
     stat = ndimage.gaussian_filter(rng.standard_normal((6, 4, 20)), (0, 0.7, 1.5)) * 4
@@ -100,15 +100,15 @@ def test_restricted_dims_match_reference(dims):
             assert np.unique(np.nonzero(ids == k)[0]).size == 1
 
 
-def test_min_neighbor_channels_drops_isolated_points():
+def test_min_supra_neighbors_drops_isolated_points():
     # hand-made: channel 0's point has one supra-threshold neighbor channel, channel 3's has none
     indptr, indices = ring_arrays(6)
     stat = np.zeros((6, 1, 1))
     stat[[0, 1, 3], 0, 0] = 5.0
-    ids, stats = label_clusters(stat, threshold=1.0, indptr=indptr, indices=indices, min_neighbor_channels=1)
+    ids, stats = label_clusters(stat, threshold=1.0, indptr=indptr, indices=indices, min_supra_neighbors=1)
     assert ids[3, 0, 0] == 0 and ids[0, 0, 0] == ids[1, 0, 0] == 1
     assert stats == {1: 10.0}
-    ids, _ = label_clusters(stat, threshold=1.0, indptr=indptr, indices=indices, min_neighbor_channels=2)
+    ids, _ = label_clusters(stat, threshold=1.0, indptr=indptr, indices=indices, min_supra_neighbors=2)
     assert not ids.any()
 
 
@@ -130,13 +130,13 @@ def test_numbering_by_descending_statistic_per_sign():
 @pytest.mark.parametrize("tail", ["two-sided", "greater", "less"])
 @pytest.mark.parametrize("min_neighbors", [0, 1])
 def test_collector_matches_reference_null(tail, min_neighbors):
-    # reference: famwise.reference.clusters (t recomputed per row, scipy.sparse.csgraph labels)
+    # reference: famwise.naive.clusters (t recomputed per row, scipy.sparse.csgraph labels)
     rng = np.random.default_rng(11)
     n, shape = 10, (6, 4, 15)
     indptr, indices = ring_arrays(6)
     data = ndimage.gaussian_filter(rng.standard_normal((n, *shape)), (0, 0, 0.8, 1.5)) + 0.3
     flips = np.vstack([np.ones(n), rng.choice([-1.0, 1.0], size=(20, n))])
-    settings = dict(threshold=1.8, indptr=indptr, indices=indices, min_neighbor_channels=min_neighbors, tail=tail)
+    settings = dict(threshold=1.8, indptr=indptr, indices=indices, min_supra_neighbors=min_neighbors, tail=tail)
     expected = cluster_null_reference(data, flips, **settings)
     stats = np.stack([one_sample_t(data * f[:, None, None, None]).ravel() for f in flips])
     collector = ClusterCollector(shape=shape, **settings)
@@ -157,8 +157,8 @@ def test_collector_input_errors():
         ClusterCollector(**{**good, "threshold": float("nan")})
     with pytest.raises(UserError, match="cluster_stat must be one of"):
         ClusterCollector(**good, cluster_stat="peak")
-    with pytest.raises(UserError, match="min_neighbor_channels must be a whole number"):
-        ClusterCollector(**good, min_neighbor_channels=-1)
+    with pytest.raises(UserError, match="min_supra_neighbors must be a whole number"):
+        ClusterCollector(**good, min_supra_neighbors=-1)
     with pytest.raises(UserError, match="tail must be one of"):
         ClusterCollector(**good, tail="both")
     with pytest.raises(UserError, match="cluster dims must be distinct names"):

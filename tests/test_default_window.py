@@ -42,7 +42,7 @@ def test_check_notes_the_cost_of_a_window_starting_before_the_event(tmp_path):
     rng = np.random.default_rng(0)
     (tmp_path / "data").mkdir()
     for subject in ("01", "02", "03"):
-        write_tiny_subject(tmp_path / "data" / f"sub-{subject}.npz", rng, sfreq=100.0)
+        write_tiny_subject(tmp_path / "data" / f"sub-{subject}.npz", rng, sample_rate_hz=100.0)
     assert main(["init", str(tmp_path / "data"), "--out", str(tmp_path / "study.yaml")]) == 0
     text = (tmp_path / "study.yaml").read_text()
     assert "time_ms: null          # null: from the event (0 ms) to the end of the edge-free data" in text

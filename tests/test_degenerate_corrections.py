@@ -234,11 +234,11 @@ def test_a_point_degenerate_only_after_permutation_counts_as_more_extreme(tmp_pa
 
 def test_calibration_leaves_out_the_studys_left_out_points_as_if_removed(tmp_path):
     from famwise.calibrate import calibration_settings
-    from famwise.calibrate.datasets import calibration_chunk
+    from famwise.calibrate.datasets import calibration_shard
 
     corrections = "- method: holm\n- method: max-stat\n- method: cluster\n  forming_p: 0.05\n- method: tfce\n"
     plan = _plan(tmp_path, corrections=corrections)
-    settings = calibration_settings(plan, "c1", datasets=6, permutations=63, chunks=1)
+    settings = calibration_settings(plan, "c1", datasets=6, permutations=63, shards=1)
     x = _maps(seed=9)
     x[:, 3] = 0.25  # identical in every subject: sign-flipped null datasets would make it vary
     counts = {}
@@ -256,6 +256,6 @@ def test_calibration_leaves_out_the_studys_left_out_points_as_if_removed(tmp_pat
         )
         data.save(folder / "subjects.npz")
         graph = _chain_graph(folder / "graph.npz", n_channels)
-        counts[name] = calibration_chunk(folder / "subjects.npz", graph, chunk=0, settings=settings)["n_significant"]
+        counts[name] = calibration_shard(folder / "subjects.npz", graph, shard=0, settings=settings)["n_significant"]
     assert np.array_equal(counts["left-out"], counts["removed"])
     assert counts["left-out"][:, 0].sum() > 0  # the uncorrected count sees the maps' effect

@@ -33,7 +33,7 @@ def _base() -> dict:
             "inference.shards": 2,
             "inference.alpha": 0.05,
             "inference.family": "per-contrast",
-            "timefreq.cycles": 3,
+            "decomposition.cycles": 3,
             "contrasts[a].test": "paired",
             "contrasts[b].test": "one-sample",
             "inference.corrections[holm].method": "holm",

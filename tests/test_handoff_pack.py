@@ -17,10 +17,10 @@ from conftest import TINY_CHANNELS
 def study(tiny_study):
     """The tiny study with its electrode positions in a TSV file of its own (invented coordinates, mm)."""
     folder = tiny_study.parent
-    (folder / "montage").mkdir()
+    (folder / "electrodes").mkdir()
     rows = "".join(f"{name}\t{10.0 * i}\t{5.0 * i}\t80\n" for i, name in enumerate(TINY_CHANNELS))
-    (folder / "montage" / "cap.tsv").write_text("name\tx\ty\tz\n" + rows)
-    tiny_study.write_text(tiny_study.read_text().replace("positions: standard-10-10", "positions: montage/cap.tsv"))
+    (folder / "electrodes" / "cap.tsv").write_text("name\tx\ty\tz\n" + rows)
+    tiny_study.write_text(tiny_study.read_text().replace("positions: 10-10", "positions: electrodes/cap.tsv"))
     return tiny_study
 
 
@@ -38,7 +38,7 @@ def test_pack_without_data_holds_spec_channel_file_and_manifest(study, tmp_path,
         names = sorted(handle.namelist())
         manifest = json.loads(handle.read("lantern-handoff/study.manifest.json"))
     assert names == [
-        "lantern-handoff/montage/cap.tsv",
+        "lantern-handoff/electrodes/cap.tsv",
         "lantern-handoff/study.manifest.json",
         "lantern-handoff/study.yaml",
     ]
@@ -49,7 +49,7 @@ def test_pack_without_data_holds_spec_channel_file_and_manifest(study, tmp_path,
         "bytes": len(data),
         "sha256": hashlib.sha256(data).hexdigest(),
     }
-    assert manifest["files"]["montage/cap.tsv"]["role"] == "channels"
+    assert manifest["files"]["electrodes/cap.tsv"]["role"] == "channels"
     assert sorted(manifest["files"]) == [
         "data/sub-01.npz",
         "data/sub-02.npz",
@@ -57,7 +57,7 @@ def test_pack_without_data_holds_spec_channel_file_and_manifest(study, tmp_path,
         "data/sub-04.npz",
         "data/sub-05.npz",
         "data/sub-06.npz",
-        "montage/cap.tsv",
+        "electrodes/cap.tsv",
     ]
     assert manifest["data_included"] is False
     assert manifest["spec_sha256"] == hashlib.sha256(study.read_bytes()).hexdigest()
@@ -149,7 +149,7 @@ def test_bids_study_files_are_recordings_sidecars_electrodes_and_participants(tm
             tmp_path / "data",
             subject,
             data=rng.normal(0, 2e-5, (2, 4000)),
-            sfreq=250.0,
+            sample_rate_hz=250.0,
             channels=["Fz", "Cz"],
             events=events,
             task="view",
@@ -159,7 +159,7 @@ def test_bids_study_files_are_recordings_sidecars_electrodes_and_participants(tm
             tmp_path / "data",
             subject,
             data=rng.normal(0, 2e-5, (2, 4000)),
-            sfreq=250.0,
+            sample_rate_hz=250.0,
             channels=["Fz", "Cz"],
             events=events,
             task="rest",

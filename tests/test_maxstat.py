@@ -5,9 +5,9 @@ import pytest
 
 from famwise.correct.maxstat import single_step, single_step_family, step_down, step_down_family
 from famwise.errors import UserError
+from famwise.naive.stepdown import step_down_reference
 from famwise.nulls.collectors.maxima import MaxStatCollector, StepDownCollector
 from famwise.nulls.collectors.protocol import merge_shard_arrays
-from famwise.reference.stepdown import step_down_reference
 
 TAILS = ["two-sided", "greater", "less"]
 TRANSFORM = {"two-sided": np.abs, "greater": lambda x: x, "less": np.negative}
@@ -57,7 +57,7 @@ def test_max_collector(tail):
 @pytest.mark.parametrize("tail", TAILS)
 @pytest.mark.parametrize("seed", range(6))
 def test_step_down_equals_brute_force_with_ties(tail, seed):
-    # Source: Westfall & Young (1993), successive maxima, written out twice: in famwise.reference.stepdown
+    # Source: Westfall & Young (1993), successive maxima, written out twice: in famwise.naive.stepdown
     # (point by point) and in this test (from the definition).
     table = _tied_table(seed)
     observed = table[0]

@@ -49,10 +49,7 @@ def _nan_free_but_missing_key(folder: Path):
 
 def _edges(folder: Path):
     (folder / "edges.tsv").write_text("channel_a\tchannel_b\nFz\tFCz\nCz\tC3\n")
-    _edit(
-        "  positions: standard-10-10\n",
-        "  positions: standard-10-10\n  neighbors: {method: edges, edges_file: edges.tsv}\n",
-    )(folder)
+    _edit("  positions: 10-10\n", "  positions: 10-10\n  neighbors: {method: edges, edges_file: edges.tsv}\n")(folder)
     _edit("- method: holm\n", "- method: holm\n    - method: cluster\n")(folder)
 
 
@@ -110,30 +107,30 @@ CASES = [
     ),
     (
         "frequency-at-nyquist",
-        _edit("stop_hz: 14", "stop_hz: 50"),
-        ["study.yaml:12 timefreq.freqs_hz.stop_hz: 50 Hz is not below the Nyquist frequency 50 Hz"],
+        _edit("highest_hz: 14", "highest_hz: 50"),
+        ["study.yaml:12 decomposition.frequencies.highest_hz: 50 Hz is not below the Nyquist frequency 50 Hz"],
     ),
     (
         "baseline-outside-epoch",
         _edit("window_ms: [-400, -200]", "window_ms: [-900, -200]"),
-        ["study.yaml:15 timefreq.baseline.window_ms: [-900, -200] ms lies outside the epoch (-600 to 990 ms)"],
+        ["study.yaml:15 decomposition.baseline.window_ms: [-900, -200] ms lies outside the epoch (-600 to 990 ms)"],
     ),
     (
         "baseline-without-points",
         _edit("window_ms: [-400, -200]", "window_ms: [-390, -360]"),
-        ["study.yaml:15 timefreq.baseline.window_ms", "0 output time points"],
+        ["study.yaml:15 decomposition.baseline.window_ms", "0 output time points"],
     ),
-    ("negative-cycles", _edit("cycles: 3", "cycles: [-3, 8]"), ["study.yaml:13 timefreq.cycles", "positive"]),
-    ("zero-fwhm", _edit("cycles: 3", "fwhm_ms: 0"), ["study.yaml:13 timefreq.fwhm_ms", "positive"]),
+    ("negative-cycles", _edit("cycles: 3", "cycles: [-3, 8]"), ["study.yaml:13 decomposition.cycles", "positive"]),
+    ("zero-fwhm", _edit("cycles: 3", "fwhm_ms: 0"), ["study.yaml:13 decomposition.fwhm_ms", "positive"]),
     (
         "wavelets-longer-than-epoch",
         _edit("cycles: 3", "cycles: 40"),
-        ["study.yaml:13 timefreq.cycles: the Morlet wavelet"],
+        ["study.yaml:13 decomposition.cycles: the Morlet wavelet"],
     ),
     (
         "time-step-off-grid",
         _edit("time_step_ms: 50", "time_step_ms: 15"),
-        ["study.yaml:14 timefreq.time_step_ms: time_step_ms must be a positive multiple"],
+        ["study.yaml:14 decomposition.time_step_ms: time_step_ms must be a positive multiple"],
     ),
     (
         "min-epochs-above-every-condition",
@@ -168,10 +165,14 @@ CASES = [
     ),
     (
         "sampling-rates-differ",
-        _subject("02", sfreq=200.0),
+        _subject("02", sample_rate_hz=200.0),
         ["subject 02: sampling rate 200 Hz differs from subject 01 (100 Hz) in ", "sub-02.npz"],
     ),
-    ("epochs-file-missing-key", _nan_free_but_missing_key, ["subject 03", "sub-03.npz", "missing key(s) sfreq"]),
+    (
+        "epochs-file-missing-key",
+        _nan_free_but_missing_key,
+        ["subject 03", "sub-03.npz", "missing key(s) sample_rate_hz"],
+    ),
     ("wrong-type", _edit("alpha: 0.05", "alpha: lots"), ["study.yaml:23 inference.alpha"]),
     (
         "unknown-condition",

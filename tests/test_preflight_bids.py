@@ -24,8 +24,8 @@ conditions:
   low-load: [low]
 epochs:
   window_ms: [-800, 1600]
-timefreq:
-  freqs_hz: {start_hz: 6, stop_hz: 30, count: 4}
+decomposition:
+  frequencies: {lowest_hz: 6, highest_hz: 30, count: 4}
   cycles: 3
   baseline: {mode: db, window_ms: [-500, -200]}
 contrasts:
@@ -41,12 +41,18 @@ inference:
 def write_bids_study(folder, n_subjects: int, *, seconds: float = 40.0):
     """Invented recordings: noise, 10 events of each label 3 s apart."""
     rng = np.random.default_rng(3)
-    sfreq = 100.0
+    sample_rate_hz = 100.0
     for number in range(1, n_subjects + 1):
-        data = rng.normal(scale=5e-6, size=(len(CHANNELS), int(seconds * sfreq)))
+        data = rng.normal(scale=5e-6, size=(len(CHANNELS), int(seconds * sample_rate_hz)))
         events = [(2.0 + 1.8 * k, 0.0, "high" if k % 2 else "low") for k in range(20)]
         bids_writing.write_subject(
-            folder / "data", f"{number:02d}", data=data, sfreq=sfreq, channels=CHANNELS, events=events, task="lantern"
+            folder / "data",
+            f"{number:02d}",
+            data=data,
+            sample_rate_hz=sample_rate_hz,
+            channels=CHANNELS,
+            events=events,
+            task="lantern",
         )
     spec = folder / "study.yaml"
     spec.write_text(SPEC)
@@ -60,7 +66,7 @@ def test_sixty_subjects_are_checked_in_under_ten_seconds(tmp_path):
     preflight(plan)
     elapsed = time.perf_counter() - started
     headers = read_headers(plan)
-    assert len(headers) == 60 and headers["60"].channels == CHANNELS and headers["60"].sfreq == 100.0
+    assert len(headers) == 60 and headers["60"].channels == CHANNELS and headers["60"].sample_rate_hz == 100.0
     assert headers["01"].labels == {"high": 10, "low": 10}
     assert elapsed < 10.0, elapsed
 
@@ -97,5 +103,5 @@ def test_bids_header_agrees_with_the_reader(tmp_path):
         reference="none",
         labels={"high", "low"},
     )
-    assert header.n_samples == epochs.data.shape[-1] and header.tmin == pytest.approx(epochs.tmin)
-    assert header.channels == list(epochs.channels) and header.sfreq == epochs.sfreq
+    assert header.n_samples == epochs.data.shape[-1] and header.epoch_start_s == pytest.approx(epochs.epoch_start_s)
+    assert header.channels == list(epochs.channels) and header.sample_rate_hz == epochs.sample_rate_hz

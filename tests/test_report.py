@@ -116,11 +116,19 @@ def test_report_is_self_contained(built):
 def test_report_shows_every_correction_with_its_count(built):
     run = read_run(built["output"])
     for correction in run.contrasts[0].corrections:
-        assert (
-            f"<b>{correction.name}</b> ({correction.method}): {correction.n_significant} significant points"
-        ) in built["html"]
+        shown = correction.name if correction.name == correction.method else f"{correction.name} ({correction.method})"
+        assert f"<b>{shown}</b>: {correction.n_significant} significant points" in built["html"]
+    assert (
+        "<b>holm</b>: " in built["html"] and "holm (holm)" not in built["html"]
+    )  # the method only when the name differs
     uncorrected = int((run.contrasts[0].p <= 0.05).sum())
     assert f"{uncorrected} of {run.contrasts[0].stat.size} points with p ≤ 0.05" in built["html"]
+
+
+def test_study_table_reads_as_words(built):
+    html = built["html"]
+    assert "dB change from the -400 to -100 ms baseline, each condition separately" in html
+    assert "pooled False" not in html and "single_epoch" not in html and "[-400" not in html
 
 
 def test_report_subjects_table_matches_subjects_tsv(built):
@@ -370,16 +378,19 @@ def test_cluster_table_shows_significant_and_the_largest_other_clusters(tmp_path
 
 def test_methods_name_multitaper_and_yuen_with_their_settings(tmp_path):
     study = write_output(tmp_path, statistic="yuen")
-    study["timefreq"] |= {
+    study["decomposition"] |= {
         "method": "multitaper",
-        "window_ms": 400.0,
-        "time_bandwidth": 3.0,
+        "taper_length_ms": 400.0,
+        "nw": 3.0,
         "cycles": None,
         "average": "trimmed",
     }
     text = methods_text(study, tmp_path)
     assert "DPSS) tapers (Thomson 1982) at 8 frequencies from 4 to 30 Hz (log spacing)" in text
-    assert "over a 400 ms window with a time-bandwidth product of 3" in text
+    assert (
+        "with tapers 400 ms long and a time-half-bandwidth product NW of 3 (5 tapers; Percival & Walden 1993)" in text
+    )
+    assert "Percival DB, Walden AT (1993)" in text
     assert "trimmed mean (trim 0.2 per end)" in text
     assert "Yuen's trimmed t test (trim 0.2) (Yuen 1974)" in text
     assert "Yuen KK (1974)" in text and "Thomson DJ (1982)" in text

@@ -8,8 +8,8 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 import pytest  # noqa: E402
 
+from famwise.electrodes import match_channels, system_positions  # noqa: E402
 from famwise.figure_style import DIVERGING, SEQUENTIAL, lab_to_srgb, symmetric_limit  # noqa: E402
-from famwise.montage import match_channels, standard_positions  # noqa: E402
 from famwise.report.methods import fmt, method_kind  # noqa: E402
 from famwise.report.scalp import project, topography  # noqa: E402
 
@@ -40,7 +40,7 @@ def test_diverging_map_is_lightest_at_zero_and_symmetric_in_lightness():
 
 def test_projection_puts_the_vertex_in_the_middle_and_the_nose_up():
     # Fpz, T7, Oz, T8 lie 90 degrees from Cz in the 10-10 system (Jasper 1958; from memory)
-    positions = match_channels(standard_positions("10-10"), ["Cz", "Fpz", "T7", "Oz", "T8"])
+    positions = match_channels(system_positions("10-10"), ["Cz", "Fpz", "T7", "Oz", "T8"])
     flat = project(positions.xyz)
     assert flat[0] == pytest.approx([0, 0], abs=1e-9)
     assert flat[1:] == pytest.approx(np.array([[0, 1], [-1, 0], [0, -1], [1, 0]]), abs=1e-6)
@@ -48,7 +48,7 @@ def test_projection_puts_the_vertex_in_the_middle_and_the_nose_up():
 
 def test_topography_follows_the_values_left_to_right():
     positions = match_channels(
-        standard_positions("10-10"), ["F3", "Fz", "F4", "C3", "Cz", "C4", "P3", "Pz", "P4", "T7", "T8"]
+        system_positions("10-10"), ["F3", "Fz", "F4", "C3", "Cz", "C4", "P3", "Pz", "P4", "T7", "T8"]
     )
     flat = project(positions.xyz)
     figure, ax = plt.subplots()
@@ -113,4 +113,41 @@ def test_null_histogram_legend_covers_no_data(observed):
     legend = ax.get_legend().get_window_extent()
     plot = ax.get_window_extent()
     assert legend.x0 >= plot.x1 or legend.y1 <= plot.y0  # beside or below the axes, never on the bars or lines
+    plt.close(figure)
+
+
+@pytest.mark.parametrize(
+    ("freqs", "expected"),
+    [
+        (np.geomspace(4.0, 30.0, 12), [4, 8, 16]),  # the odd bins 5.77, 8.32, ... are never ticks
+        (np.geomspace(2.0, 45.0, 20), [2, 4, 8, 16, 32]),
+        (np.geomspace(6.0, 14.0, 5), [6, 8, 12]),
+        (np.linspace(6.0, 14.0, 3), [6, 8, 10, 12, 14]),
+        (np.linspace(4.0, 40.0, 10), [10, 20, 30, 40]),
+    ],
+)
+def test_frequency_ticks_fall_on_round_frequencies(freqs, expected):
+    from famwise.report.figures import round_frequency_ticks
+
+    values, rows = round_frequency_ticks(freqs)
+    assert values.tolist() == expected
+    # each tick sits where its frequency lies on the grid's own scale (log for geomspace)
+    log = freqs[2] - freqs[1] != pytest.approx(freqs[1] - freqs[0])
+    back = np.interp(rows, np.arange(freqs.size), np.log(freqs) if log else freqs)
+    assert (np.exp(back) if log else back) == pytest.approx(expected)
+
+
+def test_topography_marks_members_with_filled_dots_and_the_rest_with_open_rings():
+    positions = match_channels(system_positions("10-10"), ["F3", "Fz", "F4", "C3", "Cz", "C4"])
+    flat = project(positions.xyz)
+    figure, ax = plt.subplots()
+    topography(ax, flat[:, 0], flat, limit=1.0, marked=np.arange(6) < 2)
+    rings, dots = ax.collections[-2:]
+    assert len(rings.get_offsets()) == 4 and len(dots.get_offsets()) == 2
+    assert rings.get_facecolor().size == 0 or rings.get_facecolor()[0][3] == 0  # open
+    assert dots.get_facecolor()[0][3] == 1 and tuple(dots.get_facecolor()[0][:3]) != (
+        1.0,
+        1.0,
+        1.0,
+    )  # filled, not white
     plt.close(figure)

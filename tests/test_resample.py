@@ -9,11 +9,11 @@ import pytest
 from scipy import stats as sps
 
 from famwise.errors import FamwiseWarning, UserError
+from famwise.naive.stats import null_stats
 from famwise.nulls.collectors.exceedance import ExceedanceCollector, permutation_p
 from famwise.nulls.collectors.maxima import MaxStatCollector
 from famwise.nulls.engine import iter_null_blocks, run_shard, run_shards
 from famwise.nulls.tables import check_attainable, make_table, shard_bounds, smallest_attainable_p
-from famwise.reference.stats import null_stats
 from famwise.stats import compute
 
 RNG = np.random.default_rng(4)

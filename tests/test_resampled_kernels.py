@@ -4,16 +4,16 @@ import numpy as np
 
 import famwise.nulls.engine as engine
 from famwise.kernels.resampled_stats import _signflip_yuen
+from famwise.naive.stats import null_stats
 from famwise.nulls.engine import iter_null_blocks
 from famwise.nulls.tables import make_table
-from famwise.reference.stats import null_stats
 
 
 def test_signflip_yuen_kernel_stays_inside_its_buffer(monkeypatch):
     """Rows that flip the subject of largest |value| negative (half of all rows) used to append one value
     past the kernel's n-slot buffer. Its Python source checks every index, as NUMBA_BOUNDSCHECK=1 does for
     the compiled kernel; both must give the same bits, and the trimmed t of each flipped data set sorted
-    anew (Tukey & McLaughlin 1963, via famwise.reference.stats.null_stats)."""
+    anew (Tukey & McLaughlin 1963, via famwise.naive.stats.null_stats)."""
     rng = np.random.default_rng(3)
     x = rng.standard_normal((7, 40)) + 0.2
     table = make_table("one-sample", n_subjects=7, permutations=1000, seed=0)

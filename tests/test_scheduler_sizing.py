@@ -44,7 +44,7 @@ def test_recording_sizes_from_bids_headers_and_events(tmp_path):
         tmp_path / "data",
         "01",
         data=rng.normal(scale=1e-5, size=(4, 250 * 100)),
-        sfreq=250.0,
+        sample_rate_hz=250.0,
         channels=["Fz", "Cz", "Pz", "Oz"],
         events=events,
         task="mem",
@@ -53,15 +53,15 @@ def test_recording_sizes_from_bids_headers_and_events(tmp_path):
     spec.write_text(
         "version: 1\nname: b\nsubjects: {source: bids, path: data, task: mem}\n"
         "conditions: {high: [high], low: [low]}\nepochs: {window_ms: [-800, 1600]}\n"
-        "timefreq: {cycles: 3, freqs_hz: {start_hz: 4, stop_hz: 30, count: 5}}\n"
-        "channels: {positions: standard-10-10}\n"
+        "decomposition: {cycles: 3, frequencies: {lowest_hz: 4, highest_hz: 30, count: 5}}\n"
+        "channels: {positions: 10-10}\n"
         "contrasts: [{name: c, test: paired, conditions: [high, low]}]\n"
         "inference: {corrections: [{method: holm}]}\n"
     )
     plan = Plan.from_spec(spec)
     rec = sizing.recording_sizes(plan, "01")
     # 20 of the 30 events are high or low; 2400 ms at 250 Hz = 600 intervals -> 601 samples.
-    assert (rec.n_channels, rec.n_epochs, rec.n_samples, rec.sfreq) == (4, 20, 601, 250.0)
+    assert (rec.n_channels, rec.n_epochs, rec.n_samples, rec.sample_rate_hz) == (4, 20, 601, 250.0)
     assert rec.input_bytes == sum(p.stat().st_size for p in (tmp_path / "data" / "sub-01" / "eeg").iterdir())
     sizes = sizing.study_sizes(plan)
     # 20 ms default steps over the 2400 ms epoch: 121 times.
@@ -154,8 +154,8 @@ def test_cluster_and_tfce_corrections_ask_more_than_point_corrections(tiny_study
     # 8 x 3 x 32 points are too few to tell apart: widen the maps (40 frequencies, 1 ms steps).
     study = yaml.safe_load(tiny_study.read_text())
     study["inference"]["corrections"] += [{"method": "tfce"}]
-    study["timefreq"]["freqs_hz"]["count"] = 40
-    study["timefreq"]["time_step_ms"] = 1
+    study["decomposition"]["frequencies"]["count"] = 40
+    study["decomposition"]["time_step_ms"] = 1
     tiny_study.write_text(yaml.safe_dump(study, sort_keys=False))
     plan = Plan.from_spec(tiny_study)
     assert sizing.correct_mem_mb(plan, "tfce") > sizing.correct_mem_mb(plan, "holm")

@@ -168,7 +168,7 @@ def test_every_field_has_a_description():
         models.EpochWindow,
         models.FrequencyGrid,
         models.Baseline,
-        models.Timefreq,
+        models.Decomposition,
         models.Analysis,
         models.Neighbors,
         models.Channels,
@@ -200,18 +200,18 @@ def test_a_misspelt_required_key_is_reported_at_the_typo(tmp_path):
 
 def test_spec_defaults_live_in_the_model_fields(tmp_path):
     """The Morlet width (7 cycles) and forming_p (0.01) defaults are resolved by the model, not later."""
-    from famwise.spec.models import ClusterCorrection, Timefreq
+    from famwise.spec.models import ClusterCorrection, Decomposition
 
-    assert Timefreq().cycles == 7.0 and Timefreq().fwhm_ms is None
-    assert Timefreq(fwhm_ms=300.0).cycles is None
-    assert Timefreq(method="multitaper", window_ms=400.0, time_bandwidth=2.0).cycles is None
+    assert Decomposition().cycles == 7.0 and Decomposition().fwhm_ms is None
+    assert Decomposition(fwhm_ms=300.0).cycles is None
+    assert Decomposition(method="multitaper", taper_length_ms=400.0, nw=2.0).cycles is None
     assert ClusterCorrection(method="cluster").forming_p == 0.01
     assert ClusterCorrection(method="cluster", forming_stat=3.0).forming_p is None
 
 
 def test_methods_paragraph_states_the_default_wavelet_width():
     from famwise.report.methods import _decomposition
-    from famwise.spec.models import Timefreq
+    from famwise.spec.models import Decomposition
 
-    study = {"subjects": {"source": "epochs"}, "timefreq": Timefreq().model_dump(mode="json")}
+    study = {"subjects": {"source": "epochs"}, "decomposition": Decomposition().model_dump(mode="json")}
     assert "with 7 cycles" in _decomposition(study)

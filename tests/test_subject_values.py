@@ -8,12 +8,12 @@ import numpy as np
 import pytest
 
 from famwise.correct.clusters import write_cluster_table
+from famwise.decomposition.maps import TimeFreqMaps
 from famwise.design import ContrastData, build_contrast
 from famwise.jobs import main as job
 from famwise.settings import ContrastSettings, SubjectValuesSettings
 from famwise.settings_codec import from_plain, to_json
 from famwise.subject_values import CAVEAT, region_means, sidecar, subject_value_rows
-from famwise.timefreq.maps import TimeFreqMaps
 
 CHANNELS = ("Fz", "Cz", "Pz", "Oz")
 FREQS = np.array([4.0, 6.0, 8.0, 12.0, 20.0])
@@ -54,7 +54,7 @@ def stage(tmp_path):
             times=TIMES,
             measure="power",
             baseline="dB change from -400 to -100 ms",
-            n_trials=np.array([30, 30]),
+            n_epochs=np.array([30, 30]),
             valid=np.ones((len(FREQS), len(TIMES)), bool),
         )
         files.append(tmp_path / f"sub-{subject}.npz")

@@ -9,9 +9,9 @@ from scipy.sparse.csgraph import connected_components
 
 from famwise.correct.tfce import tfce_inference, tfce_map
 from famwise.errors import UserError
+from famwise.naive.clusters import one_sample_t, product_adjacency
+from famwise.naive.tfce import tfce_null_reference, tfce_reference
 from famwise.nulls.collectors.largest_tfce import TFCECollector
-from famwise.reference.clusters import one_sample_t, product_adjacency
-from famwise.reference.tfce import tfce_null_reference, tfce_reference
 
 from conftest import ring
 
@@ -86,7 +86,7 @@ def test_exact_equals_brute_force(seed):
 @pytest.mark.parametrize("dims", [("channel", "freq", "time"), ("freq", "time"), ("channel", "time")])
 @pytest.mark.parametrize("tail", ["two-sided", "greater", "less"])
 def test_fixed_step_equals_reference(dims, tail):
-    # reference: famwise.reference.tfce (scipy.sparse.csgraph labels at every level)
+    # reference: famwise.naive.tfce (scipy.sparse.csgraph labels at every level)
     rng = np.random.default_rng(7)
     graph = ring(6)
     stat = ndimage.gaussian_filter(rng.standard_normal((6, 4, 12)), (0, 0.6, 1.0)) * 5
@@ -98,7 +98,7 @@ def test_fixed_step_equals_reference(dims, tail):
 
 @pytest.mark.parametrize("step", [None, 0.2])
 def test_collector_matches_reference_null_and_block_split(step):
-    # reference: famwise.reference.tfce null (t recomputed per row); exact mode against the brute force above
+    # reference: famwise.naive.tfce null (t recomputed per row); exact mode against the brute force above
     rng = np.random.default_rng(5)
     n, shape = 9, (5, 3, 10)
     graph = ring(5)

@@ -174,12 +174,12 @@ def test_reruns_only_what_changed(tmp_path):
 @pytest.mark.workflow
 def test_all_contrasts_family_equals_brute_force(tmp_path):
     """family: all-contrasts ranks both contrasts' points jointly (Westfall & Young 1993 successive maxima),
-    checked against the brute-force step-down over the concatenated permutation maps (famwise.reference.stepdown)
+    checked against the brute-force step-down over the concatenated permutation maps (famwise.naive.stepdown)
     and Holm over the concatenated parametric p (statsmodels.stats.multitest.multipletests)."""
     from famwise.design import load_contrast
+    from famwise.naive.stepdown import step_down_reference
     from famwise.nulls.engine import iter_null_blocks
     from famwise.nulls.tables import make_table
-    from famwise.reference.stepdown import step_down_reference
 
     spec = write_tiny_study(
         tmp_path, n_subjects=6, corrections="- method: holm\n- method: max-stat\n  step_down: true\n"

@@ -133,15 +133,15 @@ def read_subject(
     recordings = find_recordings(Path(root), subject, task)
     runs = [_cut_epochs(path, subject, window_ms, labels) for path in recordings]
     channels = _common_channels([run.channels for run in runs], recordings, subject)
-    sfreqs = {run.sfreq for run in runs}
-    if len(sfreqs) > 1:
+    sample_rates_hz = {run.sample_rate_hz for run in runs}
+    if len(sample_rates_hz) > 1:
         raise UserError(
             f"subject {subject}: the recordings {[p.name for p in recordings]} have different "
-            f"sampling rates {sorted(sfreqs)} Hz"
+            f"sampling rates {sorted(sample_rates_hz)} Hz"
         )
     data = np.concatenate([run.data[:, [run.channels.index(c) for c in channels]] for run in runs])
     names = np.concatenate([run.labels for run in runs])
-    sfreq, first_offset = runs[0].sfreq, runs[0].first_offset
+    sample_rate_hz, first_offset = runs[0].sample_rate_hz, runs[0].first_offset
     if reference == "average":
         data -= data.mean(axis=1, keepdims=True)
 
@@ -157,8 +157,8 @@ def read_subject(
     rejected = {str(lab): int(np.sum(~keep & (names == lab))) for lab in np.unique(names)}
     return Epochs(
         data=data[keep],
-        sfreq=float(sfreq),
-        tmin=first_offset / sfreq,
+        sample_rate_hz=float(sample_rate_hz),
+        epoch_start_s=first_offset / sample_rate_hz,
         channels=tuple(channels),
         labels=names[keep],
         rejected=rejected,
@@ -166,11 +166,11 @@ def read_subject(
 
 
 class _Cut(NamedTuple):
-    """Epochs of one recording: data (n_epochs, n_channels, n_samples) in volts, sfreq in Hz, offset of the
+    """Epochs of one recording: data (n_epochs, n_channels, n_samples) in volts, sample_rate_hz in Hz, offset of the
     first sample from the event in samples, channel names, event labels (n_epochs,)."""
 
     data: np.ndarray
-    sfreq: float
+    sample_rate_hz: float
     first_offset: int
     channels: list[str]
     labels: np.ndarray
@@ -183,19 +183,19 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
     table = read_channels(sidecar(path, "channels.tsv"), subject)
     recording = open_recording(path, subject)
     signals = _kept_signals(recording, table, subject)
-    sfreq = signals[0].sfreq
-    n_total = int(round(recording.duration_s * sfreq))
+    sample_rate_hz = signals[0].sample_rate_hz
+    n_total = int(round(recording.duration_s * sample_rate_hz))
 
-    first_offset = int(round(start_ms * sfreq / 1000.0))
-    n_samples = int(round(stop_ms * sfreq / 1000.0)) - first_offset + 1
+    first_offset = int(round(start_ms * sample_rate_hz / 1000.0))
+    n_samples = int(round(stop_ms * sample_rate_hz / 1000.0)) - first_offset + 1
     starts = []
     for onset, _ in events:
-        first = int(round(onset * sfreq)) + first_offset
+        first = int(round(onset * sample_rate_hz)) + first_offset
         if first < 0 or first + n_samples > n_total:
             raise UserError(
                 f"subject {subject}: the epoch window {start_ms:g} to {stop_ms:g} ms "
                 f"around the event at onset {onset:g} s runs beyond the recording "
-                f"(0 to {n_total / sfreq:g} s) in {path}"
+                f"(0 to {n_total / sample_rate_hz:g} s) in {path}"
             )
         starts.append(first)
     window = np.asarray(starts)[:, None] + np.arange(n_samples)[None, :]
@@ -206,7 +206,7 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
         samples = stored[ch] * _unit_factor(signal, table, subject)
         bad = ~np.isfinite(samples)
         if bad.any():
-            first_bad = np.flatnonzero(bad)[0] / sfreq
+            first_bad = np.flatnonzero(bad)[0] / sample_rate_hz
             hit = np.flatnonzero(bad[window].any(axis=1))
             epoch = f", epoch {hit[0]} (event at {events[hit[0]][0]:g} s)" if hit.size else ", outside every epoch"
             raise UserError(
@@ -215,7 +215,9 @@ def _cut_epochs(path: Path, subject: str, window_ms: tuple[float, float], labels
             )
         data[:, ch, :] = samples[window]
     data -= data.mean(axis=-1, keepdims=True)
-    return _Cut(data, float(sfreq), first_offset, [s.label for s in signals], np.array([lab for _, lab in events]))
+    return _Cut(
+        data, float(sample_rate_hz), first_offset, [s.label for s in signals], np.array([lab for _, lab in events])
+    )
 
 
 def _common_channels(names: list[list[str]], recordings: list[Path], subject: str) -> list[str]:
@@ -411,7 +413,7 @@ def _kept_signals(recording: Recording, table, subject: str) -> list:
         kept = [by_label[name] for name in names]
     if not kept:
         raise UserError(f"subject {subject}: no good EEG channel in {recording.path}")
-    rates = {s.sfreq for s in kept}
+    rates = {s.sample_rate_hz for s in kept}
     if len(rates) > 1:
         raise UserError(
             f"subject {subject}: the EEG channels of {recording.path} have different sampling rates {sorted(rates)} Hz"

@@ -22,7 +22,7 @@ def write_subject(
     subject: str,
     *,
     data: np.ndarray,
-    sfreq: float,
+    sample_rate_hz: float,
     channels: list[str],
     events: list[tuple[float, float, str]],
     task: str,
@@ -44,7 +44,7 @@ def write_subject(
         Samples in volts, stored in µV as `famwise.recordings.write_recording`
         describes (EDF/BDF: 16 or 24 bit over each channel's range, padded with
         the last sample to whole 1-s data records; BrainVision: 32-bit floats).
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
         Channel names (at most 16 characters).
@@ -74,12 +74,12 @@ def write_subject(
     folder.mkdir(parents=True, exist_ok=True)
     stem = folder / (f"sub-{subject}_task-{task}" + (f"_run-{run}" if run is not None else ""))
 
-    markers = [(int(round(onset * sfreq)), label) for onset, _, label in events]
+    markers = [(int(round(onset * sample_rate_hz)), label) for onset, _, label in events]
     try:
         write_recording(
             Path(f"{stem}_eeg"),
             data * 1e6,
-            sfreq=sfreq,
+            sample_rate_hz=sample_rate_hz,
             channels=channels,
             fmt=fmt,
             markers=markers,
@@ -92,7 +92,7 @@ def write_subject(
     _write_tsv(
         Path(f"{stem}_events.tsv"),
         ["onset", "duration", "trial_type", "sample"],
-        [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sfreq)))] for on, dur, label in events],
+        [[f"{on:.6f}", f"{dur:.6f}", label, str(int(round(on * sample_rate_hz)))] for on, dur, label in events],
     )
     _write_tsv(
         Path(f"{stem}_channels.tsv"),
@@ -103,7 +103,7 @@ def write_subject(
         json.dumps(
             {
                 "TaskName": task,
-                "SamplingFrequency": sfreq,
+                "SamplingFrequency": sample_rate_hz,
                 "EEGReference": "n/a",
                 "PowerLineFrequency": "n/a",
                 "SoftwareFilters": "n/a",

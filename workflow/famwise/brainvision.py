@@ -45,7 +45,7 @@ class Header:
         The header file.
     data_file, marker_file : Path, Path or None
         The binary samples and the markers, resolved beside the header.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz (10^6 / ``SamplingInterval`` in µs).
     orientation : {"MULTIPLEXED", "VECTORIZED"}
         Sample order: all channels of one time point together, or all time
@@ -61,7 +61,7 @@ class Header:
     path: Path
     data_file: Path
     marker_file: Path | None
-    sfreq: float
+    sample_rate_hz: float
     orientation: str
     binary_format: str
     big_endian: bool
@@ -119,7 +119,7 @@ def read_header(path: Path) -> Header:
         path=path,
         data_file=_beside(path, common.get("DataFile"), "DataFile"),
         marker_file=_beside(path, common["MarkerFile"], "MarkerFile") if common.get("MarkerFile") else None,
-        sfreq=1e6 / interval_us,
+        sample_rate_hz=1e6 / interval_us,
         orientation=orientation,
         binary_format=binary_format,
         big_endian=binary.get("UseBigEndianOrder", "NO").upper() == "YES",
@@ -184,7 +184,7 @@ def write(
     path: Path,
     data: np.ndarray,
     *,
-    sfreq: float,
+    sample_rate_hz: float,
     channels: list[str],
     markers: list[tuple[int, str]],
     resolution: float | None = None,
@@ -197,7 +197,7 @@ def write(
         The header file to write, ending in ``.vhdr``.
     data : ndarray, shape (n_channels, n_samples)
         Values in µV; with ``resolution``, whole multiples of it.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
     markers : list of (sample, description)
@@ -236,7 +236,7 @@ def write(
         "DataFormat=BINARY",
         "DataOrientation=MULTIPLEXED",
         f"NumberOfChannels={len(channels)}",
-        f"SamplingInterval={1e6 / sfreq!r}",
+        f"SamplingInterval={1e6 / sample_rate_hz!r}",
         "",
         "[Binary Infos]",
         f"BinaryFormat={binary_format}",

@@ -1,8 +1,8 @@
 """The ``famwise calibrate`` subcommand: run the calibration rules and print the tables.
 
-``famwise calibrate SPEC [--datasets N] [--permutations M] [--chunks K] [--cores N]``
+``famwise calibrate SPEC [--datasets N] [--permutations M] [--shards K] [--cores N]``
 asks Snakemake for ``calibration/<contrast>.tsv`` of every contrast (building
-the contrast data first when needed). Finished chunks are kept, so a run that
+the contrast data first when needed). Finished shards are kept, so a run that
 was interrupted resumes where it stopped. While it runs, the number of null
 datasets done is printed on stderr. When the study's report exists, it is
 rebuilt afterwards so that it shows the calibration (the report rule then
@@ -23,7 +23,7 @@ from famwise.errors import UserError
 from famwise.launch import job_error, run_snakemake
 from famwise.settings_codec import to_json
 
-_PROGRESS = re.compile(r"calibration (\S+): chunk (\d+): (\d+)/(\d+) datasets")
+_PROGRESS = re.compile(r"calibration (\S+): shard (\d+): (\d+)/(\d+) datasets")
 
 
 def add_parser(commands) -> None:
@@ -37,7 +37,7 @@ def add_parser(commands) -> None:
         "--permutations", type=int, help="permutations per null dataset (default: the study's inference.permutations)"
     )
     parser.add_argument(
-        "--chunks",
+        "--shards",
         type=int,
         help="pieces the datasets are computed in, one job and one file each (default: min(10, datasets))",
     )
@@ -55,15 +55,15 @@ def command_calibrate(args) -> int:
     from famwise.preflight import preflight
 
     preflight(plan)  # the mistakes `run` catches before its first job
-    chunks = args.chunks if args.chunks is not None else min(10, max(args.datasets, 1))
+    shards = args.shards if args.shards is not None else min(10, max(args.datasets, 1))
     contrasts = [c.name for c in plan.study.contrasts]
     settings = {  # checks the options here, before Snakemake sees them
         name: to_json(
-            calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, chunks=chunks)
+            calibration_settings(plan, name, datasets=args.datasets, permutations=args.permutations, shards=shards)
         )
         for name in contrasts
     }
-    config = {"calibrate_datasets": args.datasets, "calibrate_chunks": chunks}
+    config = {"calibrate_datasets": args.datasets, "calibrate_shards": shards}
     if args.permutations is not None:
         config["calibrate_permutations"] = args.permutations
     targets = [layout.calibration_files(name)["table"] for name in contrasts]
@@ -79,7 +79,7 @@ def command_calibrate(args) -> int:
     )
     started = time.time()
     watcher = _ProgressWatcher(
-        plan.loaded.output / "logs" / "calibrate_chunk",
+        plan.loaded.output / "logs" / "calibrate_shard",
         total=args.datasets * len(contrasts),
         kept=_kept_datasets(plan.loaded.output / "calibration", settings),
         since=started,
@@ -154,13 +154,13 @@ def format_rows(rows: list[dict]) -> str:
 
 
 def _kept_datasets(folder: Path, settings: dict[str, str]) -> int:
-    """Datasets in chunk files of earlier runs that this run keeps (same settings)."""
+    """Datasets in shard files of earlier runs that this run keeps (same settings)."""
     import numpy as np
 
     kept = 0
     for name, text in settings.items():
         wanted = json.loads(text)
-        for path in (folder / name).glob("chunk-*.npz"):
+        for path in (folder / name).glob("shard-*.npz"):
             try:
                 with np.load(path, allow_pickle=False) as archive:
                     if json.loads(str(archive["settings"])) == wanted:
@@ -171,7 +171,7 @@ def _kept_datasets(folder: Path, settings: dict[str, str]) -> int:
 
 
 class _ProgressWatcher:
-    """Prints 'null datasets done / total' on stderr from the chunk jobs' logs, every few seconds."""
+    """Prints 'null datasets done / total' on stderr from the shard jobs' logs, every few seconds."""
 
     def __init__(self, logs: Path, *, total: int, kept: int, since: float, every: float = 3.0):
         self._logs, self._total, self._kept, self._since, self._every = logs, total, kept, since, every
@@ -199,7 +199,7 @@ class _ProgressWatcher:
             print(f"    calibration: {done}/{self._total} null datasets done", file=sys.stderr, flush=True)
 
     def done(self) -> int:
-        """Datasets finished by chunk jobs of this run (their logs' last progress lines)."""
+        """Datasets finished by shard jobs of this run (their logs' last progress lines)."""
         done = 0
         for log in self._logs.glob("*.log") if self._logs.is_dir() else []:
             try:

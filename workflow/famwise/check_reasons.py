@@ -5,7 +5,7 @@ from pathlib import Path
 
 # Spec sections each rule's settings come from (the report depends on everything).
 _SECTIONS = {
-    "decompose": ("subjects", "conditions", "epochs", "timefreq"),
+    "decompose": ("subjects", "conditions", "epochs", "decomposition"),
     "subjects_table": ("subjects", "conditions"),
     "channel_graph": ("channels", "analysis", "subjects"),
     "contrast_data": ("contrasts", "analysis", "subjects"),

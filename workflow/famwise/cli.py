@@ -127,8 +127,8 @@ def _parser() -> argparse.ArgumentParser:
 
     bench = commands.add_parser(
         "bench",
-        help="time famwise's kernels against the naive reference implementations",
-        description="Time famwise's kernels against the naive reference implementations.",
+        help="time famwise's kernels against the plain, slow implementations of famwise.naive",
+        description="Time famwise's kernels against the plain, slow implementations of famwise.naive.",
     )
     bench.add_argument("--quick", action="store_true", help="smaller sizes (under 2 minutes)")
     bench.add_argument("--json", type=Path, help="also write the table as JSON")

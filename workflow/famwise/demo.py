@@ -77,9 +77,9 @@ ALPHA_WEIGHTS = {
     "P7": 0.4,
     "P8": 0.4,
 }
-SFREQ = 250.0
-TRIALS_PER_CONDITION = 40
-TRIAL_SPACING_S = 3.0
+SAMPLE_RATE_HZ = 250.0
+EPOCHS_PER_CONDITION = 40
+EVENT_SPACING_S = 3.0
 N_PARTICIPANTS = 17
 EXCLUDED = "07"
 SEED = 20261201
@@ -126,7 +126,7 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
             root,
             subject,
             data=data,
-            sfreq=SFREQ,
+            sample_rate_hz=SAMPLE_RATE_HZ,
             channels=CHANNELS,
             events=events,
             task="lantern",
@@ -147,11 +147,11 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
     data : ndarray, shape (n_channels, n_samples), volts
     events : list of (onset s, duration s, trial_type)
     """
-    labels = np.array(["low"] * TRIALS_PER_CONDITION + ["high"] * TRIALS_PER_CONDITION)
+    labels = np.array(["low"] * EPOCHS_PER_CONDITION + ["high"] * EPOCHS_PER_CONDITION)
     rng.shuffle(labels)
-    onsets = 2.0 + TRIAL_SPACING_S * np.arange(labels.size) + rng.uniform(-0.2, 0.2, labels.size)
-    n_samples = int((onsets[-1] + 3.0) * SFREQ)
-    times = np.arange(n_samples) / SFREQ
+    onsets = 2.0 + EVENT_SPACING_S * np.arange(labels.size) + rng.uniform(-0.2, 0.2, labels.size)
+    n_samples = int((onsets[-1] + 3.0) * SAMPLE_RATE_HZ)
+    times = np.arange(n_samples) / SAMPLE_RATE_HZ
     data = _background(rng, len(CHANNELS), n_samples)
     alpha = _narrowband(rng, n_samples, 10.0, 1.5) * 6e-6
     for name, weight in ALPHA_WEIGHTS.items():
@@ -167,7 +167,7 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
         data[CHANNELS.index(name)] += weight * theta
     if artefacts:
         for onset in onsets[rng.choice(labels.size, 4, replace=False)]:
-            start = int((onset + 0.3) * SFREQ)
+            start = int((onset + 0.3) * SAMPLE_RATE_HZ)
             data[:2, start : start + 40] += 250e-6 * np.hanning(40)
     events = [(float(onset), 0.0, str(label)) for onset, label in zip(onsets, labels)]
     return data, events
@@ -178,7 +178,7 @@ def _background(rng: np.random.Generator, n_channels: int, n_samples: int) -> np
     spectrum = rng.normal(size=(n_channels, n_samples // 2 + 1)) + 1j * rng.normal(
         size=(n_channels, n_samples // 2 + 1)
     )
-    freqs = np.fft.rfftfreq(n_samples, 1 / SFREQ)
+    freqs = np.fft.rfftfreq(n_samples, 1 / SAMPLE_RATE_HZ)
     spectrum /= np.sqrt(np.maximum(freqs, 1.0))
     noise = np.fft.irfft(spectrum, n=n_samples, axis=1)
     mixing = 0.6 * np.eye(n_channels) + 0.4 / n_channels
@@ -189,7 +189,7 @@ def _background(rng: np.random.Generator, n_channels: int, n_samples: int) -> np
 def _narrowband(rng: np.random.Generator, n_samples: int, centre_hz: float, width_hz: float) -> np.ndarray:
     """Unit-RMS noise band-limited around ``centre_hz``."""
     spectrum = rng.normal(size=n_samples // 2 + 1) + 1j * rng.normal(size=n_samples // 2 + 1)
-    freqs = np.fft.rfftfreq(n_samples, 1 / SFREQ)
+    freqs = np.fft.rfftfreq(n_samples, 1 / SAMPLE_RATE_HZ)
     spectrum *= np.exp(-0.5 * ((freqs - centre_hz) / width_hz) ** 2)
     signal = np.fft.irfft(spectrum, n=n_samples)
     return signal / signal.std()

@@ -101,11 +101,11 @@ def build_contrast(
     sampling_rates : list of float or None, optional
         Sampling rate (Hz) each subject's maps were computed from; must agree.
     """
-    from famwise.timefreq import load_timefreq  # numba-backed package: only the contrast stage needs it
+    from famwise.decomposition import load_maps  # numba-backed package: only the contrast stage needs it
 
     subjects, test, analysis = settings.subjects, settings.test, settings.analysis
     _check_rates(sampling_rates or [], subjects)
-    maps = [load_timefreq(Path(f)) for f in files]
+    maps = [load_maps(Path(f)) for f in files]
     _check_consistent(maps, subjects)
     first = maps[0]
     channel_index = _channel_index(first.channels, analysis.channels)

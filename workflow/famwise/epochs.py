@@ -13,9 +13,9 @@ class Epochs:
     ----------
     data : ndarray, shape (n_epochs, n_channels, n_samples)
         Samples in volts.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
-    tmin : float
+    epoch_start_s : float
         Time of the first sample relative to the event, in s.
     channels : tuple of str
         Channel names, length n_channels.
@@ -27,8 +27,8 @@ class Epochs:
     """
 
     data: np.ndarray
-    sfreq: float
-    tmin: float
+    sample_rate_hz: float
+    epoch_start_s: float
     channels: tuple[str, ...]
     labels: np.ndarray
     rejected: dict[str, int] = field(default_factory=dict)
@@ -36,4 +36,4 @@ class Epochs:
     @property
     def times(self) -> np.ndarray:
         """Sample times in s, shape (n_samples,)."""
-        return self.tmin + np.arange(self.data.shape[-1]) / self.sfreq
+        return self.epoch_start_s + np.arange(self.data.shape[-1]) / self.sample_rate_hz

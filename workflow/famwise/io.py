@@ -1,8 +1,8 @@
 """Reading subject inputs and writing results atomically.
 
 Epochs NPZ (``subjects.source: epochs``): keys ``data`` float (n_epochs,
-n_channels, n_times) in volts, ``sfreq`` (Hz), ``tmin`` (s), ``channels``
-(str, n_channels), ``conditions`` (str, n_epochs: the event label of each
+n_channels, n_times) in volts, ``sample_rate_hz`` (Hz), ``epoch_start_s`` (s), ``channels``
+(str, n_channels), ``event_labels`` (str, n_epochs: the event label of each
 epoch), optional ``bad`` bool (n_epochs).
 """
 
@@ -21,10 +21,10 @@ def save_epochs(
     path: str | Path,
     data: np.ndarray,
     *,
-    sfreq: float,
-    tmin: float,
+    sample_rate_hz: float,
+    epoch_start_s: float,
     channels: Sequence[str],
-    conditions: Sequence[str],
+    event_labels: Sequence[str],
     bad: np.ndarray | None = None,
 ) -> None:
     """Write one subject's epochs in famwise's epochs NPZ format.
@@ -35,30 +35,34 @@ def save_epochs(
         Output file, e.g. ``data/sub-01.npz``.
     data : ndarray, shape (n_epochs, n_channels, n_times)
         Samples in volts.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
-    tmin : float
+    epoch_start_s : float
         Time of the first sample relative to the event, in s.
     channels : sequence of str, length n_channels
         Channel names.
-    conditions : sequence of str, length n_epochs
+    event_labels : sequence of str, length n_epochs
         Event label of each epoch.
     bad : ndarray of bool, shape (n_epochs,), optional
         Epochs to leave out.
     """
     data = np.asarray(data)
     channels = [str(c) for c in channels]
-    conditions = [str(c) for c in conditions]
+    event_labels = [str(c) for c in event_labels]
     if data.ndim != 3:
         raise ValueError(f"data must have shape (n_epochs, n_channels, n_times), got {data.shape}")
     if len(channels) != data.shape[1]:
         raise ValueError(f"{len(channels)} channel names for {data.shape[1]} channels")
-    if len(conditions) != data.shape[0]:
-        raise ValueError(f"{len(conditions)} condition labels for {data.shape[0]} epochs")
-    if sfreq <= 0:
-        raise ValueError(f"sfreq must be positive, got {sfreq}")
+    if len(event_labels) != data.shape[0]:
+        raise ValueError(f"{len(event_labels)} condition labels for {data.shape[0]} epochs")
+    if sample_rate_hz <= 0:
+        raise ValueError(f"sample_rate_hz must be positive, got {sample_rate_hz}")
     arrays = dict(
-        data=data, sfreq=float(sfreq), tmin=float(tmin), channels=np.array(channels), conditions=np.array(conditions)
+        data=data,
+        sample_rate_hz=float(sample_rate_hz),
+        epoch_start_s=float(epoch_start_s),
+        channels=np.array(channels),
+        event_labels=np.array(event_labels),
     )
     if bad is not None:
         bad = np.asarray(bad, dtype=bool)
@@ -86,16 +90,20 @@ def load_epochs(path: Path, *, subject: str) -> Epochs:
     except (OSError, ValueError) as error:
         raise UserError(f"{where}: not a readable NPZ file ({error})") from None
     with archive:
-        missing = [key for key in ("data", "sfreq", "tmin", "channels", "conditions") if key not in archive.files]
+        missing = [
+            key
+            for key in ("data", "sample_rate_hz", "epoch_start_s", "channels", "event_labels")
+            if key not in archive.files
+        ]
         if missing:
             raise UserError(
-                f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sfreq, tmin, channels, conditions)"
+                f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sample_rate_hz, epoch_start_s, channels, event_labels)"
             )
         data = archive["data"]
-        sfreq = float(archive["sfreq"])
-        tmin = float(archive["tmin"])
+        sample_rate_hz = float(archive["sample_rate_hz"])
+        epoch_start_s = float(archive["epoch_start_s"])
         channels = tuple(str(c) for c in archive["channels"])
-        labels = np.array([str(c) for c in archive["conditions"]])
+        labels = np.array([str(c) for c in archive["event_labels"]])
         bad = archive["bad"].astype(bool) if "bad" in archive.files else None
     if data.ndim != 3:
         raise UserError(f"{where}: data must have shape (n_epochs, n_channels, n_times), got {data.shape}")
@@ -103,15 +111,21 @@ def load_epochs(path: Path, *, subject: str) -> Epochs:
         raise UserError(f"{where}: {len(channels)} channel names for {data.shape[1]} channels in data")
     if labels.shape != (data.shape[0],):
         raise UserError(f"{where}: {labels.size} condition labels for {data.shape[0]} epochs")
-    if not sfreq > 0:
-        raise UserError(f"{where}: sfreq must be positive, got {sfreq}")
+    if not sample_rate_hz > 0:
+        raise UserError(f"{where}: sample_rate_hz must be positive, got {sample_rate_hz}")
     finite = np.isfinite(data)
     if not finite.all():
         epoch, channel, _ = np.argwhere(~finite)[0]
         raise UserError(f"{where}: NaN or inf samples (first in epoch {epoch}, channel {channels[channel]})")
     if bad is not None:
         data, labels = data[~bad], labels[~bad]
-    return Epochs(data=data.astype(np.float64, copy=False), sfreq=sfreq, tmin=tmin, channels=channels, labels=labels)
+    return Epochs(
+        data=data.astype(np.float64, copy=False),
+        sample_rate_hz=sample_rate_hz,
+        epoch_start_s=epoch_start_s,
+        channels=channels,
+        labels=labels,
+    )
 
 
 def subject_file(folder: Path, pattern: str, subject: str) -> Path:

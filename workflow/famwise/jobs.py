@@ -56,15 +56,15 @@ def run_decompose(args, settings: types.DecomposeSettings) -> None:
 def _decompose_subject(args, settings: types.DecomposeSettings):
     """The subject's maps and sidecar record."""
     from famwise import bids
+    from famwise.decomposition import decompose, frequency_grid, load_maps
     from famwise.io import load_epochs, subject_file
-    from famwise.timefreq import decompose, frequency_grid, load_timefreq
 
     subject = args.subject
     source = settings.source
     labels = {label: name for name, group in settings.conditions.items() for label in group}
-    rejected, sfreq = {}, None
-    if source == "timefreq":
-        maps = load_timefreq(subject_file(Path("."), settings.path, subject))
+    rejected, sample_rate_hz = {}, None
+    if source == "maps":
+        maps = load_maps(subject_file(Path("."), settings.path, subject))
     else:
         if source == "epochs":
             epochs = load_epochs(subject_file(Path("."), settings.path, subject), subject=subject)
@@ -79,12 +79,12 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
                 reference=ep.reference,
                 labels=set(labels),
             )
-        sfreq = epochs.sfreq
+        sample_rate_hz = epochs.sample_rate_hz
         for label, count in epochs.rejected.items():
             if label in labels:
                 rejected[labels[label]] = rejected.get(labels[label], 0) + int(count)
-        tf = settings.timefreq
-        grid = tf.freqs_hz
+        tf = settings.decomposition
+        grid = tf.frequencies
         baseline = tf.baseline
         _say(
             f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf.method} {tf.measure}"
@@ -93,12 +93,12 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
             epochs,
             subject=subject,
             conditions={name: list(group) for name, group in settings.conditions.items()},
-            freqs_hz=frequency_grid(grid.start_hz, grid.stop_hz, grid.count, grid.spacing),
+            frequencies_hz=frequency_grid(grid.lowest_hz, grid.highest_hz, grid.count, grid.spacing),
             method=tf.method,
             cycles=tf.cycles,
             fwhm_ms=tf.fwhm_ms,
-            window_ms=tf.window_ms,
-            time_bandwidth=tf.time_bandwidth,
+            taper_length_ms=tf.taper_length_ms,
+            nw=tf.nw,
             measure=tf.measure,
             time_step_ms=tf.time_step_ms,
             average=tf.average,
@@ -106,7 +106,7 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
             baseline_mode=baseline.mode,
             baseline_window_ms=baseline.window_ms,
             baseline_pooled=baseline.pooled,
-            baseline_single_trial=baseline.single_trial,
+            baseline_single_epoch=baseline.single_epoch,
             min_epochs=settings.min_epochs,
             progress=_say,
         )
@@ -117,8 +117,8 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
         )
     info = {
         "subject": subject,
-        "sfreq": sfreq,
-        "n_trials": {c: int(n) for c, n in zip(maps.conditions, maps.n_trials)},
+        "sample_rate_hz": sample_rate_hz,
+        "n_epochs": {c: int(n) for c, n in zip(maps.conditions, maps.n_epochs)},
         "rejected": {c: rejected.get(c, 0) for c in maps.conditions},
     }
     return maps, info
@@ -140,7 +140,7 @@ def run_subjects_table(args, settings: types.SubjectsTableSettings) -> None:
     for subject in settings.found:
         reason = settings.exclude.get(subject, "")
         record = info.get(subject)
-        counts = [str(record["n_trials"].get(c, 0)) if record else "n/a" for c in conditions]
+        counts = [str(record["n_epochs"].get(c, 0)) if record else "n/a" for c in conditions]
         rejected = [str(record["rejected"].get(c, 0)) if record else "n/a" for c in conditions]
         status = "excluded" if reason else "included"
         lines.append(
@@ -153,30 +153,30 @@ def run_subjects_table(args, settings: types.SubjectsTableSettings) -> None:
 
 def run_channel_graph(args, settings: types.GraphSettings) -> None:
     """Channel names of the data + positions -> ``channels/graph.npz``."""
-    from famwise import bids, montage
-    from famwise.timefreq import load_timefreq
+    from famwise import bids, electrodes
+    from famwise.decomposition import load_maps
 
-    channels = list(load_timefreq(Path(args.maps)).channels)
+    channels = list(load_maps(Path(args.maps)).channels)
     wanted = settings.analysis_channels
     if wanted:
         lookup = {c.lower(): c for c in channels}
         channels = [lookup.get(name.lower(), name) for name in wanted]
-    source = settings.positions.removeprefix("standard-")
+    source = settings.positions
     if source == "bids":
         subject = Path(args.maps).stem.removeprefix("sub-")
         source = bids.electrodes_file(Path(settings.bids_root), subject, task=settings.task)
         if source is None:
             raise UserError(f"channels.positions: 'bids' but subject {subject} has no _electrodes.tsv")
     neighbors = settings.neighbors
-    graph, positions = montage.channel_graph(
+    graph, positions = electrodes.channel_graph(
         channels,
         positions=source,
         method=neighbors.method,
         max_distance_mm=neighbors.max_distance_mm,
         edges_file=Path(neighbors.edges_file) if neighbors.edges_file else None,
     )
-    _say(montage.graph_summary(graph))
-    montage.save_graph(Path(args.out), graph, positions)
+    _say(electrodes.graph_summary(graph))
+    electrodes.save_graph(Path(args.out), graph, positions)
 
 
 def run_contrast_data(args, settings: types.ContrastSettings) -> None:
@@ -184,7 +184,7 @@ def run_contrast_data(args, settings: types.ContrastSettings) -> None:
     from famwise.design import build_contrast
 
     files = [Path(p) for p in args.inputs]
-    rates = [json.loads(f.with_suffix(".json").read_text()).get("sfreq") for f in files]
+    rates = [json.loads(f.with_suffix(".json").read_text()).get("sample_rate_hz") for f in files]
     data = build_contrast(files, sampling_rates=rates, settings=settings)
     _say(f"contrast {settings.name}: {len(data.subjects)} subjects x {np.prod(data.shape)} points {data.shape}")
     data.save(Path(args.out))
@@ -281,19 +281,19 @@ def run_report(args, settings: types.ReportSettings) -> None:
     )
 
 
-def run_calibrate_chunk(args, settings: types.CalibrationSettings) -> None:
-    """Contrast data -> ``calibration/<c>/chunk-<k>.npz`` (null datasets through every correction)."""
-    from famwise.calibrate.datasets import calibration_chunk
+def run_calibrate_shard(args, settings: types.CalibrationSettings) -> None:
+    """Contrast data -> ``calibration/<c>/shard-<k>.npz`` (null datasets through every correction)."""
+    from famwise.calibrate.datasets import calibration_shard
 
     graph = Path(args.graph) if args.graph.strip() else None
     save_npz(
         Path(args.out),
-        **calibration_chunk(Path(args.subjects), graph, chunk=args.chunk, settings=settings, progress=_say),
+        **calibration_shard(Path(args.subjects), graph, shard=args.shard, settings=settings, progress=_say),
     )
 
 
 def run_calibrate_table(args, settings: types.CalibrationSettings) -> None:
-    """Chunks -> ``calibration/<c>.tsv`` (+ .json, .png, .svg)."""
+    """Shards -> ``calibration/<c>.tsv`` (+ .json, .png, .svg)."""
     from famwise.calibrate.table import summarize
 
     rows = summarize(
@@ -324,7 +324,7 @@ STAGES = {
     "planned-values": (run_planned_values, types.SubjectValuesSettings),
     "study-record": (run_study_record, types.StudyRecordSettings),
     "report": (run_report, types.ReportSettings),
-    "calibrate-chunk": (run_calibrate_chunk, types.CalibrationSettings),
+    "calibrate-shard": (run_calibrate_shard, types.CalibrationSettings),
     "calibrate-table": (run_calibrate_table, types.CalibrationSettings),
 }
 """Stage name -> (entry, settings type)."""
@@ -343,7 +343,6 @@ def _parser() -> argparse.ArgumentParser:
     parser.add_argument("--result", help="a correction's result.npz (subject values)")
     parser.add_argument("--graph", default="")
     parser.add_argument("--shard", type=int)
-    parser.add_argument("--chunk", type=int, help="calibration chunk index")
     parser.add_argument("--key", help="correction name (joint step-down shards)")
     parser.add_argument("inputs", nargs="*")
     return parser

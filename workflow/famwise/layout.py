@@ -80,8 +80,8 @@ def sidecar_of(table: str) -> str:
     return table.removesuffix(".tsv") + ".json"
 
 
-def calibration_chunk(contrast: str, chunk) -> str:
-    return f"calibration/{contrast}/chunk-{chunk}.npz"
+def calibration_shard(contrast: str, shard) -> str:
+    return f"calibration/{contrast}/shard-{shard}.npz"
 
 
 def calibration_files(contrast: str) -> dict[str, str]:

@@ -249,14 +249,14 @@ class Plan:
                 "min_epochs": s.subjects.min_epochs,
                 "conditions": s.conditions,
                 "epochs": s.epochs.model_dump(mode="json"),
-                "timefreq": s.timefreq.model_dump(mode="json"),
+                "decomposition": s.decomposition.model_dump(mode="json"),
             },
         )
 
     def graph_settings(self) -> GraphSettings:
         s = self.study
         positions = s.channels.positions
-        if positions not in ("standard-10-10", "standard-10-20", "bids"):
+        if positions not in ("10-10", "10-20", "bids"):
             positions = self.loaded.run_path(self.loaded.resolve(positions))
         neighbors = s.channels.neighbors.model_dump(mode="json")
         if neighbors["edges_file"]:
@@ -276,7 +276,7 @@ class Plan:
         """Files the graph is built from (besides the first subject's map)."""
         s = self.study.channels
         files = []
-        if s.positions not in ("standard-10-10", "standard-10-20", "bids"):
+        if s.positions not in ("10-10", "10-20", "bids"):
             files.append(self.loaded.run_path(self.loaded.resolve(s.positions)))
         if s.neighbors.method == "edges":
             files.append(self.loaded.run_path(self.loaded.resolve(s.neighbors.edges_file)))
@@ -355,7 +355,7 @@ class Plan:
                         key=c.label,
                         cluster_stat=c.cluster_stat,
                         dims=tuple(c.dims),
-                        min_neighbor_channels=c.min_neighbor_channels,
+                        min_supra_neighbors=c.min_supra_neighbors,
                     )
                 )
             elif c.method == "tfce":

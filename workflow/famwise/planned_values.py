@@ -63,11 +63,11 @@ def region_index(
 
 def planned_means(files: list[Path], regions: tuple[PlannedRegionSettings, ...], conditions: list[str]) -> np.ndarray:
     """Each subject's mean over each region per condition, shape (n_subjects, n_conditions, n_regions)."""
-    from famwise.timefreq import load_timefreq  # numba-backed package: loaded only here
+    from famwise.decomposition import load_maps  # numba-backed package: loaded only here
 
     out = np.empty((len(files), len(conditions), len(regions)))
     for s, path in enumerate(files):
-        tf = load_timefreq(path)
+        tf = load_maps(path)
         for r, region in enumerate(regions):
             index = np.ix_(*region_index(region, r, tf.channels, tf.freqs, tf.times, tf.valid))
             for k, name in enumerate(conditions):

@@ -25,7 +25,7 @@ class Signal(NamedTuple):
     """One signal of a recording: label, sampling rate in Hz, unit as the file states it."""
 
     label: str
-    sfreq: float
+    sample_rate_hz: float
     unit: str
 
 
@@ -75,8 +75,8 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
             header = brainvision.read_header(path)
             return Recording(
                 path,
-                tuple(Signal(c.name, header.sfreq, c.unit) for c in header.channels),
-                header.n_samples / header.sfreq,
+                tuple(Signal(c.name, header.sample_rate_hz, c.unit) for c in header.channels),
+                header.n_samples / header.sample_rate_hz,
                 lambda indices: brainvision.read_samples(header, indices),
             )
         if path.suffix.lower() == ".bdf":
@@ -100,7 +100,7 @@ def write_recording(
     path: Path,
     data_uv: np.ndarray,
     *,
-    sfreq: float,
+    sample_rate_hz: float,
     channels: list[str],
     fmt: str,
     markers: list[tuple[int, str]],
@@ -114,7 +114,7 @@ def write_recording(
         File name without suffix (``.../sub-01_task-x_eeg``).
     data_uv : ndarray, shape (n_channels, n_samples)
         Samples in µV.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
     fmt : {"edf", "bdf", "brainvision"}
@@ -130,14 +130,19 @@ def write_recording(
     """
     if fmt == "brainvision":
         target = Path(f"{path}.vhdr")
-        brainvision.write(target, data_uv, sfreq=sfreq, channels=channels, markers=markers, resolution=resolution_uv)
+        brainvision.write(
+            target, data_uv, sample_rate_hz=sample_rate_hz, channels=channels, markers=markers, resolution=resolution_uv
+        )
         return target
     target = Path(f"{path}.{fmt}")
     signal_class, file_class = (edfio.EdfSignal, edfio.Edf) if fmt == "edf" else (edfio.BdfSignal, edfio.Bdf)
-    record = int(round(sfreq)) if float(sfreq).is_integer() else data_uv.shape[1]
+    record = int(round(sample_rate_hz)) if float(sample_rate_hz).is_integer() else data_uv.shape[1]
     padded = np.pad(data_uv, ((0, 0), (0, -data_uv.shape[1] % record)), mode="edge")
     if resolution_uv is None:
-        signals = [signal_class(row, sfreq, label=name, physical_dimension="uV") for row, name in zip(padded, channels)]
+        signals = [
+            signal_class(row, sample_rate_hz, label=name, physical_dimension="uV")
+            for row, name in zip(padded, channels)
+        ]
     else:
         limit, dtype = _EDF_DIGITAL[fmt]
         bound = float(np.floor(limit * resolution_uv))
@@ -148,7 +153,7 @@ def write_recording(
         signals = [
             signal_class.from_digital(
                 row.astype(dtype),
-                sfreq,
+                sample_rate_hz,
                 label=name,
                 physical_dimension="uV",
                 physical_range=(-bound, bound),

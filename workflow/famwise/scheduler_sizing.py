@@ -43,7 +43,7 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise.timefreq.decompose import BLOCK_BYTES
+from famwise.decomposition.decompose import BLOCK_BYTES
 
 MB = 2**20
 BASE_MEM_MB = 250
@@ -117,7 +117,7 @@ class RecordingSizes:
         Epochs before rejection (events of the spec's conditions).
     n_samples : int
         Samples per epoch.
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate, Hz.
     """
 
@@ -125,7 +125,7 @@ class RecordingSizes:
     n_channels: int
     n_epochs: int
     n_samples: int
-    sfreq: float
+    sample_rate_hz: float
 
 
 _CACHE: dict[int, tuple[object, StudySizes]] = {}
@@ -147,13 +147,13 @@ def study_sizes(plan) -> StudySizes:
     epoch_ms = s.epochs.window_ms
     if s.subjects.source == "epochs":
         first = recording_sizes(plan, plan.subjects[0])
-        epoch_ms = (0.0, (first.n_samples - 1) * 1000.0 / first.sfreq)
+        epoch_ms = (0.0, (first.n_samples - 1) * 1000.0 / first.sample_rate_hz)
     window_ms = s.analysis.time_ms or epoch_ms
-    step_ms = s.timefreq.time_step_ms or 1000.0 / FALLBACK_SFREQ_HZ
+    step_ms = s.decomposition.time_step_ms or 1000.0 / FALLBACK_SFREQ_HZ
     sizes = StudySizes(
         n_subjects=len(plan.subjects),
         n_channels=n_channels,
-        n_freqs=s.timefreq.freqs_hz.count,
+        n_freqs=s.decomposition.frequencies.count,
         n_times=int((window_ms[1] - window_ms[0]) // step_ms) + 1,
         n_map_times=int((epoch_ms[1] - epoch_ms[0]) // step_ms) + 1,
         n_conditions=len(s.conditions),
@@ -183,18 +183,18 @@ def recording_sizes(plan, subject: str) -> RecordingSizes:
     recording = next((f for f in files if f.suffix.lower() in SUFFIXES), None)
     if source == "bids" and recording is not None:
         signals = open_recording(recording, subject, headers_only=True).signals
-        sfreq = max(signal.sfreq for signal in signals)
+        sample_rate_hz = max(signal.sample_rate_hz for signal in signals)
         labels = {label for group in s.conditions.values() for label in group}
         events = [f for f in files if f.name.endswith("_events.tsv")]
         n_epochs = _count_events(events[0], labels) if events else 0
         start_ms, stop_ms = s.epochs.window_ms
-        n_samples = int(round((stop_ms - start_ms) * sfreq / 1000.0)) + 1
-        return RecordingSizes(input_bytes, len(signals), n_epochs, n_samples, float(sfreq))
+        n_samples = int(round((stop_ms - start_ms) * sample_rate_hz / 1000.0)) + 1
+        return RecordingSizes(input_bytes, len(signals), n_epochs, n_samples, float(sample_rate_hz))
     if source == "epochs":
         n_epochs, n_channels, n_samples = _npz_shape(files[0], "data")
         with np.load(files[0], allow_pickle=False) as archive:
-            sfreq = float(archive["sfreq"])
-        return RecordingSizes(input_bytes, n_channels, n_epochs, n_samples, sfreq)
+            sample_rate_hz = float(archive["sample_rate_hz"])
+        return RecordingSizes(input_bytes, n_channels, n_epochs, n_samples, sample_rate_hz)
     # Maps given as input (or no recording yet): nothing to size but the files.
     return RecordingSizes(input_bytes, FALLBACK_CHANNELS, 0, 0, 0.0)
 
@@ -230,10 +230,10 @@ def _minutes(operations: float, rate: float) -> int:
 def _decompose_shape(plan, subject: str) -> tuple[RecordingSizes, int, int]:
     """(recording sizes, FFT length, tapers) of one subject's decomposition."""
     rec = recording_sizes(plan, subject)
-    tf = plan.study.timefreq
+    tf = plan.study.decomposition
     n_tapers = 1
     if tf.method == "multitaper":
-        n_tapers = max(1, int(2 * tf.time_bandwidth) - 1)
+        n_tapers = max(1, int(2 * tf.nw) - 1)
     # Zero padding for the longest kernel is at most one epoch (kernels that do not fit are refused).
     n_fft = 2 * rec.n_samples
     return rec, n_fft, n_tapers
@@ -248,7 +248,7 @@ def decompose_mem_mb(plan, subject: str) -> int:
     sizes = study_sizes(plan)
     epochs = rec.n_epochs * rec.n_channels * rec.n_samples * 8
     maps = sizes.n_conditions * rec.n_channels * sizes.n_freqs * sizes.n_map_times * 8
-    if plan.study.subjects.source == "timefreq":
+    if plan.study.subjects.source == "maps":
         return _mem(3 * rec.input_bytes)
     return _mem(rec.input_bytes + 2 * epochs + 2 * BLOCK_BYTES + 2 * maps)
 

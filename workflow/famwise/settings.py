@@ -15,39 +15,39 @@ from typing import Literal
 
 from famwise.settings_codec import to_plain
 
-# ---- decomposition (famwise.timefreq via the decompose job) --------------------
+# ---- decomposition (famwise.decomposition via the decompose job) --------------------
 
 
 @dataclass(frozen=True)
 class FrequencyGridSettings:
-    """``timefreq.freqs_hz`` of the spec."""
+    """``decomposition.frequencies`` of the spec."""
 
-    start_hz: float
-    stop_hz: float
+    lowest_hz: float
+    highest_hz: float
     count: int
     spacing: str
 
 
 @dataclass(frozen=True)
 class BaselineSettings:
-    """``timefreq.baseline`` of the spec."""
+    """``decomposition.baseline`` of the spec."""
 
     mode: str
     window_ms: tuple[float, float] | None
     pooled: bool
-    single_trial: bool
+    single_epoch: bool
 
 
 @dataclass(frozen=True)
-class TimefreqSettings:
-    """``timefreq`` of the spec (Morlet width resolved: ``cycles`` is 7 unless given otherwise)."""
+class DecompositionSettings:
+    """``decomposition`` of the spec (Morlet width resolved: ``cycles`` is 7 unless given otherwise)."""
 
     method: str
-    freqs_hz: FrequencyGridSettings
+    frequencies: FrequencyGridSettings
     cycles: float | tuple[float, float] | None
     fwhm_ms: float | tuple[float, float] | None
-    window_ms: float | None
-    time_bandwidth: float | None
+    taper_length_ms: float | None
+    nw: float | None
     measure: str
     time_step_ms: float | None
     average: str
@@ -78,7 +78,7 @@ class DecomposeSettings:
     min_epochs: int
     conditions: dict[str, tuple[str, ...]]
     epochs: EpochSettings
-    timefreq: TimefreqSettings
+    decomposition: DecompositionSettings
 
 
 @dataclass(frozen=True)
@@ -107,7 +107,7 @@ class NeighborsSettings:
 class GraphSettings:
     """Channel names + positions -> ``channels/graph.npz``.
 
-    ``positions`` is a standard system name, ``"bids"`` or an absolute TSV path.
+    ``positions`` is an electrode system ("10-10", "10-20"), ``"bids"`` or an absolute TSV path.
     """
 
     positions: str
@@ -209,7 +209,7 @@ class ClusterNullSettings:
     key: str
     cluster_stat: str
     dims: tuple[str, ...]
-    min_neighbor_channels: int
+    min_supra_neighbors: int
     kind: Literal["cluster"] = "cluster"
 
 
@@ -265,7 +265,7 @@ class CorrectionEntry:
     forming_stat: float | None = None
     cluster_stat: str | None = None
     dims: tuple[str, ...] | None = None
-    min_neighbor_channels: int | None = None
+    min_supra_neighbors: int | None = None
     E: float | None = None
     H: float | None = None
     step: float | None = None
@@ -340,7 +340,7 @@ class SubjectValuesSettings:
 
 @dataclass(frozen=True)
 class CalibrationSettings:
-    """Null datasets of one contrast -> ``calibration/<c>/chunk-<k>.npz`` -> ``calibration/<c>.tsv``.
+    """Null datasets of one contrast -> ``calibration/<c>/shard-<k>.npz`` -> ``calibration/<c>.tsv``.
 
     ``nulls`` is the study's null settings with ``permutations`` as asked
     for the calibration (``study_permutations`` keeps the study's number).
@@ -348,7 +348,7 @@ class CalibrationSettings:
 
     contrast: str
     datasets: int
-    chunks: int
+    shards: int
     study_permutations: int
     alpha: float
     observed: ObservedSettings

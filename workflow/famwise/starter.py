@@ -72,10 +72,10 @@ def _timing(source: str, data: Path, folder: Path, path: str, task: str | None, 
         raise UserError(f"{data}: no subject found")
     if source == "bids":
         header = bids_header(data, subjects[0], task=task, window_ms=(-500.0, 1500.0), wanted=set())
-        return starter_timing(header.sfreq, None)
+        return starter_timing(header.sample_rate_hz, None)
     header = npz_epochs_header(folder / path.replace("{subject}", subjects[0]), subjects[0])
-    last = header.tmin + (header.n_samples - 1) / header.sfreq
-    return starter_timing(header.sfreq, (header.tmin * 1000.0, last * 1000.0))
+    last = header.epoch_start_s + (header.n_samples - 1) / header.sample_rate_hz
+    return starter_timing(header.sample_rate_hz, (header.epoch_start_s * 1000.0, last * 1000.0))
 
 
 def _bids_task(recording: Path) -> str | None:
@@ -116,8 +116,8 @@ def _epochs_labels(folder: Path, pattern: str, subjects: list[str]) -> Counter:
     labels = Counter()
     for subject in subjects:
         with np.load(folder / pattern.replace("{subject}", subject), allow_pickle=False) as archive:
-            if "conditions" in archive.files:
-                labels.update(str(c) for c in archive["conditions"])
+            if "event_labels" in archive.files:
+                labels.update(str(c) for c in archive["event_labels"])
     return labels
 
 
@@ -166,9 +166,9 @@ conditions:              # condition name -> event labels pooled into it
 epochs:
   window_ms: [{epoch[0]:g}, {epoch[1]:g}]
 
-timefreq:
+decomposition:
   method: morlet
-  freqs_hz: {{start_hz: 4, stop_hz: {timing["stop_hz"]:g}, count: 20, spacing: log}}
+  frequencies: {{lowest_hz: 4, highest_hz: {timing["highest_hz"]:g}, count: 20, spacing: log}}
   cycles: [3, 10]
   time_step_ms: {timing["time_step_ms"]:.10g}
   baseline: {baseline_text}
@@ -179,7 +179,7 @@ analysis:                # choose the region before looking at the data
   freq_hz: null
 
 channels:
-  positions: standard-10-10
+  positions: 10-10
   neighbors: {{method: delaunay}}
 
 contrasts:

@@ -86,13 +86,13 @@ def condition_means(
     -------
     ndarray of float64, shape (n_subjects, len(conditions), len(ids))
     """
-    from famwise.timefreq import load_timefreq  # numba-backed package: loaded only here
+    from famwise.decomposition import load_maps  # numba-backed package: loaded only here
 
     if len(files) != len(data.subjects):
         raise UserError(f"subject values: {len(files)} time-frequency files for {len(data.subjects)} subjects")
     out = np.empty((len(files), len(conditions), len(ids)))
     for s, path in enumerate(files):
-        tf = load_timefreq(path)
+        tf = load_maps(path)
         lookup = {c: i for i, c in enumerate(tf.channels)}
         missing = [c for c in data.channels if c not in lookup]
         if missing:

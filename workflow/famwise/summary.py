@@ -26,11 +26,11 @@ def describe_plan(plan: Plan) -> str:
     if s.subjects.source == "bids":
         lines += left_out_lines(plan.loaded.resolve(s.subjects.path), list(plan.subjects), s.subjects.task)
     lines.append("Conditions: " + "; ".join(f"{name} <- {', '.join(labels)}" for name, labels in s.conditions.items()))
-    if s.subjects.source != "timefreq":
-        tf = s.timefreq
-        grid = tf.freqs_hz
+    if s.subjects.source != "maps":
+        tf = s.decomposition
+        grid = tf.frequencies
         lines.append(
-            f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.start_hz:g}-{grid.stop_hz:g} Hz ({grid.spacing}), "
+            f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.lowest_hz:g}-{grid.highest_hz:g} Hz ({grid.spacing}), "
             f"baseline {tf.baseline.mode}"
             + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
         )
@@ -96,7 +96,7 @@ def input_warnings(plan: Plan) -> list[str]:
 
 def _graph_summary(plan: Plan) -> str:
     """The neighbor graph of the first subject's channels, when it can be built before decomposition."""
-    from famwise.montage import channel_graph, graph_summary
+    from famwise.electrodes import channel_graph, graph_summary
 
     channels = plan.first_subject_channels()
     if channels is None:
@@ -106,11 +106,7 @@ def _graph_summary(plan: Plan) -> str:
         channels = list(plan.study.analysis.channels)
     if s.positions == "bids":
         return "Channel graph: from each subject's _electrodes.tsv when the run starts."
-    positions = (
-        s.positions.removeprefix("standard-")
-        if s.positions.startswith("standard-")
-        else plan.loaded.resolve(s.positions)
-    )
+    positions = s.positions if s.positions in ("10-10", "10-20") else plan.loaded.resolve(s.positions)
     n = s.neighbors
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")

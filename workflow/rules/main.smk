@@ -11,7 +11,7 @@ JOB = f"{PYTHON} -m famwise.jobs"
 workdir: str(PLAN.loaded.output)
 
 include: "common.smk"
-include: "timefreq.smk"
+include: "decomposition.smk"
 include: "group.smk"
 include: "nulls.smk"
 include: "correct.smk"

@@ -3,7 +3,7 @@
 Data: 24 subjects x 64 channels (8 x 8 triangulated grid, up to 6 neighbors
 each) x 30 frequencies x 150 times of smooth Gaussian noise with a small
 effect. famwise: the permutation engine's sign-flip t blocks (float32, as in
-the pipeline's null jobs) handed to the collectors. Reference: ``famwise.reference`` (t
+the pipeline's null jobs) handed to the collectors. Reference: ``famwise.naive`` (t
 recomputed per permutation, scipy.sparse.csgraph labeling), run on a subset
 of the permutations and extrapolated linearly.
 """
@@ -15,11 +15,11 @@ from scipy import ndimage, stats
 
 from famwise.benchmarks import BenchRow
 from famwise.kernels._jit import thread_count
+from famwise.naive.clusters import cluster_null_reference
+from famwise.naive.tfce import tfce_null_reference
 from famwise.nulls.collectors.largest_cluster import ClusterCollector
 from famwise.nulls.collectors.largest_tfce import TFCECollector
 from famwise.nulls.engine import iter_null_blocks
-from famwise.reference.clusters import cluster_null_reference
-from famwise.reference.tfce import tfce_null_reference
 
 N_SUBJECTS, SHAPE = 24, (64, 30, 150)
 BLOCK = 64

@@ -48,9 +48,9 @@ def pipeline_noop(quick: bool) -> BenchRow:
 
 def _rows(quick: bool):
     from famwise.benchmarks.clusters import bench_clusters
+    from famwise.benchmarks.decomposition import bench_decomposition
     from famwise.benchmarks.stats import bench_maxt_null
     from famwise.benchmarks.stepdown import bench_stepdown
-    from famwise.benchmarks.timefreq import bench_decomposition
 
     yield bench_decomposition(quick)
     yield from bench_maxt_null(quick)

@@ -6,10 +6,10 @@ import time
 import numpy as np
 
 from famwise.benchmarks import BenchRow
+from famwise.naive.stats import null_stats
 from famwise.nulls.collectors.maxima import MaxStatCollector
 from famwise.nulls.engine import run_shard
 from famwise.nulls.tables import make_table
-from famwise.reference.stats import null_stats
 
 N_SUBJECTS = 24
 N_POINTS = 288_000
@@ -32,7 +32,7 @@ def bench_maxt_null(quick: bool) -> list[BenchRow]:
 
     Full run: 1,000 table rows (identity + 999 random flips); quick: 100 rows.
     famwise runs every row (`famwise.nulls.engine.run_shard` with a max-|t|
-    collector). The naive reference (`famwise.reference.stats.null_stats`:
+    collector). The naive reference (`famwise.naive.stats.null_stats`:
     flip, then ``scipy.stats.ttest_1samp``, one permutation at a time) runs
     on the first 10 rows (quick: 3) and is extrapolated linearly. The bare
     matrix product is numpy float32 signs (rows x 24) @ data (24 x 288,000),

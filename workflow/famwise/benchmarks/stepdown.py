@@ -7,9 +7,9 @@ import numpy as np
 
 from famwise.benchmarks import BenchRow
 from famwise.correct.maxstat import step_down
+from famwise.naive.stepdown import step_down_reference
 from famwise.nulls.collectors.maxima import StepDownCollector
 from famwise.nulls.engine import iter_null_blocks
-from famwise.reference.stepdown import step_down_reference
 
 _N_SUBJECTS = 24
 _BLOCK_ROWS = 64
@@ -25,7 +25,7 @@ def bench_stepdown(quick: bool) -> BenchRow:
     permutation engine and streams them through ``StepDownCollector`` and
     ``step_down``. The reference computes the t map of each sign flip one at
     a time with the textbook formula (mean over SD with ddof 1), holds all of
-    them, and runs ``famwise.reference.stepdown``, which walks the points one
+    them, and runs ``famwise.naive.stepdown``, which walks the points one
     by one. At full size the reference runs on a tenth of the points (its
     maps alone would take 2.3 GB) and its time is scaled up linearly in the
     number of points. On that subset both step-downs are also timed alone on

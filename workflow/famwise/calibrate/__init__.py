@@ -3,15 +3,15 @@
 For each contrast, N null datasets are made from the subjects' own maps, every
 configured correction is applied to each with the study's settings, and the
 share of datasets with any detection is the empirical family-wise error rate.
-The datasets are computed in chunks, one file each
-(``<output>/calibration/<contrast>/chunk-<k>.npz``), so an interrupted run
-resumes without recomputing finished chunks; the result does not depend on
-the number of chunks.
+The datasets are computed in shards, one file each
+(``<output>/calibration/<contrast>/shard-<k>.npz``), so an interrupted run
+resumes without recomputing finished shards; the result does not depend on
+the number of shards.
 
 Modules: `famwise.calibrate.settings` (the settings, light enough for the
-Snakefile), `famwise.calibrate.datasets` (null datasets and chunks),
+Snakefile), `famwise.calibrate.datasets` (null datasets and shards),
 `famwise.calibrate.table` (table, figure); the report's section is
-`famwise.report.calibration`; the jobs are ``calibrate-chunk`` and
+`famwise.report.calibration`; the jobs are ``calibrate-shard`` and
 ``calibrate-table`` of ``famwise.jobs``.
 """
 

@@ -1,4 +1,4 @@
-"""Null datasets made from the subjects' own maps, and one chunk of the calibration.
+"""Null datasets made from the subjects' own maps, and one shard of the calibration.
 
 A null dataset keeps every subject's map whole, so the real spatial, spectral
 and temporal smoothness stays, and breaks only the link the contrast tests:
@@ -13,7 +13,7 @@ and temporal smoothness stays, and breaks only the link the contrast tests:
 Dataset ``i`` of a contrast always draws from its own random stream, seeded
 by ``SeedSequence([seed, 0xCA11, crc32(contrast), i])``, apart from the
 study's permutation table, so the outcome of a dataset does not depend on the
-number of chunks it was computed in. Each dataset then goes through the
+number of shards it was computed in. Each dataset then goes through the
 study's own pipeline: the statistic, the null collectors over the study's
 permutation table (possibly with fewer permutations), and every configured
 correction through `famwise.correct.apply.apply_correction`. A dataset counts
@@ -58,7 +58,7 @@ STREAM = 0xCA11
 
 
 def dataset_rng(seed: int, contrast: str, index: int) -> np.random.Generator:
-    """The random stream of null dataset ``index`` of a contrast (independent of chunking)."""
+    """The random stream of null dataset ``index`` of a contrast (independent of sharding)."""
     return np.random.default_rng(np.random.SeedSequence([int(seed), STREAM, zlib.crc32(contrast.encode()), int(index)]))
 
 
@@ -90,15 +90,15 @@ def null_dataset(data: ContrastData, rng: np.random.Generator) -> np.ndarray:
     return x[rng.permutation(n)]
 
 
-def calibration_chunk(
+def calibration_shard(
     subjects_file: Path,
     graph_file: Path | None,
     *,
-    chunk: int,
+    shard: int,
     settings: CalibrationSettings,
     progress: Callable[[str], None] | None = None,
 ) -> dict[str, np.ndarray]:
-    """Run the null datasets of chunk ``chunk`` through every correction.
+    """Run the null datasets of shard ``shard`` through every correction.
 
     Parameters
     ----------
@@ -106,9 +106,9 @@ def calibration_chunk(
         ``contrasts/<c>/subjects.npz``.
     graph_file : path or None
         ``channels/graph.npz`` when a cluster or TFCE correction links channels.
-    chunk : int
-        Chunk index; it holds datasets [k m, (k + 1) m) with
-        m = ceil(datasets / chunks).
+    shard : int
+        Shard index; it holds datasets [k m, (k + 1) m) with
+        m = ceil(datasets / shards).
     settings : CalibrationSettings
         From :func:`calibration_settings`.
     progress : callable, optional
@@ -125,7 +125,7 @@ def calibration_chunk(
         settings as JSON text.
     """
     data = load_contrast(Path(subjects_file))
-    start, stop = shard_bounds(settings.datasets, settings.chunks, chunk)
+    start, stop = shard_bounds(settings.datasets, settings.shards, shard)
     labels = [UNCORRECTED] + [c.correction.label for c in settings.corrections]
     table = table_for(data, settings=settings.nulls) if settings.nulls.collectors else None
     graph = load_graph_arrays(graph_file, len(data.channels))
@@ -140,7 +140,7 @@ def calibration_chunk(
             x = null_dataset(data, dataset_rng(settings.nulls.seed, name, index))
             counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings, study_left_out)
             if progress:
-                progress(f"calibration {name}: chunk {chunk}: {row + 1}/{stop - start} datasets")
+                progress(f"calibration {name}: shard {shard}: {row + 1}/{stop - start} datasets")
     return {
         "datasets": np.arange(start, stop, dtype=np.int64),
         "labels": np.array(labels),

@@ -10,7 +10,7 @@ UNCORRECTED = "uncorrected"
 
 
 def calibration_settings(
-    plan, contrast: str, *, datasets: int, permutations: int | None, chunks: int
+    plan, contrast: str, *, datasets: int, permutations: int | None, shards: int
 ) -> CalibrationSettings:
     """Settings of one contrast's calibration (the rules pass them as JSON text).
 
@@ -24,23 +24,23 @@ def calibration_settings(
     permutations : int or None
         Random permutations per dataset; None keeps the study's
         ``inference.permutations``.
-    chunks : int
-        Number of chunk files the datasets are split into (1 <= chunks <= N).
+    shards : int
+        Number of shard files the datasets are split into (1 <= shards <= N).
     """
     inference = plan.study.inference
     if int(datasets) != datasets or datasets < 1:
         raise UserError(f"--datasets must be a whole number of at least 1, got {datasets}")
     if permutations is not None and (int(permutations) != permutations or permutations < 1):
         raise UserError(f"--permutations must be a whole number of at least 1, got {permutations}")
-    if int(chunks) != chunks or not 1 <= chunks <= datasets:
-        raise UserError(f"--chunks must be between 1 and the number of datasets ({datasets}), got {chunks}")
+    if int(shards) != shards or not 1 <= shards <= datasets:
+        raise UserError(f"--shards must be between 1 and the number of datasets ({datasets}), got {shards}")
     nulls = replace(
         plan.null_settings(), permutations=int(permutations if permutations is not None else inference.permutations)
     )
     return CalibrationSettings(
         contrast=contrast,
         datasets=int(datasets),
-        chunks=int(chunks),
+        shards=int(shards),
         study_permutations=inference.permutations,
         alpha=inference.alpha,
         observed=plan.observed_settings(),

@@ -1,4 +1,4 @@
-"""Calibration chunks -> the error-rate table, its figure and its report section.
+"""Calibration shards -> the error-rate table, its figure and its report section.
 
 For every correction: the empirical family-wise error rate (share of null
 datasets with at least one significant point) with its exact binomial 95%
@@ -90,34 +90,34 @@ def fwer_interval(detections: int, datasets: int) -> tuple[float, float]:
     return float(interval.low), float(interval.high)
 
 
-def merge_chunks(chunks: list[dict[str, np.ndarray]], *, datasets: int) -> dict[str, np.ndarray]:
-    """Join chunk arrays in dataset order; every dataset 0..datasets-1 must be there once."""
-    if not chunks:
-        raise UserError("calibration: no chunk files to merge")
-    indices = np.concatenate([c["datasets"] for c in chunks])
+def merge_shards(shards: list[dict[str, np.ndarray]], *, datasets: int) -> dict[str, np.ndarray]:
+    """Join shard arrays in dataset order; every dataset 0..datasets-1 must be there once."""
+    if not shards:
+        raise UserError("calibration: no shard files to merge")
+    indices = np.concatenate([c["datasets"] for c in shards])
     order = np.argsort(indices, kind="stable")
     if not np.array_equal(indices[order], np.arange(datasets)):
         raise UserError(
-            f"calibration: the chunk files hold {indices.size} datasets, expected datasets 0 to {datasets - 1} once each "
-            "(chunks from different settings?); delete the calibration folder and rerun"
+            f"calibration: the shard files hold {indices.size} datasets, expected datasets 0 to {datasets - 1} once each "
+            "(shards from different settings?); delete the calibration folder and rerun"
         )
-    labels = chunks[0]["labels"]
-    if any(not np.array_equal(c["labels"], labels) for c in chunks):
+    labels = shards[0]["labels"]
+    if any(not np.array_equal(c["labels"], labels) for c in shards):
         raise UserError(
-            "calibration: the chunk files list different corrections; delete the calibration folder and rerun"
+            "calibration: the shard files list different corrections; delete the calibration folder and rerun"
         )
-    return {"labels": labels, "n_significant": np.concatenate([c["n_significant"] for c in chunks])[order]}
+    return {"labels": labels, "n_significant": np.concatenate([c["n_significant"] for c in shards])[order]}
 
 
 def calibration_rows(
     merged: dict[str, np.ndarray], *, settings: CalibrationSettings, table_rows: int | None
 ) -> list[CalibrationRow]:
-    """The table rows from merged chunks.
+    """The table rows from merged shards.
 
     Parameters
     ----------
     merged : dict
-        From :func:`merge_chunks`.
+        From :func:`merge_shards`.
     settings : CalibrationSettings
         The calibration settings.
     table_rows : int or None
@@ -194,14 +194,14 @@ def read_table(path: Path) -> list[dict]:
 
 
 def summarize(
-    chunk_files: list[Path], out: Path, *, settings: CalibrationSettings, subjects: Path, observed: Path
+    shard_files: list[Path], out: Path, *, settings: CalibrationSettings, subjects: Path, observed: Path
 ) -> list[CalibrationRow]:
-    """Merge the chunk files and write ``<contrast>.tsv``, ``.json``, ``.png`` and ``.svg``.
+    """Merge the shard files and write ``<contrast>.tsv``, ``.json``, ``.png`` and ``.svg``.
 
     Parameters
     ----------
-    chunk_files : list of path
-        Every ``chunk-<k>.npz`` of the contrast.
+    shard_files : list of path
+        Every ``shard-<k>.npz`` of the contrast.
     out : path
         The TSV to write; the others are written beside it.
     settings : CalibrationSettings
@@ -211,14 +211,14 @@ def summarize(
         fingerprints go into the sidecar, so that the report can tell when
         the calibration no longer matches the results.
     """
-    chunks = []
-    for path in chunk_files:
+    shards = []
+    for path in shard_files:
         with np.load(path, allow_pickle=False) as archive:
-            chunks.append({key: archive[key] for key in archive.files})
+            shards.append({key: archive[key] for key in archive.files})
             if str(archive["settings"]) != to_json(settings):
                 raise UserError(f"{path} was computed with other calibration settings; delete it and rerun")
-    merged = merge_chunks(chunks, datasets=settings.datasets)
-    table_rows = int(chunks[0]["table_rows"]) or None
+    merged = merge_shards(shards, datasets=settings.datasets)
+    table_rows = int(shards[0]["table_rows"]) or None
     rows = calibration_rows(merged, settings=settings, table_rows=table_rows)
     out = Path(out)
     basis = calibration_basis(Path(subjects).parent, [c.record() for c in settings.corrections])

@@ -152,7 +152,7 @@ def _cluster_or_tfce(
             indices=indices,
             dims=dims,
             cluster_stat=correction.cluster_stat,
-            min_neighbor_channels=correction.min_neighbor_channels,
+            min_supra_neighbors=correction.min_supra_neighbors,
             tail=tail,
             alpha=alpha,
             channels=[str(c) for c in mine["channels"]],

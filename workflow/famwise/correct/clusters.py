@@ -10,7 +10,7 @@ size (number of points). The null is the largest cluster statistic of each
 permutation over both signs, and a cluster's p is the share of permutations
 (identity included) whose largest cluster statistic reaches it.
 
-``min_neighbor_channels``: a supra-threshold point joins a cluster only if at
+``min_supra_neighbors``: a supra-threshold point joins a cluster only if at
 least that many of its neighbor channels are supra-threshold with the same
 sign at the same frequency and time (counted on the raw supra-threshold map,
 once, and whatever ``dims`` says). 0 keeps every supra-threshold point.
@@ -75,7 +75,7 @@ CLUSTER_SIDECAR = {
         "cluster statistic is at least this cluster's."
     },
     "n_points": {"Description": "Number of (channel, frequency, time) points in the cluster."},
-    "channels": {"Description": "Comma-separated names of the channels the cluster covers, in montage order."},
+    "channels": {"Description": "Comma-separated names of the channels the cluster covers, in position-table order."},
     "time_start_ms": {"Description": "Earliest time point of the cluster.", "Units": "ms"},
     "time_end_ms": {"Description": "Latest time point of the cluster.", "Units": "ms"},
     "freq_low_hz": {"Description": "Lowest frequency of the cluster.", "Units": "Hz"},
@@ -112,7 +112,7 @@ def critical_value(null, alpha):
 
 
 def label_clusters(
-    stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass", min_neighbor_channels=0, tail="two-sided"
+    stat, *, threshold, indptr, indices, dims=DIMS, cluster_stat="mass", min_supra_neighbors=0, tail="two-sided"
 ):
     """Cluster labels of one map, numbered by descending statistic within each sign.
 
@@ -128,7 +128,7 @@ def label_clusters(
     statistics : dict of int to float
         Cluster statistic of each id (same arithmetic as the null's ``ClusterCollector``).
     """
-    check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+    check_cluster_settings(threshold, cluster_stat, min_supra_neighbors)
     stat = np.ascontiguousarray(stat, dtype=np.float64)
     shape, indptr, indices = check_graph(stat.shape, indptr, indices)
     flat = stat.ravel()
@@ -143,7 +143,7 @@ def label_clusters(
         indices,
         *check_dims(dims),
         cluster_stat == "mass",
-        int(min_neighbor_channels),
+        int(min_supra_neighbors),
         parent,
         acc,
     )
@@ -170,7 +170,7 @@ def cluster_inference(
     indices,
     dims=DIMS,
     cluster_stat="mass",
-    min_neighbor_channels=0,
+    min_supra_neighbors=0,
     tail="two-sided",
     alpha=0.05,
     channels,
@@ -185,7 +185,7 @@ def cluster_inference(
         Observed statistic map.
     null_max : ndarray, shape (n_rows,)
         Largest cluster statistic of every permutation-table row (row 0 = identity).
-    threshold, indptr, indices, dims, cluster_stat, min_neighbor_channels, tail
+    threshold, indptr, indices, dims, cluster_stat, min_supra_neighbors, tail
         As given to ``famwise.nulls.collectors.largest_cluster.ClusterCollector``.
     alpha : float
         Family-wise level.
@@ -222,7 +222,7 @@ def cluster_inference(
         indices=indices,
         dims=dims,
         cluster_stat=cluster_stat,
-        min_neighbor_channels=min_neighbor_channels,
+        min_supra_neighbors=min_supra_neighbors,
         tail=tail,
     )
     ids = np.array(sorted(statistics), dtype=np.int64)
@@ -252,7 +252,7 @@ def cluster_inference(
             "threshold": float(threshold),
             "dims": list(dims),
             "cluster_stat": cluster_stat,
-            "min_neighbor_channels": int(min_neighbor_channels),
+            "min_supra_neighbors": int(min_supra_neighbors),
             "tail": tail,
             "alpha": float(alpha),
             "n_rows": int(null_max.size),

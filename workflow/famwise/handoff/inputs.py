@@ -5,7 +5,7 @@ from pathlib import Path, PurePosixPath
 
 from famwise import bids
 
-BUILT_IN_POSITIONS = ("standard-10-10", "standard-10-20", "bids")
+BUILT_IN_POSITIONS = ("10-10", "10-20", "bids")
 """``channels.positions`` values that name no file of the study."""
 
 

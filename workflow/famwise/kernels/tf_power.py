@@ -23,16 +23,16 @@ def _add_mean_power(
 
 
 @jit
-def _add_trial_power(
+def _add_epoch_power(
     coef: np.ndarray, row_start: int, t_start: int, t_step: int, weight: float, out: np.ndarray
 ) -> None:
     """out[r, f, j] += weight * |coef[row_start + r, f, t_start + j t_step]|^2.
 
     coef : complex64 (n_rows, n_freqs, n_fft), C-contiguous;
-    out : float32 (n_trials, n_freqs, n_out).
+    out : float32 (n_epochs, n_freqs, n_out).
     """
-    n_trials, n_freqs, n_out = out.shape
-    for r in range(n_trials):
+    n_epochs, n_freqs, n_out = out.shape
+    for r in range(n_epochs):
         for f in range(n_freqs):
             for j in range(n_out):
                 v = coef[row_start + r, f, t_start + j * t_step]

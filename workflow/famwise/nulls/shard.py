@@ -116,7 +116,7 @@ def make_collectors(specs: tuple[CollectorSettings, ...], *, observed: dict, sha
                     indices=indices,
                     dims=spec.dims,
                     cluster_stat=spec.cluster_stat,
-                    min_neighbor_channels=spec.min_neighbor_channels,
+                    min_supra_neighbors=spec.min_supra_neighbors,
                     tail=tail,
                     key=key,
                 )

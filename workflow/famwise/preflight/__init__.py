@@ -47,7 +47,7 @@ def preflight(plan) -> list[str]:
 def read_headers(plan) -> dict[str, SubjectHeader]:
     """Each analysed subject's header, in order (empty for time-frequency input)."""
     spec = plan.study.subjects
-    if spec.source == "timefreq":
+    if spec.source == "maps":
         return {}
     if spec.source == "epochs":
         return {s: npz_epochs_header(plan.input_files(s)[0], s) for s in plan.subjects}

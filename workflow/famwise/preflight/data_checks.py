@@ -66,8 +66,8 @@ def check_consistent(headers: dict[str, SubjectHeader]) -> None:
             raise UserError(
                 f"subject {subject}: channels differ from subject {reference} ({detail}) in {header.source}"
             )
-        if first.sfreq and header.sfreq and abs(header.sfreq - first.sfreq) > 1e-9:
+        if first.sample_rate_hz and header.sample_rate_hz and abs(header.sample_rate_hz - first.sample_rate_hz) > 1e-9:
             raise UserError(
-                f"subject {subject}: sampling rate {header.sfreq:g} Hz differs from subject {reference} "
-                f"({first.sfreq:g} Hz) in {header.source}; resample the recordings to one rate"
+                f"subject {subject}: sampling rate {header.sample_rate_hz:g} Hz differs from subject {reference} "
+                f"({first.sample_rate_hz:g} Hz) in {header.source}; resample the recordings to one rate"
             )

@@ -22,15 +22,11 @@ def check_channels(plan, channels: list[str] | None, where: Where) -> list[str]:
     spec = plan.study.channels
     if not plan.needs_graph or spec.positions == "bids":
         return []
-    from famwise.montage import channel_graph
+    from famwise.electrodes import channel_graph
 
     n = spec.neighbors
     key = ("channels", "neighbors", "edges_file") if n.method == "edges" else ("channels", "positions")
-    positions = (
-        spec.positions.removeprefix("standard-")
-        if spec.positions.startswith("standard-")
-        else plan.loaded.resolve(spec.positions)
-    )
+    positions = spec.positions if spec.positions in ("10-10", "10-20") else plan.loaded.resolve(spec.positions)
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         try:

@@ -1,6 +1,6 @@
 """What the checks need from each subject's inputs, read from headers and events only.
 
-Epochs NPZ: the small arrays (sfreq, tmin, channels, conditions, bad) and the
+Epochs NPZ: the small arrays (sample_rate_hz, epoch_start_s, channels, event_labels, bad) and the
 data array's shape from its ``.npy`` header. BIDS: the EDF/BDF headers
 (fixed-width ASCII, the European Data Format specification, Kemp et al. 1992,
 2003), ``_channels.tsv`` and ``_events.tsv``. No sample is read.
@@ -23,9 +23,9 @@ class SubjectHeader:
 
     Attributes
     ----------
-    sfreq : float or None
+    sample_rate_hz : float or None
         Sampling rate in Hz (None when the recording format's header is not read here).
-    tmin : float
+    epoch_start_s : float
         Time of the first epoch sample relative to the event, in s.
     n_samples : int
         Samples per epoch.
@@ -39,8 +39,8 @@ class SubjectHeader:
         The file (epochs) or folder (BIDS) read, for messages.
     """
 
-    sfreq: float | None
-    tmin: float
+    sample_rate_hz: float | None
+    epoch_start_s: float
     n_samples: int
     channels: list[str] | None
     labels: Counter = field(default_factory=Counter)
@@ -53,14 +53,18 @@ def npz_epochs_header(path: Path, subject: str) -> SubjectHeader:
     where = f"subject {subject} ({path})"
     try:
         with np.load(path, allow_pickle=False) as archive:
-            missing = [k for k in ("data", "sfreq", "tmin", "channels", "conditions") if k not in archive.files]
+            missing = [
+                k
+                for k in ("data", "sample_rate_hz", "epoch_start_s", "channels", "event_labels")
+                if k not in archive.files
+            ]
             if missing:
                 raise UserError(
-                    f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sfreq, tmin, channels, conditions)"
+                    f"{where}: missing key(s) {', '.join(missing)} (an epochs file has data, sample_rate_hz, epoch_start_s, channels, event_labels)"
                 )
-            sfreq, tmin = float(archive["sfreq"]), float(archive["tmin"])
+            sample_rate_hz, epoch_start_s = float(archive["sample_rate_hz"]), float(archive["epoch_start_s"])
             channels = [str(c) for c in archive["channels"]]
-            labels = np.array([str(c) for c in archive["conditions"]])
+            labels = np.array([str(c) for c in archive["event_labels"]])
             bad = archive["bad"].astype(bool) if "bad" in archive.files else np.zeros(labels.size, dtype=bool)
         shape = _npy_shape(path, "data.npy")
     except (OSError, ValueError, zipfile.BadZipFile) as error:
@@ -71,9 +75,11 @@ def npz_epochs_header(path: Path, subject: str) -> SubjectHeader:
         raise UserError(
             f"{where}: {len(channels)} channel names and {labels.size} condition labels for data of shape {shape}"
         )
-    if not sfreq > 0:
-        raise UserError(f"{where}: sfreq must be positive, got {sfreq}")
-    return SubjectHeader(sfreq, tmin, shape[2], channels, Counter(labels[~bad].tolist()), source=str(path))
+    if not sample_rate_hz > 0:
+        raise UserError(f"{where}: sample_rate_hz must be positive, got {sample_rate_hz}")
+    return SubjectHeader(
+        sample_rate_hz, epoch_start_s, shape[2], channels, Counter(labels[~bad].tolist()), source=str(path)
+    )
 
 
 def _npy_shape(path: Path, member: str) -> tuple[int, ...]:
@@ -107,11 +113,17 @@ def bids_header(
         raise UserError(
             f"subject {subject}: the recordings {[p.name for p in recordings]} have different sampling rates {sorted(rates)} Hz"
         )
-    sfreq = rates.pop()
-    first = int(round(window_ms[0] * sfreq / 1000.0))
-    n_samples = int(round(window_ms[1] * sfreq / 1000.0)) - first + 1
+    sample_rate_hz = rates.pop()
+    first = int(round(window_ms[0] * sample_rate_hz / 1000.0))
+    n_samples = int(round(window_ms[1] * sample_rate_hz / 1000.0)) - first + 1
     return SubjectHeader(
-        sfreq, first / sfreq, n_samples, bids._shared(channels), labels, beyond, source=str(recordings[0].parent)
+        sample_rate_hz,
+        first / sample_rate_hz,
+        n_samples,
+        bids._shared(channels),
+        labels,
+        beyond,
+        source=str(recordings[0].parent),
     )
 
 
@@ -122,7 +134,7 @@ def _recording_signals(path: Path, subject: str) -> tuple[dict[str, float], floa
             header = brainvision.read_header(path)
         except UserError as error:
             raise UserError(f"subject {subject}: {error}") from None
-        return {c.name: header.sfreq for c in header.channels}, header.n_samples / header.sfreq
+        return {c.name: header.sample_rate_hz for c in header.channels}, header.n_samples / header.sample_rate_hz
     try:
         with path.open("rb") as stream:
             fixed = stream.read(256)
@@ -188,13 +200,15 @@ def _events(path: Path, subject: str) -> list[tuple[float, str]]:
     return events
 
 
-def _first_beyond(events, wanted: set[str], window_ms, duration: float, sfreq: float, recording: Path) -> str | None:
+def _first_beyond(
+    events, wanted: set[str], window_ms, duration: float, sample_rate_hz: float, recording: Path
+) -> str | None:
     """The first wanted event whose epoch window leaves the recording (in samples, as the epochs are cut)."""
-    first_offset = int(round(window_ms[0] * sfreq / 1000.0))
-    n_samples = int(round(window_ms[1] * sfreq / 1000.0)) - first_offset + 1
-    n_total = int(round(duration * sfreq))
+    first_offset = int(round(window_ms[0] * sample_rate_hz / 1000.0))
+    n_samples = int(round(window_ms[1] * sample_rate_hz / 1000.0)) - first_offset + 1
+    n_total = int(round(duration * sample_rate_hz))
     for onset, label in events:
-        first = int(round(onset * sfreq)) + first_offset
+        first = int(round(onset * sample_rate_hz)) + first_offset
         if label in wanted and (first < 0 or first + n_samples > n_total):
             return f"the event at onset {onset:g} s ('{label}') in {recording} (recording 0 to {duration:g} s)"
     return None

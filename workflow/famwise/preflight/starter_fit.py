@@ -2,7 +2,7 @@
 
 The starter decomposes 4 to 40 Hz with Morlet wavelets of 3 to 10 cycles. Its
 baseline window must lie where those wavelets stay inside the epoch at every
-frequency (the cone of influence, `famwise.timefreq.wavelets.cone_halfwidth_s`),
+frequency (the cone of influence, `famwise.decomposition.wavelets.cone_halfwidth_s`),
 its highest frequency below Nyquist and its time step a whole number of samples.
 """
 
@@ -10,27 +10,27 @@ import math
 
 import numpy as np
 
-from famwise.timefreq import frequency_grid
-from famwise.timefreq.wavelets import cone_halfwidth_s, log_linear, sigma_t_from_cycles
+from famwise.decomposition import frequency_grid
+from famwise.decomposition.wavelets import cone_halfwidth_s, log_linear, sigma_t_from_cycles
 
-START_HZ, STOP_HZ, COUNT, CYCLES = 4.0, 40.0, 20, (3.0, 10.0)
+LOWEST_HZ, HIGHEST_HZ, COUNT, CYCLES = 4.0, 40.0, 20, (3.0, 10.0)
 BASELINE_MS = (-400.0, -100.0)
 EPOCH_END_MS = 1500.0
 STEP_MS = 20.0
 
 
-def edge_halfwidth_ms(stop_hz: float) -> float:
-    """Largest cone-of-influence half-width (ms) of the starter's wavelets up to ``stop_hz``."""
-    freqs = frequency_grid(START_HZ, stop_hz, COUNT, "log")
+def edge_halfwidth_ms(highest_hz: float) -> float:
+    """Largest cone-of-influence half-width (ms) of the starter's wavelets up to ``highest_hz``."""
+    freqs = frequency_grid(LOWEST_HZ, highest_hz, COUNT, "log")
     return float(np.max(cone_halfwidth_s(sigma_t_from_cycles(freqs, log_linear(freqs, CYCLES))))) * 1000.0
 
 
-def starter_timing(sfreq: float, epoch_ms: tuple[float, float] | None) -> dict:
+def starter_timing(sample_rate_hz: float, epoch_ms: tuple[float, float] | None) -> dict:
     """Settings for the starter spec.
 
     Parameters
     ----------
-    sfreq : float
+    sample_rate_hz : float
         Sampling rate of the data in Hz.
     epoch_ms : (float, float) or None
         First and last sample time of the epochs in ms (epochs files); None when
@@ -39,16 +39,16 @@ def starter_timing(sfreq: float, epoch_ms: tuple[float, float] | None) -> dict:
     Returns
     -------
     dict
-        ``stop_hz``, ``time_step_ms``, ``epoch_ms`` (None for epochs files) and
+        ``highest_hz``, ``time_step_ms``, ``epoch_ms`` (None for epochs files) and
         ``baseline_ms`` (None when the epochs leave no edge-free time before 0).
     """
-    stop_hz = STOP_HZ if STOP_HZ < 0.45 * sfreq else float(math.floor(0.4 * sfreq))
-    step_ms = max(1, round(STEP_MS * sfreq / 1000.0)) * 1000.0 / sfreq
-    halfwidth = edge_halfwidth_ms(stop_hz)
+    highest_hz = HIGHEST_HZ if HIGHEST_HZ < 0.45 * sample_rate_hz else float(math.floor(0.4 * sample_rate_hz))
+    step_ms = max(1, round(STEP_MS * sample_rate_hz / 1000.0)) * 1000.0 / sample_rate_hz
+    halfwidth = edge_halfwidth_ms(highest_hz)
     if epoch_ms is None:
         start = -100.0 * math.ceil((halfwidth - BASELINE_MS[0]) / 100.0)
         return {
-            "stop_hz": stop_hz,
+            "highest_hz": highest_hz,
             "time_step_ms": step_ms,
             "epoch_ms": (start, EPOCH_END_MS),
             "baseline_ms": BASELINE_MS,
@@ -57,4 +57,4 @@ def starter_timing(sfreq: float, epoch_ms: tuple[float, float] | None) -> dict:
     baseline = (max(free_from, BASELINE_MS[0]), BASELINE_MS[1])
     if baseline[1] - baseline[0] < 100.0:
         baseline = (free_from, 0.0) if free_from <= -100.0 else None
-    return {"stop_hz": stop_hz, "time_step_ms": step_ms, "epoch_ms": None, "baseline_ms": baseline}
+    return {"highest_hz": highest_hz, "time_step_ms": step_ms, "epoch_ms": None, "baseline_ms": baseline}

@@ -21,50 +21,54 @@ def check_timing(plan, headers: dict[str, SubjectHeader], where: Where) -> list[
     """Check every distinct (sampling rate, epoch span) once; return the decomposition's warnings (deduplicated)."""
     spans = {}
     for subject, header in headers.items():
-        if header.sfreq is not None:
-            spans.setdefault((header.sfreq, round(header.tmin, 9), header.n_samples), subject)
+        if header.sample_rate_hz is not None:
+            spans.setdefault((header.sample_rate_hz, round(header.epoch_start_s, 9), header.n_samples), subject)
     found = []
-    for (sfreq, tmin, n_samples), subject in spans.items():
-        for message in _check_span(plan, where, sfreq, tmin, n_samples, subject):
+    for (sample_rate_hz, epoch_start_s, n_samples), subject in spans.items():
+        for message in _check_span(plan, where, sample_rate_hz, epoch_start_s, n_samples, subject):
             if message not in found:
                 found.append(message)
     return found
 
 
-def _check_span(plan, where: Where, sfreq: float, tmin: float, n_samples: int, subject: str) -> list[str]:
+def _check_span(
+    plan, where: Where, sample_rate_hz: float, epoch_start_s: float, n_samples: int, subject: str
+) -> list[str]:
     from famwise.design import _freq_index, _time_index
 
     dec = _decomposition()
-    tf = plan.study.timefreq
-    grid = tf.freqs_hz
-    nyquist = sfreq / 2.0
-    if grid.stop_hz >= nyquist:
+    tf = plan.study.decomposition
+    grid = tf.frequencies
+    nyquist = sample_rate_hz / 2.0
+    if grid.highest_hz >= nyquist:
         raise UserError(
-            f"{where('timefreq', 'freqs_hz', 'stop_hz')}: {grid.stop_hz:g} Hz is not below the Nyquist frequency "
-            f"{nyquist:g} Hz of subject {subject}'s data (sampled at {sfreq:g} Hz)"
+            f"{where('decomposition', 'frequencies', 'highest_hz')}: {grid.highest_hz:g} Hz is not below the Nyquist frequency "
+            f"{nyquist:g} Hz of subject {subject}'s data (sampled at {sample_rate_hz:g} Hz)"
         )
-    freqs = dec.frequency_grid(grid.start_hz, grid.stop_hz, grid.count, grid.spacing)
+    freqs = dec.frequency_grid(grid.lowest_hz, grid.highest_hz, grid.count, grid.spacing)
     kernels = dec._build_kernels(
         freqs,
-        sfreq,
+        sample_rate_hz,
         method=tf.method,
         cycles=_pair(tf.cycles),
         fwhm_ms=_pair(tf.fwhm_ms),
-        window_ms=tf.window_ms,
-        time_bandwidth=tf.time_bandwidth,
+        taper_length_ms=tf.taper_length_ms,
+        nw=tf.nw,
     )
-    epochs = SimpleNamespace(data=np.empty((0, 0, n_samples)), sfreq=sfreq, tmin=tmin)
+    epochs = SimpleNamespace(
+        data=np.empty((0, 0, n_samples)), sample_rate_hz=sample_rate_hz, epoch_start_s=epoch_start_s
+    )
     try:
         keep = dec._output_samples(epochs, tf.time_step_ms, subject=subject)
     except UserError as error:
-        raise UserError(f"{where('timefreq', 'time_step_ms')}: {_drop_subject(error, subject)}") from None
-    all_times = tmin + np.arange(n_samples) / sfreq
+        raise UserError(f"{where('decomposition', 'time_step_ms')}: {_drop_subject(error, subject)}") from None
+    all_times = epoch_start_s + np.arange(n_samples) / sample_rate_hz
     times = all_times[keep]
     valid = dec._cone_of_influence(kernels, all_times, times)
     width_key = (
-        ("timefreq", "window_ms")
+        ("decomposition", "taper_length_ms")
         if tf.method == "multitaper"
-        else ("timefreq", "fwhm_ms" if tf.fwhm_ms is not None else "cycles")
+        else ("decomposition", "fwhm_ms" if tf.fwhm_ms is not None else "cycles")
     )
     try:
         dec._check_fits(kernels, freqs, valid, all_times, subject=subject)
@@ -84,14 +88,14 @@ def _check_span(plan, where: Where, sfreq: float, tmin: float, n_samples: int, s
 def _check_baseline(plan, where: Where, times, all_times, valid, freqs) -> list[str]:
     """The baseline window lies inside the epoch; its edge-zone warning, if any."""
     dec = _decomposition()
-    baseline = plan.study.timefreq.baseline
+    baseline = plan.study.decomposition.baseline
     if baseline.mode == "none":
         return []
     start, stop = baseline.window_ms
     first, last = all_times[0] * 1000.0, all_times[-1] * 1000.0
     if start < first - TOL_MS or stop > last + TOL_MS:
         raise UserError(
-            f"{where('timefreq', 'baseline', 'window_ms')}: [{start:g}, {stop:g}] ms lies outside the epoch "
+            f"{where('decomposition', 'baseline', 'window_ms')}: [{start:g}, {stop:g}] ms lies outside the epoch "
             f"({first:g} to {last:g} ms)"
         )
     with warnings.catch_warnings(record=True) as caught:
@@ -99,13 +103,13 @@ def _check_baseline(plan, where: Where, times, all_times, valid, freqs) -> list[
         try:
             dec._baseline_points(times, all_times, valid, freqs, baseline.mode, (start, stop), subject="")
         except UserError as error:
-            raise UserError(f"{where('timefreq', 'baseline', 'window_ms')}: {_drop_subject(error, '')}") from None
+            raise UserError(f"{where('decomposition', 'baseline', 'window_ms')}: {_drop_subject(error, '')}") from None
     return [_drop_subject(w.message, "") for w in caught]
 
 
 def _decomposition():
-    """The decomposition module (its name is shadowed by the function `famwise.timefreq.decompose`)."""
-    return importlib.import_module("famwise.timefreq.decompose")
+    """The decomposition module (its name is shadowed by the function `famwise.decomposition.decompose`)."""
+    return importlib.import_module("famwise.decomposition.decompose")
 
 
 def _drop_subject(message, subject: str) -> str:

@@ -336,7 +336,7 @@
     function drawList() {
       var cor = correction(), info = cor.info;
       if (!cor.ids) {
-        list.innerHTML = "<p>" + esc(info.name) + " (" + esc(info.method) + ") declares single points: " +
+        list.innerHTML = "<p>" + esc(info.name) + (info.name === info.method ? "" : " (" + esc(info.method) + ")") + " declares single points: " +
           info.n_significant + " significant. It forms no clusters.</p>";
         return;
       }

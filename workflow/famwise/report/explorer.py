@@ -27,6 +27,7 @@ from famwise.correct.clusters import CLUSTER_COLUMNS
 from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.html import anchor, esc, note
 from famwise.report.results import ReportedContrast, ReportedCorrection
+from famwise.report.study_words import named
 from famwise.report.values import CAVEAT, categories, read_values
 
 P_SCALE = 1000.0
@@ -157,7 +158,7 @@ def explorer_block(data: dict) -> str:
     ident = anchor("explore", data["contrast"])
     payload = json.dumps(data, separators=(",", ":")).replace("</", "<\\/")
     options = "".join(
-        f'<option value="{k}">{esc(c["name"])} ({esc(c["method"])})</option>' for k, c in enumerate(data["corrections"])
+        f'<option value="{k}">{esc(named(c["name"], c["method"]))}</option>' for k, c in enumerate(data["corrections"])
     )
     caveat = note(CAVEAT, warning=True)
     return (

@@ -6,9 +6,10 @@ figure; :func:`famwise.figure_style.save_figure` writes it.
 
 import matplotlib.pyplot as plt
 import numpy as np
+from matplotlib.ticker import MaxNLocator
 
+from famwise.electrodes import ChannelGraph, Positions, plot_graph
 from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
-from famwise.montage import ChannelGraph, Positions, plot_graph
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.scalp import topography
 
@@ -24,7 +25,7 @@ def stat_label(contrast: ReportedContrast) -> str:
 
 def effect_unit(study: dict) -> str:
     """Unit of the effect map, from the measure and the baseline of the spec."""
-    tf = study.get("timefreq", {}) or {}
+    tf = study.get("decomposition", {}) or {}
     measure = str(tf.get("measure", "power"))
     mode = str((tf.get("baseline") or {}).get("mode", "none")).lower()
     if measure.lower() not in {"power", "induced"}:
@@ -48,10 +49,49 @@ def _time_extent(times_ms: np.ndarray) -> tuple[float, float]:
     return float(times_ms[0]) - step / 2, float(times_ms[-1]) + step / 2
 
 
+def round_frequency_ticks(freqs: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Round frequencies inside the grid and their positions on the image's row axis.
+
+    A logarithmic grid gets powers of two (4, 8, 16, 32 Hz; with 3 x 2^k added
+    when fewer than three fall inside), a linear grid 1-2-5 steps.
+
+    Parameters
+    ----------
+    freqs : ndarray of float, shape (F,)
+        The grid in Hz, increasing.
+
+    Returns
+    -------
+    values : ndarray of float, shape (K,)
+        Tick frequencies in Hz.
+    rows : ndarray of float, shape (K,)
+        Their positions in rows (0 = first frequency), interpolated on the grid's own scale.
+    """
+    freqs = np.asarray(freqs, dtype=float)
+    if freqs.size < 2:
+        return freqs.copy(), np.zeros(freqs.size)
+    low, high = freqs[0] * (1 - 1e-9), freqs[-1] * (1 + 1e-9)
+    ratios = freqs[1:] / freqs[:-1]
+    logarithmic = freqs.size > 2 and np.allclose(ratios, ratios[0], rtol=1e-3) and ratios[0] > 1
+    if logarithmic:
+        powers = 2.0 ** np.arange(-3, 12)
+        values = powers[(powers >= low) & (powers <= high)]
+        if values.size < 3:
+            values = np.union1d(values, (3 * powers)[(3 * powers >= low) & (3 * powers <= high)])
+        scale = np.log
+    else:
+        values = MaxNLocator(nbins=5, steps=[1, 2, 2.5, 5, 10]).tick_values(freqs[0], freqs[-1])
+        values = values[(values >= low) & (values <= high)]
+        scale = np.asarray
+    if values.size == 0:
+        values = freqs[[0, -1]]
+    return values, np.interp(scale(values), scale(freqs), np.arange(freqs.size, dtype=float))
+
+
 def _freq_axis(ax, freqs: np.ndarray) -> None:
-    ticks = np.unique(np.linspace(0, len(freqs) - 1, min(len(freqs), 6)).round().astype(int))
-    ax.set_yticks(ticks)
-    ax.set_yticklabels([f"{freqs[i]:.3g}" for i in ticks])
+    values, rows = round_frequency_ticks(freqs)
+    ax.set_yticks(rows)
+    ax.set_yticklabels([f"{v:g}" for v in values])
     ax.set_ylabel("frequency (Hz)")
 
 
@@ -272,10 +312,11 @@ def cluster_figure(
         1, 3, figsize=(11.5, 3.0), layout="constrained", width_ratios=[1.25, 1.0, 1.1]
     )
     figure.get_layout_engine().set(wspace=0.06)  # room between a colour bar's label and the next axis
+    start_ms, end_ms = float(row["time_start_ms"]), float(row["time_end_ms"])
     figure.suptitle(
-        f"{contrast.name} · {correction.name} · {noun} {row['id']} "
-        f"(p = {float(row['p']):.4g}, {int(row['n_points'])} points, "
-        f"{members.sum()} channels)",
+        f"{contrast.name}, {correction.name}: {noun} {row['id']} at "
+        f"{float(row['freq_low_hz']):.3g}-{float(row['freq_high_hz']):.3g} Hz and "
+        f"{start_ms:.0f} to {end_ms:.0f} ms (p = {float(row['p']):.4g})",
         x=0.01,
         ha="left",
         fontsize=9,
@@ -297,7 +338,8 @@ def cluster_figure(
         gone = contrast.left_out[:, f_index, t_index]
         scalp_ax.plot(*flat[gone].T, "x", color=MUTED, ms=5, mew=1.2)  # channels left out at this point
     scalp_ax.set_title(
-        f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, {times_ms[t_index]:.0f} ms\n(circles: {noun} channels)",
+        f"effect at peak: {contrast.freqs[f_index]:.3g} Hz, "
+        f"{times_ms[t_index]:.0f} ms\n(filled dots: the {noun}'s channels)",
         fontsize=8,
         fontweight="normal",
     )
@@ -305,17 +347,32 @@ def cluster_figure(
     rows_in = points.any(axis=(0, 2))
     course = contrast.effect[members][:, rows_in].mean(axis=(0, 1))
     course_ax.axhline(0, color=MUTED, lw=0.6)
-    course_ax.axvspan(float(row["time_start_ms"]), float(row["time_end_ms"]), color="#e8e2d0", lw=0)
     course_ax.plot(times_ms, course, color=ACCENT, lw=1.3)
+    _span_bar(course_ax, start_ms, end_ms)
     band = contrast.freqs[rows_in]
     course_ax.set_title(
-        f"time course, {band.min():.3g}-{band.max():.3g} Hz, {noun} channels\n(shaded: the {noun}'s time span)",
+        f"time course, {band.min():.3g}-{band.max():.3g} Hz, {noun} channels\n"
+        f"(bar under the axis: the {noun}'s time span)",
         fontsize=8,
         fontweight="normal",
     )
     course_ax.set_xlabel("time (ms)")
     course_ax.set_ylabel(f"effect ({unit})")
     return figure
+
+
+def _span_bar(ax, start_ms: float, end_ms: float) -> None:
+    """A bar just under the time axis from ``start_ms`` to ``end_ms`` (tick labels moved below it)."""
+    ax.tick_params(axis="x", pad=7)
+    ax.plot(
+        [start_ms, end_ms],
+        [-0.045, -0.045],
+        transform=ax.get_xaxis_transform(),
+        color=ACCENT,
+        lw=3.5,
+        solid_capstyle="butt",
+        clip_on=False,
+    )
 
 
 def graph_figure(graph: ChannelGraph, positions: Positions):

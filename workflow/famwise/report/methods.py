@@ -33,6 +33,7 @@ REFERENCES = {
     "9(1):Article 39.",
     "edges": "Torrence C, Compo GP (1998). A practical guide to wavelet analysis. Bull Am Meteorol Soc 79(1):61-78.",
     "multitaper": "Thomson DJ (1982). Spectrum estimation and harmonic analysis. Proc IEEE 70(9):1055-1096.",
+    "nw": "Percival DB, Walden AT (1993). Spectral Analysis for Physical Applications. Cambridge University Press.",
     "clusterwarn": "Sassenhagen J, Draschkow D (2019). Cluster-based permutation tests of MEG/EEG "
     "data do not establish significance of effect latency or location. "
     "Psychophysiology 56(6):e13335.",
@@ -78,7 +79,7 @@ _NEIGHBORS = {
 }
 _MEASURES = {
     "power": "Power",
-    "induced": "Induced power (each condition's average response removed from its trials first)",
+    "induced": "Induced power (each condition's average response removed from its epochs first)",
     "itpc": "Inter-trial phase coherence",
 }
 _MODES = {
@@ -177,13 +178,13 @@ def _subjects(run: Run, study: dict) -> str:
 
 
 def _decomposition(study: dict) -> str:
-    tf = study.get("timefreq") or {}
-    freqs = tf.get("freqs_hz") or {}
+    tf = study.get("decomposition") or {}
+    freqs = tf.get("frequencies") or {}
     method = str(tf.get("method", "morlet")).lower()
     grid = (
         f"at {fmt(freqs.get('count'))} frequencies from "
-        f"{fmt(freqs.get('start_hz', freqs.get('start')))} to "
-        f"{fmt(freqs.get('stop_hz', freqs.get('stop')))} Hz ({freqs.get('spacing', 'log')} spacing)"
+        f"{fmt(freqs.get('lowest_hz', freqs.get('start')))} to "
+        f"{fmt(freqs.get('highest_hz', freqs.get('stop')))} Hz ({freqs.get('spacing', 'log')} spacing)"
     )
     measure = _MEASURES.get(str(tf.get("measure", "power")), str(tf.get("measure")))
     if method == "multitaper":
@@ -191,10 +192,13 @@ def _decomposition(study: dict) -> str:
             f"{measure} was estimated with multitaper analysis using discrete "
             f"prolate spheroidal (DPSS) tapers (Thomson 1982) {grid}"
         )
-        if tf.get("window_ms") is not None:
-            text += f", over a {fmt(tf['window_ms'])} ms window"
-        if tf.get("time_bandwidth") is not None:
-            text += f" with a time-bandwidth product of {fmt(tf['time_bandwidth'])}"
+        if tf.get("taper_length_ms") is not None:
+            text += f", with tapers {fmt(tf['taper_length_ms'])} ms long"
+        if tf.get("nw") is not None:
+            text += (
+                f" and a time-half-bandwidth product NW of {fmt(tf['nw'])} "
+                f"({fmt(2 * float(tf['nw']) - 1)} tapers; Percival & Walden 1993)"
+            )
     else:
         text = f"{measure} was estimated by convolution with complex Morlet wavelets {grid}"
         if tf.get("fwhm_ms") is not None:
@@ -209,7 +213,7 @@ def _decomposition(study: dict) -> str:
         "1998) were left out of the analysis."
     )
     if tf.get("average") == "trimmed":
-        text += f" Trials were averaged with a trimmed mean (trim {fmt(tf.get('trim'))} per end)."
+        text += f" Epochs were averaged with a trimmed mean (trim {fmt(tf.get('trim'))} per end)."
     baseline = tf.get("baseline") or {}
     mode = baseline.get("mode")
     if mode and str(mode).lower() != "none":
@@ -218,7 +222,7 @@ def _decomposition(study: dict) -> str:
             f"{_span(baseline.get('window_ms'), 'ms')}"
         )
         text += ", pooled over conditions" if baseline.get("pooled") else ", per condition"
-        text += ", on single trials." if baseline.get("single_trial") else ", after averaging trials."
+        text += ", on single epochs." if baseline.get("single_epoch") else ", after averaging epochs."
     else:
         text += " No baseline normalisation was applied."
     return text
@@ -388,9 +392,9 @@ def kinds_used(run: Run) -> list[str]:
     """Reference keys of every method the run used, in a stable order."""
     study = run.study
     used = []
-    method = str((study.get("timefreq") or {}).get("method", "morlet")).lower()
+    method = str((study.get("decomposition") or {}).get("method", "morlet")).lower()
     if method == "multitaper":
-        used.append("multitaper")
+        used += ["multitaper", "nw"]
     used.append("edges")
     if any(c.statistic == "yuen" for c in run.contrasts):
         used.append("yuen")

@@ -13,8 +13,8 @@ from pathlib import Path
 import numpy as np
 
 from famwise import layout, stage_warnings
+from famwise.electrodes import ChannelGraph, Positions, load_graph
 from famwise.errors import UserError
-from famwise.montage import ChannelGraph, Positions, load_graph
 from famwise.observed import left_out_points, load_observed
 
 

@@ -4,15 +4,15 @@ import numpy as np
 from matplotlib.patches import Circle, Polygon
 from scipy.interpolate import RBFInterpolator
 
+from famwise.electrodes import azimuthal_projection
 from famwise.figure_style import ACCENT, DIVERGING
-from famwise.montage import azimuthal_projection
 
 
 def project(xyz: np.ndarray) -> np.ndarray:
     """Project electrode positions onto the picture of the head seen from above.
 
     The azimuthal equidistant projection from the vertex of
-    :func:`famwise.montage.azimuthal_projection`, scaled so that the circle
+    :func:`famwise.electrodes.azimuthal_projection`, scaled so that the circle
     90 degrees from the vertex (through Fpz, T7, Oz, T8) has radius 1.
 
     Parameters
@@ -66,7 +66,8 @@ def topography(
     limit : float
         Colour range is [-limit, limit], centred at zero.
     marked : ndarray of bool, shape (C,), optional
-        Channels to mark (e.g. a cluster's channels).
+        Channels drawn as filled accent dots (e.g. a cluster's channels); the
+        others are small open rings.
     resolution : int
         Grid points per side.
 
@@ -95,9 +96,10 @@ def topography(
     )
     if finite.sum() >= 4 and np.nanmax(grid) > np.nanmin(grid):
         ax.contour(gx, gy, grid, levels=np.linspace(-limit, limit, 9), colors="#00000033", linewidths=0.5)
-    ax.scatter(flat[:, 0], flat[:, 1], s=4, c="#444444", lw=0, zorder=3)
-    if marked is not None and np.any(marked):
-        ax.scatter(flat[marked, 0], flat[marked, 1], s=22, facecolor="white", edgecolor=ACCENT, lw=1.1, zorder=4)
+    marked = np.zeros(len(flat), bool) if marked is None else np.asarray(marked, bool)
+    ax.scatter(flat[~marked, 0], flat[~marked, 1], s=9, facecolor="none", edgecolor="#555555", lw=0.6, zorder=3)
+    if marked.any():
+        ax.scatter(flat[marked, 0], flat[marked, 1], s=20, c=ACCENT, lw=0, zorder=4)
     draw_head(ax)
     ax.set_xlim(-1.2 * extent, 1.2 * extent)
     ax.set_ylim(-1.15 * extent, 1.2 * extent)

@@ -16,6 +16,7 @@ from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
+from famwise.report.study_words import baseline_words, decomposition_words, inference_words, named, window_words
 from famwise.report.values import planned_block, values_block
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
@@ -93,39 +94,21 @@ def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> s
 def study_section(run: Run, spec_text: str) -> str:
     """Spec summary and the full spec text."""
     study = run.study
-    tf = study.get("timefreq") or {}
-    freqs = tf.get("freqs_hz") or {}
+    tf = study.get("decomposition") or {}
     analysis = study.get("analysis") or {}
     inference = study.get("inference") or {}
     rows = [
         ["study", study.get("name", "")],
         ["seed", study.get("seed", "")],
         ["conditions", "; ".join(f"{k}: {', '.join(map(str, v))}" for k, v in (study.get("conditions") or {}).items())],
-        [
-            "decomposition",
-            f"{tf.get('method', '')}, {tf.get('measure', '')}, "
-            f"{fmt(freqs.get('count'))} frequencies "
-            f"{fmt(freqs.get('start_hz', freqs.get('start')))}-"
-            f"{fmt(freqs.get('stop_hz', freqs.get('stop')))} Hz "
-            f"({freqs.get('spacing', '')})",
-        ],
-        ["baseline", ", ".join(f"{k} {v}" for k, v in (tf.get("baseline") or {}).items())],
-        [
-            "analysis window",
-            f"time {analysis.get('time_ms') or 'all'} ms, frequency "
-            f"{analysis.get('freq_hz') or 'all'} Hz, channels "
-            f"{analysis.get('channels') or 'all'}",
-        ],
+        ["decomposition", decomposition_words(tf)],
+        ["baseline", baseline_words(tf.get("baseline") or {})],
+        ["analysis window", window_words(analysis)],
         ["contrasts", "; ".join(f"{c['name']} ({c.get('test', '')})" for c in study.get("contrasts", []))],
-        [
-            "inference",
-            f"alpha {fmt(inference.get('alpha'))}, {inference.get('tail', '')}, "
-            f"{fmt(inference.get('permutations'))} permutations, statistic "
-            f"{inference.get('statistic', 't')}",
-        ],
+        ["inference", inference_words(inference)],
         [
             "corrections",
-            "; ".join(f"{name} ({entry.get('method', '')})" for name, entry in correction_entries(study).items()),
+            "; ".join(named(name, entry.get("method", "")) for name, entry in correction_entries(study).items()),
         ],
     ]
     window = note(
@@ -393,7 +376,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
             write(
                 fig,
                 f"{base}__{anchor(correction.name)}__map",
-                caption=f"<b>{esc(correction.name)}</b> ({esc(correction.method)}): "
+                caption=f"<b>{esc(named(correction.name, correction.method))}</b>: "
                 f"{correction.n_significant} significant points",
                 alt=f"{correction.name} map",
             )

@@ -82,7 +82,7 @@ class ClusterCorrection(_Correction):
         min_length=1,
         description="Dimensions clusters extend over.",
     )
-    min_neighbor_channels: int = Field(
+    min_supra_neighbors: int = Field(
         default=0, ge=0, description="Fewest supra-threshold neighbor channels a point needs to join a cluster."
     )
 

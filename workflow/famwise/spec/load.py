@@ -10,6 +10,7 @@ from pydantic import BaseModel, ValidationError
 
 from famwise.errors import UserError
 from famwise.spec.models import LocatedError, Study, did_you_mean
+from famwise.spec.old_keys import refuse_old_names
 
 
 @dataclass(frozen=True)
@@ -91,6 +92,7 @@ def load_study(path: str | Path) -> LoadedStudy:
     if not isinstance(data, dict):
         raise UserError(f"{name}:1: a study spec is a YAML mapping of keys (version, name, subjects, ...)")
     _refuse_duplicate_keys(root, name, ())
+    refuse_old_names(root, name)
     try:
         study = Study.model_validate(data)
     except ValidationError as error:

@@ -34,7 +34,7 @@ from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's mod
     TFCECorrection,
 )
 
-SubjectSource = Literal["epochs", "timefreq", "bids"]
+SubjectSource = Literal["epochs", "maps", "bids"]
 TestName = Literal["one-sample", "paired", "two-sample", "repeated-measures", "correlation"]
 BaselineMode = Literal["db", "percent", "zscore", "ratio", "none"]
 Measure = Literal["power", "induced", "itpc"]
@@ -45,10 +45,10 @@ class Subjects(SpecModel):
 
     source: SubjectSource = Field(
         description="Input kind: 'epochs' (one NPZ of epoched data per subject), "
-        "'timefreq' (one NPZ of time-frequency maps per subject) or 'bids' (a BIDS-EEG folder)."
+        "'maps' (one NPZ of time-frequency maps per subject) or 'bids' (a BIDS-EEG folder)."
     )
     path: str = Field(
-        description="For 'epochs' and 'timefreq': a file pattern with '{subject}', relative to "
+        description="For 'epochs' and 'maps': a file pattern with '{subject}', relative to "
         "the spec's folder (e.g. 'data/sub-{subject}.npz') or absolute. For 'bids': the BIDS root folder.",
     )
     task: str | None = Field(
@@ -129,15 +129,17 @@ class EpochWindow(SpecModel):
 class FrequencyGrid(SpecModel):
     """Frequencies of the decomposition."""
 
-    start_hz: float = Field(default=4.0, gt=0, description="Lowest frequency in Hz.")
-    stop_hz: float = Field(default=40.0, gt=0, description="Highest frequency in Hz.")
+    lowest_hz: float = Field(default=4.0, gt=0, description="Lowest frequency in Hz.")
+    highest_hz: float = Field(default=40.0, gt=0, description="Highest frequency in Hz.")
     count: int = Field(default=20, ge=1, description="Number of frequencies.")
     spacing: Literal["linear", "log"] = Field(default="log", description="Linear or logarithmic spacing.")
 
     @model_validator(mode="after")
     def _ordered(self) -> "FrequencyGrid":
-        if self.stop_hz < self.start_hz:
-            raise LocatedError(("stop_hz",), f"must be at least start_hz ({self.start_hz} Hz), got {self.stop_hz} Hz")
+        if self.highest_hz < self.lowest_hz:
+            raise LocatedError(
+                ("highest_hz",), f"must be at least lowest_hz ({self.lowest_hz} Hz), got {self.highest_hz} Hz"
+            )
         return self
 
 
@@ -153,7 +155,7 @@ class Baseline(SpecModel):
     pooled: bool = Field(
         default=False, description="Baseline from all conditions together instead of each condition's own."
     )
-    single_trial: bool = Field(default=False, description="Normalise every trial before averaging.")
+    single_epoch: bool = Field(default=False, description="Normalise every epoch before averaging.")
 
     @field_validator("window_ms")
     @classmethod
@@ -167,25 +169,30 @@ class Baseline(SpecModel):
         return self
 
 
-class Timefreq(SpecModel):
+class Decomposition(SpecModel):
     """Per-subject time-frequency decomposition."""
 
     method: Literal["morlet", "multitaper"] = Field(
         default="morlet", description="Complex Morlet wavelets or DPSS multitaper."
     )
-    freqs_hz: FrequencyGrid = Field(default_factory=FrequencyGrid, description="Frequency grid.")
+    frequencies: FrequencyGrid = Field(default_factory=FrequencyGrid, description="Frequency grid.")
     cycles: float | tuple[float, float] | None = Field(
         default=7.0,
         description="Morlet width in cycles: a number, or [at lowest, at highest] frequency growing "
-        "log-linearly. The default applies to method 'morlet' when fwhm_ms is not given.",
+        "log-linearly. The default of 7 cycles is long-standing practice (Tallon-Baudry et al. 1997, J Neurosci) "
+        "and applies to method 'morlet' when fwhm_ms is not given.",
     )
     fwhm_ms: float | tuple[float, float] | None = Field(
         default=None,
         description="Morlet width as temporal full width at half maximum in ms (a number or [at lowest, at highest]).",
     )
-    window_ms: float | None = Field(default=None, gt=0, description="Multitaper window length in ms.")
-    time_bandwidth: float | None = Field(
-        default=None, gt=0, description="Multitaper time-bandwidth product NW (tapers = 2NW - 1)."
+    taper_length_ms: float | None = Field(
+        default=None, gt=0, description="Multitaper taper length in ms (one window of the DPSS tapers)."
+    )
+    nw: float | None = Field(
+        default=None,
+        gt=0,
+        description="Multitaper time-half-bandwidth product NW (Percival & Walden 1993); 2NW - 1 tapers.",
     )
     measure: Measure = Field(
         default="power",
@@ -222,17 +229,17 @@ class Timefreq(SpecModel):
         return data
 
     @model_validator(mode="after")
-    def _width(self) -> "Timefreq":
+    def _width(self) -> "Decomposition":
         if self.method == "morlet":
             if self.cycles is not None and self.fwhm_ms is not None:
                 raise LocatedError(("fwhm_ms",), "give either cycles or fwhm_ms, not both")
-            for key in ("window_ms", "time_bandwidth"):
+            for key in ("taper_length_ms", "nw"):
                 if getattr(self, key) is not None:
                     raise LocatedError((key,), "only used with method 'multitaper'")
         else:
-            for key in ("window_ms", "time_bandwidth"):
+            for key in ("taper_length_ms", "nw"):
                 if getattr(self, key) is None:
-                    raise LocatedError((key,), "method 'multitaper' needs window_ms and time_bandwidth")
+                    raise LocatedError((key,), "method 'multitaper' needs taper_length_ms and nw")
             for key in ("cycles", "fwhm_ms"):
                 if getattr(self, key) is not None:
                     raise LocatedError((key,), "only used with method 'morlet'")
@@ -243,9 +250,9 @@ class Timefreq(SpecModel):
                 raise LocatedError(("baseline", "mode"), "'itpc' is a consistency in [0, 1]; use baseline mode 'none'")
             if self.average != "mean":
                 raise LocatedError(("average",), "'itpc' averages unit phase vectors; use average 'mean'")
-        if self.baseline.pooled and self.baseline.single_trial:
+        if self.baseline.pooled and self.baseline.single_epoch:
             raise LocatedError(
-                ("baseline", "single_trial"), "a pooled baseline cannot also be applied trial by trial; choose one"
+                ("baseline", "single_epoch"), "a pooled baseline cannot also be applied epoch by epoch; choose one"
             )
         return self
 
@@ -328,8 +335,9 @@ class Channels(SpecModel):
     """Electrode positions and the channel neighbor graph."""
 
     positions: str = Field(
-        default="standard-10-10",
-        description="'standard-10-10' or 'standard-10-20' (positions from the channel names), "
+        default="10-10",
+        description="'10-10' or '10-20' (idealised spherical positions from the systems' definitions, "
+        "looked up by channel name), "
         "'bids' (each subject's _electrodes.tsv), or a TSV file of name, x, y, z.",
     )
     neighbors: Neighbors = Field(default_factory=Neighbors, description="Neighbor graph.")
@@ -337,7 +345,7 @@ class Channels(SpecModel):
     @field_validator("positions")
     @classmethod
     def _inside(cls, value):
-        if value in ("standard-10-10", "standard-10-20", "bids"):
+        if value in ("10-10", "10-20", "bids"):
             return value
         return check_relative(value)
 
@@ -402,8 +410,8 @@ class Study(SpecModel):
     epochs: EpochWindow = Field(
         default_factory=EpochWindow, description="Epoching of continuous recordings (BIDS input)."
     )
-    timefreq: Timefreq = Field(
-        default_factory=Timefreq, description="Time-frequency decomposition (epochs and BIDS input)."
+    decomposition: Decomposition = Field(
+        default_factory=Decomposition, description="Time-frequency decomposition (epochs and BIDS input)."
     )
     analysis: Analysis = Field(
         default_factory=Analysis, description="A-priori restriction of time, frequency and channels."
@@ -494,11 +502,11 @@ class Study(SpecModel):
     @model_validator(mode="after")
     def _analysis_inside_grid(self) -> "Study":
         band = self.analysis.freq_hz
-        grid = self.timefreq.freqs_hz
-        if band is not None and self.subjects.source != "timefreq":
-            if band[1] < grid.start_hz or band[0] > grid.stop_hz:
+        grid = self.decomposition.frequencies
+        if band is not None and self.subjects.source != "maps":
+            if band[1] < grid.lowest_hz or band[0] > grid.highest_hz:
                 raise LocatedError(
                     ("analysis", "freq_hz"),
-                    f"band [{band[0]}, {band[1]}] Hz lies outside the decomposed frequencies [{grid.start_hz}, {grid.stop_hz}] Hz",
+                    f"band [{band[0]}, {band[1]}] Hz lies outside the decomposed frequencies [{grid.lowest_hz}, {grid.highest_hz}] Hz",
                 )
         return self

@@ -74,14 +74,14 @@ def statistic_block(stats, shape):
     return stats
 
 
-def check_cluster_settings(threshold, cluster_stat, min_neighbor_channels):
+def check_cluster_settings(threshold, cluster_stat, min_supra_neighbors):
     """Raise UserError unless the cluster-forming threshold, statistic and neighbor count are valid."""
     if not (math.isfinite(threshold) and threshold >= 0):
         raise UserError(f"the cluster-forming threshold must be a finite statistic value >= 0, got {threshold}")
     if cluster_stat not in CLUSTER_STATS:
         raise UserError(f"cluster_stat must be one of {list(CLUSTER_STATS)}, got {cluster_stat!r}")
-    if int(min_neighbor_channels) != min_neighbor_channels or min_neighbor_channels < 0:
-        raise UserError(f"min_neighbor_channels must be a whole number >= 0, got {min_neighbor_channels}")
+    if int(min_supra_neighbors) != min_supra_neighbors or min_supra_neighbors < 0:
+        raise UserError(f"min_supra_neighbors must be a whole number >= 0, got {min_supra_neighbors}")
 
 
 INFINITE_STATISTIC = (

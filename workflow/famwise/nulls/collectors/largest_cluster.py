@@ -35,7 +35,7 @@ class ClusterCollector:
     dims : tuple of str
         Dimensions clustering connects over, from ("channel", "freq", "time").
     cluster_stat : {"mass", "size"}
-    min_neighbor_channels : int
+    min_supra_neighbors : int
     tail : {"two-sided", "greater", "less"}
     key : str
         Prefix of the stored arrays.
@@ -56,17 +56,17 @@ class ClusterCollector:
         indices,
         dims=DIMS,
         cluster_stat="mass",
-        min_neighbor_channels=0,
+        min_supra_neighbors=0,
         tail="two-sided",
         key="cluster",
     ):
-        check_cluster_settings(threshold, cluster_stat, min_neighbor_channels)
+        check_cluster_settings(threshold, cluster_stat, min_supra_neighbors)
         self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
         self._links = check_dims(dims)
         self._tail_code = tail_code(tail)
         self._threshold = float(threshold)
         self._use_mass = cluster_stat == "mass"
-        self._min_neighbors = int(min_neighbor_channels)
+        self._min_neighbors = int(min_supra_neighbors)
         self._key = key
         self._parts = []
         self._workspace = None
