@@ -149,13 +149,14 @@ def command_check(args) -> int:
     from famwise.job_benchmarks import describe_stage_costs
     from famwise.plan import Plan
     from famwise.preflight import preflight
+    from famwise.preflight.spec_checks import attainability_warnings
     from famwise.summary import describe_plan, input_warnings
 
     verify_handoff(args.spec)
     plan = Plan.from_spec(args.spec)
     found = preflight(plan)
     print(describe_plan(plan))
-    _warn(input_warnings(plan) + found + plan.attainability_warnings())
+    _warn(input_warnings(plan) + found + attainability_warnings(plan))
     from famwise.check_reasons import changed_settings, describe_reasons
 
     for path in plan.loaded.outside_paths():
@@ -223,10 +224,11 @@ def command_run(args) -> int:
     from famwise.handoff.commands import verify_handoff
     from famwise.plan import Plan
     from famwise.preflight import preflight
+    from famwise.preflight.spec_checks import attainability_warnings
 
     verify_handoff(args.spec)
     plan = Plan.from_spec(args.spec)
-    upfront = preflight(plan) + plan.attainability_warnings()
+    upfront = preflight(plan) + attainability_warnings(plan)
     _warn(upfront)
     options = ["--cores", str(args.cores)]
     if args.profile:

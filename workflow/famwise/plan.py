@@ -200,37 +200,6 @@ class Plan:
         with np.load(self.input_files(subject)[0], allow_pickle=False) as archive:
             return [str(c) for c in archive["channels"]] if "channels" in archive.files else None
 
-    def attainability_warnings(self) -> list[str]:
-        """One line per contrast whose permutation table cannot reach alpha (naming the smallest p)."""
-        from famwise.nulls.tables import make_table, smallest_attainable_p
-
-        inference = self.study.inference
-        if not inference.needs_null:
-            return []
-        warnings = []
-        for contrast in self.study.contrasts:
-            settings = self.contrast_settings(contrast.name)
-            n_conditions = len(contrast.conditions) if contrast.test == "repeated-measures" else None
-            groups = settings.groups
-            table = make_table(
-                contrast.test,
-                n_subjects=len(settings.subjects),
-                permutations=inference.permutations,
-                seed=self.study.seed,
-                groups=None if groups is None else np.asarray(groups),
-                n_conditions=n_conditions,
-            )
-            tail = "greater" if contrast.test == "repeated-measures" else inference.tail
-            smallest = smallest_attainable_p(table, tail=tail)
-            if smallest > inference.alpha:
-                kind = "all" if table.exact else "random"
-                warnings.append(
-                    f"contrast {contrast.name}: the smallest attainable permutation p is {smallest:.4g} "
-                    f"({table.n_rows} {kind} {table.scheme} rows for {len(settings.subjects)} subjects), above alpha "
-                    f"{inference.alpha:g}: no permutation-based correction can declare anything; add subjects or permutations"
-                )
-        return warnings
-
     # ---- stage settings (famwise.settings types; rules pass them as JSON text) ----
 
     @property

@@ -36,26 +36,53 @@ def check_group_sizes(plan, where: Where) -> None:
                 )
 
 
-def check_shards(plan, where: Where) -> None:
-    """``inference.shards`` is at most the number of permutation rows of every contrast."""
+def permutation_table(plan, contrast):
+    """The permutation table the null stage will build for one of the spec's contrasts."""
     from famwise.nulls.tables import make_table
 
+    settings = plan.contrast_settings(contrast.name)
+    return make_table(
+        contrast.test,
+        n_subjects=len(settings.subjects),
+        permutations=plan.study.inference.permutations,
+        seed=plan.study.seed,
+        groups=None if settings.groups is None else np.asarray(settings.groups),
+        n_conditions=len(contrast.conditions) if contrast.test == "repeated-measures" else None,
+    )
+
+
+def check_shards(plan, where: Where) -> None:
+    """``inference.shards`` is at most the number of permutation rows of every contrast."""
     inference = plan.study.inference
     if not inference.needs_null or inference.shards == 1:
         return
     for contrast in plan.study.contrasts:
-        settings = plan.contrast_settings(contrast.name)
-        groups = settings.groups
-        table = make_table(
-            contrast.test,
-            n_subjects=len(settings.subjects),
-            permutations=inference.permutations,
-            seed=plan.study.seed,
-            groups=None if groups is None else np.asarray(groups),
-            n_conditions=len(contrast.conditions) if contrast.test == "repeated-measures" else None,
-        )
+        table = permutation_table(plan, contrast)
         if inference.shards > table.n_rows:
             raise UserError(
                 f"{where('inference', 'shards')}: {inference.shards} shards for the {table.n_rows} rows of contrast "
                 f"{contrast.name}'s permutation table; give at most {table.n_rows} (each shard is one job)"
             )
+
+
+def attainability_warnings(plan) -> list[str]:
+    """One line per contrast whose permutation table cannot reach alpha (naming the smallest p)."""
+    from famwise.nulls.tables import smallest_attainable_p
+
+    inference = plan.study.inference
+    if not inference.needs_null:
+        return []
+    warnings = []
+    for contrast in plan.study.contrasts:
+        table = permutation_table(plan, contrast)
+        tail = "greater" if contrast.test == "repeated-measures" else inference.tail
+        smallest = smallest_attainable_p(table, tail=tail)
+        if smallest > inference.alpha:
+            kind = "all" if table.exact else "random"
+            n_subjects = len(plan.contrast_settings(contrast.name).subjects)
+            warnings.append(
+                f"contrast {contrast.name}: the smallest attainable permutation p is {smallest:.4g} "
+                f"({table.n_rows} {kind} {table.scheme} rows for {n_subjects} subjects), above alpha "
+                f"{inference.alpha:g}: no permutation-based correction can declare anything; add subjects or permutations"
+            )
+    return warnings

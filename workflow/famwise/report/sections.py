@@ -332,15 +332,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
     spec = next((c for c in study.get("contrasts", []) if c["name"] == contrast.name), {})
     alpha = alpha_of(study)
     total = contrast.stat.size
-    head = (
-        f'<h2 id="{anchor("contrast", contrast.name)}">Contrast {esc(contrast.name)}</h2>'
-        f'<p class="summary">{esc(contrast.test)}'
-        + (f", {esc(' − '.join(map(str, spec['conditions'])))}" if spec.get("conditions") else "")
-        + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
-        f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
-        f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
-        f"mean {esc(direction(spec, True))}.</p>" + left_out_note(contrast) + permutation_notes(contrast, study)
-    )
+    head = _contrast_heading(contrast, spec, study)
     uncorrected = contrast.p <= alpha
     base = anchor(contrast.name)
     counts = max([1] + [int(c.mask.sum(axis=0).max()) for c in contrast.corrections])
@@ -388,23 +380,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
         "number of significant channels at each time and frequency.</p>"
         f'<div class="grid">{"".join(cards)}</div>'
     )
-    flat = channel_flat(run, contrast)
-    explorer = (
-        ""
-        if flat is None
-        else explorer_block(
-            explorer_data(
-                contrast,
-                run.output_dir / "contrasts" / contrast.name,
-                flat=flat,
-                alpha=alpha,
-                stat_label=figures.stat_label(contrast),
-                unit=figures.effect_unit(study),
-                positive=direction(spec, True),
-                negative=direction(spec, False),
-            )
-        )
-    )
+    explorer = _explorer(run, contrast, spec, alpha)
     planned = planned_block(
         run.output_dir / "contrasts" / contrast.name,
         f"{base}__planned__values",
@@ -412,6 +388,38 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
         write=write,
     )
     return head + grid + explorer + planned + "".join(details)
+
+
+def _contrast_heading(contrast: ReportedContrast, spec: dict, study: dict) -> str:
+    """The contrast's title and one-paragraph summary, with its left-out points and permutation notes."""
+    total = contrast.stat.size
+    return (
+        f'<h2 id="{anchor("contrast", contrast.name)}">Contrast {esc(contrast.name)}</h2>'
+        f'<p class="summary">{esc(contrast.test)}'
+        + (f", {esc(' − '.join(map(str, spec['conditions'])))}" if spec.get("conditions") else "")
+        + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
+        f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
+        f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
+        f"mean {esc(direction(spec, True))}.</p>" + left_out_note(contrast) + permutation_notes(contrast, study)
+    )
+
+
+def _explorer(run: Run, contrast: ReportedContrast, spec: dict, alpha: float) -> str:
+    """The contrast's interactive explorer (empty without channel positions)."""
+    flat = channel_flat(run, contrast)
+    if flat is None:
+        return ""
+    data = explorer_data(
+        contrast,
+        run.output_dir / "contrasts" / contrast.name,
+        flat=flat,
+        alpha=alpha,
+        stat_label=figures.stat_label(contrast),
+        unit=figures.effect_unit(run.study),
+        positive=direction(spec, True),
+        negative=direction(spec, False),
+    )
+    return explorer_block(data)
 
 
 def _correction_detail(
