@@ -72,7 +72,7 @@ def test_slurm_run_equals_local_run(tmp_path):
     # Every job ran as a SLURM job: the executor's job logs are there, and ours still go to <output>/logs.
     slurm_logs = list((output / ".snakemake" / "slurm_logs").rglob("*.log"))
     assert any("decompose" in str(p) for p in slurm_logs) and any("null_shard" in str(p) for p in slurm_logs)
-    assert sorted(p.name for p in (output / "logs" / "null_shard").iterdir()) == [
+    assert sorted(p.name for p in (output / "logs" / "null_shard").glob("*.log")) == [
         f"{c}-{k}.log" for c in ("high-load-vs-baseline", "load-effect") for k in (0, 1)
     ]
     assert (output / "report" / "index.html").is_file()
