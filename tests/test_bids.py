@@ -233,7 +233,7 @@ def test_write_errors(tmp_path):
         bids_writing.write_subject(
             tmp_path, "01", data=np.zeros((3, 100)), sample_rate_hz=FS, channels=CHANNELS, events=[], task="view"
         )
-    with pytest.raises(UserError, match=r"format must be one of edf, bdf, brainvision, got 'gdf'"):
+    with pytest.raises(UserError, match=r"format must be one of edf, bdf, vhdr, got 'gdf'"):
         _write(tmp_path, fmt="gdf")
     with pytest.raises(UserError, match=r"every participants row needs a 'participant_id'"):
         bids_writing.write_participants(tmp_path, [{"group": "a"}])

@@ -1,10 +1,10 @@
-"""BIDS-EEG input: EDF, BDF or BrainVision recordings with their events, channels and participants.
+"""BIDS-EEG input: EDF, BDF or `.vhdr` recordings with their events, channels and participants.
 
 Reading: the recordings ``sub-<id>/[ses-<s>/]eeg/sub-<id>_..._task-<task>[_run-<n>]_eeg.edf|.bdf|.vhdr``
 (`famwise.recordings`), ``_channels.tsv`` (one rule for every format: channels of
 type EEG not marked bad are kept, other types such as EOG, ECG, EMG, MISC and TRIG
 are left out; without the file every signal is kept), ``_events.tsv`` (``onset``
-in s and ``trial_type``; a BrainVision marker file is not needed) and ``participants.tsv``.
+in s and ``trial_type``; a `.vmrk` marker file is not needed) and ``participants.tsv``.
 Epochs are cut around each event with the epoch window; each epoch has its
 mean removed per channel (recordings often carry large DC offsets).
 A subject's runs and sessions of the task are pooled, on the channels good in
@@ -299,7 +299,7 @@ def find_recordings(root: Path, subject: str, task: str | None) -> list[Path]:
         hint = (
             (
                 f"; found {', '.join(others)}, in a format famwise does not read: convert it with a general-purpose "
-                "converter to EDF or BrainVision"
+                "converter to EDF or .vhdr"
             )
             if others
             else ""

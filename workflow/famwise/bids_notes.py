@@ -1,12 +1,12 @@
 """What ``famwise check`` tells about a BIDS-EEG folder before any job runs: channels left out, marker counts.
 
 Both read only the small text files (``_channels.tsv``, ``_events.tsv``,
-BrainVision ``.vhdr`` and ``.vmrk``), never the samples.
+``.vhdr`` headers and ``.vmrk`` markers), never the samples.
 """
 
 from pathlib import Path
 
-from famwise import bids, brainvision
+from famwise import bids, vhdr
 from famwise.errors import UserError
 
 
@@ -40,7 +40,7 @@ def left_out_lines(root: Path, subjects: list[str], task: str | None) -> list[st
 
 
 def marker_warnings(root: Path, subjects: list[str], task: str | None) -> list[str]:
-    """One warning per BrainVision recording whose stimulus-marker count differs from its ``_events.tsv`` rows.
+    """One warning per `.vhdr` recording whose stimulus-marker count differs from its ``_events.tsv`` rows.
 
     Epochs come from ``_events.tsv``; the markers only serve as a cross-check.
     A marker file named by the header but absent is warned about too.
@@ -51,7 +51,7 @@ def marker_warnings(root: Path, subjects: list[str], task: str | None) -> list[s
             if path.suffix.lower() != ".vhdr":
                 continue
             try:
-                header = brainvision.read_header(path)
+                header = vhdr.read_header(path)
             except UserError as exc:
                 raise UserError(f"subject {subject}: {exc}") from None
             events = bids.sidecar(path, "events.tsv")
@@ -63,7 +63,7 @@ def marker_warnings(root: Path, subjects: list[str], task: str | None) -> list[s
                     f"{path.name} is missing; its stimulus markers are not compared with {events.name}"
                 )
                 continue
-            stimuli = sum(1 for m in brainvision.read_markers(header.marker_file) if m.type.lower() == "stimulus")
+            stimuli = sum(1 for m in vhdr.read_markers(header.marker_file) if m.type.lower() == "stimulus")
             rows = len(bids.read_tsv(events))
             if stimuli != rows:
                 warnings.append(

@@ -43,7 +43,7 @@ def write_subject(
     data : ndarray, shape (n_channels, n_samples)
         Samples in volts, stored in µV as `famwise.recordings.write_recording`
         describes (EDF/BDF: 16 or 24 bit over each channel's range, padded with
-        the last sample to whole 1-s data records; BrainVision: 32-bit floats).
+        the last sample to whole 1-s data records; `.vhdr`: 32-bit floats).
     sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
@@ -56,7 +56,7 @@ def write_subject(
     electrodes : dict of str to (x, y, z), optional
         Electrode positions in mm, written to ``_electrodes.tsv`` with a
         ``_coordsystem.json``.
-    fmt : {"edf", "bdf", "brainvision"}
+    fmt : {"edf", "bdf", "vhdr"}
     run : int, optional
         Run number (``_run-<n>`` in the file names) for a subject recorded in several runs.
     resolution_uv : float, optional
@@ -86,7 +86,7 @@ def write_subject(
             resolution_uv=resolution_uv,
         )
     except ValueError as exc:
-        suffix = "vhdr" if fmt == "brainvision" else fmt
+        suffix = "vhdr" if fmt == "vhdr" else fmt
         raise UserError(f"subject {subject}: cannot write {stem}_eeg.{suffix}: {exc}") from None
 
     _write_tsv(

@@ -96,7 +96,7 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
     Parameters
     ----------
     folder : Path
-    fmt : {"edf", "bdf", "brainvision"}
+    fmt : {"edf", "bdf", "vhdr"}
         Format of the recordings (``famwise demo`` writes EDF).
     resolution_uv : float, optional
         Store whole multiples of this step (µV), so that two formats hold the

@@ -1,4 +1,4 @@
-"""Recording files of the formats famwise reads: EDF, BDF (through edfio) and BrainVision (``.vhdr``).
+"""Recording files of the formats famwise reads: EDF, BDF (through edfio) and `.vhdr` (``.vhdr``).
 
 Every format is opened into one `Recording`: its signals' names, rates and
 units, and their samples in those units. The BIDS reader then applies one set
@@ -13,11 +13,11 @@ from typing import NamedTuple
 import edfio
 import numpy as np
 
-from famwise import brainvision
+from famwise import vhdr
 from famwise.errors import UserError
 
 SUFFIXES = (".edf", ".bdf", ".vhdr")
-FORMATS = ("edf", "bdf", "brainvision")
+FORMATS = ("edf", "bdf", "vhdr")
 _EDF_DIGITAL = {"edf": (32767, np.int16), "bdf": (8388607, np.int32)}  # largest stored value, sample type
 
 
@@ -53,7 +53,7 @@ class Recording:
 
 
 def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> Recording:
-    """Open an EDF, BDF or BrainVision recording (chosen by suffix).
+    """Open an EDF, BDF or `.vhdr` recording (chosen by suffix).
 
     Parameters
     ----------
@@ -72,12 +72,12 @@ def open_recording(path: Path, subject: str, *, headers_only: bool = False) -> R
     path = Path(path)
     try:
         if path.suffix.lower() == ".vhdr":
-            header = brainvision.read_header(path)
+            header = vhdr.read_header(path)
             return Recording(
                 path,
                 tuple(Signal(c.name, header.sample_rate_hz, c.unit) for c in header.channels),
                 header.n_samples / header.sample_rate_hz,
-                lambda indices: brainvision.read_samples(header, indices),
+                lambda indices: vhdr.read_samples(header, indices),
             )
         if path.suffix.lower() == ".bdf":
             edf = edfio.read_bdf(path)
@@ -106,7 +106,7 @@ def write_recording(
     markers: list[tuple[int, str]],
     resolution_uv: float | None = None,
 ) -> Path:
-    """Write a continuous recording in µV as EDF, BDF or BrainVision; return the file written.
+    """Write a continuous recording in µV as EDF, BDF or `.vhdr`; return the file written.
 
     Parameters
     ----------
@@ -117,20 +117,20 @@ def write_recording(
     sample_rate_hz : float
         Sampling rate in Hz.
     channels : list of str
-    fmt : {"edf", "bdf", "brainvision"}
+    fmt : {"edf", "bdf", "vhdr"}
     markers : list of (sample, description)
-        Stimulus markers, written to the BrainVision marker file only.
+        Stimulus markers, written to the `.vmrk` marker file only.
     resolution_uv : float, optional
         Store whole multiples of this step with zero offset in every format:
         the same integer samples then read back as the same values (exactly,
         for a power of two). None: EDF/BDF scale each channel over its range
-        (16 or 24 bit), BrainVision stores 32-bit floats.
+        (16 or 24 bit), `.vhdr` stores 32-bit floats.
         EDF/BDF recordings are padded with their last sample to whole 1-s
         data records.
     """
-    if fmt == "brainvision":
+    if fmt == "vhdr":
         target = Path(f"{path}.vhdr")
-        brainvision.write(
+        vhdr.write(
             target, data_uv, sample_rate_hz=sample_rate_hz, channels=channels, markers=markers, resolution=resolution_uv
         )
         return target

@@ -56,7 +56,7 @@ FFT_RATE = 2e8
 NULL_RATE = 1e8
 # Fallbacks when a size cannot be read before the run (e.g. maps given as input).
 FALLBACK_CHANNELS = 128
-FALLBACK_SFREQ_HZ = 1000.0
+FALLBACK_SAMPLE_RATE_HZ = 1000.0
 
 
 @dataclass(frozen=True)
@@ -149,7 +149,7 @@ def study_sizes(plan) -> StudySizes:
         first = recording_sizes(plan, plan.subjects[0])
         epoch_ms = (0.0, (first.n_samples - 1) * 1000.0 / first.sample_rate_hz)
     window_ms = s.analysis.time_ms or epoch_ms
-    step_ms = s.decomposition.time_step_ms or 1000.0 / FALLBACK_SFREQ_HZ
+    step_ms = s.decomposition.time_step_ms or 1000.0 / FALLBACK_SAMPLE_RATE_HZ
     sizes = StudySizes(
         n_subjects=len(plan.subjects),
         n_channels=n_channels,
@@ -166,7 +166,7 @@ def study_sizes(plan) -> StudySizes:
 
 
 def recording_sizes(plan, subject: str) -> RecordingSizes:
-    """One subject's input sizes from file sizes, recording headers (EDF, BDF, BrainVision), events and NPZ headers.
+    """One subject's input sizes from file sizes, recording headers (EDF, BDF, `.vhdr`), events and NPZ headers.
 
     Parameters
     ----------

@@ -15,7 +15,7 @@ from famwise.io import discover_pattern
 
 
 def write_starter_spec(data: Path, out: Path) -> None:
-    """Look at ``data`` (a BIDS-EEG folder with EDF, BDF or BrainVision recordings, or a folder of epochs NPZ
+    """Look at ``data`` (a BIDS-EEG folder with EDF, BDF or `.vhdr` recordings, or a folder of epochs NPZ
     files) and write ``out``."""
     data = Path(data).resolve()
     out = Path(out).resolve()
@@ -35,7 +35,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
         if not recordings:
             raise UserError(
                 f"{data}: the sub-* folders hold no recording famwise reads (sub-<id>_..._eeg.edf, .bdf "
-                "or .vhdr); convert the recordings with a general-purpose converter to EDF or BrainVision"
+                "or .vhdr); convert the recordings with a general-purpose converter to EDF or .vhdr"
             )
         source, path, task, labels = "bids", relative, _bids_task(recordings[0]), _bids_labels(recordings)
         found = _formats_found(recordings)
@@ -96,8 +96,8 @@ def _bids_labels(recordings: list[Path]) -> Counter:
 
 
 def _formats_found(recordings: list[Path]) -> str:
-    """E.g. ``"12 BrainVision (.vhdr)"``: how many recordings of each format."""
-    names = {".edf": "EDF (.edf)", ".bdf": "BDF (.bdf)", ".vhdr": "BrainVision (.vhdr)"}
+    """E.g. ``"12 vhdr/vmrk/eeg (.vhdr)"``: how many recordings of each format."""
+    names = {".edf": "EDF (.edf)", ".bdf": "BDF (.bdf)", ".vhdr": "vhdr/vmrk/eeg (.vhdr)"}
     counts = Counter(names[p.suffix.lower()] for p in recordings)
     return ", ".join(f"{count} {name}" for name, count in sorted(counts.items()))
 

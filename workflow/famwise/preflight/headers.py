@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import bids, brainvision
+from famwise import bids, vhdr
 from famwise.errors import UserError
 
 
@@ -128,10 +128,10 @@ def bids_header(
 
 
 def _recording_signals(path: Path, subject: str) -> tuple[dict[str, float], float]:
-    """Signal label -> sampling rate (Hz), and the duration (s), from an EDF/BDF or BrainVision header."""
+    """Signal label -> sampling rate (Hz), and the duration (s), from an EDF/BDF or `.vhdr` header."""
     if path.suffix.lower() == ".vhdr":
         try:
-            header = brainvision.read_header(path)
+            header = vhdr.read_header(path)
         except UserError as error:
             raise UserError(f"subject {subject}: {error}") from None
         return {c.name: header.sample_rate_hz for c in header.channels}, header.n_samples / header.sample_rate_hz

@@ -1,8 +1,8 @@
-"""The BrainVision core data format: a header (``.vhdr``), markers (``.vmrk``) and binary samples (``.eeg``).
+"""The three-file `.vhdr` format: a header (``.vhdr``), markers (``.vmrk``) and binary samples (``.eeg``).
 
-Written against the format's published specification (BrainVision Core Data
-Format 1.0). The header and marker files are INI-like text: ``;`` starts a
-comment, ``[Section]`` lines open a section, ``Key=Value`` lines fill it; the
+Written against the format's published specification (the vendor's Core Data
+Format document, version 1.0). The header and marker files are INI-like text:
+``;`` starts a comment, ``[Section]`` lines open a section, ``Key=Value`` lines fill it; the
 ``Codepage`` key names their encoding (``UTF-8``, or ``ANSI`` when absent).
 Read here: ``[Common Infos]`` (data file, orientation, channel count, sampling
 interval in µs), ``[Binary Infos]`` (``INT_16``, ``INT_32`` or
@@ -90,7 +90,7 @@ def read_header(path: Path) -> Header:
     Raises
     ------
     UserError
-        Naming the file: not a BrainVision header, a missing or unsupported
+        Naming the file: not a .vhdr-format header, a missing or unsupported
         key, a data file that is missing or whose size does not fit the
         header's channels and sample format.
     """
@@ -102,7 +102,7 @@ def read_header(path: Path) -> Header:
     if data_format != "BINARY":
         raise UserError(
             f"{path}: DataFormat={data_format} is not read; only BINARY data are "
-            "(convert the recording to EDF or binary BrainVision)"
+            "(convert the recording to EDF or to binary .vhdr)"
         )
     if common.get("DataType", "TIMEDOMAIN").upper() != "TIMEDOMAIN":
         raise UserError(f"{path}: DataType={common['DataType']} is not read; only TIMEDOMAIN data are")
@@ -158,7 +158,7 @@ def read_markers(path: Path) -> list[Marker]:
     Raises
     ------
     UserError
-        Naming the file: missing, not a BrainVision marker file, or an entry
+        Naming the file: missing, not a `.vmrk` marker file, or an entry
         without a whole-number position.
     """
     path = Path(path)
@@ -273,7 +273,7 @@ def _read_sections(path: Path, magic: str) -> dict[str, dict[str, str]]:
     if not lines or magic not in lines[0].replace(" ", ""):
         kind = "header" if magic == _HEADER_MAGIC else "marker"
         raise UserError(
-            f"{path}: not a BrainVision {kind} file (its first line should name the "
+            f"{path}: not a .vhdr-format {kind} file (its first line should name the "
             f"'Data Exchange {kind.title()} File')"
         )
     codepage = next(

@@ -1,10 +1,10 @@
-"""The BrainVision reader: files from a general-purpose writer, hand-built files of each variant, bad files."""
+"""The `.vhdr` reader: files from a general-purpose writer, hand-built files of each variant, bad files."""
 
 import numpy as np
 import pybv
 import pytest
 
-from famwise import brainvision
+from famwise import vhdr
 from famwise.errors import UserError
 
 NAMES = ["Fz", "Cz", "Pz"]
@@ -81,14 +81,14 @@ def test_reads_files_of_a_general_purpose_writer(tmp_path, fmt, resolution, tole
         unit="µV",
         events=np.array([[100, 1], [600, 2]]),
     )
-    header = brainvision.read_header(tmp_path / "rec.vhdr")
+    header = vhdr.read_header(tmp_path / "rec.vhdr")
     assert [c.name for c in header.channels] == NAMES and header.sample_rate_hz == 500.0 and header.n_samples == 1000
     assert [c.unit for c in header.channels] == ["µV"] * 3
-    values = brainvision.read_samples(header)
+    values = vhdr.read_samples(header)
     # int16 stores truncated steps of 0.1 µV; float32 keeps about 7 digits
     np.testing.assert_allclose(values, data * 1e6, rtol=0, atol=tolerance_uv)
-    assert brainvision.read_samples(header, [2, 0]).tolist() == values[[2, 0]].tolist()
-    markers = brainvision.read_markers(header.marker_file)
+    assert vhdr.read_samples(header, [2, 0]).tolist() == values[[2, 0]].tolist()
+    markers = vhdr.read_markers(header.marker_file)
     assert [(m.type, m.position) for m in markers] == [("Stimulus", 100), ("Stimulus", 600)]
 
 
@@ -105,9 +105,9 @@ def test_reads_per_channel_units_and_resolutions_of_a_general_purpose_writer(tmp
             unit=["µV", "nV", "V"],
             resolution=np.array([0.5, 0.25, 1.0]),
         )
-    header = brainvision.read_header(tmp_path / "rec.vhdr")
+    header = vhdr.read_header(tmp_path / "rec.vhdr")
     assert [(c.unit, c.resolution) for c in header.channels] == [("µV", 0.5), ("nV", 0.25), ("V", 1.0)]
-    np.testing.assert_allclose(brainvision.read_samples(header), data * np.array([[1e6], [1e9], [1.0]]), rtol=1e-6)
+    np.testing.assert_allclose(vhdr.read_samples(header), data * np.array([[1e6], [1e9], [1.0]]), rtol=1e-6)
 
 
 @pytest.mark.parametrize("orientation", ["MULTIPLEXED", "VECTORIZED"])
@@ -127,11 +127,11 @@ def test_hand_built_variants(tmp_path, orientation, binary_format, big_endian):
         channel_lines=lines,
         big_endian=big_endian,
     )
-    header = brainvision.read_header(path)
+    header = vhdr.read_header(path)
     assert header.n_samples == 5 and header.sample_rate_hz == 500.0 and header.orientation == orientation
-    # Source: the format specification (BrainVision Core Data Format 1.0): value = stored x resolution, in the unit.
+    # Source: the format specification (Core Data Format document 1.0): value = stored x resolution, in the unit.
     expected = stored * np.array([[0.1], [1.0], [2.0]])
-    np.testing.assert_array_equal(brainvision.read_samples(header), expected)
+    np.testing.assert_array_equal(vhdr.read_samples(header), expected)
     assert [(c.name, c.reference, c.unit) for c in header.channels] == [
         ("Fz", "Ref", "µV"),
         ("Cz", "Ref", "nV"),
@@ -152,16 +152,16 @@ def test_header_encoding_placeholders_and_escaped_commas(tmp_path):
         data_file="$b.eeg",
         extra="DataPoints=3",
     )
-    header = brainvision.read_header(path)
+    header = vhdr.read_header(path)
     assert [c.name for c in header.channels] == ["Fp1,left", "Fz\u00e4"]
     assert [c.unit for c in header.channels] == ["\xb5V", "µV"]
     assert header.data_file == tmp_path / "rec.eeg"
-    np.testing.assert_array_equal(brainvision.read_samples(header), stored * 0.5)
+    np.testing.assert_array_equal(vhdr.read_samples(header), stored * 0.5)
 
 
 def test_utf8_header_with_a_byte_order_mark(tmp_path):
     path = _hand_built(tmp_path, stored=np.ones((3, 2)), binary_format="INT_16", encoding="utf-8-sig")
-    header = brainvision.read_header(path)
+    header = vhdr.read_header(path)
     assert [(c.name, c.unit) for c in header.channels] == [(name, "µV") for name in NAMES]
 
 
@@ -169,7 +169,7 @@ def test_missing_data_file_is_one_error_naming_it(tmp_path):
     path = _hand_built(tmp_path, stored=np.zeros((3, 4)), binary_format="INT_16")
     (tmp_path / "rec.eeg").unlink()
     with pytest.raises(UserError, match=r"rec.eeg: data file named by rec.vhdr \(DataFile\) not found"):
-        brainvision.read_header(path)
+        vhdr.read_header(path)
 
 
 def test_data_file_size_must_fit_the_header(tmp_path):
@@ -181,14 +181,14 @@ def test_data_file_size_must_fit_the_header(tmp_path):
         match=r"rec.eeg: holds 50 bytes, not a whole number of time points of "
         r"3 channels x 4 bytes \(INT_32\) as rec.vhdr describes",
     ):
-        brainvision.read_header(path)
+        vhdr.read_header(path)
     path = _hand_built(tmp_path, stored=np.zeros((3, 4)), binary_format="INT_16", extra="DataPoints=5")
     with pytest.raises(
         UserError,
         match=r"rec.eeg: holds 24 bytes, but rec.vhdr describes DataPoints=5 of "
         r"3 channels x 2 bytes \(INT_16\) = 30 bytes",
     ):
-        brainvision.read_header(path)
+        vhdr.read_header(path)
 
 
 def test_header_errors(tmp_path):
@@ -202,15 +202,15 @@ def test_header_errors(tmp_path):
         (text.replace("NumberOfChannels=3", "NumberOfChannels=4"), r"\[Channel Infos\] has no Ch4 entry"),
         (text.replace("Ch2=Cz,,1", "Ch2=Cz,,fine"), r"Ch2 resolution 'fine' is not a number"),
         (text.replace("Codepage=UTF-8", "Codepage=EBCDIC"), r"Codepage must be UTF-8 or ANSI, got EBCDIC"),
-        ("Some other file\n" + text, r"not a BrainVision header file"),
+        ("Some other file\n" + text, r"not a .vhdr-format header file"),
     ]
     for content, message in cases:
         path.write_text(content, encoding="utf-8")
         with pytest.raises(UserError, match=message):
-            brainvision.read_header(path)
+            vhdr.read_header(path)
     path.write_bytes(text.replace("Cz", "C\xe4").encode("cp1252"))
     with pytest.raises(UserError, match=r"rec.vhdr: the file says Codepage=UTF-8 but byte \d+ is not valid UTF-8"):
-        brainvision.read_header(path)
+        vhdr.read_header(path)
 
 
 def test_markers(tmp_path):
@@ -222,23 +222,23 @@ def test_markers(tmp_path):
         "Mk10=Stimulus,a\\1b,1001,1,0\nMk3=Response,R  2,300,,\n",
         encoding="utf-8",
     )
-    markers = brainvision.read_markers(path)
+    markers = vhdr.read_markers(path)
     assert markers == [
-        brainvision.Marker("New Segment", "", 0, 1, 0),
-        brainvision.Marker("Stimulus", "S  1", 250, 1, 0),
-        brainvision.Marker("Response", "R  2", 299, 1, 0),
-        brainvision.Marker("Stimulus", "a,b", 1000, 1, 0),
+        vhdr.Marker("New Segment", "", 0, 1, 0),
+        vhdr.Marker("Stimulus", "S  1", 250, 1, 0),
+        vhdr.Marker("Response", "R  2", 299, 1, 0),
+        vhdr.Marker("Stimulus", "a,b", 1000, 1, 0),
     ]
     path.write_text(path.read_text().replace("Mk2=Stimulus,S  1,251", "Mk2=Stimulus,S  1,later"))
     with pytest.raises(UserError, match=r"rec.vmrk: marker Mk2=Stimulus,S  1,later,1,0 needs whole-number"):
-        brainvision.read_markers(path)
+        vhdr.read_markers(path)
     with pytest.raises(UserError, match=r"other.vmrk: file not found"):
-        brainvision.read_markers(tmp_path / "other.vmrk")
+        vhdr.read_markers(tmp_path / "other.vmrk")
 
 
 def test_written_files_read_back(tmp_path):
     data = np.array([[0.5, -1.0, 40000.25], [2.0, 3.0, -4.0]])  # µV
-    brainvision.write(
+    vhdr.write(
         tmp_path / "a.vhdr",
         data,
         sample_rate_hz=250.0,
@@ -246,14 +246,14 @@ def test_written_files_read_back(tmp_path):
         markers=[(1, "go, now")],
         resolution=0.25,
     )
-    header = brainvision.read_header(tmp_path / "a.vhdr")
+    header = vhdr.read_header(tmp_path / "a.vhdr")
     assert header.binary_format == "INT_32"  # 40000.25 / 0.25 does not fit 16 bits
     assert [c.name for c in header.channels] == ["F,z", "Cz"]
-    np.testing.assert_array_equal(brainvision.read_samples(header), data)
-    assert brainvision.read_markers(header.marker_file) == [brainvision.Marker("Stimulus", "go, now", 1, 1, 0)]
+    np.testing.assert_array_equal(vhdr.read_samples(header), data)
+    assert vhdr.read_markers(header.marker_file) == [vhdr.Marker("Stimulus", "go, now", 1, 1, 0)]
     for bad in (np.nan, 1e9):
         with pytest.raises(ValueError, match=r"samples must be finite and within ±5.36871e\+08 µV at 0.25 µV per step"):
-            brainvision.write(
+            vhdr.write(
                 tmp_path / "c.vhdr",
                 data + [[0, 0, bad], [0, 0, 0]],
                 sample_rate_hz=250.0,
@@ -261,7 +261,7 @@ def test_written_files_read_back(tmp_path):
                 markers=[],
                 resolution=0.25,
             )
-    brainvision.write(tmp_path / "b.vhdr", data, sample_rate_hz=250.0, channels=["Fz", "Cz"], markers=[])
-    header = brainvision.read_header(tmp_path / "b.vhdr")
+    vhdr.write(tmp_path / "b.vhdr", data, sample_rate_hz=250.0, channels=["Fz", "Cz"], markers=[])
+    header = vhdr.read_header(tmp_path / "b.vhdr")
     assert header.binary_format == "IEEE_FLOAT_32"
-    np.testing.assert_array_equal(brainvision.read_samples(header), data.astype(np.float32))
+    np.testing.assert_array_equal(vhdr.read_samples(header), data.astype(np.float32))

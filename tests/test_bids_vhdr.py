@@ -1,4 +1,4 @@
-"""BIDS-EEG folders with BrainVision recordings: same epochs as EDF, channel rules, units, bad files, check notes."""
+"""BIDS-EEG folders with `.vhdr` recordings: same epochs as EDF, channel rules, units, bad files, check notes."""
 
 import csv
 
@@ -60,26 +60,26 @@ NON_EEG = {"HEOG": "EOG", "ECG": "ECG", "EMG1": "EMG", "Misc": "MISC", "Trig": "
 
 
 @pytest.mark.parametrize("other", ["edf", "bdf"])
-def test_brainvision_and_edf_give_identical_epochs(tmp_path, other):
+def test_vhdr_and_edf_give_identical_epochs(tmp_path, other):
     data = _recording()
-    for fmt in ("brainvision", other):
+    for fmt in ("vhdr", other):
         stem = _write(tmp_path / fmt, fmt, data=data, resolution_uv=0.25)
         _set_channels(stem, types=NON_EEG)
     # the same integer samples at a power-of-two step give the same float64 values, bit for bit
-    vision = _read(tmp_path / "brainvision", reference="average", reject_peak_to_peak_uv=110.0)
+    vision = _read(tmp_path / "vhdr", reference="average", reject_peak_to_peak_uv=110.0)
     edf = _read(tmp_path / other, reference="average", reject_peak_to_peak_uv=110.0)
     assert vision.channels == edf.channels == ("Fz", "Cz", "Pz", "Oz")
     assert 0 < sum(vision.rejected.values()) < 12 and vision.rejected == edf.rejected
     assert np.array_equal(vision.data, edf.data) and np.array_equal(vision.labels, edf.labels)
     assert vision.sample_rate_hz == edf.sample_rate_hz and vision.epoch_start_s == edf.epoch_start_s
     # and those values are the written samples to within half a step (0.125 µV), plus as much in the removed mean
-    first = _read(tmp_path / "brainvision").data[0]
+    first = _read(tmp_path / "vhdr").data[0]
     start = int(round(1.0 * FS)) - 50
     window = data[:4, start : start + 201]
     np.testing.assert_allclose(first, window - window.mean(axis=1, keepdims=True), rtol=0, atol=0.25e-6)
 
 
-@pytest.mark.parametrize("fmt", ["edf", "brainvision"])
+@pytest.mark.parametrize("fmt", ["edf", "vhdr"])
 def test_non_eeg_and_bad_channels_are_left_out_by_one_rule(tmp_path, fmt):
     stem = _write(tmp_path, fmt)
     _set_channels(stem, types=NON_EEG, status={"Oz": "bad"})
@@ -100,7 +100,7 @@ def test_non_eeg_and_bad_channels_are_left_out_by_one_rule(tmp_path, fmt):
 
 def test_header_units_give_volts(tmp_path):
     data = _recording()[:4]
-    stem = _write(tmp_path, "brainvision", data=np.vstack([data, _recording()[4:]]))
+    stem = _write(tmp_path, "vhdr", data=np.vstack([data, _recording()[4:]]))
     _set_channels(stem, types=NON_EEG, units={name: "n/a" for name in CHANNELS})
     # Source: pybv.write_brainvision (general-purpose writer) storing each channel in its own unit.
     with pytest.warns(UserWarning):
@@ -132,7 +132,7 @@ def test_header_units_give_volts(tmp_path):
 
 
 def test_missing_or_short_data_file_is_one_error_naming_it(tmp_path):
-    stem = _write(tmp_path, "brainvision")
+    stem = _write(tmp_path, "vhdr")
     data_file = stem.with_name(stem.name + "eeg.eeg")
     data_file.write_bytes(data_file.read_bytes()[:-2])
     with pytest.raises(
@@ -159,13 +159,13 @@ def test_a_format_not_read_is_named_with_what_to_do(tmp_path):
         UserError,
         match=r"subject 01: no EEG recording .* in .*eeg; found sub-01_task-view_eeg.set, in a "
         r"format famwise does not read: convert it with a general-purpose converter "
-        r"to EDF or BrainVision$",
+        r"to EDF or .vhdr$",
     ):
         _read(tmp_path)
 
 
 def test_one_recording_in_two_formats_is_an_error(tmp_path):
-    _write(tmp_path, "brainvision")
+    _write(tmp_path, "vhdr")
     _write(tmp_path, "edf")
     with pytest.raises(
         UserError,
@@ -176,7 +176,7 @@ def test_one_recording_in_two_formats_is_an_error(tmp_path):
 
 
 def test_marker_count_disagreeing_with_events_is_warned_naming_both_files(tmp_path):
-    stem = _write(tmp_path, "brainvision")
+    stem = _write(tmp_path, "vhdr")
     assert bids_notes.marker_warnings(tmp_path, ["01"], "view") == []
     markers = stem.with_name(stem.name + "eeg.vmrk")
     lines = markers.read_text(encoding="utf-8").splitlines()

@@ -1,4 +1,4 @@
-"""A study whose BIDS folder holds BrainVision recordings: init, check, a real run, errors, and the demo in both formats."""
+"""A study whose BIDS folder holds `.vhdr` recordings: init, check, a real run, errors, and the demo in both formats."""
 
 import json
 import subprocess
@@ -15,7 +15,7 @@ FS = 100.0
 CHANNELS = ["Fz", "FC1", "FC2", "Cz", "C3", "C4", "Pz", "Oz", "HEOG"]
 SPEC = """\
 version: 1
-name: tiny BrainVision study
+name: tiny vhdr study
 seed: 3
 subjects: {source: bids, path: data, task: mem, min_epochs: 5}
 conditions: {high: [high], low: [low]}
@@ -65,7 +65,7 @@ def _write_study(folder, n_subjects=5):
             channels=CHANNELS,
             task="mem",
             events=[(float(t), 0.0, lab) for t, lab in zip(onsets, labels)],
-            fmt="brainvision",
+            fmt="vhdr",
         )
         channels = folder / "data" / f"sub-{subject}" / "eeg" / f"sub-{subject}_task-mem_channels.tsv"
         channels.write_text(channels.read_text().replace("HEOG\tEEG", "HEOG\tEOG"))
@@ -76,11 +76,11 @@ def _write_study(folder, n_subjects=5):
 
 
 @pytest.mark.workflow
-def test_init_check_and_run_a_brainvision_study(tmp_path):
+def test_init_check_and_run_a_vhdr_study(tmp_path):
     spec = _write_study(tmp_path)
     assert main(["init", str(tmp_path / "data"), "--out", str(tmp_path / "starter.yaml")]) == 0
     starter = (tmp_path / "starter.yaml").read_text()
-    assert "# recordings found: 5 BrainVision (.vhdr)" in starter and "task: mem" in starter
+    assert "# recordings found: 5 vhdr/vmrk/eeg (.vhdr)" in starter and "task: mem" in starter
     assert 'high: ["high"]      # 60 epochs over all subjects' in starter
 
     vmrk = tmp_path / "data" / "sub-02" / "eeg" / "sub-02_task-mem_eeg.vmrk"
@@ -125,14 +125,14 @@ def test_init_names_what_to_do_with_a_format_it_does_not_read(tmp_path):
     (folder / "sub-01_task-mem_eeg.set").write_bytes(b"\0")
     result = _famwise("init", tmp_path / "data")
     assert result.returncode == 2
-    assert "convert the recordings with a general-purpose converter to EDF or BrainVision" in result.stderr
+    assert "convert the recordings with a general-purpose converter to EDF or .vhdr" in result.stderr
 
 
 @pytest.mark.workflow
-def test_the_example_study_gives_identical_maps_as_edf_and_as_brainvision(tmp_path):
+def test_the_example_study_gives_identical_maps_as_edf_and_as_vhdr(tmp_path):
     """The demo written twice from the same integer samples (steps of 2^-4 µV): the maps agree bit for bit."""
     maps = {}
-    for fmt in ("edf", "brainvision"):
+    for fmt in ("edf", "vhdr"):
         spec = write_demo(tmp_path / fmt, fmt=fmt, resolution_uv=2.0**-4)
         assert main(["run", str(spec), "--cores", "2", "--", "tf/sub-01.npz", "tf/sub-03.npz"]) == 0
         maps[fmt] = {}
@@ -140,15 +140,15 @@ def test_the_example_study_gives_identical_maps_as_edf_and_as_brainvision(tmp_pa
             with np.load(tmp_path / fmt / "results" / "tf" / f"sub-{subject}.npz") as archive:
                 maps[fmt][subject] = {key: archive[key] for key in archive.files}
             maps[fmt][subject]["info"] = (tmp_path / fmt / "results" / "tf" / f"sub-{subject}.json").read_text()
-    assert sorted(p.suffix for p in (tmp_path / "brainvision" / "data" / "sub-01" / "eeg").glob("*_eeg.*")) == [
+    assert sorted(p.suffix for p in (tmp_path / "vhdr" / "data" / "sub-01" / "eeg").glob("*_eeg.*")) == [
         ".eeg",
         ".json",
         ".vhdr",
         ".vmrk",
     ]
     for subject in ("01", "03"):
-        edf, vision = maps["edf"][subject], maps["brainvision"][subject]
+        edf, vision = maps["edf"][subject], maps["vhdr"][subject]
         assert edf.keys() == vision.keys()
         for key in edf:
             assert np.array_equal(edf[key], vision[key]), (subject, key)
-    assert json.loads(maps["brainvision"]["03"]["info"])["rejected"] == {"high-load": 2, "low-load": 2}
+    assert json.loads(maps["vhdr"]["03"]["info"])["rejected"] == {"high-load": 2, "low-load": 2}
