@@ -7,20 +7,18 @@ same kernel (`famwise.kernels.components`).
 
 import numpy as np
 
-from famwise.kernels._jit import thread_count
 from famwise.kernels.components import _cluster_max_block
 from famwise.nulls.collectors.kernel_inputs import (
     DIMS,
     check_cluster_settings,
     check_dims,
     check_graph,
-    statistic_block,
     tail_code,
 )
-from famwise.nulls.screen import infinite_rows
+from famwise.nulls.collectors.row_maximum import RowMaximumCollector
 
 
-class ClusterCollector:
+class ClusterCollector(RowMaximumCollector):
     """Null collector: the largest cluster statistic of every table row.
 
     Parameters
@@ -60,6 +58,7 @@ class ClusterCollector:
         tail="two-sided",
         key="cluster",
     ):
+        super().__init__()
         check_cluster_settings(threshold, cluster_stat, min_supra_neighbors)
         self._shape, self._indptr, self._indices = check_graph(shape, indptr, indices)
         self._links = check_dims(dims)
@@ -68,40 +67,26 @@ class ClusterCollector:
         self._use_mass = cluster_stat == "mass"
         self._min_neighbors = int(min_supra_neighbors)
         self._key = key
-        self._parts = []
-        self._workspace = None
 
-    def update(self, stats):
-        """Take the statistic maps (n_rows_in_block, n_points), float32 or float64, of consecutive table rows."""
-        stats, infinite = infinite_rows(statistic_block(stats, self._shape))
-        n_pts = stats.shape[1]
-        out = np.empty(stats.shape[0])
-        if stats.shape[0]:
-            n_chunks = min(stats.shape[0], thread_count())
-            if self._workspace is None or len(self._workspace[0]) < n_chunks:  # reused by every block
-                self._workspace = (
-                    np.empty((n_chunks, 2, n_pts), np.int8),
-                    np.empty((n_chunks, 2, n_pts), np.int32),
-                    np.empty((n_chunks, n_pts), np.float64),
-                )
-            _cluster_max_block(
-                stats,
-                self._threshold,
-                self._tail_code,
-                *self._shape,
-                self._indptr,
-                self._indices,
-                *self._links,
-                self._use_mass,
-                self._min_neighbors,
-                n_chunks,
-                *self._workspace,
-                out,
-            )
-            if infinite is not None:  # a point degenerate only after permutation: more extreme than any observed value
-                out[infinite] = np.inf
-        self._parts.append(out)
+    def _new_workspace(self, n_chunks, n_points):
+        return (
+            np.empty((n_chunks, 2, n_points), np.int8),
+            np.empty((n_chunks, 2, n_points), np.int32),
+            np.empty((n_chunks, n_points), np.float64),
+        )
 
-    def arrays(self):
-        """``{"<key>.max": float64 (n_rows,)}``."""
-        return {f"{self._key}.max": np.concatenate(self._parts) if self._parts else np.empty(0)}
+    def _run_kernel(self, stats, n_chunks, workspace, out):
+        _cluster_max_block(
+            stats,
+            self._threshold,
+            self._tail_code,
+            *self._shape,
+            self._indptr,
+            self._indices,
+            *self._links,
+            self._use_mass,
+            self._min_neighbors,
+            n_chunks,
+            *workspace,
+            out,
+        )
