@@ -105,6 +105,18 @@ class Plan:
 
     def covariate(self, name: str) -> dict[str, float]:
         """Values of one covariate for the analysed subjects."""
+        given, where = self.covariate_values(name)
+        values = {}
+        for subject in self.subjects:
+            raw = given.get(subject)
+            try:
+                values[subject] = float(raw)
+            except (TypeError, ValueError):
+                raise UserError(f"{where}: subject {subject} has no numeric value (found {raw!r})") from None
+        return values
+
+    def covariate_values(self, name: str) -> tuple[dict, str]:
+        """Raw values of one covariate (subject -> number or text) and where they come from."""
         given = (self.study.subjects.covariates or {}).get(name)
         where = f"{self.loaded.path.name} subjects.covariates.{name}"
         if given is None:
@@ -118,14 +130,23 @@ class Plan:
                 if name not in row:
                     raise UserError(f"{where}: no such column (columns: {', '.join(row)})")
                 given[subject] = row[name]
-        values = {}
-        for subject in self.subjects:
-            raw = given.get(subject)
-            try:
-                values[subject] = float(raw)
-            except (TypeError, ValueError):
-                raise UserError(f"{where}: subject {subject} has no numeric value (found {raw!r})") from None
-        return values
+        return given, where
+
+    def regression_design(self, name: str):
+        """The coded design (`famwise.stats.coding.CodedDesign`) of a regression contrast; UserError on bad values."""
+        from famwise.stats.coding import code_design
+
+        contrast = self.contrast(name)
+        index = self.study.contrasts.index(contrast)
+        names = [contrast.covariate, *(contrast.nuisance or [])]
+        values = {n: self.covariate_values(n)[0] for n in names}
+        return code_design(
+            values,
+            list(self.subjects),
+            tested=contrast.covariate,
+            nuisance=list(contrast.nuisance or []),
+            where=f"{self.loaded.path.name} contrasts[{index}]",
+        )
 
     def input_files(self, subject: str) -> list[str]:
         """Absolute input files of one subject's first stage."""
@@ -160,6 +181,8 @@ class Plan:
                         )
             if contrast.test == "correlation":
                 self.covariate(contrast.covariate)
+            if contrast.test == "regression":
+                self.regression_design(contrast.name)
         if self.study.inference.family == "all-contrasts":
             self._check_shared_table()
 
@@ -171,6 +194,7 @@ class Plan:
             "two-sample": "label",
             "repeated-measures": "within-subject",
             "correlation": "covariate",
+            "regression": "freedman-lane",
         }
         first = None
         for contrast in self.study.contrasts:
@@ -279,6 +303,15 @@ class Plan:
         if contrast.test == "correlation":
             values = self.covariate(contrast.covariate)
             covariate = [values[sub] for sub in subjects]
+        regression = {}
+        if contrast.test == "regression":
+            coded = self.regression_design(name)
+            covariate = coded.covariate
+            regression = {
+                "nuisance": coded.nuisance,
+                "nuisance_columns": coded.nuisance_columns,
+                "design_terms": coded.terms,
+            }
         return from_plain(
             ContrastSettings,
             {
@@ -289,6 +322,7 @@ class Plan:
                 "analysis": self.study.analysis.model_dump(mode="json"),
                 "groups": groups,
                 "covariate": covariate,
+                **regression,
             },
         )
 
@@ -368,7 +402,7 @@ class Plan:
                 "test": contrast.test,
                 "conditions": contrast.conditions,
                 "group_names": contrast.groups if contrast.test == "two-sample" else None,
-                "covariate_name": contrast.covariate if contrast.test == "correlation" else None,
+                "covariate_name": contrast.covariate if contrast.test in ("correlation", "regression") else None,
                 "regions": regions,
             },
         )

@@ -177,7 +177,9 @@ def value_columns(
     if grouped:
         described["group"] = {"Description": "The subject's group."}
     if covariate:
-        described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
+        described["covariate"] = {
+            "Description": f"The subject's {covariate} (the correlation's or regression's tested covariate)."
+        }
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over {over}."}
     if test != "repeated-measures":
