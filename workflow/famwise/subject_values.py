@@ -183,7 +183,8 @@ def value_columns(
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over {over}."}
     if test != "repeated-measures":
-        what = f"{conditions[0]} minus {conditions[1]}" if test == "paired" else conditions[0]
+        two = test in ("paired", "regression") and len(conditions) == 2
+        what = f"{conditions[0]} minus {conditions[1]}" if two else conditions[0]
         described["contrast"] = {"Description": f"Mean over {over} of the value the test used ({what}; {measure})."}
     return described
 
