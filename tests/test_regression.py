@@ -5,10 +5,13 @@ import pytest
 import statsmodels.api as sm
 
 from famwise.errors import UserError
+from famwise.kernels.regression_t import SUBJECTS_PER_PASS, VECTORS_PER_PASS, _freedman_lane_t
 from famwise.naive.regression import freedman_lane_null
 from famwise.nulls.collectors.maxima import MaxStatCollector
 from famwise.nulls.engine import iter_null_blocks, run_shards
+from famwise.nulls.shard import make_collectors
 from famwise.nulls.tables import make_table, smallest_attainable_p
+from famwise.settings import ClusterNullSettings, ExceedanceNullSettings, StepDownNullSettings, TFCENullSettings
 from famwise.stats import compute
 from famwise.stats.coding import code_design
 
@@ -136,3 +139,48 @@ def test_missing_values_and_collinear_covariates_are_named():
     values["site"] = dict.fromkeys(subjects, "A")
     with pytest.raises(UserError, match="'site' is 'A' for every analysed subject"):
         code_design(values, subjects, tested="age", nuisance=["site"], where="s.yaml contrasts[0]")
+
+
+def test_kernel_sums_each_row_in_subject_order_whatever_the_padding():
+    # The kernel's claim: every weighted sum is the plain left-to-right sum over subjects (common practice, no source).
+    rng = np.random.default_rng(5)
+    for n, b, k in ((24, 9, 3), (11, 2, 1), (5, 3, 2)):
+        e = rng.standard_normal((n, 700))
+        ss = (e**2).sum(axis=0) + 10.0
+        w = rng.standard_normal((b, k, n)) / (2 * n)
+        sums = np.zeros((b, k, 700))
+        for i in range(n):  # numpy elementwise float64: each term added in subject order
+            sums = sums + w[:, :, i, None] * e[i]
+        expected = (sums[:, 0] * np.sqrt(7.0) / np.sqrt(np.maximum(ss - (sums**2).sum(axis=1), 0.0))).astype(np.float32)
+        assert np.isfinite(expected).all()
+        n_pad, v_pad = -(-n // SUBJECTS_PER_PASS) * SUBJECTS_PER_PASS, -(-b * k // VECTORS_PER_PASS) * VECTORS_PER_PASS
+        weights, residuals = np.zeros((v_pad, n_pad)), np.zeros((n_pad, 700))
+        weights[: b * k, :n], residuals[:n] = w.reshape(b * k, n), e
+        out = np.empty((b, 700), dtype=np.float32)
+        _freedman_lane_t(weights, residuals, ss, 7.0, k, out)
+        assert np.array_equal(out, expected)
+
+
+def test_every_collector_is_bit_identical_across_shards(study):
+    x, age, nuisance = study
+    x = x[:, :40]
+    table = make_table("regression", n_subjects=x.shape[0], permutations=49, seed=4)
+    observed = {"stat": compute(x, test="regression", covariate=age, nuisance=nuisance).stat, "tail": "two-sided"}
+    observed["forming_threshold.cluster"] = np.array(2.0)
+    specs = (
+        ExceedanceNullSettings(key="exceed"),
+        StepDownNullSettings(key="step"),
+        ClusterNullSettings(key="cluster", cluster_stat="mass", dims=("freq", "time"), min_supra_neighbors=0),
+        TFCENullSettings(key="tfce", E=0.5, H=2.0, step=None, dims=("freq", "time")),
+    )
+    graph = (np.zeros(2, dtype=np.int32), np.zeros(0, dtype=np.int32))
+
+    def collectors():
+        return make_collectors(specs, observed=observed, shape=(1, 5, 8), graph=graph)
+
+    options = {"test": "regression", "covariate": age, "nuisance": nuisance}
+    one = run_shards(x, table, n_shards=1, make_collectors=collectors, **options)
+    three = run_shards(x, table, n_shards=3, make_collectors=collectors, block_size=5, **options)
+    assert one.keys() == three.keys() and len(one) >= 5
+    for key in one:
+        assert np.array_equal(one[key], three[key]), key

@@ -29,7 +29,7 @@ inference for the general linear model. NeuroImage 92:381-397.
 
 import numpy as np
 
-from famwise.kernels.regression_t import _freedman_lane_t
+from famwise.kernels.regression_t import SUBJECTS_PER_PASS, VECTORS_PER_PASS, _freedman_lane_t
 from famwise.kernels.resampled_stats import _weighted_sums
 from famwise.stats.regression import design_matrix
 
@@ -86,13 +86,19 @@ def freedman_lane_block(x: np.ndarray, covariate: np.ndarray, nuisance: np.ndarr
         squares += row * row
     ss = squares - total * total / n  # the intercept's share is the same in every permutation
     vectors = np.column_stack([tested, reduced[:, 1:]])  # (n, K): tested direction, nuisance basis
+    n_vectors = vectors.shape[1]
+    n_padded = -(-n // SUBJECTS_PER_PASS) * SUBJECTS_PER_PASS
+    padded = np.zeros((n_padded, n_points))
+    padded[:n] = residuals
 
     def block(rows, out=None):
         if out is None:
             out = np.empty((rows.shape[0], n_points), dtype=np.float32)
         inverse = np.argsort(rows, axis=1)  # subject j's residual goes to subject inverse[j]
-        weights = np.ascontiguousarray(np.transpose(vectors[inverse], (0, 2, 1)))  # (b, K, n)
-        _freedman_lane_t(weights, residuals, ss, df, out)
+        n_weights = -(-rows.shape[0] * n_vectors // VECTORS_PER_PASS) * VECTORS_PER_PASS
+        weights = np.zeros((n_weights, n_padded))
+        weights[: rows.shape[0] * n_vectors, :n] = np.transpose(vectors[inverse], (0, 2, 1)).reshape(-1, n)
+        _freedman_lane_t(weights, padded, ss, df, n_vectors, out)
         return out
 
     return block
