@@ -88,3 +88,27 @@ def test_regression_runs_end_to_end(tmp_path):
     assert "Freedman & Lane (1983; Winkler et al. 2014)" in methods
     assert "sex (categorical, indicator columns for M; reference level F)" in methods
     assert "Winkler AM, Ridgway GR" in methods
+
+
+def test_init_offers_a_regression_on_numeric_participant_columns(tmp_path):
+    from test_preflight_bids import write_bids_study
+
+    from famwise import bids_writing
+
+    write_bids_study(tmp_path, 6)
+    (tmp_path / "study.yaml").unlink()
+    rows = [
+        {"participant_id": f"{i:02d}", "age": str(a), "sex": s, "handedness": "right"}
+        for i, (a, s) in enumerate(zip(AGES, SEXES), start=1)
+        if i <= 6
+    ]
+    bids_writing.write_participants(tmp_path / "data", rows)
+    assert main(["init", str(tmp_path / "data"), "--out", str(tmp_path / "study.yaml")]) == 0
+    text = (tmp_path / "study.yaml").read_text()
+    assert "participants.tsv has numeric columns (age)" in text
+    offered = text.replace("  # - name", "  - name").replace("  #   ", "    ")  # uncomment the offer
+    (tmp_path / "study.yaml").write_text(offered)
+    plan = Plan.from_spec(tmp_path / "study.yaml")  # covariates read from participants.tsv
+    settings = plan.contrast_settings("age-effect")
+    assert settings.covariate == tuple(float(a) for a in AGES[:6])
+    assert settings.nuisance_columns == ("sex=M",)  # handedness is the same for everyone: not offered

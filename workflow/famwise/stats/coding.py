@@ -114,7 +114,7 @@ def _code_one(name: str, given: dict[str, object], subjects: list[str], where: s
         if isinstance(value, float) and not np.isfinite(value):
             raise UserError(f"{where}: subject {subject} has no value of covariate '{name}' (found {value!r})")
         raw.append(value.strip() if isinstance(value, str) else value)
-    numbers = [_number(v) for v in raw]
+    numbers = [as_number(v) for v in raw]
     if all(v is not None for v in numbers):
         return np.array(numbers, dtype=np.float64)[:, None], [name], f"{name} (numeric)"
     labels = [str(v) for v in raw]
@@ -128,7 +128,7 @@ def _code_one(name: str, given: dict[str, object], subjects: list[str], where: s
     return coded, [f"{name}={level}" for level in levels[1:]], phrase
 
 
-def _number(value) -> float | None:
+def as_number(value) -> float | None:
     if isinstance(value, bool):
         return None
     if isinstance(value, (int, float)):
