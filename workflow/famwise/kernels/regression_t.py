@@ -3,8 +3,8 @@
 Called by `famwise.nulls.freedman_lane`, which prepares the weight vectors
 (each row's orthonormal vectors with their subjects permuted) and the
 reduced model's residuals. Each weighted sum over subjects runs in subject
-order, a = (((0 + w_0 e_0) + w_1 e_1) + ...): written eight subjects per
-pass (``a + w_0 e_0 + ... + w_7 e_7`` adds left to right, the same order)
+order, a = (((0 + w_0 e_0) + w_1 e_1) + ...): written four subjects per
+pass (``a + w_0 e_0 + ... + w_3 e_3`` adds left to right, the same order)
 and four vectors per pass (they share the loads of the residuals); padding
 subjects have weight 0 and residual 0 and add an exact 0. So every row's
 value is the same whatever the block, the vectors beside it, the chunk or
@@ -16,73 +16,47 @@ import numpy as np
 from famwise.kernels._jit import jit_inline, jit_parallel, prange
 
 _CHUNK = 256  # points per parallel chunk: four vectors' sums stay in L1, the chunk of residuals in L2
-SUBJECTS_PER_PASS = 8
+SUBJECTS_PER_PASS = 4
 VECTORS_PER_PASS = 4
 
 
 @jit_inline
-def _four_by_eight(acc, v, w, residuals, i, p0, p1):
-    """acc[v + j] += sum over subjects i..i+7 of w[v + j, s] residuals[s, p0:p1], left to right, j < 4."""
-    e0, e1, e2, e3 = residuals[i, p0:p1], residuals[i + 1, p0:p1], residuals[i + 2, p0:p1], residuals[i + 3, p0:p1]
-    e4, e5 = residuals[i + 4, p0:p1], residuals[i + 5, p0:p1]
-    e6, e7 = residuals[i + 6, p0:p1], residuals[i + 7, p0:p1]
+def _four_by_four(acc, v, w, residuals, i, p0, p1):
+    """acc[v + j] += sum over subjects i..i+3 of w[v + j, s] residuals[s, p0:p1], left to right, j < 4.
+
+    For i = 0 the sums are written, not added: 0 + w_0 e_0 equals w_0 e_0.
+    """
+    e0, e1 = residuals[i, p0:p1], residuals[i + 1, p0:p1]
+    e2, e3 = residuals[i + 2, p0:p1], residuals[i + 3, p0:p1]
     a0, a1, a2, a3 = acc[v], acc[v + 1], acc[v + 2], acc[v + 3]
-    s0, s1, s2, s3, s4, s5, s6, s7 = (
-        w[v, i],
-        w[v, i + 1],
-        w[v, i + 2],
-        w[v, i + 3],
-        w[v, i + 4],
-        w[v, i + 5],
-        w[v, i + 6],
-        w[v, i + 7],
-    )
-    t0, t1, t2, t3, t4, t5, t6, t7 = (
-        w[v + 1, i],
-        w[v + 1, i + 1],
-        w[v + 1, i + 2],
-        w[v + 1, i + 3],
-        w[v + 1, i + 4],
-        w[v + 1, i + 5],
-        w[v + 1, i + 6],
-        w[v + 1, i + 7],
-    )
-    u0, u1, u2, u3, u4, u5, u6, u7 = (
-        w[v + 2, i],
-        w[v + 2, i + 1],
-        w[v + 2, i + 2],
-        w[v + 2, i + 3],
-        w[v + 2, i + 4],
-        w[v + 2, i + 5],
-        w[v + 2, i + 6],
-        w[v + 2, i + 7],
-    )
-    r0, r1, r2, r3, r4, r5, r6, r7 = (
-        w[v + 3, i],
-        w[v + 3, i + 1],
-        w[v + 3, i + 2],
-        w[v + 3, i + 3],
-        w[v + 3, i + 4],
-        w[v + 3, i + 5],
-        w[v + 3, i + 6],
-        w[v + 3, i + 7],
-    )
+    s0, s1, s2, s3 = w[v, i], w[v, i + 1], w[v, i + 2], w[v, i + 3]
+    t0, t1, t2, t3 = w[v + 1, i], w[v + 1, i + 1], w[v + 1, i + 2], w[v + 1, i + 3]
+    u0, u1, u2, u3 = w[v + 2, i], w[v + 2, i + 1], w[v + 2, i + 2], w[v + 2, i + 3]
+    r0, r1, r2, r3 = w[v + 3, i], w[v + 3, i + 1], w[v + 3, i + 2], w[v + 3, i + 3]
+    if i == 0:
+        for q in range(a0.shape[0]):
+            x0, x1, x2, x3 = e0[q], e1[q], e2[q], e3[q]
+            a0[q] = s0 * x0 + s1 * x1 + s2 * x2 + s3 * x3
+            a1[q] = t0 * x0 + t1 * x1 + t2 * x2 + t3 * x3
+            a2[q] = u0 * x0 + u1 * x1 + u2 * x2 + u3 * x3
+            a3[q] = r0 * x0 + r1 * x1 + r2 * x2 + r3 * x3
+        return
     for q in range(a0.shape[0]):
-        x0, x1, x2, x3, x4, x5, x6, x7 = e0[q], e1[q], e2[q], e3[q], e4[q], e5[q], e6[q], e7[q]
-        a0[q] = a0[q] + s0 * x0 + s1 * x1 + s2 * x2 + s3 * x3 + s4 * x4 + s5 * x5 + s6 * x6 + s7 * x7
-        a1[q] = a1[q] + t0 * x0 + t1 * x1 + t2 * x2 + t3 * x3 + t4 * x4 + t5 * x5 + t6 * x6 + t7 * x7
-        a2[q] = a2[q] + u0 * x0 + u1 * x1 + u2 * x2 + u3 * x3 + u4 * x4 + u5 * x5 + u6 * x6 + u7 * x7
-        a3[q] = a3[q] + r0 * x0 + r1 * x1 + r2 * x2 + r3 * x3 + r4 * x4 + r5 * x5 + r6 * x6 + r7 * x7
+        x0, x1, x2, x3 = e0[q], e1[q], e2[q], e3[q]
+        a0[q] = a0[q] + s0 * x0 + s1 * x1 + s2 * x2 + s3 * x3
+        a1[q] = a1[q] + t0 * x0 + t1 * x1 + t2 * x2 + t3 * x3
+        a2[q] = a2[q] + u0 * x0 + u1 * x1 + u2 * x2 + u3 * x3
+        a3[q] = a3[q] + r0 * x0 + r1 * x1 + r2 * x2 + r3 * x3
 
 
 @jit_parallel
 def _freedman_lane_t(weights, residuals, ss, df, n_vectors, out):
     """out[r, p] = a_0 sqrt(df) / sqrt(ss[p] - sum_k a_k^2), a_k = sum_i weights[r K + k, i] residuals[i, p].
 
-    ``weights`` (V, n8) float64: row r's K = ``n_vectors`` orthonormal vectors
+    ``weights`` (V, n4) float64: row r's K = ``n_vectors`` orthonormal vectors
     (the tested direction first, then the nuisance basis) with their subjects
-    permuted, at rows r K .. r K + K - 1; V a multiple of 4 and n8 of 8, the
-    padding 0. ``residuals`` (n8, P) float64, padding rows 0; ``ss`` (P,) the
+    permuted, at rows r K .. r K + K - 1; V and n4 multiples of 4, the
+    padding 0. ``residuals`` (n4, P) float64, padding rows 0; ``ss`` (P,) the
     reduced model's residual sum of squares; ``out`` (b, P) float32. A
     residual sum of squares rounded below 0 counts as 0. Parallel over
     chunks of points.
@@ -94,10 +68,10 @@ def _freedman_lane_t(weights, residuals, ss, df, n_vectors, out):
     for c in prange(n_chunks):
         p0 = c * _CHUNK
         p1 = min(n_points, p0 + _CHUNK)
-        acc = np.zeros((weights.shape[0], p1 - p0))
+        acc = np.empty((weights.shape[0], p1 - p0))
         for v in range(0, weights.shape[0], VECTORS_PER_PASS):
             for i in range(0, n_padded, SUBJECTS_PER_PASS):
-                _four_by_eight(acc, v, weights, residuals, i, p0, p1)
+                _four_by_four(acc, v, weights, residuals, i, p0, p1)
         for r in range(out.shape[0]):
             for q in range(p1 - p0):
                 rss = ss[p0 + q]
