@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import bids, layout
+from famwise import bids, covariates, layout
 from famwise.errors import UserError
 from famwise.io import discover_pattern, subject_file
 from famwise.settings import (
@@ -104,49 +104,12 @@ class Plan:
         return {s: given[s] for s in self.subjects if s in given}
 
     def covariate(self, name: str) -> dict[str, float]:
-        """Values of one covariate for the analysed subjects."""
-        given, where = self.covariate_values(name)
-        values = {}
-        for subject in self.subjects:
-            raw = given.get(subject)
-            try:
-                values[subject] = float(raw)
-            except (TypeError, ValueError):
-                raise UserError(f"{where}: subject {subject} has no numeric value (found {raw!r})") from None
-        return values
-
-    def covariate_values(self, name: str) -> tuple[dict, str]:
-        """Raw values of one covariate (subject -> number or text) and where they come from."""
-        given = (self.study.subjects.covariates or {}).get(name)
-        where = f"{self.loaded.path.name} subjects.covariates.{name}"
-        if given is None:
-            if not self.participants:
-                raise UserError(
-                    f"{where}: covariate '{name}' has no values (give subjects.covariates or a participants.tsv column)"
-                )
-            where = f"participants.tsv column '{name}'"
-            given = {}
-            for subject, row in self.participants.items():
-                if name not in row:
-                    raise UserError(f"{where}: no such column (columns: {', '.join(row)})")
-                given[subject] = row[name]
-        return given, where
+        """Values of one numeric covariate for the analysed subjects (`famwise.covariates`)."""
+        return covariates.numeric_values(self, name)
 
     def regression_design(self, name: str):
         """The coded design (`famwise.stats.coding.CodedDesign`) of a regression contrast; UserError on bad values."""
-        from famwise.stats.coding import code_design
-
-        contrast = self.contrast(name)
-        index = self.study.contrasts.index(contrast)
-        names = [contrast.covariate, *(contrast.nuisance or [])]
-        values = {n: self.covariate_values(n)[0] for n in names}
-        return code_design(
-            values,
-            list(self.subjects),
-            tested=contrast.covariate,
-            nuisance=list(contrast.nuisance or []),
-            where=f"{self.loaded.path.name} contrasts[{index}]",
-        )
+        return covariates.regression_design(self, name)
 
     def input_files(self, subject: str) -> list[str]:
         """Absolute input files of one subject's first stage."""
