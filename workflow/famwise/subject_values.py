@@ -177,9 +177,8 @@ def value_columns(
     if grouped:
         described["group"] = {"Description": "The subject's group."}
     if covariate:
-        described["covariate"] = {
-            "Description": f"The subject's {covariate} (the correlation's or regression's tested covariate)."
-        }
+        role = "the correlation's covariate" if test == "correlation" else "the regression's tested covariate"
+        described["covariate"] = {"Description": f"The subject's {covariate} ({role})."}
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over {over}."}
     if test != "repeated-measures":
