@@ -34,7 +34,12 @@ class ContrastData:
     groups : ndarray of int (n_subjects,) or None
         0 for the first group, 1 for the second (two-sample).
     covariate : ndarray of float (n_subjects,) or None
-        Per-subject covariate (correlation).
+        Per-subject covariate (correlation; regression: the tested covariate, coded).
+    nuisance : ndarray of float64 (n_subjects, q) or None
+        Regression: each subject's coded nuisance columns (q may be 0).
+    nuisance_columns, design_terms : tuple of str
+        Regression: the nuisance columns' names and how each covariate was
+        coded (`famwise.stats.coding.CodedDesign`).
     """
 
     x: np.ndarray
@@ -45,6 +50,9 @@ class ContrastData:
     times: np.ndarray
     groups: np.ndarray | None = None
     covariate: np.ndarray | None = None
+    nuisance: np.ndarray | None = None
+    nuisance_columns: tuple[str, ...] = ()
+    design_terms: tuple[str, ...] = ()
 
     @property
     def shape(self) -> tuple[int, int, int]:
@@ -58,6 +66,10 @@ class ContrastData:
             extra["groups"] = self.groups
         if self.covariate is not None:
             extra["covariate"] = self.covariate
+        if self.nuisance is not None:
+            extra["nuisance"] = self.nuisance
+            extra["nuisance_columns"] = np.array(self.nuisance_columns, dtype=str)
+            extra["design_terms"] = np.array(self.design_terms, dtype=str)
         save_npz(
             path,
             x=self.x,
@@ -82,7 +94,14 @@ def load_contrast(path: Path) -> ContrastData:
             times=archive["times"],
             groups=archive["groups"] if "groups" in archive.files else None,
             covariate=archive["covariate"] if "covariate" in archive.files else None,
+            nuisance=archive["nuisance"] if "nuisance" in archive.files else None,
+            nuisance_columns=_strings(archive, "nuisance_columns"),
+            design_terms=_strings(archive, "design_terms"),
         )
+
+
+def _strings(archive, key: str) -> tuple[str, ...]:
+    return tuple(str(s) for s in archive[key]) if key in archive.files else ()
 
 
 def build_contrast(
@@ -120,7 +139,7 @@ def build_contrast(
 
     stacks = [np.stack([condition_values(tf, s, c) for c in settings.conditions]) for tf, s in zip(maps, subjects)]
     data = np.stack(stacks).astype(np.float64)  # (n, k, P)
-    if test == "paired":
+    if test == "paired" or (test == "regression" and data.shape[1] == 2):
         x = data[:, 0] - data[:, 1]
     elif test == "repeated-measures":
         x = data
@@ -135,7 +154,20 @@ def build_contrast(
         times=first.times[time_index],
         groups=None if settings.groups is None else np.asarray(settings.groups, dtype=np.int64),
         covariate=None if settings.covariate is None else np.asarray(settings.covariate, dtype=np.float64),
+        **_regression_design(settings),
     )
+
+
+def _regression_design(settings: ContrastSettings) -> dict:
+    """The nuisance columns of a regression contrast (empty for other tests)."""
+    if settings.test != "regression":
+        return {}
+    n = len(settings.subjects)
+    return {
+        "nuisance": np.asarray(settings.nuisance or (), dtype=np.float64).reshape(n, -1),
+        "nuisance_columns": tuple(settings.nuisance_columns or ()),
+        "design_terms": tuple(settings.design_terms or ()),
+    }
 
 
 def _check_rates(rates: list[float | None], subjects: list[str]) -> None:

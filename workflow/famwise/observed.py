@@ -66,6 +66,7 @@ def observed_arrays(
             test=data.test,
             groups=data.groups,
             covariate=data.covariate,
+            nuisance=data.nuisance,
             tail=settings.tail,
             **statistic,
         )
@@ -101,6 +102,8 @@ def observed_arrays(
         "n": result.n,
         "tail": result.effective_tail,
     }
+    if data.test == "regression":  # the model in words, for the report
+        arrays["design_terms"] = np.array(data.design_terms, dtype=str)
     for forming in settings.forming:
         arrays[FORMING_KEY.format(label=forming.label)] = np.array(
             forming_threshold(forming, test=data.test, df=arrays["df"], tail=result.effective_tail)

@@ -13,7 +13,7 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise import bids, layout
+from famwise import bids, covariates, layout
 from famwise.errors import UserError
 from famwise.io import discover_pattern, subject_file
 from famwise.settings import (
@@ -104,28 +104,12 @@ class Plan:
         return {s: given[s] for s in self.subjects if s in given}
 
     def covariate(self, name: str) -> dict[str, float]:
-        """Values of one covariate for the analysed subjects."""
-        given = (self.study.subjects.covariates or {}).get(name)
-        where = f"{self.loaded.path.name} subjects.covariates.{name}"
-        if given is None:
-            if not self.participants:
-                raise UserError(
-                    f"{where}: covariate '{name}' has no values (give subjects.covariates or a participants.tsv column)"
-                )
-            where = f"participants.tsv column '{name}'"
-            given = {}
-            for subject, row in self.participants.items():
-                if name not in row:
-                    raise UserError(f"{where}: no such column (columns: {', '.join(row)})")
-                given[subject] = row[name]
-        values = {}
-        for subject in self.subjects:
-            raw = given.get(subject)
-            try:
-                values[subject] = float(raw)
-            except (TypeError, ValueError):
-                raise UserError(f"{where}: subject {subject} has no numeric value (found {raw!r})") from None
-        return values
+        """Values of one numeric covariate for the analysed subjects (`famwise.covariates`)."""
+        return covariates.numeric_values(self, name)
+
+    def regression_design(self, name: str):
+        """The coded design (`famwise.stats.coding.CodedDesign`) of a regression contrast; UserError on bad values."""
+        return covariates.regression_design(self, name)
 
     def input_files(self, subject: str) -> list[str]:
         """Absolute input files of one subject's first stage."""
@@ -160,6 +144,8 @@ class Plan:
                         )
             if contrast.test == "correlation":
                 self.covariate(contrast.covariate)
+            if contrast.test == "regression":
+                self.regression_design(contrast.name)
         if self.study.inference.family == "all-contrasts":
             self._check_shared_table()
 
@@ -171,6 +157,7 @@ class Plan:
             "two-sample": "label",
             "repeated-measures": "within-subject",
             "correlation": "covariate",
+            "regression": "freedman-lane",
         }
         first = None
         for contrast in self.study.contrasts:
@@ -279,6 +266,15 @@ class Plan:
         if contrast.test == "correlation":
             values = self.covariate(contrast.covariate)
             covariate = [values[sub] for sub in subjects]
+        regression = {}
+        if contrast.test == "regression":
+            coded = self.regression_design(name)
+            covariate = coded.covariate
+            regression = {
+                "nuisance": coded.nuisance,
+                "nuisance_columns": coded.nuisance_columns,
+                "design_terms": coded.terms,
+            }
         return from_plain(
             ContrastSettings,
             {
@@ -289,6 +285,7 @@ class Plan:
                 "analysis": self.study.analysis.model_dump(mode="json"),
                 "groups": groups,
                 "covariate": covariate,
+                **regression,
             },
         )
 
@@ -368,7 +365,7 @@ class Plan:
                 "test": contrast.test,
                 "conditions": contrast.conditions,
                 "group_names": contrast.groups if contrast.test == "two-sample" else None,
-                "covariate_name": contrast.covariate if contrast.test == "correlation" else None,
+                "covariate_name": contrast.covariate if contrast.test in ("correlation", "regression") else None,
                 "regions": regions,
             },
         )

@@ -134,7 +134,10 @@ class ContrastSettings:
     """Subjects' maps -> ``contrasts/<c>/subjects.npz``.
 
     ``groups`` is each subject's group index (two-sample: 0 = first group),
-    ``covariate`` each subject's value (correlation); None otherwise.
+    ``covariate`` each subject's value (correlation; regression: the tested
+    covariate, coded); None otherwise. Regression only: ``nuisance`` each
+    subject's nuisance columns, ``nuisance_columns`` their names and
+    ``design_terms`` how each covariate was coded (`famwise.stats.coding`).
     """
 
     name: str
@@ -144,6 +147,9 @@ class ContrastSettings:
     analysis: AnalysisSettings
     groups: tuple[int, ...] | None
     covariate: tuple[float, ...] | None
+    nuisance: tuple[tuple[float, ...], ...] | None = None
+    nuisance_columns: tuple[str, ...] | None = None
+    design_terms: tuple[str, ...] | None = None
 
 
 @dataclass(frozen=True)

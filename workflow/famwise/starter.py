@@ -30,6 +30,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
         )
     subjects = bids.discover_subjects(data)
     found = ""
+    covariates = ([], [])
     if subjects:
         recordings = [p for subject in subjects for p in bids.recording_files(data, subject)]
         if not recordings:
@@ -39,6 +40,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
             )
         source, path, task, labels = "bids", relative, _bids_task(recordings[0]), _bids_labels(recordings)
         found = _formats_found(recordings)
+        covariates = participant_columns(data, subjects)
     else:
         pattern = _epochs_pattern(data)
         subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
@@ -59,6 +61,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
             name=data.name,
             found=found,
             timing=_timing(source, data, out.parent, path, task, subjects),
+            covariates=covariates,
         ),
     )
 
@@ -121,12 +124,50 @@ def _epochs_labels(folder: Path, pattern: str, subjects: list[str]) -> Counter:
     return labels
 
 
+def participant_columns(data: Path, subjects: list[str]) -> tuple[list[str], list[str]]:
+    """Numeric and categorical (2 to 6 levels, some shared) columns of participants.tsv over ``subjects``."""
+    from famwise.stats.coding import MISSING, as_number
+
+    rows = bids.read_participants(data)
+    numeric, categorical = [], []
+    for column in next(iter(rows.values()), {}):
+        values = [rows[s][column].strip() for s in subjects if s in rows and column in rows[s]]
+        present = [v for v in values if v.lower() not in MISSING]
+        levels = set(present)
+        if len(levels) < 2:
+            continue
+        if all(as_number(v) is not None for v in present):
+            numeric.append(column)
+        elif len(levels) <= 6 and len(levels) < len(present):
+            categorical.append(column)
+    return numeric, categorical
+
+
+def _regression_offer(covariates: tuple[list[str], list[str]], condition: str) -> str:
+    """A commented regression contrast when participants.tsv has numeric columns (empty otherwise)."""
+    numeric, categorical = covariates
+    if not numeric:
+        return ""
+    nuisance = [*numeric[1:], *categorical][:3]
+    return f"""  # participants.tsv has numeric columns ({", ".join(numeric)}): uncomment to regress the maps on one,
+  # with other columns as nuisance covariates (text columns become indicator columns; Freedman-Lane permutations).
+  # Missing values (n/a) are an error: list the subjects to keep in subjects.ids or exclude.
+  # - name: {_condition_name(numeric[0])}-effect
+  #   test: regression
+  #   conditions: [{condition}]
+  #   covariate: {numeric[0]}
+  #   nuisance: [{", ".join(nuisance)}]
+"""
+
+
 def _condition_name(label: str) -> str:
     """A spec condition name for an event label (letters, digits, '-', '_', '.')."""
     return re.sub(r"[^A-Za-z0-9_.-]+", "-", label).strip("-._") or "condition"
 
 
-def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict) -> str:
+def _starter_text(
+    source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict, covariates=([], [])
+) -> str:
     conditions = (
         "\n".join(
             f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects"
@@ -186,7 +227,7 @@ contrasts:
   - name: {first[0]}-vs-{first[1]}
     test: paired
     conditions: [{first[0]}, {first[1]}]
-
+{_regression_offer(covariates, first[0])}
 inference:
   alpha: 0.05
   permutations: 1000

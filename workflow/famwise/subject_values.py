@@ -177,11 +177,13 @@ def value_columns(
     if grouped:
         described["group"] = {"Description": "The subject's group."}
     if covariate:
-        described["covariate"] = {"Description": f"The subject's {covariate} (the correlation's covariate)."}
+        role = "the correlation's covariate" if test == "correlation" else "the regression's tested covariate"
+        described["covariate"] = {"Description": f"The subject's {covariate} ({role})."}
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over {over}."}
     if test != "repeated-measures":
-        what = f"{conditions[0]} minus {conditions[1]}" if test == "paired" else conditions[0]
+        two = test in ("paired", "regression") and len(conditions) == 2
+        what = f"{conditions[0]} minus {conditions[1]}" if two else conditions[0]
         described["contrast"] = {"Description": f"Mean over {over} of the value the test used ({what}; {measure})."}
     return described
 

@@ -4,6 +4,7 @@ import warnings
 
 from famwise.bids_notes import left_out_lines, marker_warnings
 from famwise.plan import Plan
+from famwise.regression_words import check_line
 
 
 def describe_plan(plan: Plan) -> str:
@@ -57,6 +58,9 @@ def describe_plan(plan: Plan) -> str:
             detail += f" ({contrast.groups[0]} minus {contrast.groups[1]})"
         if contrast.covariate:
             detail += f" with covariate {contrast.covariate}"
+        if contrast.test == "regression":
+            lines.append(f"  - {contrast.name}: {check_line(plan, contrast)}")
+            continue
         lines.append(f"  - {contrast.name}: {contrast.test}, {detail}")
     lines.append(
         f"Inference: {i.statistic} statistic, {i.tail}, alpha {i.alpha:g}, family {i.family}, "

@@ -8,7 +8,10 @@ and temporal smoothness stays, and breaks only the link the contrast tests:
 - two-sample, correlation: the subjects' maps are reassigned to the group
   labels (covariate values) in a random order;
 - repeated measures: each subject's condition maps are reassigned to the
-  conditions in a random order, within that subject.
+  conditions in a random order, within that subject;
+- regression: the reduced model's fit (intercept and nuisance covariates)
+  plus its residuals in a random subject order (Freedman & Lane 1983): the
+  nuisance covariates keep their effects, the tested one has none beyond them.
 
 Dataset ``i`` of a contrast always draws from its own random stream, seeded
 by ``SeedSequence([seed, 0xCA11, crc32(contrast), i])``, apart from the
@@ -46,6 +49,7 @@ from famwise.correct.apply import apply_correction
 from famwise.degenerate import blank
 from famwise.design import ContrastData, load_contrast
 from famwise.nulls.engine import run_shard
+from famwise.nulls.freedman_lane import freedman_lane_dataset
 from famwise.nulls.screen import BlockScreen
 from famwise.nulls.shard import load_graph_arrays, make_collectors, table_for
 from famwise.nulls.tables import shard_bounds
@@ -76,8 +80,9 @@ def null_dataset(data: ContrastData, rng: np.random.Generator) -> np.ndarray:
     ndarray, same shape and dtype as ``data.x``
         Sign-flipped maps (one-sample, paired), maps in a random subject
         order against fixed labels or covariate values (two-sample,
-        correlation), or condition maps in a random order within each
-        subject (repeated measures).
+        correlation), condition maps in a random order within each
+        subject (repeated measures), or the reduced model's fit plus its
+        residuals in a random order (regression).
     """
     x = data.x
     n = x.shape[0]
@@ -87,6 +92,8 @@ def null_dataset(data: ContrastData, rng: np.random.Generator) -> np.ndarray:
     if data.test == "repeated-measures":
         order = rng.permuted(np.broadcast_to(np.arange(x.shape[1]), (n, x.shape[1])), axis=1)
         return np.take_along_axis(x, order[:, :, None], axis=1)
+    if data.test == "regression":
+        return freedman_lane_dataset(x, data.covariate, data.nuisance, rng.permutation(n))
     return x[rng.permutation(n)]
 
 
@@ -175,6 +182,7 @@ def _dataset_counts(
             test=data.test,
             groups=data.groups,
             covariate=data.covariate,
+            nuisance=data.nuisance,
             screen=BlockScreen(left_out, tail=str(observed["tail"])),
             **statistic,
         )

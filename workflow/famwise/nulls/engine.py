@@ -24,6 +24,8 @@ Fast paths:
   within-subject sum of squares does not change.
 - covariate (correlation): r is the permuted standardised covariate weighted
   sum of the standardised data.
+- Freedman-Lane (regression): weighted sums of the reduced model's residuals
+  with permuted orthonormal vectors (`famwise.nulls.freedman_lane`).
 - Yuen (sign flips and labels): no matrix-product form, because trimming
   depends on the order of the flipped or relabelled values. Sign flips: the
   values are sorted by size once per point, after which every flipped row
@@ -46,8 +48,10 @@ from famwise.kernels.resampled_stats import (
     _weighted_sums,
 )
 from famwise.nulls.collectors.protocol import NullCollector, merge_shard_arrays
+from famwise.nulls.freedman_lane import freedman_lane_block
 from famwise.nulls.tables import PermutationTable, shard_bounds
 from famwise.stats import check_design
+from famwise.stats.regression import check_regression
 from famwise.stats.trimmed import n_trimmed
 
 _GROUP = 4  # subjects per subset-sum table (16 entries)
@@ -56,7 +60,9 @@ _TILE = 1024  # points per tile of the t kernels: their subset-sum tables stay i
 BlockFunction = Callable[[np.ndarray], np.ndarray]
 
 
-def block_function(x, *, test, groups=None, covariate=None, statistic="t", trim=0.2, equal_var=True) -> BlockFunction:
+def block_function(
+    x, *, test, groups=None, covariate=None, statistic="t", trim=0.2, equal_var=True, nuisance=None
+) -> BlockFunction:
     """Prepare the data once; return f(rows_block, out=None) -> float32 (b, P).
 
     The t and Yuen paths write into ``out`` (float32, C-contiguous, shape
@@ -67,17 +73,18 @@ def block_function(x, *, test, groups=None, covariate=None, statistic="t", trim=
     ----------
     x : ndarray of float64, (n, P) or (n, k, P)
         Checked data (see `famwise.stats.check_design`).
-    test, groups, covariate, statistic, trim, equal_var
-        As in `famwise.stats.compute`.
+    test, groups, covariate, statistic, trim, equal_var, nuisance
+        As in `famwise.stats.compute` (``nuisance`` checked: float64 (n, q)).
 
     Returns
     -------
     callable
         Takes rows of the permutation table: int8 signs (b, n) for one-sample
-        and paired, int subject permutations (b, n) for two-sample and
-        correlation, int within-subject condition permutations (b, n, k) for
+        and paired, int subject permutations (b, n) for two-sample,
+        correlation and regression, int within-subject condition permutations (b, n, k) for
         repeated measures. Row semantics: flipped data s_i x_i; subject i gets
-        the label ``groups[row[i]]`` or the covariate ``covariate[row[i]]``;
+        the label ``groups[row[i]]``, the covariate ``covariate[row[i]]`` or
+        the reduced model's residual of subject ``row[i]``;
         subject i's condition j takes the data of its condition ``row[i, j]``.
     """
     if test in ("one-sample", "paired"):
@@ -88,6 +95,8 @@ def block_function(x, *, test, groups=None, covariate=None, statistic="t", trim=
         return _label_t_block(x, groups, equal_var)
     if test == "repeated-measures":
         return _within_f_block(x)
+    if test == "regression":
+        return freedman_lane_block(x, covariate, nuisance)
     return _covariate_block(x, covariate)
 
 
@@ -103,6 +112,7 @@ def iter_null_blocks(
     equal_var=True,
     block_size=64,
     reuse_output=False,
+    nuisance=None,
 ) -> Iterator[np.ndarray]:
     """Statistic maps of table rows, block by block, rows in order.
 
@@ -112,7 +122,7 @@ def iter_null_blocks(
         The data of `famwise.stats.compute`.
     rows : ndarray
         A row range of `PermutationTable.rows`.
-    test, groups, covariate, statistic, trim, equal_var
+    test, groups, covariate, statistic, trim, equal_var, nuisance
         As in `famwise.stats.compute`.
     block_size : int
         Rows per block; memory is O(block_size * P). The values do not depend
@@ -129,13 +139,22 @@ def iter_null_blocks(
         The statistic of each row of the block (b <= block_size).
     """
     x, groups, covariate = check_design(
-        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim
+        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim, nuisance=nuisance
     )
+    if test == "regression":
+        nuisance = check_regression(covariate, nuisance, x.shape[0])[1]
     rows = _check_rows(rows, test, x.shape)
     if block_size < 1:
         raise UserError(f"`block_size` must be at least 1, got {block_size}")
     block = block_function(
-        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim, equal_var=equal_var
+        x,
+        test=test,
+        groups=groups,
+        covariate=covariate,
+        statistic=statistic,
+        trim=trim,
+        equal_var=equal_var,
+        nuisance=nuisance,
     )
     buffer = np.empty((min(block_size, rows.shape[0]), x.shape[-1]), dtype=np.float32) if reuse_output else None
     for start in range(0, rows.shape[0], block_size):

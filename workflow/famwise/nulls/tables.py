@@ -9,7 +9,9 @@ of shards or cores.
 
 Schemes: sign flips (one-sample, paired: under H0 each subject's map is
 symmetric about 0), label permutations (two-sample), condition permutations
-within subject (repeated measures), covariate permutations (correlation).
+within subject (repeated measures), covariate permutations (correlation),
+permutations of the reduced model's residuals (regression, Freedman & Lane
+1983; `famwise.nulls.freedman_lane`).
 
 p-values: the identity row is counted in every exceedance count, so
 ``count / n_rows`` is #{null >= observed} / n_total for an exact
@@ -40,6 +42,7 @@ SCHEMES = {
     "two-sample": "label",
     "repeated-measures": "within-subject",
     "correlation": "covariate",
+    "regression": "freedman-lane",
 }
 
 
@@ -49,11 +52,11 @@ class PermutationTable:
 
     Attributes
     ----------
-    scheme : {"sign-flip", "label", "within-subject", "covariate"}
+    scheme : {"sign-flip", "label", "within-subject", "covariate", "freedman-lane"}
     rows : ndarray
-        sign-flip: int8 (n_rows, n) of +1/-1; label, covariate: int32
-        (n_rows, n) permutations of subject indices (subject i takes the
-        label or covariate of subject ``row[i]``); within-subject: int32
+        sign-flip: int8 (n_rows, n) of +1/-1; label, covariate, freedman-lane:
+        int32 (n_rows, n) permutations of subject indices (subject i takes the
+        label, covariate or reduced-model residual of subject ``row[i]``); within-subject: int32
         (n_rows, n, k) (subject i's condition j takes the data of its
         condition ``row[i, j]``). Row 0 is the identity.
     exact : bool
@@ -221,7 +224,7 @@ def _enumerate(scheme, n, k, groups) -> np.ndarray:
     if scheme == "sign-flip":
         bits = (np.arange(2**n, dtype=np.int64)[:, None] >> np.arange(n)) & 1
         return (1 - 2 * bits).astype(np.int8)
-    if scheme == "covariate":
+    if scheme in ("covariate", "freedman-lane"):
         return np.array(list(itertools.permutations(range(n))), dtype=np.int32)
     if scheme == "within-subject":
         perms = np.array(list(itertools.permutations(range(k))), dtype=np.int32)

@@ -25,7 +25,7 @@ def calibration_section_html(output_dir: Path, corrections: dict[str, list[dict]
         '<section id="calibration"><h2>Error-rate calibration</h2>',
         note(
             "Null datasets were made from the subjects' own maps (random sign flips, or shuffled labels, covariate or "
-            "conditions), which keeps the data's real smoothness; each went through every configured correction. "
+            "conditions, or, for a regression, the nuisance-only fit plus shuffled residuals), which keeps the data's real smoothness; each went through every configured correction. "
             "FWER = share of null datasets with any significant point, with its exact binomial 95% interval. "
             "In a null dataset every detection is false, so the mean false discovery proportion equals the FWER. "
             "Rows in bold: the whole interval lies above the nominal level (the correction is liberal on these data)."

@@ -8,6 +8,8 @@ import numpy as np
 
 from famwise import stage_warnings
 from famwise.report.provenance import package_versions
+from famwise.report.regression_methods import REFERENCES as REGRESSION_REFERENCES
+from famwise.report.regression_methods import regression_resampling, regression_sentence
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries, read_run
 
 REFERENCES = {
@@ -31,6 +33,7 @@ REFERENCES = {
     "phipson": "Phipson B, Smyth GK (2010). Permutation p-values should never be zero: calculating "
     "exact p-values when permutations are randomly drawn. Stat Appl Genet Mol Biol "
     "9(1):Article 39.",
+    **REGRESSION_REFERENCES,
     "edges": "Torrence C, Compo GP (1998). A practical guide to wavelet analysis. Bull Am Meteorol Soc 79(1):61-78.",
     "multitaper": "Thomson DJ (1982). Spectrum estimation and harmonic analysis. Proc IEEE 70(9):1055-1096.",
     "nw": "Percival DB, Walden AT (1993). Spectral Analysis for Physical Applications. Cambridge University Press.",
@@ -301,6 +304,8 @@ def _window(study: dict, run: Run) -> str:
 
 
 def _contrast(contrast: ReportedContrast, spec: dict, study: dict) -> str:
+    if contrast.test == "regression":
+        return regression_sentence(contrast, spec, study)
     inference = study.get("inference") or {}
     if contrast.statistic == "yuen":
         trim = inference.get("trim")
@@ -320,6 +325,8 @@ def _contrast(contrast: ReportedContrast, spec: dict, study: dict) -> str:
 
 def _resampling(contrast: ReportedContrast, study: dict) -> str:
     info = contrast.nulls
+    if contrast.test == "regression":
+        return regression_resampling(contrast, study)
     if not info:
         return ""
     scheme = info.get("scheme", "permutation")
@@ -400,6 +407,8 @@ def kinds_used(run: Run) -> list[str]:
         used.append("yuen")
     if any(c.nulls and not c.nulls.get("exact") for c in run.contrasts):
         used.append("phipson")
+    if any(c.test == "regression" and c.nulls for c in run.contrasts):
+        used += ["freedmanlane", "winkler"]
     for entry in correction_entries(study).values():
         kind = method_kind(entry.get("method", ""))
         if kind != "other" and kind not in used:

@@ -101,6 +101,8 @@ class ReportedContrast:
         In spec order.
     left_out : ndarray of bool, shape (C, F, T)
         Points the observed stage left out of the family (degenerate points).
+    design_terms : tuple of str
+        Regression: how each covariate was coded (tested first); empty otherwise.
     """
 
     name: str
@@ -119,6 +121,7 @@ class ReportedContrast:
     nulls: dict
     corrections: list[ReportedCorrection]
     left_out: np.ndarray | None = None
+    design_terms: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -244,6 +247,7 @@ def _read_contrast(output_dir: Path, name: str, correction_names: list[str]) -> 
         tail=_text(data["tail"]) if "tail" in data else "two-sided",
         n=int(data["n"]),
         left_out=left_out_points(data).reshape(stat.shape),
+        design_terms=tuple(str(term) for term in data.get("design_terms", ())),
     )
     corrections = [_read_correction(output_dir / layout.result(name, c), c) for c in correction_names]
     for correction in corrections:

@@ -53,8 +53,9 @@ def direction(spec: dict, positive: bool) -> str:
         first, second = conditions
     elif test == "one-sample" and conditions:
         return f"{conditions[0]} {'above' if positive else 'below'} zero"
-    elif test == "correlation" and spec.get("covariate"):
-        return f"{'positive' if positive else 'negative'} correlation with {spec['covariate']}"
+    elif test in ("correlation", "regression") and spec.get("covariate"):
+        kind = "correlation" if test == "correlation" else "association"
+        return f"{'positive' if positive else 'negative'} {kind} with {spec['covariate']}"
     elif test == "repeated-measures":
         return "differences among conditions"
     else:

@@ -36,7 +36,7 @@ from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's mod
 from famwise.spec.region import Analysis, PlannedRegion
 
 SubjectSource = Literal["epochs", "maps", "bids"]
-TestName = Literal["one-sample", "paired", "two-sample", "repeated-measures", "correlation"]
+TestName = Literal["one-sample", "paired", "two-sample", "repeated-measures", "correlation", "regression"]
 BaselineMode = Literal["db", "percent", "zscore", "ratio", "none"]
 Measure = Literal["power", "induced", "itpc"]
 
@@ -66,10 +66,11 @@ class Subjects(SpecModel):
         description="Group of each subject (id -> group name), for two-sample contrasts. "
         "With 'bids', omit to read the 'group' column of participants.tsv.",
     )
-    covariates: dict[str, dict[str, float]] | None = Field(
+    covariates: dict[str, dict[str, float | str | None]] | None = Field(
         default=None,
-        description="Per-subject covariates (covariate name -> id -> value), for correlation "
-        "contrasts. With 'bids', omit to read the column of participants.tsv.",
+        description="Per-subject covariates (covariate name -> id -> value), for correlation and regression "
+        "contrasts: numbers, or text for a categorical covariate (e.g. sex, site; coded as indicator columns, "
+        "the first level in sorted order the reference). With 'bids', omit to read the columns of participants.tsv.",
     )
     exclude: dict[str, str] = Field(
         default_factory=dict, description="Subjects left out of the analysis, id -> reason (shown in the report)."
@@ -312,14 +313,21 @@ class Contrast(SpecModel):
 
     name: str = Field(description="Contrast name (letters, digits, '-', '_', '.'; it becomes a folder name).")
     test: TestName = Field(
-        description="'one-sample', 'paired' (first minus second condition), 'two-sample' (first minus second group), 'repeated-measures' (F over 3+ conditions) or 'correlation' (with a covariate)."
+        description="'one-sample', 'paired' (first minus second condition), 'two-sample' (first minus second group), 'repeated-measures' (F over 3+ conditions), 'correlation' (with a covariate) or 'regression' (the covariate's coefficient with the nuisance covariates in the model, Freedman-Lane permutations)."
     )
     conditions: list[str] = Field(
         min_length=1,
-        description="Conditions compared: one (one-sample, two-sample, correlation), two (paired) or three or more (repeated-measures).",
+        description="Conditions compared: one (one-sample, two-sample, correlation, regression), two (paired; regression: first minus second) or three or more (repeated-measures).",
     )
     groups: list[str] | None = Field(default=None, description="Two groups for 'two-sample' (first minus second).")
-    covariate: str | None = Field(default=None, description="Covariate name for 'correlation'.")
+    covariate: str | None = Field(
+        default=None, description="Covariate name for 'correlation'; the tested covariate of 'regression'."
+    )
+    nuisance: list[str] | None = Field(
+        default=None,
+        description="'regression' only: covariates in the model besides the tested one (e.g. [sex, site]), "
+        "whose effects are removed; omit for none.",
+    )
 
     @field_validator("name")
     @classmethod
@@ -333,6 +341,7 @@ class Contrast(SpecModel):
             "paired": (2, 2),
             "two-sample": (1, 1),
             "correlation": (1, 1),
+            "regression": (1, 2),
             "repeated-measures": (3, 99),
         }
         low, high = wanted[self.test]
@@ -345,10 +354,23 @@ class Contrast(SpecModel):
                 raise LocatedError(("groups",), "test 'two-sample' needs groups: [first, second]")
         elif self.groups is not None:
             raise LocatedError(("groups",), f"groups are only used by 'two-sample', not '{self.test}'")
-        if self.test == "correlation" and not self.covariate:
-            raise LocatedError(("covariate",), "test 'correlation' needs a covariate")
-        if self.test != "correlation" and self.covariate is not None:
-            raise LocatedError(("covariate",), f"covariate is only used by 'correlation', not '{self.test}'")
+        if self.test in ("correlation", "regression") and not self.covariate:
+            raise LocatedError(("covariate",), f"test '{self.test}' needs a covariate")
+        if self.test not in ("correlation", "regression") and self.covariate is not None:
+            raise LocatedError(
+                ("covariate",), f"covariate is only used by 'correlation' and 'regression', not '{self.test}'"
+            )
+        if self.nuisance is not None:
+            if self.test != "regression":
+                raise LocatedError(
+                    ("nuisance",), f"nuisance covariates are only used by 'regression', not '{self.test}'"
+                )
+            if self.covariate in self.nuisance:
+                raise LocatedError(
+                    ("nuisance",), f"'{self.covariate}' is the tested covariate; it cannot be a nuisance too"
+                )
+            if len(set(self.nuisance)) != len(self.nuisance):
+                raise LocatedError(("nuisance",), "a nuisance covariate is listed twice")
         return self
 
 
@@ -427,11 +449,15 @@ class Study(SpecModel):
                         )
             if contrast.covariate is not None and self.subjects.covariates is not None:
                 present = sorted(self.subjects.covariates)
-                if contrast.covariate not in present:
-                    raise LocatedError(
-                        ("contrasts", index, "covariate"),
-                        f"unknown covariate '{contrast.covariate}' (known: {', '.join(present)}){did_you_mean(contrast.covariate, present)}",
-                    )
+                for key, name in [
+                    ("covariate", contrast.covariate),
+                    *(("nuisance", n) for n in contrast.nuisance or []),
+                ]:
+                    if name not in present:
+                        raise LocatedError(
+                            ("contrasts", index, key),
+                            f"unknown covariate '{name}' (known: {', '.join(present)}){did_you_mean(name, present)}",
+                        )
         return self
 
     @model_validator(mode="after")

@@ -10,6 +10,9 @@ Data shapes (points flattened to P = n_channels * n_freqs * n_times, C order):
 - ``"repeated-measures"``: x (n, k, P) with k >= 3 conditions; F statistic.
 - ``"correlation"``: x (n, P) with ``covariate`` float (n,); Pearson r and
   its t transform r sqrt((n-2)/(1-r^2)), df n-2.
+- ``"regression"``: x (n, P) with ``covariate`` float (n,), the tested
+  covariate, and ``nuisance`` float (n, q) the coded nuisance columns; OLS t
+  of the tested coefficient, df n - 2 - q (`famwise.stats.regression`).
 """
 
 from dataclasses import dataclass
@@ -18,9 +21,10 @@ import numpy as np
 from scipy import stats as sps
 
 from famwise.errors import UserError
+from famwise.stats.regression import check_regression, regression_t
 from famwise.stats.trimmed import n_trimmed, one_sample_yuen, two_sample_yuen
 
-TESTS = ("one-sample", "paired", "two-sample", "repeated-measures", "correlation")
+TESTS = ("one-sample", "paired", "two-sample", "repeated-measures", "correlation", "regression")
 STATISTICS = ("t", "yuen")
 TAILS = ("two-sided", "greater", "less")
 MIN_SUBJECTS = 3
@@ -34,7 +38,8 @@ class GroupStatistic:
     ----------
     stat : ndarray of float64, shape (P,)
         t (one-sample, paired, two-sample, also Yuen's trimmed t), F
-        (repeated measures) or the t transform of r (correlation).
+        (repeated measures), the t transform of r (correlation) or the OLS t
+        of the tested coefficient (regression).
     p : ndarray of float64, shape (P,)
         Parametric p for ``effective_tail``.
     df : ndarray of float64
@@ -43,11 +48,13 @@ class GroupStatistic:
     effect : ndarray of float64, shape (P,)
         Mean (one-sample), mean difference (paired, two-sample), trimmed mean
         or trimmed-mean difference (Yuen), range of the condition means
-        (largest minus smallest, repeated measures), r (correlation).
+        (largest minus smallest, repeated measures), r (correlation), the
+        tested coefficient (regression: map unit per covariate unit).
     effect_size : ndarray of float64, shape (P,)
         d_z = mean / SD (one-sample, paired), Hedges' g (two-sample, with the
         small-sample factor 1 - 3 / (4 (n0 + n1) - 9)), partial eta squared
-        (repeated measures), r (correlation). The Yuen option keeps these
+        (repeated measures), r (correlation), the partial r given the
+        nuisance covariates (regression). The Yuen option keeps these
         classical effect sizes.
     test, statistic, tail : str
         As requested.
@@ -79,6 +86,7 @@ def compute(
     trim: float = 0.2,
     equal_var: bool = True,
     tail: str = "two-sided",
+    nuisance=None,
 ) -> GroupStatistic:
     """Compute the group statistic at every point.
 
@@ -90,7 +98,7 @@ def compute(
     groups : array_like of int, shape (n,), optional
         0/1 group labels (two-sample only).
     covariate : array_like of float, shape (n,), optional
-        Per-subject covariate (correlation only).
+        Per-subject covariate (correlation; regression: the tested covariate).
     statistic : {"t", "yuen"}
         ``"yuen"``: trimmed means with Winsorized variances (one-sample,
         paired, two-sample only).
@@ -100,6 +108,8 @@ def compute(
         Two-sample only: Student (pooled) when True, Welch when False.
     tail : {"two-sided", "greater", "less"}
         Alternative hypothesis; F is always tested on its upper tail.
+    nuisance : array_like of float, shape (n, q), optional
+        Coded nuisance covariates (regression only).
 
     Returns
     -------
@@ -111,7 +121,7 @@ def compute(
     Hedges LV (1981). J Educ Stat 6(2):107-128.
     """
     x, groups, covariate = check_design(
-        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim
+        x, test=test, groups=groups, covariate=covariate, statistic=statistic, trim=trim, nuisance=nuisance
     )
     _check_choice("tail", tail, TAILS)
     n = x.shape[0]
@@ -122,6 +132,8 @@ def compute(
             stat, df, effect, size = _two_sample(x, groups, statistic, trim, equal_var)
         elif test == "repeated-measures":
             stat, df, effect, size = _repeated_measures(x)
+        elif test == "regression":
+            stat, df, effect, size = regression_t(x, covariate, check_regression(covariate, nuisance, n)[1])
         else:
             stat, df, effect, size = _correlation(x, covariate)
     effective_tail = "greater" if test == "repeated-measures" else tail
@@ -182,7 +194,7 @@ def forming_threshold(forming_p: float, *, test: str, df, tail: str) -> float:
     return float(sps.t.isf(per_tail, dof))
 
 
-def check_design(x, *, test, groups=None, covariate=None, statistic="t", trim=0.2):
+def check_design(x, *, test, groups=None, covariate=None, statistic="t", trim=0.2, nuisance=None):
     """Check the data and design of one test; return clean arrays.
 
     Returns
@@ -235,8 +247,12 @@ def check_design(x, *, test, groups=None, covariate=None, statistic="t", trim=0.
         raise UserError(f"`groups` is only used by the two-sample test, not by '{test}'")
     if test == "correlation":
         covariate = _check_covariate(covariate, n)
+    elif test == "regression":
+        covariate = check_regression(covariate, nuisance, n)[0]
     elif covariate is not None:
-        raise UserError(f"`covariate` is only used by the correlation test, not by '{test}'")
+        raise UserError(f"`covariate` is only used by the correlation and regression tests, not by '{test}'")
+    if nuisance is not None and test != "regression":
+        raise UserError(f"`nuisance` is only used by the regression test, not by '{test}'")
     if statistic == "yuen" and test != "two-sample" and n - 2 * n_trimmed(n, trim) < 2:
         raise UserError(f"trim {trim} leaves fewer than 2 of the {n} subjects; Yuen's test needs at least 2")
     return x, groups, covariate
