@@ -22,6 +22,8 @@ Fast paths:
   (weights 0 / 1); group 1 takes the totals minus group 0.
 - within-subject (F): condition sums of the subject-centred data; the
   within-subject sum of squares does not change.
+- labels of three or more groups (between-groups F): group sums of the
+  grand-mean-centred data (`famwise.nulls.between_block`).
 - covariate (correlation): r is the permuted standardised covariate weighted
   sum of the standardised data.
 - Yuen (sign flips and labels): no matrix-product form, because trimming
@@ -45,9 +47,10 @@ from famwise.kernels.resampled_stats import (
     _signflip_yuen,
     _weighted_sums,
 )
+from famwise.nulls.between_block import between_f_block
 from famwise.nulls.collectors.protocol import NullCollector, merge_shard_arrays
 from famwise.nulls.tables import PermutationTable, shard_bounds
-from famwise.stats import check_design
+from famwise.stats import SIGN_FLIP_TESTS, check_design
 from famwise.stats.trimmed import n_trimmed
 
 _GROUP = 4  # subjects per subset-sum table (16 entries)
@@ -73,15 +76,17 @@ def block_function(x, *, test, groups=None, covariate=None, statistic="t", trim=
     Returns
     -------
     callable
-        Takes rows of the permutation table: int8 signs (b, n) for one-sample
-        and paired, int subject permutations (b, n) for two-sample and
-        correlation, int within-subject condition permutations (b, n, k) for
+        Takes rows of the permutation table: int8 signs (b, n) for one-sample,
+        paired and weighted, int subject permutations (b, n) for two-sample,
+        between-groups and correlation, int within-subject condition permutations (b, n, k) for
         repeated measures. Row semantics: flipped data s_i x_i; subject i gets
         the label ``groups[row[i]]`` or the covariate ``covariate[row[i]]``;
         subject i's condition j takes the data of its condition ``row[i, j]``.
     """
-    if test in ("one-sample", "paired"):
+    if test in SIGN_FLIP_TESTS:
         return _signflip_yuen_block(x, trim) if statistic == "yuen" else _signflip_t_block(x)
+    if test == "between-groups":
+        return between_f_block(x, groups)
     if test == "two-sample":
         if statistic == "yuen":
             return _label_yuen_block(x, groups, trim, equal_var)
