@@ -133,8 +133,10 @@ class AnalysisSettings:
 class ContrastSettings:
     """Subjects' maps -> ``contrasts/<c>/subjects.npz``.
 
-    ``groups`` is each subject's group index (two-sample: 0 = first group),
-    ``covariate`` each subject's value (correlation); None otherwise.
+    ``groups`` is each subject's group index (two-sample, between-groups: 0 =
+    first group), ``covariate`` each subject's value (correlation); None
+    otherwise. ``weights`` are the spec's condition weights (None: first
+    minus second for two conditions, the condition itself for one).
     """
 
     name: str
@@ -144,6 +146,7 @@ class ContrastSettings:
     analysis: AnalysisSettings
     groups: tuple[int, ...] | None
     covariate: tuple[float, ...] | None
+    weights: tuple[float, ...] | None = None
 
 
 @dataclass(frozen=True)
@@ -327,8 +330,9 @@ class PlannedRegionSettings:
 class SubjectValuesSettings:
     """One contrast's maps (+ a correction's clusters) -> ``subject_values.tsv`` or ``planned_values.tsv``.
 
-    ``group_names`` are the two-sample groups in index order, ``covariate_name``
-    the correlation's covariate; None otherwise.
+    ``group_names`` are the two-sample or between-groups groups in index
+    order, ``covariate_name`` the correlation's covariate; None otherwise.
+    ``weights`` as in `ContrastSettings`.
     """
 
     test: str
@@ -336,6 +340,7 @@ class SubjectValuesSettings:
     group_names: tuple[str, ...] | None
     covariate_name: str | None
     regions: tuple[PlannedRegionSettings, ...]
+    weights: tuple[float, ...] | None = None
 
 
 @dataclass(frozen=True)
