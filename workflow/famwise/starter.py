@@ -12,6 +12,7 @@ from famwise import bids
 from famwise.atomic import write_text
 from famwise.errors import UserError
 from famwise.io import discover_pattern
+from famwise.starter_designs import offered_contrasts
 
 
 def write_starter_spec(data: Path, out: Path) -> None:
@@ -30,6 +31,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
         )
     subjects = bids.discover_subjects(data)
     found = ""
+    groups = Counter()
     if subjects:
         recordings = [p for subject in subjects for p in bids.recording_files(data, subject)]
         if not recordings:
@@ -39,6 +41,9 @@ def write_starter_spec(data: Path, out: Path) -> None:
             )
         source, path, task, labels = "bids", relative, _bids_task(recordings[0]), _bids_labels(recordings)
         found = _formats_found(recordings)
+        groups = Counter(
+            row["group"] for row in bids.read_participants(data).values() if row.get("group") not in (None, "", "n/a")
+        )
     else:
         pattern = _epochs_pattern(data)
         subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
@@ -58,6 +63,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
             labels,
             name=data.name,
             found=found,
+            groups=groups,
             timing=_timing(source, data, out.parent, path, task, subjects),
         ),
     )
@@ -126,7 +132,9 @@ def _condition_name(label: str) -> str:
     return re.sub(r"[^A-Za-z0-9_.-]+", "-", label).strip("-._") or "condition"
 
 
-def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict) -> str:
+def _starter_text(
+    source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict, groups: Counter
+) -> str:
     conditions = (
         "\n".join(
             f"  {_condition_name(label)}: [{json.dumps(label)}]      # {count} epochs over all subjects"
@@ -138,6 +146,7 @@ def _starter_text(source, path, task, subjects, labels: Counter, *, name: str, f
         [_condition_name(label) for label in sorted(labels)[:2]] if len(labels) >= 2 else ["condition-a", "condition-b"]
     )
     task_line = f"  task: {task}\n" if task else ""
+    offered = offered_contrasts([_condition_name(label) for label in sorted(labels)], groups) if labels else ""
     epoch = timing["epoch_ms"] or (-500, 1500)
     baseline = timing["baseline_ms"]
     baseline_text = (
@@ -186,7 +195,7 @@ contrasts:
   - name: {first[0]}-vs-{first[1]}
     test: paired
     conditions: [{first[0]}, {first[1]}]
-
+{offered}
 inference:
   alpha: 0.05
   permutations: 1000
