@@ -293,3 +293,18 @@ def test_spec_accepts_the_new_designs(tmp_path):
 )
 def test_spec_errors_name_the_contrast_and_line(tmp_path, contrast, message):
     assert message in spec_error(tmp_path, contrast)
+
+
+# --- the design in words ----------------------------------------------------------------------
+
+
+def test_designs_in_words():
+    from famwise.contrast_words import design_words, heading_words, resampling_words, weighted_formula
+
+    assert weighted_formula(["a", "b", "c"], [2, -1, -1]) == "2 x a - b - c"
+    assert weighted_formula(["a", "b", "c"], [-0.5, 0, 0.5]) == "-0.5 x a + 0.5 x c"
+    assert weighted_formula(["a"], [1]) == "a"
+    assert design_words("weighted", ["x", "y"], weights=[1, -1]) == "x minus y against zero"
+    assert design_words("two-sample", ["x"], groups=["p", "c"]) == "group difference: p minus c on x"
+    assert heading_words({"test": "paired", "conditions": ["x", "y"]}) == "x − y"
+    assert resampling_words("label", 9, group_sizes=[3, 3, 3]) == "9! / (3! 3! 3!) group relabellings"

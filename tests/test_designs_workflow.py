@@ -127,3 +127,16 @@ def test_methods_state_each_design(study):
     assert "one-way between-subject F test (df 2 and 6; Fisher 1925)" in text
     assert "Fisher RA (1925)" in text and "Nichols TE, Holmes AP (2002)" in text
     assert "enumerated all 512 sign-flip" in text and "enumerated all 1680 label" in text
+
+
+@pytest.mark.workflow
+def test_values_tables_and_report_name_each_design(study):
+    out = study.parent / "results"
+    for name, column in (("interaction", "(a-hi - a-lo) - (b-hi - b-lo)"), ("group-by-load", "a-hi minus a-lo")):
+        sidecar = (out / "contrasts" / name / "cluster" / "subject_values.json").read_text()
+        assert f"the value the test used ({column};" in sidecar
+    lines = (out / "contrasts" / "three-groups" / "cluster" / "subject_values.tsv").read_text().splitlines()
+    assert lines[0].split("\t")[5] == "group" and len(lines) > 1
+    page = (out / "report" / "index.html").read_text()
+    assert "weighted, interaction: (a-hi - a-lo) - (b-hi - b-lo), t statistic" in page
+    assert "between-groups, group differences (F over groups early, middle, late) on a-hi, F statistic" in page

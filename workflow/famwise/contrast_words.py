@@ -107,3 +107,16 @@ def contrast_line(contrast, *, n_subjects: int, table=None, group_sizes=None) ->
     if table.exact:
         return f"{text}, {count}: exact (all {table.n_rows})"
     return f"{text}, {table.n_rows - 1} random of {count} ({table.n_distinct:.3g}): Monte Carlo"
+
+
+def heading_words(spec: dict) -> str:
+    """The conditions of a spec contrast as the report's contrast heading shows them.
+
+    ``A − B`` (the conditions joined) for one-sample, paired, repeated measures and
+    correlation; the design in words for weighted, interaction and between-groups contrasts.
+    """
+    conditions = [str(c) for c in spec.get("conditions") or []]
+    test = spec.get("test", "")
+    if test in ("weighted", "between-groups") or (test == "two-sample" and len(conditions) > 1):
+        return design_words(test, conditions, groups=spec.get("groups"), weights=spec.get("weights"))
+    return " − ".join(conditions)
