@@ -308,3 +308,26 @@ def test_designs_in_words():
     assert design_words("two-sample", ["x"], groups=["p", "c"]) == "group difference: p minus c on x"
     assert heading_words({"test": "paired", "conditions": ["x", "y"]}) == "x − y"
     assert resampling_words("label", 9, group_sizes=[3, 3, 3]) == "9! / (3! 3! 3!) group relabellings"
+
+
+def test_check_names_a_between_groups_group_too_small(tmp_path):
+    from famwise.plan import Plan
+    from famwise.preflight.spec_checks import check_group_sizes
+    from famwise.preflight.where import Where
+
+    spec = tmp_path / "study.yaml"
+    text = SPEC.replace(
+        "CONTRAST\n", "    test: between-groups\n    conditions: [a-hi]\n    groups: [young, middle, old]\n"
+    )
+    spec.write_text(
+        text.replace("  groups:", "  ids: ['01', '02', '03', '04', '05']\n  groups:", 1).replace(
+            "'03': old}", "'03': old, '04': young, '05': middle}"
+        )
+    )
+    plan = Plan(load_study(spec))
+    with pytest.raises(
+        UserError,
+        match=r"study.yaml:\d+ contrasts\[0\].groups: group 'old' has 1 analysed subject \(03\); "
+        r"the between-groups test needs at least 2 per group",
+    ):
+        check_group_sizes(plan, Where(plan.loaded))
