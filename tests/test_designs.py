@@ -171,6 +171,27 @@ def test_null_identical_for_shards_and_block_sizes(name):
             assert base[key].tobytes() == other[key].tobytes(), (key, n_shards, block_size)
 
 
+def test_between_groups_null_identical_for_thread_counts_and_point_tiles(monkeypatch):
+    import numba
+
+    import famwise.nulls.between_block as between_block
+
+    x = RNG.standard_normal((9, 3000))
+    table = table_of(dict(test="between-groups", groups=UNEQUAL_GROUPS), 9, 100)
+    options = dict(test="between-groups", groups=UNEQUAL_GROUPS)
+    threads = numba.get_num_threads()
+    try:
+        numba.set_num_threads(1)
+        one = np.concatenate(list(iter_null_blocks(x, table.rows, **options)))
+        numba.set_num_threads(min(2, numba.config.NUMBA_NUM_THREADS))
+        two = np.concatenate(list(iter_null_blocks(x, table.rows, **options)))
+    finally:
+        numba.set_num_threads(threads)
+    monkeypatch.setattr(between_block, "_TILE", 77)
+    tiled = np.concatenate(list(iter_null_blocks(x, table.rows, block_size=13, **options)))
+    assert one.tobytes() == two.tobytes() == tiled.tobytes()
+
+
 def exact_p(x, options, tail):
     table = table_of(options, x.shape[0], 10**6)
     assert table.exact

@@ -1,17 +1,19 @@
 """Fast path of the permutation engine for the between-groups F (three or more groups).
 
 The grand-mean-centred data y and their total sum of squares do not change
-when labels are permuted, so each row needs only its group sums S_g
-(indicator-weighted sums of y, summed in subject order by
-`famwise.kernels.resampled_stats._weighted_sums`); then
-SS_between = sum_g S_g^2 / n_g, with the k terms added in ascending order so
-that rows which only swap equal-size groups give the identity's F bit for
+when labels are permuted, so each row needs only its group sums S_g, summed
+over subjects in subject order (`famwise.kernels.between_f`). Then
+SS_between = sum_g S_g^2 / n_g, the groups taken in the order of their first
+member: rows that only swap whole groups of equal size list the same groups,
+with the same members, in the same order, and give the identity's F bit for
 bit (`famwise.nulls.multigroup.n_relabellings`).
 """
 
 import numpy as np
 
-from famwise.kernels.resampled_stats import _weighted_sums
+from famwise.kernels.between_f import _between_f
+
+_TILE = 1024  # points per tile: the k group sums of a tile stay in cache
 
 
 def between_f_block(x: np.ndarray, groups: np.ndarray):
@@ -34,23 +36,35 @@ def between_f_block(x: np.ndarray, groups: np.ndarray):
     for row in centred:
         ss_total += row * row
     df1, df2 = k - 1.0, n - float(k)
-    labels = np.arange(k)
 
     def block(rows, out=None):
-        b = rows.shape[0]
-        indicator = (groups[rows][:, None, :] == labels[None, :, None]).astype(np.float64).reshape(b * k, n)
-        sums = np.empty((b * k, n_points))
-        _weighted_sums(indicator, centred, sums)
-        terms = np.sort(sums.reshape(b, k, n_points) ** 2 / sizes[None, :, None], axis=1)
-        ss_between = terms[:, 0].copy()
-        for g in range(1, k):
-            ss_between += terms[:, g]
-        ss_within = np.maximum(ss_total - ss_between, 0.0)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            f = (ss_between / df1) / (ss_within / df2)
         if out is None:
-            return f.astype(np.float32)
-        out[...] = f
+            out = np.empty((rows.shape[0], n_points), dtype=np.float32)
+        position, group_sizes = group_order(groups[rows], k, sizes)
+        _between_f(position, group_sizes, centred, ss_total, df1, df2, _TILE, out)
         return out
 
     return block
+
+
+def group_order(labels: np.ndarray, k: int, sizes: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Each row's groups in the order of their first member.
+
+    Parameters
+    ----------
+    labels : ndarray of int, shape (b, n)
+        Each subject's group in each row.
+    k : int
+    sizes : ndarray of float, shape (k,)
+
+    Returns
+    -------
+    position : ndarray of int64, shape (b, n)
+        The place of subject i's group in row r's order.
+    group_sizes : ndarray of float64, shape (b, k)
+        The size of the group in each place.
+    """
+    first = np.argmax(labels[:, None, :] == np.arange(k)[None, :, None], axis=2)  # (b, k)
+    order = np.argsort(first, axis=1)
+    place = np.argsort(order, axis=1)  # place of each group label
+    return np.ascontiguousarray(np.take_along_axis(place, labels, axis=1)), np.ascontiguousarray(sizes[order])
