@@ -352,3 +352,17 @@ def test_check_names_a_between_groups_group_too_small(tmp_path):
         r"the between-groups test needs at least 2 per group",
     ):
         check_group_sizes(plan, Where(plan.loaded))
+
+
+def test_between_f_kernel_source_gives_the_compiled_bits(monkeypatch):
+    """The kernel run as Python (every index checked) gives the compiled kernel's bits."""
+    import famwise.nulls.between_block as between_block
+    from famwise.kernels.between_f import _between_f
+
+    x = RNG.standard_normal((9, 50))
+    options = dict(test="between-groups", groups=UNEQUAL_GROUPS)
+    table = table_of(options, 9, 30)
+    compiled = np.concatenate(list(iter_null_blocks(x, table.rows, **options)))
+    monkeypatch.setattr(between_block, "_between_f", getattr(_between_f, "py_func", _between_f))
+    python = np.concatenate(list(iter_null_blocks(x, table.rows, **options)))
+    assert python.tobytes() == compiled.tobytes()
