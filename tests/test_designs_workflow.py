@@ -5,6 +5,7 @@ import pytest
 import scipy.stats
 
 import famwise.io
+from famwise.calibrate.table import read_table
 from famwise.cli import main
 
 CONDITIONS = ("a-hi", "a-lo", "b-hi", "b-lo")
@@ -140,3 +141,14 @@ def test_values_tables_and_report_name_each_design(study):
     page = (out / "report" / "index.html").read_text()
     assert "weighted, interaction: (a-hi - a-lo) - (b-hi - b-lo), t statistic" in page
     assert "between-groups, group differences (F over groups early, middle, late) on a-hi, F statistic" in page
+
+
+@pytest.mark.workflow
+def test_calibrate_runs_each_design(study):
+    options = ["--datasets", "6", "--shards", "2", "--permutations", "15", "--cores", "2"]
+    assert main(["calibrate", str(study), *options]) == 0
+    folder = study.parent / "results" / "calibration"
+    for name in ("interaction", "group-by-load", "three-groups"):
+        rows = read_table(folder / f"{name}.tsv")
+        assert [r["correction"] for r in rows] == ["uncorrected", "max-stat", "cluster"]
+        assert all(r["datasets"] == 6 for r in rows)
