@@ -366,3 +366,20 @@ def test_between_f_kernel_source_gives_the_compiled_bits(monkeypatch):
     monkeypatch.setattr(between_block, "_between_f", getattr(_between_f, "py_func", _between_f))
     python = np.concatenate(list(iter_null_blocks(x, table.rows, **options)))
     assert python.tobytes() == compiled.tobytes()
+
+
+def test_check_refuses_yuen_for_the_between_groups_f(tmp_path):
+    from famwise.plan import Plan
+    from famwise.preflight.spec_checks import check_statistic
+    from famwise.preflight.where import Where
+
+    spec = tmp_path / "study.yaml"
+    text = SPEC.replace(
+        "CONTRAST\n", "    test: between-groups\n    conditions: [a-hi]\n    groups: [young, middle, old]\n"
+    )
+    spec.write_text(text.replace("inference:\n", "inference:\n  statistic: yuen\n"))
+    plan = Plan(load_study(spec))
+    with pytest.raises(
+        UserError, match=r"study.yaml:\d+ inference.statistic: 'yuen' .* not for contrast c's 'between-groups'"
+    ):
+        check_statistic(plan, Where(plan.loaded))

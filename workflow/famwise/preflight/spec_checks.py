@@ -38,6 +38,22 @@ def check_group_sizes(plan, where: Where) -> None:
                 )
 
 
+YUEN_TESTS = ("one-sample", "paired", "weighted", "two-sample")
+"""Tests with a trimmed-mean (Yuen) form."""
+
+
+def check_statistic(plan, where: Where) -> None:
+    """``inference.statistic: yuen`` only with contrasts whose test has a trimmed-mean form."""
+    if plan.study.inference.statistic != "yuen":
+        return
+    for contrast in plan.study.contrasts:
+        if contrast.test not in YUEN_TESTS:
+            raise UserError(
+                f"{where('inference', 'statistic')}: 'yuen' (trimmed means) is available for the "
+                f"{', '.join(YUEN_TESTS)} tests, not for contrast {contrast.name}'s '{contrast.test}'; use 't'"
+            )
+
+
 def permutation_table(plan, contrast):
     """The permutation table the null stage will build for one of the spec's contrasts."""
     from famwise.nulls.tables import make_table
