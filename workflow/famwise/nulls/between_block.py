@@ -2,7 +2,8 @@
 
 The grand-mean-centred data y and their total sum of squares do not change
 when labels are permuted, so each row needs only its group sums S_g, summed
-over subjects in subject order (`famwise.kernels.between_f`). Then
+over subjects in subject order (`famwise.kernels.between_f`; the last group
+takes the total minus the others). Then
 SS_between = sum_g S_g^2 / n_g, the groups taken in the order of their first
 member: rows that only swap whole groups of equal size list the same groups,
 with the same members, in the same order, and give the identity's F bit for
@@ -32,16 +33,17 @@ def between_f_block(x: np.ndarray, groups: np.ndarray):
     k = int(groups.max()) + 1
     sizes = np.bincount(groups, minlength=k).astype(np.float64)
     centred = np.ascontiguousarray(x - x.mean(axis=0))
-    ss_total = np.zeros(n_points)
+    total, ss_total = np.zeros(n_points), np.zeros(n_points)
     for row in centred:
+        total += row
         ss_total += row * row
-    df1, df2 = k - 1.0, n - float(k)
+    df_ratio = (n - float(k)) / (k - 1.0)
 
     def block(rows, out=None):
         if out is None:
             out = np.empty((rows.shape[0], n_points), dtype=np.float32)
         position, group_sizes = group_order(groups[rows], k, sizes)
-        _between_f(position, group_sizes, centred, ss_total, df1, df2, _TILE, out)
+        _between_f(position, 1.0 / group_sizes, centred, total, ss_total, df_ratio, _TILE, out)
         return out
 
     return block
