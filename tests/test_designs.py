@@ -383,3 +383,18 @@ def test_check_refuses_yuen_for_the_between_groups_f(tmp_path):
         UserError, match=r"study.yaml:\d+ inference.statistic: 'yuen' .* not for contrast c's 'between-groups'"
     ):
         check_statistic(plan, Where(plan.loaded))
+
+
+def test_every_renaming_of_equal_size_groups_ties_bit_for_bit():
+    groups = np.array([0, 1, 2, 0, 1, 2, 3, 3])  # three groups of 2 and one of 2: 4! renamings per partition
+    table = make_table("between-groups", n_subjects=8, permutations=10**5, seed=0, groups=groups)
+    assert table.exact and table.n_rows == 2520 and table.n_identical == 24
+    x = RNG.standard_normal((8, 60)) * np.exp(RNG.standard_normal(60))
+    null = np.concatenate(list(iter_null_blocks(x, table.rows, block_size=100, test="between-groups", groups=groups)))
+    partitions = {}
+    for r, labels in enumerate(groups[table.rows]):
+        key = frozenset(frozenset(np.flatnonzero(labels == g).tolist()) for g in range(4))
+        partitions.setdefault(key, []).append(r)
+    assert len(partitions) == 2520 // 24 and all(len(rows) == 24 for rows in partitions.values())
+    for rows in partitions.values():  # F does not depend on which label a group carries (from memory)
+        assert all(null[r].tobytes() == null[rows[0]].tobytes() for r in rows)
