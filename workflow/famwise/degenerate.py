@@ -7,8 +7,8 @@ A point is degenerate when
   ``variance <= (TOLERANCE * scale) ** 2`` with ``scale`` the largest finite
   |value| of the whole map (all subjects and points) and ``TOLERANCE`` 1e-6.
   The variance is, per test: the subjects' variance (one-sample, paired,
-  correlation); the larger of the two groups' variances (two-sample: the point
-  is degenerate only when both groups are); the residual variance after
+  correlation, weighted); the largest of the groups' variances (two-sample,
+  between-groups: the point is degenerate only when every group is); the residual variance after
   removing subject and condition means (repeated measures). Or
 - the statistic itself is not finite there (e.g. a correlation of exactly +-1,
   or a Winsorized variance of zero for Yuen's t).
@@ -59,9 +59,9 @@ def test_variance(x: np.ndarray, *, test: str, groups=None) -> np.ndarray:
     if test == "repeated-measures":
         residual = x - x.mean(axis=1, keepdims=True) - x.mean(axis=0, keepdims=True) + x.mean(axis=(0, 1))
         return (residual**2).mean(axis=(0, 1))
-    if test == "two-sample":
+    if test in ("two-sample", "between-groups"):
         groups = np.asarray(groups)
-        return np.maximum(x[groups == 0].var(axis=0), x[groups == 1].var(axis=0))
+        return np.max([x[groups == g].var(axis=0) for g in np.unique(groups)], axis=0)
     return x.var(axis=0)
 
 
@@ -108,10 +108,10 @@ def likely_cause(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, groups
         )
     if test == "repeated-measures":
         return "no variance left after removing each subject's and each condition's mean"
-    if test == "two-sample":
+    if test in ("two-sample", "between-groups"):
         groups = np.asarray(groups)
-        same = all(np.ptp(x[groups == g], axis=0).max() == 0 for g in (0, 1))
-        return "values identical within each group" if same else "variance negligible within both groups"
+        same = all(np.ptp(x[groups == g], axis=0).max() == 0 for g in np.unique(groups))
+        return "values identical within each group" if same else "variance negligible within every group"
     if np.ptp(x, axis=0).max() == 0:
         return "values identical in all subjects"
     if test == "correlation" and np.ptp(x, axis=0).min() > 0:

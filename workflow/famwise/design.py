@@ -13,6 +13,7 @@ from famwise.atomic import save_npz
 from famwise.errors import UserError
 from famwise.settings import ContrastSettings
 from famwise.spec.base import did_you_mean
+from famwise.spec.contrast_design import contrast_weights
 
 
 @dataclass(frozen=True)
@@ -22,8 +23,9 @@ class ContrastData:
     Attributes
     ----------
     x : ndarray, float32
-        (n_subjects, n_points) for one-sample, paired (differences A-B),
-        two-sample and correlation; (n_subjects, n_conditions, n_points) for
+        (n_subjects, n_points): each subject's weighted sum of its condition
+        maps (`weighted_sum`: the condition itself, paired differences A-B,
+        the weighted contrast); (n_subjects, n_conditions, n_points) for
         repeated measures. Points flatten (n_channels, n_freqs, n_times).
     test : str
         The spec's test name.
@@ -32,7 +34,8 @@ class ContrastData:
     freqs : ndarray, Hz
     times : ndarray, s
     groups : ndarray of int (n_subjects,) or None
-        0 for the first group, 1 for the second (two-sample).
+        Index of each subject's group in the contrast's list (two-sample,
+        between-groups).
     covariate : ndarray of float (n_subjects,) or None
         Per-subject covariate (correlation; regression: the tested covariate, coded).
     nuisance : ndarray of float64 (n_subjects, q) or None
@@ -139,12 +142,10 @@ def build_contrast(
 
     stacks = [np.stack([condition_values(tf, s, c) for c in settings.conditions]) for tf, s in zip(maps, subjects)]
     data = np.stack(stacks).astype(np.float64)  # (n, k, P)
-    if test == "paired" or (test == "regression" and data.shape[1] == 2):
-        x = data[:, 0] - data[:, 1]
-    elif test == "repeated-measures":
+    if test == "repeated-measures":
         x = data
     else:
-        x = data[:, 0]
+        x = weighted_sum(data, contrast_weights(test, len(settings.conditions), settings.weights))
     return ContrastData(
         x=np.ascontiguousarray(x, dtype=np.float32),
         test=test,
@@ -168,6 +169,19 @@ def _regression_design(settings: ContrastSettings) -> dict:
         "nuisance_columns": tuple(settings.nuisance_columns or ()),
         "design_terms": tuple(settings.design_terms or ()),
     }
+
+
+def weighted_sum(data: np.ndarray, weights) -> np.ndarray:
+    """Each subject's sum of w_j times condition j, conditions added in order, float64 (n, P).
+
+    The first term is w_0 x_0 (exactly x_0 for weight 1) and each further
+    term is added, so weights (1,) and (1, -1) give the condition itself and
+    the difference x_0 - x_1 bit for bit.
+    """
+    total = weights[0] * data[:, 0]
+    for j in range(1, len(weights)):
+        total = total + weights[j] * data[:, j]
+    return total
 
 
 def _check_rates(rates: list[float | None], subjects: list[str]) -> None:

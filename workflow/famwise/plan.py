@@ -39,6 +39,9 @@ from famwise.settings_codec import from_plain
 from famwise.spec import LoadedStudy, load_study
 from famwise.spec.base import IDENTIFIER
 
+GROUP_TESTS = ("two-sample", "between-groups")
+"""Tests that compare the spec's groups (each subject's group index in the contrast's settings)."""
+
 
 @dataclass(frozen=True)
 class Plan:
@@ -135,7 +138,7 @@ class Plan:
                     f"subject {subject}: file not found: {files[0]} (from {name} subjects.path '{spec.path}')"
                 )
         for index, contrast in enumerate(self.study.contrasts):
-            if contrast.test == "two-sample":
+            if contrast.test in GROUP_TESTS:
                 present = sorted(set(self.groups.values()))
                 for group in contrast.groups:
                     if group not in present:
@@ -154,7 +157,9 @@ class Plan:
         scheme = {
             "one-sample": "sign-flip",
             "paired": "sign-flip",
+            "weighted": "sign-flip",
             "two-sample": "label",
+            "between-groups": "label",
             "repeated-measures": "within-subject",
             "correlation": "covariate",
             "regression": "freedman-lane",
@@ -260,7 +265,7 @@ class Plan:
         contrast = self.contrast(name)
         subjects = list(self.subjects)
         groups = covariate = None
-        if contrast.test == "two-sample":
+        if contrast.test in GROUP_TESTS:
             subjects = [sub for sub in subjects if self.groups.get(sub) in contrast.groups]
             groups = [contrast.groups.index(self.groups[sub]) for sub in subjects]
         if contrast.test == "correlation":
@@ -286,6 +291,7 @@ class Plan:
                 "groups": groups,
                 "covariate": covariate,
                 **regression,
+                "weights": contrast.weights,
             },
         )
 
@@ -364,9 +370,10 @@ class Plan:
             {
                 "test": contrast.test,
                 "conditions": contrast.conditions,
-                "group_names": contrast.groups if contrast.test == "two-sample" else None,
+                "group_names": contrast.groups if contrast.test in GROUP_TESTS else None,
                 "covariate_name": contrast.covariate if contrast.test in ("correlation", "regression") else None,
                 "regions": regions,
+                "weights": contrast.weights,
             },
         )
 

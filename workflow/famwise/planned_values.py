@@ -11,9 +11,10 @@ from pathlib import Path
 
 import numpy as np
 
-from famwise.design import load_contrast
+from famwise.design import load_contrast, weighted_sum
 from famwise.errors import UserError
 from famwise.settings import PlannedRegionSettings, SubjectValuesSettings
+from famwise.spec.contrast_design import contrast_weights
 from famwise.subject_values import measure_text, value_columns, write_subject_values
 
 
@@ -89,18 +90,19 @@ def run_planned(settings: SubjectValuesSettings, subjects: Path, files: list[Pat
         raise UserError(f"planned values: {len(files)} time-frequency files for {len(data.subjects)} subjects")
     means = planned_means(files, regions, conditions)
     test = settings.test
+    weights = contrast_weights(test, len(conditions), settings.weights)
     lines = []
     for r, region in enumerate(regions):
         size = len(region.channels) * _count(files[0], region, r)
         for s, subject in enumerate(data.subjects):
             line = {"id": region.name, "n_points": size, "subject": subject}
-            if test == "two-sample":
+            if settings.group_names is not None:
                 line["group"] = settings.group_names[int(data.groups[s])]
             if data.covariate is not None:
                 line["covariate"] = float(data.covariate[s])
             line |= {name: float(means[s, k, r]) for k, name in enumerate(conditions)}
-            if test != "repeated-measures":
-                line["contrast"] = float(means[s, 0, r] - means[s, 1, r]) if test == "paired" else float(means[s, 0, r])
+            if weights is not None:
+                line["contrast"] = float(weighted_sum(means[None, s, :, r], weights)[0])
             lines.append(line)
     write_subject_values(
         out,
@@ -110,8 +112,9 @@ def run_planned(settings: SubjectValuesSettings, subjects: Path, files: list[Pat
             conditions,
             regions,
             measure_text(files[0]),
-            grouped=test == "two-sample",
+            grouped=settings.group_names is not None,
             covariate=settings.covariate_name if data.covariate is not None else None,
+            weights=settings.weights,
         ),
     )
 
@@ -132,6 +135,7 @@ def _sidecar(
     *,
     grouped: bool,
     covariate: str | None,
+    weights: tuple[float, ...] | None,
 ) -> dict:
     described = {
         "id": {
@@ -143,4 +147,6 @@ def _sidecar(
             },
         },
     }
-    return described | value_columns(test, conditions, measure, over="the region", grouped=grouped, covariate=covariate)
+    return described | value_columns(
+        test, conditions, measure, over="the region", grouped=grouped, covariate=covariate, weights=weights
+    )

@@ -2,17 +2,21 @@
 
 import math
 
+from famwise.contrast_words import weighted_formula
+from famwise.spec.contrast_design import contrast_weights
+
 
 def model_formula(response: str, tested: str, nuisance: list[str]) -> str:
     """E.g. ``"high power ~ age + sex + site"`` (tested covariate first)."""
     return f"{response} ~ {' + '.join([tested, *nuisance])}"
 
 
-def response_words(conditions: list[str], measure: str) -> str:
-    """The modelled map: ``"high power"`` or ``"(high - low) power"``."""
-    if len(conditions) == 2:
-        return f"({conditions[0]} - {conditions[1]}) {measure}"
-    return f"{conditions[0]} {measure}"
+def response_words(conditions: list[str], measure: str, weights=None) -> str:
+    """The modelled map: ``"high power"``, ``"(high - low) power"`` or the weighted sum, e.g. ``"(a - b - c + d) power"``."""
+    weights = contrast_weights("regression", len(conditions), weights)
+    if len(conditions) == 1 and weights == (1.0,):
+        return f"{conditions[0]} {measure}"
+    return f"({weighted_formula(conditions, weights).replace(' minus ', ' - ')}) {measure}"
 
 
 def permutation_words(n_subjects: int, permutations: int) -> str:
@@ -34,7 +38,7 @@ def check_line(plan, contrast) -> str:
     n = len(plan.subjects)
     df = n - 2 - len(coded.nuisance_columns)
     line = (
-        f"regression: {model_formula(response_words(contrast.conditions, measure), contrast.covariate, contrast.nuisance or [])}"
+        f"regression: {model_formula(response_words(contrast.conditions, measure, contrast.weights), contrast.covariate, contrast.nuisance or [])}"
         f", testing {contrast.covariate}, {n} subjects, df {df}"
     )
     if study.inference.needs_null:

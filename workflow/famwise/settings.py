@@ -133,11 +133,13 @@ class AnalysisSettings:
 class ContrastSettings:
     """Subjects' maps -> ``contrasts/<c>/subjects.npz``.
 
-    ``groups`` is each subject's group index (two-sample: 0 = first group),
-    ``covariate`` each subject's value (correlation; regression: the tested
-    covariate, coded); None otherwise. Regression only: ``nuisance`` each
-    subject's nuisance columns, ``nuisance_columns`` their names and
-    ``design_terms`` how each covariate was coded (`famwise.stats.coding`).
+    ``groups`` is each subject's group index (two-sample, between-groups: 0 =
+    first group), ``covariate`` each subject's value (correlation; regression:
+    the tested covariate, coded); None otherwise. ``weights`` are the spec's
+    condition weights (None: first minus second for two conditions, the
+    condition itself for one). Regression only: ``nuisance`` each subject's
+    nuisance columns, ``nuisance_columns`` their names and ``design_terms``
+    how each covariate was coded (`famwise.stats.coding`).
     """
 
     name: str
@@ -150,6 +152,7 @@ class ContrastSettings:
     nuisance: tuple[tuple[float, ...], ...] | None = None
     nuisance_columns: tuple[str, ...] | None = None
     design_terms: tuple[str, ...] | None = None
+    weights: tuple[float, ...] | None = None
 
 
 @dataclass(frozen=True)
@@ -333,8 +336,9 @@ class PlannedRegionSettings:
 class SubjectValuesSettings:
     """One contrast's maps (+ a correction's clusters) -> ``subject_values.tsv`` or ``planned_values.tsv``.
 
-    ``group_names`` are the two-sample groups in index order, ``covariate_name``
-    the correlation's covariate; None otherwise.
+    ``group_names`` are the two-sample or between-groups groups in index
+    order, ``covariate_name`` the correlation's covariate; None otherwise.
+    ``weights`` as in `ContrastSettings`.
     """
 
     test: str
@@ -342,6 +346,7 @@ class SubjectValuesSettings:
     group_names: tuple[str, ...] | None
     covariate_name: str | None
     regions: tuple[PlannedRegionSettings, ...]
+    weights: tuple[float, ...] | None = None
 
 
 @dataclass(frozen=True)

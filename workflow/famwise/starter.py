@@ -12,6 +12,7 @@ from famwise import bids
 from famwise.atomic import write_text
 from famwise.errors import UserError
 from famwise.io import discover_pattern
+from famwise.starter_designs import offered_contrasts
 
 
 def write_starter_spec(data: Path, out: Path) -> None:
@@ -31,6 +32,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
     subjects = bids.discover_subjects(data)
     found = ""
     covariates = ([], [])
+    groups = Counter()
     if subjects:
         recordings = [p for subject in subjects for p in bids.recording_files(data, subject)]
         if not recordings:
@@ -41,6 +43,9 @@ def write_starter_spec(data: Path, out: Path) -> None:
         source, path, task, labels = "bids", relative, _bids_task(recordings[0]), _bids_labels(recordings)
         found = _formats_found(recordings)
         covariates = participant_columns(data, subjects)
+        groups = Counter(
+            row["group"] for row in bids.read_participants(data).values() if row.get("group") not in (None, "", "n/a")
+        )
     else:
         pattern = _epochs_pattern(data)
         subjects = discover_pattern(out.parent, f"{relative}/{pattern}")
@@ -60,6 +65,7 @@ def write_starter_spec(data: Path, out: Path) -> None:
             labels,
             name=data.name,
             found=found,
+            groups=groups,
             timing=_timing(source, data, out.parent, path, task, subjects),
             covariates=covariates,
         ),
@@ -166,7 +172,17 @@ def _condition_name(label: str) -> str:
 
 
 def _starter_text(
-    source, path, task, subjects, labels: Counter, *, name: str, found: str, timing: dict, covariates=([], [])
+    source,
+    path,
+    task,
+    subjects,
+    labels: Counter,
+    *,
+    name: str,
+    found: str,
+    timing: dict,
+    groups: Counter,
+    covariates=([], []),
 ) -> str:
     conditions = (
         "\n".join(
@@ -179,6 +195,7 @@ def _starter_text(
         [_condition_name(label) for label in sorted(labels)[:2]] if len(labels) >= 2 else ["condition-a", "condition-b"]
     )
     task_line = f"  task: {task}\n" if task else ""
+    offered = offered_contrasts([_condition_name(label) for label in sorted(labels)], groups) if labels else ""
     epoch = timing["epoch_ms"] or (-500, 1500)
     baseline = timing["baseline_ms"]
     baseline_text = (
@@ -227,7 +244,7 @@ contrasts:
   - name: {first[0]}-vs-{first[1]}
     test: paired
     conditions: [{first[0]}, {first[1]}]
-{_regression_offer(covariates, first[0])}
+{offered}{_regression_offer(covariates, first[0])}
 inference:
   alpha: 0.05
   permutations: 1000

@@ -24,9 +24,11 @@ from pathlib import Path
 import numpy as np
 
 from famwise.atomic import write_text
+from famwise.contrast_words import weighted_formula
 from famwise.design import ContrastData, load_contrast
 from famwise.errors import UserError
 from famwise.settings import SubjectValuesSettings
+from famwise.spec.contrast_design import contrast_weights
 
 CAVEAT = (
     "Selected by the same data the test used (circular analysis; Kriegeskorte et al. 2009, "
@@ -166,7 +168,14 @@ def subject_value_rows(
 
 
 def value_columns(
-    test: str, conditions: list[str], measure: str, *, over: str, grouped: bool, covariate: str | None
+    test: str,
+    conditions: list[str],
+    measure: str,
+    *,
+    over: str,
+    grouped: bool,
+    covariate: str | None,
+    weights: tuple[float, ...] | None = None,
 ) -> dict:
     """Descriptions of the columns every values table shares, from ``n_points`` on; ``over`` names the
     averaged points (e.g. "the cluster's points")."""
@@ -182,14 +191,20 @@ def value_columns(
     for name in conditions:
         described[name] = {"Description": f"Mean of the subject's {name} map ({measure}) over {over}."}
     if test != "repeated-measures":
-        two = test in ("paired", "regression") and len(conditions) == 2
-        what = f"{conditions[0]} minus {conditions[1]}" if two else conditions[0]
+        what = weighted_formula(conditions, contrast_weights(test, len(conditions), weights))
         described["contrast"] = {"Description": f"Mean over {over} of the value the test used ({what}; {measure})."}
     return described
 
 
 def sidecar(
-    test: str, conditions: list[str], measure: str, *, noun: str, grouped: bool, covariate: str | None = None
+    test: str,
+    conditions: list[str],
+    measure: str,
+    *,
+    noun: str,
+    grouped: bool,
+    covariate: str | None = None,
+    weights: tuple[float, ...] | None = None,
 ) -> dict:
     """Column descriptions of subject_values.tsv; ``measure`` describes the maps' values and unit."""
     described = {
@@ -198,7 +213,7 @@ def sidecar(
         "p": {"Description": f"The {noun}'s p as in clusters.tsv."},
     }
     described |= value_columns(
-        test, conditions, measure, over=f"the {noun}'s points", grouped=grouped, covariate=covariate
+        test, conditions, measure, over=f"the {noun}'s points", grouped=grouped, covariate=covariate, weights=weights
     )
     described["Caveat"] = CAVEAT
     return described
@@ -225,7 +240,7 @@ def run(settings: SubjectValuesSettings, subjects: Path, result: Path, tf_files:
             "rerun the correction"
         )
     values = condition_means(tf_files, data, conditions, labels, [int(r["id"]) for r in rows])
-    groups = list(settings.group_names) if settings.test == "two-sample" else None
+    groups = list(settings.group_names) if settings.group_names is not None else None
     lines = subject_value_rows(data, values, conditions, rows, labels, groups)
     columns = sidecar(
         settings.test,
@@ -234,6 +249,7 @@ def run(settings: SubjectValuesSettings, subjects: Path, result: Path, tf_files:
         noun="region" if method == "tfce" else "cluster",
         grouped=groups is not None,
         covariate=settings.covariate_name if data.covariate is not None else None,
+        weights=settings.weights,
     )
     write_subject_values(out, lines, columns)
 

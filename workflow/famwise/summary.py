@@ -3,6 +3,7 @@
 import warnings
 
 from famwise.bids_notes import left_out_lines, marker_warnings
+from famwise.contrast_words import contrast_line
 from famwise.plan import Plan
 from famwise.regression_words import check_line
 
@@ -52,16 +53,7 @@ def describe_plan(plan: Plan) -> str:
     if note:
         lines.append(note)
     lines.append("Contrasts:")
-    for contrast in s.contrasts:
-        detail = " vs ".join(contrast.conditions)
-        if contrast.groups:
-            detail += f" ({contrast.groups[0]} minus {contrast.groups[1]})"
-        if contrast.covariate:
-            detail += f" with covariate {contrast.covariate}"
-        if contrast.test == "regression":
-            lines.append(f"  - {contrast.name}: {check_line(plan, contrast)}")
-            continue
-        lines.append(f"  - {contrast.name}: {contrast.test}, {detail}")
+    lines += [f"  - {line}" for line in contrast_lines(plan)]
     lines.append(
         f"Inference: {i.statistic} statistic, {i.tail}, alpha {i.alpha:g}, family {i.family}, "
         f"degenerate points: {i.degenerate_points}"
@@ -78,6 +70,24 @@ def describe_plan(plan: Plan) -> str:
         lines.append("")
         lines.append(_graph_summary(plan))
     return "\n".join(lines)
+
+
+def contrast_lines(plan: Plan) -> list[str]:
+    """Each contrast in words, with its subjects and its permutation count (exact or Monte Carlo)."""
+    from famwise.preflight.spec_checks import permutation_table  # numpy-heavy: only for check
+
+    lines = []
+    for contrast in plan.study.contrasts:
+        settings = plan.contrast_settings(contrast.name)
+        sizes = None
+        if settings.groups is not None:
+            sizes = [settings.groups.count(g) for g in range(len(contrast.groups))]
+        table = permutation_table(plan, contrast) if plan.study.inference.needs_null else None
+        if contrast.test == "regression":
+            lines.append(f"{contrast.name}: {check_line(plan, contrast)}")
+            continue
+        lines.append(contrast_line(contrast, n_subjects=len(settings.subjects), table=table, group_sizes=sizes))
+    return lines
 
 
 def window_note(time_ms) -> str | None:

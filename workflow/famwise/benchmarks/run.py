@@ -58,6 +58,7 @@ def _timed_rerun(folder: str) -> float:
 def _rows(quick: bool):
     from famwise.benchmarks.clusters import bench_clusters
     from famwise.benchmarks.decomposition import bench_decomposition
+    from famwise.benchmarks.designs import bench_between_groups_null
     from famwise.benchmarks.regression import bench_regression_null
     from famwise.benchmarks.stats import bench_maxt_null
     from famwise.benchmarks.stepdown import bench_stepdown
@@ -65,6 +66,7 @@ def _rows(quick: bool):
     yield bench_decomposition(quick)
     yield from bench_maxt_null(quick)
     yield bench_regression_null(quick)
+    yield bench_between_groups_null(quick)
     yield bench_stepdown(quick)
     yield from bench_clusters(quick)
     yield pipeline_noop(quick)

@@ -3,10 +3,11 @@
 A null dataset keeps every subject's map whole, so the real spatial, spectral
 and temporal smoothness stays, and breaks only the link the contrast tests:
 
-- one-sample, paired: each subject's map (or difference map) times a random
-  sign;
-- two-sample, correlation: the subjects' maps are reassigned to the group
-  labels (covariate values) in a random order;
+- one-sample, paired, weighted: each subject's map (difference map, weighted
+  sum of condition maps) times a random sign;
+- two-sample (also the group x condition interaction), between-groups,
+  correlation: the subjects' maps are reassigned to the group labels
+  (covariate values) in a random order;
 - repeated measures: each subject's condition maps are reassigned to the
   conditions in a random order, within that subject;
 - regression: the reduced model's fit (intercept and nuisance covariates)
@@ -56,6 +57,7 @@ from famwise.nulls.tables import shard_bounds
 from famwise.observed import left_out_points, observed_arrays, save_observed
 from famwise.settings import CalibrationSettings
 from famwise.settings_codec import to_json
+from famwise.stats import SIGN_FLIP_TESTS
 
 STREAM = 0xCA11
 """Tag of the calibration's random streams (apart from the permutation table's)."""
@@ -78,15 +80,15 @@ def null_dataset(data: ContrastData, rng: np.random.Generator) -> np.ndarray:
     Returns
     -------
     ndarray, same shape and dtype as ``data.x``
-        Sign-flipped maps (one-sample, paired), maps in a random subject
-        order against fixed labels or covariate values (two-sample,
-        correlation), condition maps in a random order within each
-        subject (repeated measures), or the reduced model's fit plus its
+        Sign-flipped maps (one-sample, paired, weighted), maps in a random
+        subject order against fixed labels or covariate values (two-sample,
+        between-groups, correlation), condition maps in a random order within
+        each subject (repeated measures), or the reduced model's fit plus its
         residuals in a random order (regression).
     """
     x = data.x
     n = x.shape[0]
-    if data.test in ("one-sample", "paired"):
+    if data.test in SIGN_FLIP_TESTS:
         signs = (1 - 2 * rng.integers(0, 2, size=n)).astype(x.dtype)
         return signs.reshape((n,) + (1,) * (x.ndim - 1)) * x
     if data.test == "repeated-measures":

@@ -174,9 +174,9 @@ def write_table(
         "permutation_table_rows": table_rows,
         "alpha": settings.alpha,
         "family": "each contrast on its own (per-contrast), whatever inference.family says",
-        "null_datasets": "subjects' own maps with random sign flips (one-sample, paired), shuffled subject order "
-        "against fixed labels or covariate (two-sample, correlation), conditions shuffled within "
-        "subject (repeated measures), or the reduced model's fit plus its residuals in a shuffled subject "
+        "null_datasets": "subjects' own maps with random sign flips (one-sample, paired, weighted), shuffled subject "
+        "order against fixed labels or covariate (two-sample, between-groups, correlation), conditions shuffled "
+        "within subject (repeated measures), or the reduced model's fit plus its residuals in a shuffled subject "
         "order (regression, Freedman-Lane style)",
         "basis": basis,
     }

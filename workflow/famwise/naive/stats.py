@@ -5,6 +5,8 @@ The oracle of the fast paths in `famwise.nulls.engine` and the baseline of
 from the textbook formulas otherwise; nothing is shared with famwise.stats.
 """
 
+import itertools
+
 import numpy as np
 from scipy import stats as sps
 
@@ -15,16 +17,16 @@ def permuted_design(x, row, *, test, groups=None, covariate=None):
     Returns
     -------
     x : ndarray
-        Sign-flipped (one-sample, paired) or with conditions permuted within
+        Sign-flipped (one-sample, paired, weighted) or with conditions permuted within
         subject (repeated measures); otherwise unchanged.
     groups, covariate : ndarray or None
-        Permuted labels (two-sample) or covariate (correlation).
+        Permuted labels (two-sample, between-groups) or covariate (correlation).
     """
     x = np.asarray(x, dtype=np.float64)
     row = np.asarray(row)
-    if test in ("one-sample", "paired"):
+    if test in ("one-sample", "paired", "weighted"):
         return x * row[:, None].astype(np.float64), None, None
-    if test == "two-sample":
+    if test in ("two-sample", "between-groups"):
         return x, np.asarray(groups)[row], None
     if test == "correlation":
         return x, None, np.asarray(covariate, dtype=np.float64)[row]
@@ -36,7 +38,7 @@ def permuted_design(x, row, *, test, groups=None, covariate=None):
 
 def statistic_map(x, *, test, groups=None, covariate=None, statistic="t", trim=0.2, equal_var=True):
     """The statistic per point of one data set, float64 (P,)."""
-    if test in ("one-sample", "paired"):
+    if test in ("one-sample", "paired", "weighted"):
         if statistic == "yuen":
             return one_sample_trimmed_t(x, trim)
         return sps.ttest_1samp(x, 0.0, axis=0).statistic
@@ -45,6 +47,9 @@ def statistic_map(x, *, test, groups=None, covariate=None, statistic="t", trim=0
         return sps.ttest_ind(
             x[groups == 0], x[groups == 1], axis=0, equal_var=equal_var, trim=trim if statistic == "yuen" else 0
         ).statistic
+    if test == "between-groups":
+        groups = np.asarray(groups)
+        return sps.f_oneway(*[x[groups == g] for g in np.unique(groups)], axis=0).statistic
     if test == "correlation":
         n = x.shape[0]
         r = sps.pearsonr(np.broadcast_to(np.asarray(covariate)[:, None], x.shape), x, axis=0).statistic
@@ -85,3 +90,28 @@ def repeated_measures_f(x):
     ss_total = ((x - grand) ** 2).sum(axis=(0, 1))
     ss_error = ss_total - ss_conditions - ss_subjects
     return (ss_conditions / (k - 1)) / (ss_error / ((n - 1) * (k - 1)))
+
+
+def weighted_sums(maps, weights):
+    """Each subject's weighted sum of its condition maps, one subject and condition at a time.
+
+    Parameters
+    ----------
+    maps : array_like, shape (n, k, P)
+    weights : sequence of float, length k
+
+    Returns
+    -------
+    ndarray of float64, shape (n, P)
+    """
+    maps = np.asarray(maps, dtype=np.float64)
+    out = np.zeros((maps.shape[0], maps.shape[2]))
+    for i in range(maps.shape[0]):
+        for j, w in enumerate(weights):
+            out[i] += w * maps[i, j]
+    return out
+
+
+def distinct_label_assignments(groups) -> set[tuple[int, ...]]:
+    """Every distinct label vector with the group sizes of ``groups``, from all n! orders of the labels."""
+    return set(itertools.permutations(np.asarray(groups).tolist()))

@@ -22,6 +22,8 @@ Fast paths:
   (weights 0 / 1); group 1 takes the totals minus group 0.
 - within-subject (F): condition sums of the subject-centred data; the
   within-subject sum of squares does not change.
+- labels of three or more groups (between-groups F): group sums of the
+  grand-mean-centred data (`famwise.nulls.between_block`).
 - covariate (correlation): r is the permuted standardised covariate weighted
   sum of the standardised data.
 - Freedman-Lane (regression): weighted sums of the reduced model's residuals
@@ -47,10 +49,11 @@ from famwise.kernels.resampled_stats import (
     _signflip_yuen,
     _weighted_sums,
 )
+from famwise.nulls.between_block import between_f_block
 from famwise.nulls.collectors.protocol import NullCollector, merge_shard_arrays
 from famwise.nulls.freedman_lane import freedman_lane_block
 from famwise.nulls.tables import PermutationTable, shard_bounds
-from famwise.stats import check_design
+from famwise.stats import SIGN_FLIP_TESTS, check_design
 from famwise.stats.regression import check_regression
 from famwise.stats.trimmed import n_trimmed
 
@@ -79,16 +82,18 @@ def block_function(
     Returns
     -------
     callable
-        Takes rows of the permutation table: int8 signs (b, n) for one-sample
-        and paired, int subject permutations (b, n) for two-sample,
-        correlation and regression, int within-subject condition permutations (b, n, k) for
+        Takes rows of the permutation table: int8 signs (b, n) for one-sample,
+        paired and weighted, int subject permutations (b, n) for two-sample,
+        between-groups, correlation and regression, int within-subject condition permutations (b, n, k) for
         repeated measures. Row semantics: flipped data s_i x_i; subject i gets
         the label ``groups[row[i]]``, the covariate ``covariate[row[i]]`` or
         the reduced model's residual of subject ``row[i]``;
         subject i's condition j takes the data of its condition ``row[i, j]``.
     """
-    if test in ("one-sample", "paired"):
+    if test in SIGN_FLIP_TESTS:
         return _signflip_yuen_block(x, trim) if statistic == "yuen" else _signflip_t_block(x)
+    if test == "between-groups":
+        return between_f_block(x, groups)
     if test == "two-sample":
         if statistic == "yuen":
             return _label_yuen_block(x, groups, trim, equal_var)

@@ -7,8 +7,9 @@ the same way whatever the shard, block or thread (see
 `famwise.nulls.engine`), so merged nulls are bit-identical for any number
 of shards or cores.
 
-Schemes: sign flips (one-sample, paired: under H0 each subject's map is
-symmetric about 0), label permutations (two-sample), condition permutations
+Schemes: sign flips (one-sample, paired, weighted: under H0 each subject's
+map is symmetric about 0), label permutations (two-sample, between-groups:
+the group sizes are kept, `famwise.nulls.multigroup`), condition permutations
 within subject (repeated measures), covariate permutations (correlation),
 permutations of the reduced model's residuals (regression, Freedman & Lane
 1983; `famwise.nulls.freedman_lane`).
@@ -34,12 +35,15 @@ from dataclasses import dataclass
 import numpy as np
 
 from famwise.errors import FamwiseWarning, UserError
+from famwise.nulls.multigroup import enumerate_assignments, n_assignments, n_relabellings
 from famwise.stats import TAILS, TESTS, check_design
 
 SCHEMES = {
     "one-sample": "sign-flip",
     "paired": "sign-flip",
+    "weighted": "sign-flip",
     "two-sample": "label",
+    "between-groups": "label",
     "repeated-measures": "within-subject",
     "correlation": "covariate",
     "regression": "freedman-lane",
@@ -68,7 +72,8 @@ class PermutationTable:
     n_identical : int
         Rows of an exact table that give the identity's statistic for any
         data (within-subject: the k! relabellings of all subjects at once
-        leave F unchanged; otherwise 1).
+        leave F unchanged; between groups: the swaps of whole groups of equal
+        size, `famwise.nulls.multigroup.n_relabellings`; otherwise 1).
     n_mirrored : int
         Rows of an exact table that give minus the identity's statistic for
         any data (sign flips: flipping every subject; labels with equal group
@@ -92,6 +97,7 @@ def make_table(test, *, n_subjects, permutations, seed, groups=None, n_condition
 
     Exact enumeration when every distinct resampling fits:
     n_distinct <= permutations + 1 (2^n sign flips, C(n, n0) relabellings,
+    n! / (n_0! ... n_{k-1}!) for k groups,
     (k!)^n within-subject permutations, n! covariate orders), identity first.
     Otherwise Monte Carlo: the identity and then permutations rows drawn
     independently (with replacement, so a row may repeat or equal the
@@ -108,7 +114,7 @@ def make_table(test, *, n_subjects, permutations, seed, groups=None, n_condition
         Requested number of random resamplings (besides the identity).
     seed : int
     groups : array_like of int, shape (n_subjects,), optional
-        0/1 labels (two-sample only).
+        0/1 labels (two-sample), 0 .. k - 1 (between-groups).
     n_conditions : int, optional
         k (repeated measures only).
 
@@ -126,9 +132,11 @@ def make_table(test, *, n_subjects, permutations, seed, groups=None, n_condition
     else:
         rows = _draw(scheme, n, k, permutations, np.random.default_rng(seed))
     n_identical = math.factorial(k) if scheme == "within-subject" else 1
+    if test == "between-groups":
+        n_identical = n_relabellings(groups)
     if scheme == "sign-flip":
         n_mirrored = 1
-    elif scheme == "label":
+    elif scheme == "label" and test == "two-sample":
         n_mirrored = int(2 * np.count_nonzero(groups == 0) == n)
     else:
         n_mirrored = 0
@@ -198,7 +206,7 @@ def _check_table_inputs(test, n, permutations, seed, groups, n_conditions):
     if n < 3:
         raise UserError(f"the {test} test needs at least 3 subjects, got {n}")
     k = None
-    if test == "two-sample":
+    if test in ("two-sample", "between-groups"):
         check_design(np.zeros((n, 1)), test=test, groups=groups)
     if test == "repeated-measures":
         if n_conditions is None or n_conditions < 3:
@@ -214,7 +222,7 @@ def _n_distinct(scheme, n, k, groups) -> int:
     if scheme == "sign-flip":
         return 2**n
     if scheme == "label":
-        return math.comb(n, int(np.count_nonzero(groups == 0)))
+        return n_assignments(groups)
     if scheme == "within-subject":
         return math.factorial(k) ** n
     return math.factorial(n)
@@ -226,6 +234,8 @@ def _enumerate(scheme, n, k, groups) -> np.ndarray:
         return (1 - 2 * bits).astype(np.int8)
     if scheme in ("covariate", "freedman-lane"):
         return np.array(list(itertools.permutations(range(n))), dtype=np.int32)
+    if scheme == "label" and groups.max() > 1:
+        return enumerate_assignments(groups)
     if scheme == "within-subject":
         perms = np.array(list(itertools.permutations(range(k))), dtype=np.int32)
         n_perms = perms.shape[0]

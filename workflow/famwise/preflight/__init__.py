@@ -11,7 +11,7 @@ from famwise.errors import UserError
 from famwise.preflight.data_checks import check_consistent, check_epoch_counts, check_labels, check_windows_fit
 from famwise.preflight.graph_check import check_channels
 from famwise.preflight.headers import SubjectHeader, bids_header, npz_epochs_header
-from famwise.preflight.spec_checks import check_exclusions, check_group_sizes, check_shards
+from famwise.preflight.spec_checks import check_exclusions, check_group_sizes, check_shards, check_statistic
 from famwise.preflight.timing import check_timing
 from famwise.preflight.where import Where
 
@@ -29,6 +29,7 @@ def preflight(plan) -> list[str]:
     where = Where(plan.loaded)
     check_exclusions(plan, where)
     check_group_sizes(plan, where)
+    check_statistic(plan, where)
     check_shards(plan, where)
     headers = read_headers(plan)
     found = []

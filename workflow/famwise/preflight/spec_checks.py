@@ -20,20 +20,38 @@ def check_exclusions(plan, where: Where) -> None:
 
 
 def check_group_sizes(plan, where: Where) -> None:
-    """Each group of a two-sample contrast holds enough analysed subjects for the test."""
+    """Each group of a two-sample or between-groups contrast holds enough analysed subjects for the test."""
     for index, contrast in enumerate(plan.study.contrasts):
-        if contrast.test != "two-sample":
+        if contrast.test not in ("two-sample", "between-groups"):
             continue
-        from famwise.stats.group import MIN_SUBJECTS  # imports scipy.stats (2 s): only when needed
+        from famwise.stats.between import MIN_PER_GROUP  # imports scipy.stats (2 s): only when needed
+        from famwise.stats.group import MIN_SUBJECTS
 
+        fewest = MIN_SUBJECTS if contrast.test == "two-sample" else MIN_PER_GROUP
         for group in contrast.groups:
             members = [s for s, g in plan.groups.items() if g == group]
-            if 0 < len(members) < MIN_SUBJECTS:
+            if 0 < len(members) < fewest:
                 noun = "subject" if len(members) == 1 else "subjects"
                 raise UserError(
                     f"{where('contrasts', index, 'groups')}: group '{group}' has {len(members)} analysed {noun} "
-                    f"({', '.join(members)}); the two-sample test needs at least {MIN_SUBJECTS} per group"
+                    f"({', '.join(members)}); the {contrast.test} test needs at least {fewest} per group"
                 )
+
+
+YUEN_TESTS = ("one-sample", "paired", "weighted", "two-sample")
+"""Tests with a trimmed-mean (Yuen) form."""
+
+
+def check_statistic(plan, where: Where) -> None:
+    """``inference.statistic: yuen`` only with contrasts whose test has a trimmed-mean form."""
+    if plan.study.inference.statistic != "yuen":
+        return
+    for contrast in plan.study.contrasts:
+        if contrast.test not in YUEN_TESTS:
+            raise UserError(
+                f"{where('inference', 'statistic')}: 'yuen' (trimmed means) is available for the "
+                f"{', '.join(YUEN_TESTS)} tests, not for contrast {contrast.name}'s '{contrast.test}'; use 't'"
+            )
 
 
 def permutation_table(plan, contrast):
@@ -75,7 +93,7 @@ def attainability_warnings(plan) -> list[str]:
     warnings = []
     for contrast in plan.study.contrasts:
         table = permutation_table(plan, contrast)
-        tail = "greater" if contrast.test == "repeated-measures" else inference.tail
+        tail = "greater" if contrast.test in ("repeated-measures", "between-groups") else inference.tail
         smallest = smallest_attainable_p(table, tail=tail)
         if smallest > inference.alpha:
             kind = "all" if table.exact else "random"

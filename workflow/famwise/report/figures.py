@@ -18,7 +18,7 @@ _FINE = 4
 
 def stat_label(contrast: ReportedContrast) -> str:
     """Axis label of the contrast's statistic."""
-    if contrast.test == "repeated-measures" or contrast.statistic.upper() == "F":
+    if contrast.test in ("repeated-measures", "between-groups") or contrast.statistic.upper() == "F":
         return "F"
     return "Yuen trimmed t" if contrast.statistic == "yuen" else "t"
 

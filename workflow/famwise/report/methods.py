@@ -7,6 +7,7 @@ from pathlib import Path
 import numpy as np
 
 from famwise import stage_warnings
+from famwise.report.design_methods import DESIGN_REFERENCES, design_reference_keys, design_sentence, is_design
 from famwise.report.provenance import package_versions
 from famwise.report.regression_methods import REFERENCES as REGRESSION_REFERENCES
 from famwise.report.regression_methods import regression_resampling, regression_sentence
@@ -41,6 +42,7 @@ REFERENCES = {
     "data do not establish significance of effect latency or location. "
     "Psychophysiology 56(6):e13335.",
 }
+REFERENCES |= DESIGN_REFERENCES
 """Full references, by the key of the method that cites them."""
 
 _DESCRIPTIONS = {
@@ -312,6 +314,8 @@ def _contrast(contrast: ReportedContrast, spec: dict, study: dict) -> str:
         test = f"Yuen's trimmed t test{f' (trim {fmt(trim)})' if trim is not None else ''} (Yuen 1974)"
     else:
         test = "t test"
+    if is_design(spec):
+        return design_sentence(contrast.name, spec, n=contrast.n, tail=contrast.tail, test_words=test)
     design = ""
     if spec.get("conditions"):
         design = ", " + " − ".join(map(str, spec["conditions"]))
@@ -415,7 +419,7 @@ def kinds_used(run: Run) -> list[str]:
             used.append(kind)
     if "cluster" in used:
         used.append("clusterwarn")
-    return used
+    return used + design_reference_keys(study.get("contrasts", []))
 
 
 def methods_from_run(run: Run) -> str:

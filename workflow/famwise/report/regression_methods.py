@@ -28,7 +28,11 @@ def regression_sentence(contrast: ReportedContrast, spec: dict, study: dict) -> 
     conditions = [str(c) for c in spec.get("conditions") or []]
     tested = str(spec.get("covariate", "the covariate"))
     nuisance = [str(n) for n in spec.get("nuisance") or []]
-    formula = model_formula(response_words(conditions, measure), tested, nuisance) if conditions else tested
+    formula = (
+        model_formula(response_words(conditions, measure, spec.get("weights")), tested, nuisance)
+        if conditions
+        else tested
+    )
     coding = "; ".join(contrast.design_terms)
     df = float(contrast.df) if contrast.df.size == 1 else float("nan")
     nuisance_words = f" with {', '.join(nuisance)} as nuisance covariates" if nuisance else ""

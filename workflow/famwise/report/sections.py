@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.contrast_words import design_direction, heading_words
 from famwise.degenerate import location
 from famwise.figure_style import figure_style, save_figure
 from famwise.report import figures
@@ -47,6 +48,8 @@ def direction(spec: dict, positive: bool) -> str:
     conditions = [str(c) for c in spec.get("conditions") or []]
     groups = [str(g) for g in spec.get("groups") or []]
     test = spec.get("test", "")
+    if test in ("weighted", "between-groups") or (test == "two-sample" and len(conditions) > 1):
+        return design_direction(spec, positive)
     if test == "two-sample" and len(groups) == 2:
         first, second = groups
     elif test == "paired" and len(conditions) == 2:
@@ -397,7 +400,7 @@ def _contrast_heading(contrast: ReportedContrast, spec: dict, study: dict) -> st
     return (
         f'<h2 id="{anchor("contrast", contrast.name)}">Contrast {esc(contrast.name)}</h2>'
         f'<p class="summary">{esc(contrast.test)}'
-        + (f", {esc(' − '.join(map(str, spec['conditions'])))}" if spec.get("conditions") else "")
+        + (f", {esc(heading_words(spec))}" if spec.get("conditions") else "")
         + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
         f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
         f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "

@@ -140,7 +140,7 @@ class Inference(SpecModel):
     tail: Tail = Field(default="two-sided", description="'two-sided', 'greater' or 'less'.")
     statistic: StatisticName = Field(
         default="t",
-        description="'t' or 'yuen' (trimmed-mean t, Yuen 1974) for one-sample, paired and two-sample tests.",
+        description="'t' or 'yuen' (trimmed-mean t, Yuen 1974) for one-sample, paired, weighted and two-sample tests.",
     )
     trim: float = Field(default=0.2, ge=0, lt=0.5, description="Trimming proportion of the Yuen statistic.")
     equal_var: bool = Field(default=True, description="Two-sample: Student's t (true) or Welch's t (false).")

@@ -21,6 +21,7 @@ from famwise.spec.base import (
     check_window,
     did_you_mean,
 )
+from famwise.spec.contrast_design import check_contrast_design
 from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's models in one namespace)
     ClusterCorrection,
     Correction,
@@ -36,7 +37,9 @@ from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's mod
 from famwise.spec.region import Analysis, PlannedRegion
 
 SubjectSource = Literal["epochs", "maps", "bids"]
-TestName = Literal["one-sample", "paired", "two-sample", "repeated-measures", "correlation", "regression"]
+TestName = Literal[
+    "one-sample", "paired", "weighted", "two-sample", "between-groups", "repeated-measures", "correlation", "regression"
+]
 BaselineMode = Literal["db", "percent", "zscore", "ratio", "none"]
 Measure = Literal["power", "induced", "itpc"]
 
@@ -313,13 +316,28 @@ class Contrast(SpecModel):
 
     name: str = Field(description="Contrast name (letters, digits, '-', '_', '.'; it becomes a folder name).")
     test: TestName = Field(
-        description="'one-sample', 'paired' (first minus second condition), 'two-sample' (first minus second group), 'repeated-measures' (F over 3+ conditions), 'correlation' (with a covariate) or 'regression' (the covariate's coefficient with the nuisance covariates in the model, Freedman-Lane permutations)."
+        description="'one-sample', 'paired' (first minus second condition), 'weighted' (each subject's weighted sum of "
+        "conditions, tested against zero), 'two-sample' (first minus second group), 'between-groups' (F over 3+ groups), "
+        "'repeated-measures' (F over 3+ conditions), 'correlation' (with a covariate) or 'regression' (the covariate's "
+        "coefficient with the nuisance covariates in the model, Freedman-Lane permutations)."
     )
     conditions: list[str] = Field(
         min_length=1,
-        description="Conditions compared: one (one-sample, two-sample, correlation, regression), two (paired; regression: first minus second) or three or more (repeated-measures).",
+        description="Conditions compared: one (one-sample, two-sample, between-groups, correlation, regression), two "
+        "(paired; two-sample, between-groups and regression: each subject's first minus second, for two-sample the "
+        "group x condition interaction), any number with weights (weighted, two-sample, between-groups, regression) "
+        "or three or more (repeated-measures).",
     )
-    groups: list[str] | None = Field(default=None, description="Two groups for 'two-sample' (first minus second).")
+    weights: list[float] | None = Field(
+        default=None,
+        description="One weight per condition (weighted, two-sample, between-groups, regression): each subject's value "
+        "is the weighted sum of its condition maps, e.g. [1, -1, -1, 1] for the interaction of a 2x2 within-subject "
+        "design. Weights over two or more conditions must sum to zero.",
+    )
+    groups: list[str] | None = Field(
+        default=None,
+        description="Two groups for 'two-sample' (first minus second); three or more for 'between-groups'.",
+    )
     covariate: str | None = Field(
         default=None, description="Covariate name for 'correlation'; the tested covariate of 'regression'."
     )
@@ -339,9 +357,11 @@ class Contrast(SpecModel):
         wanted = {
             "one-sample": (1, 1),
             "paired": (2, 2),
-            "two-sample": (1, 1),
+            "weighted": (1, 99),
+            "two-sample": (1, 99),
+            "between-groups": (1, 99),
             "correlation": (1, 1),
-            "regression": (1, 2),
+            "regression": (1, 99),
             "repeated-measures": (3, 99),
         }
         low, high = wanted[self.test]
@@ -352,8 +372,10 @@ class Contrast(SpecModel):
         if self.test == "two-sample":
             if not self.groups or len(self.groups) != 2:
                 raise LocatedError(("groups",), "test 'two-sample' needs groups: [first, second]")
-        elif self.groups is not None:
-            raise LocatedError(("groups",), f"groups are only used by 'two-sample', not '{self.test}'")
+        elif self.groups is not None and self.test != "between-groups":
+            raise LocatedError(
+                ("groups",), f"groups are only used by 'two-sample' and 'between-groups', not '{self.test}'"
+            )
         if self.test in ("correlation", "regression") and not self.covariate:
             raise LocatedError(("covariate",), f"test '{self.test}' needs a covariate")
         if self.test not in ("correlation", "regression") and self.covariate is not None:
@@ -371,6 +393,7 @@ class Contrast(SpecModel):
                 )
             if len(set(self.nuisance)) != len(self.nuisance):
                 raise LocatedError(("nuisance",), "a nuisance covariate is listed twice")
+        check_contrast_design(self)
         return self
 
 

@@ -6,6 +6,8 @@ sets (the fast paths of the permutation engine).
 """
 
 from famwise.stats.group import (
+    F_TESTS,
+    SIGN_FLIP_TESTS,
     STATISTICS,
     TAILS,
     TESTS,
@@ -19,6 +21,8 @@ __all__ = [
     "STATISTICS",
     "TAILS",
     "TESTS",
+    "F_TESTS",
+    "SIGN_FLIP_TESTS",
     "GroupStatistic",
     "check_design",
     "compute",

@@ -7,6 +7,10 @@ Data shapes (points flattened to P = n_channels * n_freqs * n_times, C order):
   differences, for t and for Yuen).
 - ``"two-sample"``: x (n, P) with ``groups`` int (n,) of 0/1; the statistic
   is group 0 minus group 1.
+- ``"weighted"``: x (n, P), each subject's weighted sum of conditions; the
+  one-sample test (t and Yuen).
+- ``"between-groups"``: x (n, P) with ``groups`` int (n,) of 0 .. k - 1,
+  k >= 3; one-way between-subject F (`famwise.stats.between`).
 - ``"repeated-measures"``: x (n, k, P) with k >= 3 conditions; F statistic.
 - ``"correlation"``: x (n, P) with ``covariate`` float (n,); Pearson r and
   its t transform r sqrt((n-2)/(1-r^2)), df n-2.
@@ -21,10 +25,24 @@ import numpy as np
 from scipy import stats as sps
 
 from famwise.errors import UserError
+from famwise.stats.between import between_groups_f, check_group_labels
 from famwise.stats.regression import check_regression, regression_t
 from famwise.stats.trimmed import n_trimmed, one_sample_yuen, two_sample_yuen
 
-TESTS = ("one-sample", "paired", "two-sample", "repeated-measures", "correlation", "regression")
+TESTS = (
+    "one-sample",
+    "paired",
+    "weighted",
+    "two-sample",
+    "between-groups",
+    "repeated-measures",
+    "correlation",
+    "regression",
+)
+F_TESTS = ("between-groups", "repeated-measures")
+"""Tests whose statistic is F (tested on its upper tail)."""
+SIGN_FLIP_TESTS = ("one-sample", "paired", "weighted")
+"""Tests of one value per subject against zero (sign flips)."""
 STATISTICS = ("t", "yuen")
 TAILS = ("two-sided", "greater", "less")
 MIN_SUBJECTS = 3
@@ -37,9 +55,9 @@ class GroupStatistic:
     Attributes
     ----------
     stat : ndarray of float64, shape (P,)
-        t (one-sample, paired, two-sample, also Yuen's trimmed t), F
-        (repeated measures), the t transform of r (correlation) or the OLS t
-        of the tested coefficient (regression).
+        t (one-sample, paired, weighted, two-sample, also Yuen's trimmed t), F
+        (repeated measures, between groups), the t transform of r
+        (correlation) or the OLS t of the tested coefficient (regression).
     p : ndarray of float64, shape (P,)
         Parametric p for ``effective_tail``.
     df : ndarray of float64
@@ -48,20 +66,21 @@ class GroupStatistic:
     effect : ndarray of float64, shape (P,)
         Mean (one-sample), mean difference (paired, two-sample), trimmed mean
         or trimmed-mean difference (Yuen), range of the condition means
-        (largest minus smallest, repeated measures), r (correlation), the
-        tested coefficient (regression: map unit per covariate unit).
+        (largest minus smallest, repeated measures), range of the group means
+        (between groups), r (correlation), the tested coefficient
+        (regression: map unit per covariate unit).
     effect_size : ndarray of float64, shape (P,)
         d_z = mean / SD (one-sample, paired), Hedges' g (two-sample, with the
         small-sample factor 1 - 3 / (4 (n0 + n1) - 9)), partial eta squared
-        (repeated measures), r (correlation), the partial r given the
-        nuisance covariates (regression). The Yuen option keeps these
+        (repeated measures), eta squared (between groups), r (correlation),
+        the partial r given the nuisance covariates (regression). The Yuen option keeps these
         classical effect sizes.
     test, statistic, tail : str
         As requested.
     n : int
         Number of subjects.
     effective_tail : str
-        The tail the p-values use: ``tail``, except ``"greater"`` for F.
+        The tail the p-values use: ``tail``, except ``"greater"`` for F (`F_TESTS`).
     """
 
     stat: np.ndarray
@@ -94,9 +113,10 @@ def compute(
     ----------
     x : array_like, shape (n, P), or (n, k, P) for ``"repeated-measures"``
         Per-subject values (paired: differences A - B).
-    test : {"one-sample", "paired", "two-sample", "repeated-measures", "correlation"}
+    test : str
+        One of `TESTS`.
     groups : array_like of int, shape (n,), optional
-        0/1 group labels (two-sample only).
+        0/1 group labels (two-sample), 0 .. k - 1 (between-groups).
     covariate : array_like of float, shape (n,), optional
         Per-subject covariate (correlation; regression: the tested covariate).
     statistic : {"t", "yuen"}
@@ -126,7 +146,7 @@ def compute(
     _check_choice("tail", tail, TAILS)
     n = x.shape[0]
     with np.errstate(divide="ignore", invalid="ignore"):
-        if test in ("one-sample", "paired"):
+        if test in SIGN_FLIP_TESTS:
             stat, df, effect, size = _one_sample(x, statistic, trim)
         elif test == "two-sample":
             stat, df, effect, size = _two_sample(x, groups, statistic, trim, equal_var)
@@ -134,10 +154,12 @@ def compute(
             stat, df, effect, size = _repeated_measures(x)
         elif test == "regression":
             stat, df, effect, size = regression_t(x, covariate, check_regression(covariate, nuisance, n)[1])
+        elif test == "between-groups":
+            stat, df, effect, size = between_groups_f(x, groups)
         else:
             stat, df, effect, size = _correlation(x, covariate)
-    effective_tail = "greater" if test == "repeated-measures" else tail
-    if test == "repeated-measures":
+    effective_tail = "greater" if test in F_TESTS else tail
+    if test in F_TESTS:
         p = sps.f.sf(stat, df[0], df[1])
     else:
         p = _t_p(stat, df, effective_tail)
@@ -185,7 +207,7 @@ def forming_threshold(forming_p: float, *, test: str, df, tail: str) -> float:
     if not 0.0 < forming_p < 1.0:
         raise UserError(f"the cluster-forming p must be between 0 and 1, got {forming_p}")
     df = np.asarray(df, dtype=np.float64)
-    if test == "repeated-measures":
+    if test in F_TESTS:
         if df.shape != (2,):
             raise UserError(f"an F threshold needs df (numerator, denominator), got shape {df.shape}")
         return float(sps.f.isf(forming_p, df[0], df[1]))
@@ -225,8 +247,10 @@ def check_design(x, *, test, groups=None, covariate=None, statistic="t", trim=0.
     n = x.shape[0]
     if n < MIN_SUBJECTS:
         raise UserError(f"the {test} test needs at least {MIN_SUBJECTS} subjects, got {n}")
-    if statistic == "yuen" and test not in ("one-sample", "paired", "two-sample"):
-        raise UserError(f"statistic 'yuen' is available for the one-sample, paired and two-sample tests, not '{test}'")
+    if statistic == "yuen" and test not in (*SIGN_FLIP_TESTS, "two-sample"):
+        raise UserError(
+            f"statistic 'yuen' is available for the one-sample, paired, weighted and two-sample tests, not '{test}'"
+        )
     if statistic == "yuen" and not 0.0 <= trim < 0.5:
         raise UserError(f"`trim` must be at least 0 and below 0.5, got {trim}")
     if test == "repeated-measures" and x.shape[1] < 3:
@@ -243,8 +267,10 @@ def check_design(x, *, test, groups=None, covariate=None, statistic="t", trim=0.
                         f"trim {trim} leaves fewer than 2 of the {size} subjects of group {label}; "
                         "Yuen's test needs at least 2"
                     )
+    elif test == "between-groups":
+        groups = check_group_labels(groups, n)
     elif groups is not None:
-        raise UserError(f"`groups` is only used by the two-sample test, not by '{test}'")
+        raise UserError(f"`groups` is only used by the two-sample test and the between-groups test, not by '{test}'")
     if test == "correlation":
         covariate = _check_covariate(covariate, n)
     elif test == "regression":
