@@ -168,3 +168,13 @@ def test_check_describes_a_voltage_study_without_frequencies(tmp_path):
     )
     region = next(line for line in text.splitlines() if line.startswith("Analysis region:"))
     assert "frequency" not in region and "the epoch's end" not in region
+
+
+@pytest.mark.workflow
+def test_calibration_runs_on_voltage_maps(voltage_run):
+    # famwise calibrate on the voltage study: null datasets from the subjects' own channel x time maps
+    assert main(["calibrate", str(voltage_run / "study.yaml"), "--datasets", "8", "--shards", "1", "--cores", "2"]) == 0
+    rows = (voltage_run / "results" / "calibration" / "late-positive.tsv").read_text().splitlines()
+    corrections = [row.split("\t")[0] for row in rows[1:]]
+    assert corrections == ["uncorrected", "max-stat", "cluster", "tfce"]
+    assert all(row.split("\t")[2] == "8" for row in rows[1:])

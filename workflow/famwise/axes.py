@@ -17,8 +17,3 @@ def is_voltage(freqs) -> bool:
     """Whether ``freqs`` (Hz) is a voltage map's frequency axis: the single entry 0 Hz."""
     freqs = np.asarray(freqs, dtype=float).ravel()
     return freqs.size == 1 and freqs[0] == VOLTAGE_FREQ_HZ
-
-
-def point_words(freqs) -> str:
-    """``"(channel, time)"`` for a voltage map, ``"(channel, frequency, time)"`` otherwise."""
-    return "(channel, time)" if is_voltage(freqs) else "(channel, frequency, time)"

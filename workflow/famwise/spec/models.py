@@ -1,8 +1,9 @@
 """The study spec: one pydantic model tree, the single source of truth.
 
 Choice types first, then one model per concern, then the root ``Study``;
-the inference section's models live in ``famwise.spec.inference``, the
-building blocks in ``famwise.spec.base``.
+the decomposition section's models live in ``famwise.spec.decomposition``,
+the inference section's in ``famwise.spec.inference``, the regions in
+``famwise.spec.region``, the building blocks in ``famwise.spec.base``.
 Every model rejects unknown keys and is frozen; every field has a
 description. Checks across sections live in ``Study``'s after-validators and
 raise ``LocatedError`` so that the message names the offending key.
