@@ -19,6 +19,8 @@ family (``inference.degenerate_points``).
 
 import numpy as np
 
+from famwise.axes import is_voltage
+
 TOLERANCE = 1e-6
 """Relative size of a negligible standard deviation (a multiple of the map's largest |value|)."""
 
@@ -87,13 +89,12 @@ def describe(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, channels, 
 
 
 def location(grid: np.ndarray, *, channels, freqs, times) -> str:
-    """Where the points of a (C, F, T) mask lie, e.g. ``"Fz, Cz; 4-6 Hz; 200-480 ms"`` (the ranges they span)."""
+    """Where the points of a (C, F, T) mask lie, e.g. ``"Fz, Cz; 4-6 Hz; 200-480 ms"`` (the ranges they span;
+    no band for voltage maps, `famwise.axes.is_voltage`)."""
     c, f, t = np.nonzero(grid)
     names = [str(channels[i]) for i in np.unique(c)]
-    return (
-        f"{_listed(names, 'channels')}; {_span(np.asarray(freqs)[np.unique(f)], 'Hz', '{:g}')}; "
-        f"{_span(np.asarray(times)[np.unique(t)] * 1e3, 'ms', '{:.0f}')}"
-    )
+    band = "" if is_voltage(freqs) else f"{_span(np.asarray(freqs)[np.unique(f)], 'Hz', '{:g}')}; "
+    return f"{_listed(names, 'channels')}; {band}{_span(np.asarray(times)[np.unique(t)] * 1e3, 'ms', '{:.0f}')}"
 
 
 def likely_cause(mask: np.ndarray, *, x: np.ndarray, test: str, subjects, groups=None) -> str:

@@ -3,7 +3,10 @@
 The scenario (example_study/README.md): the Harbor Street lab's "lantern"
 working-memory task. Participants keep two (low load) or six (high load)
 lantern colours in mind; frontal-midline theta power rises with load between
-about 300 and 900 ms after the array. Seventeen participants, one excluded.
+about 300 and 900 ms after the array, and a slow late positive wave over
+parietal channels (peak 600 ms) is larger for high load. Seventeen
+participants, one excluded. ``study.yaml`` tests the theta power,
+``voltage.yaml`` the late positive wave (voltage maps, no decomposition).
 """
 
 import shutil
@@ -77,6 +80,23 @@ ALPHA_WEIGHTS = {
     "P7": 0.4,
     "P8": 0.4,
 }
+# Share of the late positive wave seen at each channel: parietal and occipital channels that carry no theta.
+LATE_WEIGHTS = {
+    "Pz": 1.0,
+    "P3": 0.75,
+    "P4": 0.75,
+    "PO3": 0.6,
+    "PO4": 0.6,
+    "P7": 0.35,
+    "P8": 0.35,
+    "Oz": 0.35,
+    "CP5": 0.3,
+    "CP6": 0.3,
+}
+LATE_UV = {"high": 4.0, "low": 1.5}
+"""Amplitude of the late positive wave per epoch label, microvolts (times the participant's gain)."""
+LATE_PEAK_S, LATE_SD_S = 0.6, 0.2
+"""Centre and SD of the wave's Gaussian time course, s (spectral SD 0.8 Hz: below the 4-30 Hz maps)."""
 SAMPLE_RATE_HZ = 250.0
 EPOCHS_PER_CONDITION = 40
 EVENT_SPACING_S = 3.0
@@ -105,12 +125,13 @@ def write_demo(folder: Path, *, fmt: str = "edf", resolution_uv: float | None = 
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     spec = folder / "study.yaml"
-    if not spec.exists():
-        with resources.as_file(resources.files("famwise") / "data" / "example_study.yaml") as source:
-            shutil.copyfile(source, spec)
+    for name, packaged in (("study.yaml", "example_study.yaml"), ("voltage.yaml", "example_voltage.yaml")):
+        if not (folder / name).exists():
+            with resources.as_file(resources.files("famwise") / "data" / packaged) as source:
+                shutil.copyfile(source, folder / name)
     root = folder / "data"
     marker = root / ".complete"
-    written = "written by famwise demo\n" + (
+    written = "written by famwise demo (theta and late positive wave)\n" + (
         "" if (fmt, resolution_uv) == ("edf", None) else f"as {fmt}, resolution {resolution_uv} uV\n"
     )
     if marker.exists() and marker.read_text() == written:
@@ -165,12 +186,23 @@ def simulate_recording(rng: np.random.Generator, *, gain: float, artefacts: bool
         theta[window] += amplitude * envelope * np.cos(2 * np.pi * 6.0 * relative[window] + rng.uniform(0, 2 * np.pi))
     for name, weight in THETA_WEIGHTS.items():
         data[CHANNELS.index(name)] += weight * theta
+    late = _late_wave(times, onsets, labels, gain)
+    for name, weight in LATE_WEIGHTS.items():
+        data[CHANNELS.index(name)] += weight * late
     if artefacts:
         for onset in onsets[rng.choice(labels.size, 4, replace=False)]:
             start = int((onset + 0.3) * SAMPLE_RATE_HZ)
             data[:2, start : start + 40] += 250e-6 * np.hanning(40)
     events = [(float(onset), 0.0, str(label)) for onset, label in zip(onsets, labels)]
     return data, events
+
+
+def _late_wave(times: np.ndarray, onsets: np.ndarray, labels: np.ndarray, gain: float) -> np.ndarray:
+    """The late positive wave after every event, volts, shape (n_samples,); it draws no random numbers."""
+    late = np.zeros(times.size)
+    for onset, label in zip(onsets, labels):
+        late += LATE_UV[str(label)] * gain * 1e-6 * np.exp(-0.5 * ((times - onset - LATE_PEAK_S) / LATE_SD_S) ** 2)
+    return late
 
 
 def _background(rng: np.random.Generator, n_channels: int, n_samples: int) -> np.ndarray:

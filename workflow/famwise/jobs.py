@@ -56,7 +56,7 @@ def run_decompose(args, settings: types.DecomposeSettings) -> None:
 def _decompose_subject(args, settings: types.DecomposeSettings):
     """The subject's maps and sidecar record."""
     from famwise import bids
-    from famwise.decomposition import decompose, frequency_grid, load_maps
+    from famwise.decomposition import load_maps
     from famwise.io import load_epochs, subject_file
 
     subject = args.subject
@@ -84,32 +84,10 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
             if label in labels:
                 rejected[labels[label]] = rejected.get(labels[label], 0) + int(count)
         tf = settings.decomposition
-        grid = tf.frequencies
-        baseline = tf.baseline
         _say(
             f"subject {subject}: {epochs.data.shape[0]} epochs x {epochs.data.shape[1]} channels, {tf.method} {tf.measure}"
         )
-        maps = decompose(
-            epochs,
-            subject=subject,
-            conditions={name: list(group) for name, group in settings.conditions.items()},
-            frequencies_hz=frequency_grid(grid.lowest_hz, grid.highest_hz, grid.count, grid.spacing),
-            method=tf.method,
-            cycles=tf.cycles,
-            fwhm_ms=tf.fwhm_ms,
-            taper_length_ms=tf.taper_length_ms,
-            nw=tf.nw,
-            measure=tf.measure,
-            time_step_ms=tf.time_step_ms,
-            average=tf.average,
-            trim=tf.trim,
-            baseline_mode=baseline.mode,
-            baseline_window_ms=baseline.window_ms,
-            baseline_pooled=baseline.pooled,
-            baseline_single_epoch=baseline.single_epoch,
-            min_epochs=settings.min_epochs,
-            progress=_say,
-        )
+        maps = _subject_maps(epochs, subject, settings)
     missing = [c for c in settings.conditions if c not in maps.conditions]
     if missing:
         raise UserError(
@@ -122,6 +100,50 @@ def _decompose_subject(args, settings: types.DecomposeSettings):
         "rejected": {c: rejected.get(c, 0) for c in maps.conditions},
     }
     return maps, info
+
+
+def _subject_maps(epochs, subject: str, settings: types.DecomposeSettings):
+    """One subject's epochs -> its maps: voltage maps (method 'none') or the time-frequency decomposition."""
+    from famwise.decomposition import decompose, frequency_grid, voltage_maps
+
+    tf, baseline = settings.decomposition, settings.decomposition.baseline
+    conditions = {name: list(group) for name, group in settings.conditions.items()}
+    if tf.method == "none":
+        return voltage_maps(
+            epochs,
+            subject=subject,
+            conditions=conditions,
+            time_step_ms=tf.time_step_ms,
+            lowpass_hz=tf.lowpass_hz,
+            average=tf.average,
+            trim=tf.trim,
+            baseline_mode=baseline.mode,
+            baseline_window_ms=baseline.window_ms,
+            baseline_pooled=baseline.pooled,
+            min_epochs=settings.min_epochs,
+        )
+    grid = tf.frequencies
+    return decompose(
+        epochs,
+        subject=subject,
+        conditions=conditions,
+        frequencies_hz=frequency_grid(grid.lowest_hz, grid.highest_hz, grid.count, grid.spacing),
+        method=tf.method,
+        cycles=tf.cycles,
+        fwhm_ms=tf.fwhm_ms,
+        taper_length_ms=tf.taper_length_ms,
+        nw=tf.nw,
+        measure=tf.measure,
+        time_step_ms=tf.time_step_ms,
+        average=tf.average,
+        trim=tf.trim,
+        baseline_mode=baseline.mode,
+        baseline_window_ms=baseline.window_ms,
+        baseline_pooled=baseline.pooled,
+        baseline_single_epoch=baseline.single_epoch,
+        min_epochs=settings.min_epochs,
+        progress=_say,
+    )
 
 
 def run_subjects_table(args, settings: types.SubjectsTableSettings) -> None:
@@ -242,10 +264,15 @@ def run_null_info(args, settings: types.NullSettings) -> None:
 
 def run_correct(args, settings: types.CorrectionSettings) -> None:
     """Observed (+ null shards) -> ``contrasts/<c>/<correction>/result.npz`` (+ clusters.tsv)."""
+    from famwise.axes import is_voltage
     from famwise.correct.apply import apply_correction, save_result
 
-    result, shape = apply_correction([Path(p) for p in args.inputs], contrast=args.contrast, settings=settings)
-    save_result(Path(args.out), result, shape=shape, settings=settings)
+    inputs = [Path(p) for p in args.inputs]
+    result, shape = apply_correction(inputs, contrast=args.contrast, settings=settings)
+    observed = next(p for p in inputs if p.name == "observed.npz" and p.parent.name == args.contrast)
+    with np.load(observed, allow_pickle=False) as archive:
+        voltage = is_voltage(archive["freqs"])
+    save_result(Path(args.out), result, shape=shape, settings=settings, voltage=voltage)
     _say(f"{settings.correction.label}: {result.n_significant} significant points")
 
 

@@ -26,7 +26,8 @@ def region_index(
     Parameters
     ----------
     region : PlannedRegionSettings
-        ``name``, ``channels``, ``freq_hz`` [low, high] and ``time_ms`` [start, end].
+        ``name``, ``channels``, ``freq_hz`` [low, high] (None: every frequency, e.g. the single entry of a
+        voltage map) and ``time_ms`` [start, end].
     number : int
         Position in ``planned_regions`` (for messages).
     channels : sequence of str
@@ -40,13 +41,7 @@ def region_index(
     unknown = [c for c in region.channels if c.lower() not in lookup]
     if unknown:
         raise UserError(f"{where}.channels: unknown channels {unknown} (the data have {', '.join(channels)})")
-    low, high = region.freq_hz
-    f = np.flatnonzero((freqs >= low - 1e-9) & (freqs <= high + 1e-9))
-    if f.size == 0:
-        raise UserError(
-            f"{where}.freq_hz: no decomposed frequency lies in [{low:g}, {high:g}] Hz "
-            f"(frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)"
-        )
+    f = np.arange(freqs.size) if region.freq_hz is None else _band_index(region.freq_hz, freqs, where)
     start, stop = region.time_ms
     t = np.flatnonzero((times >= start / 1e3 - 1e-9) & (times <= stop / 1e3 + 1e-9))
     if t.size == 0:
@@ -60,6 +55,18 @@ def region_index(
             "shorten it or use longer epochs"
         )
     return np.array([lookup[c.lower()] for c in region.channels]), f, t
+
+
+def _band_index(band: tuple[float, float], freqs: np.ndarray, where: str) -> np.ndarray:
+    """Indices of the frequencies (Hz) inside ``band``; a UserError naming the region when there is none."""
+    low, high = band
+    f = np.flatnonzero((freqs >= low - 1e-9) & (freqs <= high + 1e-9))
+    if f.size == 0:
+        raise UserError(
+            f"{where}.freq_hz: no decomposed frequency lies in [{low:g}, {high:g}] Hz "
+            f"(frequencies: {freqs.min():.3g} to {freqs.max():.3g} Hz)"
+        )
+    return f
 
 
 def planned_means(files: list[Path], regions: tuple[PlannedRegionSettings, ...], conditions: list[str]) -> np.ndarray:
@@ -141,8 +148,9 @@ def _sidecar(
         "id": {
             "Description": "Planned region name (spec key planned_regions).",
             "Levels": {
-                r.name: f"{','.join(r.channels)}; {r.freq_hz[0]:g} to {r.freq_hz[1]:g} Hz; "
-                f"{r.time_ms[0]:g} to {r.time_ms[1]:g} ms"
+                r.name: f"{','.join(r.channels)}; "
+                + _band_words(r.freq_hz, measure)
+                + f"{r.time_ms[0]:g} to {r.time_ms[1]:g} ms"
                 for r in regions
             },
         },
@@ -150,3 +158,10 @@ def _sidecar(
     return described | value_columns(
         test, conditions, measure, over="the region", grouped=grouped, covariate=covariate, weights=weights
     )
+
+
+def _band_words(band: tuple[float, float] | None, measure: str) -> str:
+    """A region's band for its description: none for voltage maps, "all frequencies" when omitted."""
+    if measure.startswith("voltage"):
+        return ""
+    return "all frequencies; " if band is None else f"{band[0]:g} to {band[1]:g} Hz; "

@@ -153,7 +153,7 @@ def study_sizes(plan) -> StudySizes:
     sizes = StudySizes(
         n_subjects=len(plan.subjects),
         n_channels=n_channels,
-        n_freqs=s.decomposition.frequencies.count,
+        n_freqs=1 if s.decomposition.method == "none" else s.decomposition.frequencies.count,
         n_times=int((window_ms[1] - window_ms[0]) // step_ms) + 1,
         n_map_times=int((epoch_ms[1] - epoch_ms[0]) // step_ms) + 1,
         n_conditions=len(s.conditions),

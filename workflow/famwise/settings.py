@@ -40,7 +40,11 @@ class BaselineSettings:
 
 @dataclass(frozen=True)
 class DecompositionSettings:
-    """``decomposition`` of the spec (Morlet width resolved: ``cycles`` is 7 unless given otherwise)."""
+    """``decomposition`` of the spec (Morlet width resolved: ``cycles`` is 7 unless given otherwise).
+
+    ``method`` ``"none"`` makes voltage maps (``famwise.decomposition.voltage``): ``measure`` ``"voltage"``;
+    ``lowpass_hz``, ``time_step_ms``, ``average`` and the baseline apply, the grid and the widths do not.
+    """
 
     method: str
     frequencies: FrequencyGridSettings
@@ -50,6 +54,7 @@ class DecompositionSettings:
     nw: float | None
     measure: str
     time_step_ms: float | None
+    lowpass_hz: float | None
     average: str
     trim: float
     baseline: BaselineSettings
@@ -324,11 +329,11 @@ class ReportSettings:
 
 @dataclass(frozen=True)
 class PlannedRegionSettings:
-    """One of the spec's ``planned_regions``: channels, a band [low, high] in Hz, a window [start, end] in ms."""
+    """One of the spec's ``planned_regions``: channels, a band [low, high] in Hz (None: all), a window [start, end] in ms."""
 
     name: str
     channels: tuple[str, ...]
-    freq_hz: tuple[float, float]
+    freq_hz: tuple[float, float] | None
     time_ms: tuple[float, float]
 
 

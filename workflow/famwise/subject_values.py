@@ -178,9 +178,10 @@ def value_columns(
     weights: tuple[float, ...] | None = None,
 ) -> dict:
     """Descriptions of the columns every values table shares, from ``n_points`` on; ``over`` names the
-    averaged points (e.g. "the cluster's points")."""
+    averaged points (e.g. "the cluster's points"); a ``measure`` starting with "voltage" has no frequency axis."""
+    points = "(channel, time)" if measure.startswith("voltage") else "(channel, frequency, time)"
     described = {
-        "n_points": {"Description": "Number of (channel, frequency, time) points averaged over."},
+        "n_points": {"Description": f"Number of {points} points averaged over."},
         "subject": {"Description": "Subject id."},
     }
     if grouped:

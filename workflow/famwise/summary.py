@@ -8,6 +8,30 @@ from famwise.plan import Plan
 from famwise.regression_words import check_line
 
 
+def decomposition_line(tf) -> str:
+    """The spec's ``decomposition`` in one line; voltage maps (method 'none') name no frequency grid."""
+    baseline = f"baseline {tf.baseline.mode}" + (
+        f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else ""
+    )
+    if tf.method == "none":
+        return (
+            "Decomposition: none, condition mean voltage (µV, points channel x time), "
+            + (f"zero-phase low-pass {tf.lowpass_hz:g} Hz, " if tf.lowpass_hz else "no low-pass, ")
+            + (
+                f"time step {tf.time_step_ms:g} ms by anti-aliasing decimation, "
+                if tf.time_step_ms
+                else "every sample, "
+            )
+            + (f"trimmed mean ({tf.trim:g} per end), " if tf.average == "trimmed" else "")
+            + baseline
+        )
+    grid = tf.frequencies
+    return (
+        f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.lowest_hz:g}-{grid.highest_hz:g} Hz "
+        f"({grid.spacing}), {baseline}"
+    )
+
+
 def describe_plan(plan: Plan) -> str:
     """What the spec asks for: subjects, contrasts, resampling, corrections, channel graph."""
     s = plan.study
@@ -29,23 +53,18 @@ def describe_plan(plan: Plan) -> str:
         lines += left_out_lines(plan.loaded.resolve(s.subjects.path), list(plan.subjects), s.subjects.task)
     lines.append("Conditions: " + "; ".join(f"{name} <- {', '.join(labels)}" for name, labels in s.conditions.items()))
     if s.subjects.source != "maps":
-        tf = s.decomposition
-        grid = tf.frequencies
-        lines.append(
-            f"Decomposition: {tf.method} {tf.measure}, {grid.count} frequencies {grid.lowest_hz:g}-{grid.highest_hz:g} Hz ({grid.spacing}), "
-            f"baseline {tf.baseline.mode}"
-            + (f" {list(tf.baseline.window_ms)} ms" if tf.baseline.mode != "none" else "")
-        )
+        lines.append(decomposition_line(s.decomposition))
     a = s.analysis
+    voltage = s.decomposition.method == "none"
+    edge_free = "the epoch's end" if voltage else "the end of the edge-free data"
     lines.append(
         "Analysis region: time "
         + (
             f"{list(a.time_ms)} ms"
             if a.time_ms
-            else "from the event (0 ms) to the end of the edge-free data (the baseline is not tested)"
+            else f"from the event (0 ms) to {edge_free} (the baseline is not tested)"
         )
-        + ", frequency "
-        + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all")
+        + ("" if voltage else ", frequency " + (f"{list(a.freq_hz)} Hz" if a.freq_hz else "all"))
         + ", channels "
         + (", ".join(a.channels) if a.channels else "all")
     )

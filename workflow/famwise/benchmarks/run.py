@@ -62,8 +62,10 @@ def _rows(quick: bool):
     from famwise.benchmarks.regression import bench_regression_null
     from famwise.benchmarks.stats import bench_maxt_null
     from famwise.benchmarks.stepdown import bench_stepdown
+    from famwise.benchmarks.voltage import bench_voltage
 
     yield bench_decomposition(quick)
+    yield bench_voltage(quick)
     yield from bench_maxt_null(quick)
     yield bench_regression_null(quick)
     yield bench_between_groups_null(quick)

@@ -214,8 +214,14 @@ def _slice(joint: CorrectionResult, sizes: list[int], index: int) -> CorrectionR
     )
 
 
-def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings: CorrectionSettings) -> None:
-    """Write ``result.npz`` (and ``clusters.tsv`` + sidecar for cluster and TFCE results) atomically."""
+def save_result(
+    path: Path, result: CorrectionResult, *, shape: tuple, settings: CorrectionSettings, voltage: bool = False
+) -> None:
+    """Write ``result.npz`` (and ``clusters.tsv`` + sidecar for cluster and TFCE results) atomically.
+
+    ``voltage`` (the contrast's maps are voltage maps, `famwise.axes.is_voltage`) leaves the frequency columns
+    out of the table.
+    """
     arrays = {
         "p_corrected": np.asarray(result.p_corrected, dtype=np.float64).reshape(shape),
         "mask": np.asarray(result.mask, dtype=bool).reshape(shape),
@@ -232,9 +238,11 @@ def save_result(path: Path, result: CorrectionResult, *, shape: tuple, settings:
     if settings.correction.method == "cluster":
         from famwise.correct import clusters
 
-        clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters)
+        clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters, voltage=voltage)
     elif settings.correction.method == "tfce":
         from famwise.correct import clusters, regions
 
-        clusters.write_cluster_table(path.with_name("clusters.tsv"), result.clusters, sidecar=regions.REGION_SIDECAR)
+        clusters.write_cluster_table(
+            path.with_name("clusters.tsv"), result.clusters, sidecar=regions.REGION_SIDECAR, voltage=voltage
+        )
     save_npz(path, **arrays)

@@ -31,6 +31,7 @@ import os
 import numpy as np
 
 from famwise.atomic import write_text
+from famwise.axes import FREQUENCY_COLUMNS
 from famwise.correct.result import CorrectionResult
 from famwise.errors import UserError
 from famwise.kernels.components import _cluster_roots
@@ -318,7 +319,7 @@ def _hz(value) -> float:
     return round(float(value), 6)
 
 
-def write_cluster_table(path_tsv, clusters, *, sidecar=CLUSTER_SIDECAR):
+def write_cluster_table(path_tsv, clusters, *, sidecar=CLUSTER_SIDECAR, voltage=False):
     """Write the cluster table as TSV with a JSON sidecar (same stem, ``.json``) describing each column.
 
     Parameters
@@ -329,11 +330,18 @@ def write_cluster_table(path_tsv, clusters, *, sidecar=CLUSTER_SIDECAR):
         Rows with the keys ``CLUSTER_COLUMNS`` (as ``cluster_inference`` gives them).
     sidecar : dict
         Column descriptions (``CLUSTER_SIDECAR``, or the TFCE regions' own).
+    voltage : bool
+        A voltage map's table (`famwise.axes.is_voltage`): no frequency columns, points are (channel, time).
     """
     path_tsv = os.fspath(path_tsv)
-    lines = ["\t".join(CLUSTER_COLUMNS)]
+    columns = [c for c in CLUSTER_COLUMNS if not (voltage and c in FREQUENCY_COLUMNS)]
+    if voltage:
+        sidecar = {key: value for key, value in sidecar.items() if key not in FREQUENCY_COLUMNS}
+        described = sidecar["n_points"]["Description"].replace("(channel, frequency, time)", "(channel, time)")
+        sidecar["n_points"] = {**sidecar["n_points"], "Description": described}
+    lines = ["\t".join(columns)]
     for row in clusters:
-        lines.append("\t".join(_format_cell(row[name]) for name in CLUSTER_COLUMNS))
+        lines.append("\t".join(_format_cell(row[name]) for name in columns))
     write_text(path_tsv, "\n".join(lines) + "\n")
     stem = path_tsv[:-4] if path_tsv.endswith(".tsv") else path_tsv
     write_text(stem + ".json", json.dumps(sidecar, indent=2) + "\n")

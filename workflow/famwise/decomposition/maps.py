@@ -6,6 +6,7 @@ from pathlib import Path
 import numpy as np
 
 from famwise.atomic import save_npz
+from famwise.axes import is_voltage
 from famwise.errors import UserError
 
 _KEYS = ("values", "conditions", "channels", "freqs", "times", "measure", "baseline", "n_epochs")
@@ -18,16 +19,17 @@ class TimeFreqMaps:
     Attributes
     ----------
     values : ndarray of float32, shape (n_conditions, n_channels, n_freqs, n_times)
-        The measure: power (V^2 for Morlet, V^2/Hz for multitaper) or ITPC,
-        after baseline normalisation (see ``baseline``).
+        The measure: power (V^2 for Morlet, V^2/Hz for multitaper), ITPC, or
+        voltage (microvolts, one frequency entry of 0 Hz), after the baseline
+        (see ``baseline``).
     conditions : tuple of str, length n_conditions
     channels : tuple of str, length n_channels
     freqs : ndarray, shape (n_freqs,)
-        Frequencies in Hz.
+        Frequencies in Hz (``[0.0]`` for voltage).
     times : ndarray, shape (n_times,)
         Times in s relative to the event.
     measure : str
-        ``"power"``, ``"induced"`` or ``"itpc"``.
+        ``"power"``, ``"induced"``, ``"itpc"`` or ``"voltage"``.
     baseline : str
         How values were normalised, e.g. ``"dB change from -400 to -100 ms, per condition"``.
     n_epochs : ndarray of int, shape (n_conditions,)
@@ -137,7 +139,12 @@ def load_maps(path: Path | str) -> TimeFreqMaps:
             f"time-frequency file {path}: 'valid' must have shape ({n_freq}, {n_time}), found {valid.shape}"
         )
     freqs = found["freqs"].astype(float)
-    if np.any(freqs <= 0) or np.any(np.diff(freqs) <= 0):
+    if str(found["measure"]) == "voltage":
+        if not is_voltage(freqs):
+            raise UserError(
+                f"time-frequency file {path}: voltage maps have the single frequency entry 0, found {freqs}"
+            )
+    elif np.any(freqs <= 0) or np.any(np.diff(freqs) <= 0):
         raise UserError(f"time-frequency file {path}: 'freqs' must be positive and increasing, found {freqs}")
     if not np.all(np.isfinite(values)):
         raise UserError(f"time-frequency file {path}: 'values' holds NaN or infinite entries")

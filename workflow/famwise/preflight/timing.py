@@ -38,6 +38,8 @@ def _check_span(
 
     dec = _decomposition()
     tf = plan.study.decomposition
+    if tf.method == "none":
+        return _check_voltage_span(plan, where, sample_rate_hz, epoch_start_s, n_samples, subject)
     grid = tf.frequencies
     nyquist = sample_rate_hz / 2.0
     if grid.highest_hz >= nyquist:
@@ -83,6 +85,40 @@ def _check_span(
         key = ("analysis", "time_ms") if analysis.time_ms is not None else width_key
         raise UserError(f"{where(*key)}: {str(error).split(': ', 1)[1]}") from None
     return found
+
+
+def _check_voltage_span(
+    plan, where: Where, sample_rate_hz: float, epoch_start_s: float, n_samples: int, subject: str
+) -> list[str]:
+    """Voltage maps: the low-pass, time step, baseline and analysis windows fit the subject's sampling and epoch."""
+    from famwise.decomposition import voltage
+    from famwise.design import _time_index
+
+    tf = plan.study.decomposition
+    epochs = SimpleNamespace(
+        data=np.empty((0, 0, n_samples)), sample_rate_hz=sample_rate_hz, epoch_start_s=epoch_start_s
+    )
+    try:
+        keep = _decomposition()._output_samples(epochs, tf.time_step_ms, subject=subject)
+    except UserError as error:
+        raise UserError(f"{where('decomposition', 'time_step_ms')}: {_drop_subject(error, subject)}") from None
+    try:
+        voltage.check_filters(epochs, subject=subject, lowpass_hz=tf.lowpass_hz, time_step_ms=tf.time_step_ms)
+    except UserError as error:
+        raise UserError(f"{where('decomposition', 'lowpass_hz')}: {_drop_subject(error, subject)}") from None
+    all_times = epoch_start_s + np.arange(n_samples) / sample_rate_hz
+    times = all_times[keep]
+    try:
+        voltage.baseline_samples(times, all_times, tf.baseline.mode, tf.baseline.window_ms, subject=subject)
+    except UserError as error:
+        key = ("decomposition", "baseline", "window_ms")
+        raise UserError(f"{where(*key)}: {_drop_subject(error, subject)}") from None
+    analysis = plan.study.analysis
+    try:
+        _time_index(times, np.ones((1, times.size), bool), np.zeros(1), analysis.time_ms and list(analysis.time_ms))
+    except UserError as error:
+        raise UserError(f"{where('analysis', 'time_ms')}: {str(error).split(': ', 1)[1]}") from None
+    return []
 
 
 def _check_baseline(plan, where: Where, times, all_times, valid, freqs) -> list[str]:

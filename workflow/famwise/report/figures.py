@@ -1,5 +1,8 @@
 """Report figures: time-frequency maps, null histograms, cluster views, channel graph.
 
+Voltage contrasts (no frequency axis, `famwise.axes.is_voltage`) are drawn by
+`famwise.report.voltage_figures`.
+
 Every function draws from stored results only and returns a matplotlib
 figure; :func:`famwise.figure_style.save_figure` writes it.
 """
@@ -8,6 +11,7 @@ import matplotlib.pyplot as plt
 import numpy as np
 from matplotlib.ticker import MaxNLocator
 
+from famwise.axes import is_voltage
 from famwise.electrodes import ChannelGraph, Positions, plot_graph
 from famwise.figure_style import ACCENT, DIVERGING, MUTED, SEQUENTIAL, symmetric_limit
 from famwise.report.results import ReportedContrast, ReportedCorrection
@@ -28,6 +32,8 @@ def effect_unit(study: dict) -> str:
     tf = study.get("decomposition", {}) or {}
     measure = str(tf.get("measure", "power"))
     mode = str((tf.get("baseline") or {}).get("mode", "none")).lower()
+    if measure == "voltage" or tf.get("method") == "none":
+        return "µV"
     if measure.lower() not in {"power", "induced"}:
         return f"{measure} difference"
     units = {
@@ -177,6 +183,10 @@ def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int
         contrast; larger counts show in the top colour).
     title, subtitle : str
     """
+    if is_voltage(contrast.freqs):
+        from famwise.report.voltage_figures import voltage_map_figure
+
+        return voltage_map_figure(contrast, mask, title=title, subtitle=subtitle)
     times_ms = contrast.times * 1000.0
     channel = peak_channel(contrast)
     limit = symmetric_limit(contrast.stat)
@@ -280,9 +290,12 @@ def cluster_points(correction: ReportedCorrection, contrast: ReportedContrast, r
     in_time = ((times_ms >= float(row["time_start_ms"]) - 1e-6) & (times_ms <= float(row["time_end_ms"]) + 1e-6))[
         None, None, :
     ]
-    in_freq = (
-        (contrast.freqs >= float(row["freq_low_hz"]) - 1e-6) & (contrast.freqs <= float(row["freq_high_hz"]) + 1e-6)
-    )[None, :, None]
+    if is_voltage(contrast.freqs):  # the table has no frequency columns
+        in_freq = np.ones((1, 1, 1), dtype=bool)
+    else:
+        in_freq = (
+            (contrast.freqs >= float(row["freq_low_hz"]) - 1e-6) & (contrast.freqs <= float(row["freq_high_hz"]) + 1e-6)
+        )[None, :, None]
     return correction.mask & in_channels & in_time & in_freq & (np.sign(contrast.stat) == sign)
 
 
@@ -302,6 +315,10 @@ def cluster_figure(
         Unit of the effect map.
     """
     points = cluster_points(correction, contrast, row)
+    if is_voltage(contrast.freqs):
+        from famwise.report.voltage_figures import voltage_cluster_figure
+
+        return voltage_cluster_figure(contrast, correction, row, points, flat, unit=unit)
     noun = correction.table_noun
     names = [c for c in str(row["channels"]).split(",") if c]
     members = np.array([c in set(names) for c in contrast.channels])

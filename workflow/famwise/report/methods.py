@@ -12,6 +12,7 @@ from famwise.report.provenance import package_versions
 from famwise.report.regression_methods import REFERENCES as REGRESSION_REFERENCES
 from famwise.report.regression_methods import regression_resampling, regression_sentence
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries, read_run
+from famwise.report.voltage_methods import is_voltage_study, voltage_default_window, voltage_paragraph
 
 REFERENCES = {
     "bonferroni": "Dunn OJ (1961). Multiple comparisons among means. J Am Stat Assoc 56(293):52-64.",
@@ -118,7 +119,7 @@ def _range(value) -> str:
     return fmt(value)
 
 
-def correction_parameters(spec_entry: dict, correction: ReportedCorrection | None) -> dict:
+def correction_parameters(spec_entry: dict, correction: ReportedCorrection | None, *, voltage: bool = False) -> dict:
     """Every parameter of a correction: the spec's entry, then what the run resolved.
 
     Parameters
@@ -128,6 +129,8 @@ def correction_parameters(spec_entry: dict, correction: ReportedCorrection | Non
     correction : ReportedCorrection or None
         The stored result; its settings add the method's own run settings
         (``result``), e.g. the cluster-forming threshold in statistic units.
+    voltage : bool
+        The contrast's maps are voltage maps: ``dims`` leaves out ``freq`` (their single frequency entry).
     """
     settings = correction.settings if correction is not None else {}
     parameters = dict(settings.get("correction") or {})
@@ -137,6 +140,8 @@ def correction_parameters(spec_entry: dict, correction: ReportedCorrection | Non
         if key == "threshold" and method_kind(correction.method) == "cluster":
             key = "forming threshold (statistic)"
         parameters.setdefault(key, value)
+    if voltage and isinstance(parameters.get("dims"), list):
+        parameters["dims"] = [d for d in parameters["dims"] if d != "freq"]
     return parameters
 
 
@@ -184,6 +189,8 @@ def _subjects(run: Run, study: dict) -> str:
 
 def _decomposition(study: dict) -> str:
     tf = study.get("decomposition") or {}
+    if is_voltage_study(study):
+        return voltage_paragraph(tf, fmt)
     freqs = tf.get("frequencies") or {}
     method = str(tf.get("method", "morlet")).lower()
     grid = (
@@ -254,6 +261,8 @@ def _time_window(time_ms, run: Run) -> str:
         before = " (chosen to include time before the event)" if time_ms[0] < 0 else ""
         return f"{_span(time_ms, 'ms')}{before}"
     end = f" to {fmt(float(run.contrasts[0].times[-1]) * 1e3)} ms" if run.contrasts else ""
+    if is_voltage_study(run.study):
+        return voltage_default_window(end)
     return (
         f"the window from the event (0 ms){end}, where the data free of edge effects end (the pre-event "
         "baseline was not tested: after baseline normalisation it cannot show an effect and would only make "
@@ -277,16 +286,18 @@ def _left_out_sentence(run: Run) -> str:
 def _window(study: dict, run: Run) -> str:
     analysis = study.get("analysis") or {}
     channels = analysis.get("channels")
+    voltage = is_voltage_study(study)
+    band = "" if voltage else f" and {_span(analysis.get('freq_hz'), 'Hz', whole='all frequencies')}"
     text = (
-        f"Statistics were computed at every channel, frequency and time point within "
-        f"{_time_window(analysis.get('time_ms'), run)} and "
-        f"{_span(analysis.get('freq_hz'), 'Hz', whole='all frequencies')}"
+        f"Statistics were computed at every channel{'' if voltage else ', frequency'} and time point within "
+        f"{_time_window(analysis.get('time_ms'), run)}{band}"
         f" ({'all channels' if not channels else ', '.join(map(str, channels))})."
     )
     if run.contrasts:
         shape = run.contrasts[0].stat.shape
+        frequencies = "" if voltage else f"{shape[1]} frequencies × "
         text += (
-            f" Each contrast thus comprised {shape[0]} channels × {shape[1]} frequencies × "
+            f" Each contrast thus comprised {shape[0]} channels × {frequencies}"
             f"{shape[2]} time points = {int(np.prod(shape))} tests."
         )
         text += _left_out_sentence(run)
@@ -349,12 +360,12 @@ def _resampling(contrast: ReportedContrast, study: dict) -> str:
     return text + f"; the smallest attainable p was {fmt(info.get('smallest_p'))}."
 
 
-def _correction(contrast: ReportedContrast, correction: ReportedCorrection, entry: dict) -> str:
+def _correction(contrast: ReportedContrast, correction: ReportedCorrection, entry: dict, *, voltage=False) -> str:
     kind = method_kind(correction.method)
     described = _DESCRIPTIONS.get(kind, f"the '{correction.method}' correction")
     text = (
         f"In contrast {contrast.name}, correction {correction.name} ({described}; "
-        f"{_parameter_text(correction_parameters(entry, correction))}) declared "
+        f"{_parameter_text(correction_parameters(entry, correction, voltage=voltage))}) declared "
         f"{correction.n_significant} of {correction.mask.size} points significant"
     )
     if np.isfinite(correction.threshold):
@@ -406,7 +417,8 @@ def kinds_used(run: Run) -> list[str]:
     method = str((study.get("decomposition") or {}).get("method", "morlet")).lower()
     if method == "multitaper":
         used += ["multitaper", "nw"]
-    used.append("edges")
+    if method != "none":  # the cone of influence of a decomposition
+        used.append("edges")
     if any(c.statistic == "yuen" for c in run.contrasts):
         used.append("yuen")
     if any(c.nulls and not c.nulls.get("exact") for c in run.contrasts):
@@ -446,7 +458,8 @@ def methods_from_run(run: Run) -> str:
     ]
     for contrast in run.contrasts:
         for correction in contrast.corrections:
-            parts += [f"- {_correction(contrast, correction, entries.get(correction.name, {}))}"]
+            entry = entries.get(correction.name, {})
+            parts += [f"- {_correction(contrast, correction, entry, voltage=is_voltage_study(study))}"]
     versions = ", ".join(f"{name} {version}" for name, version in package_versions().items())
     parts += ["", f"Analyses ran in famwise with {versions} (seed {fmt(study.get('seed'))}).", "", "### References", ""]
     parts += [f"- {REFERENCES[kind]}" for kind in kinds_used(run)]

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.axes import is_voltage
 from famwise.contrast_words import design_direction, heading_words
 from famwise.degenerate import location
 from famwise.figure_style import figure_style, save_figure
@@ -15,6 +16,7 @@ from famwise.report import figures
 from famwise.report.explorer import explorer_block, explorer_data
 from famwise.report.html import anchor, esc, figure, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
+from famwise.report.point_words import cluster_caption, extent_words, grid_words, point_place, side_by_side_words
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
 from famwise.report.study_words import baseline_words, decomposition_words, inference_words, named, window_words
@@ -70,7 +72,6 @@ def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> s
     """One plain sentence on where a mask's significant points lie."""
     if not mask.any():
         return "No point reached significance."
-    times_ms = contrast.times * 1000.0
     channels, freqs, times = np.nonzero(mask)
     per_channel = np.bincount(channels, minlength=len(contrast.channels))
     order = [contrast.channels[i] for i in np.argsort(-per_channel, kind="stable") if per_channel[i]]
@@ -85,13 +86,10 @@ def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> s
     if negative:
         signs.append(f"{negative} with {esc(direction(spec, False))}")
     return (
-        f"Significant points lie between {fmt(float(times_ms[times.min()]))} and "
-        f"{fmt(float(times_ms[times.max()]))} ms and {contrast.freqs[freqs.min()]:.3g} and "
-        f"{contrast.freqs[freqs.max()]:.3g} Hz on {len(order)} "
+        f"Significant points lie {extent_words(contrast, freqs, times)} on {len(order)} "
         f"channel{'s' if len(order) != 1 else ''} ({esc(listed)}); "
         f"{'; '.join(signs)}. Strongest: {figures.stat_label(contrast)} = "
-        f"{contrast.stat[c, f, t]:.3g} at {esc(contrast.channels[c])}, "
-        f"{contrast.freqs[f]:.3g} Hz, {times_ms[t]:.0f} ms."
+        f"{contrast.stat[c, f, t]:.3g} at {point_place(contrast, c, f, t)}."
     )
 
 
@@ -107,7 +105,7 @@ def study_section(run: Run, spec_text: str) -> str:
         ["conditions", "; ".join(f"{k}: {', '.join(map(str, v))}" for k, v in (study.get("conditions") or {}).items())],
         ["decomposition", decomposition_words(tf)],
         ["baseline", baseline_words(tf.get("baseline") or {})],
-        ["analysis window", window_words(analysis)],
+        ["analysis window", window_words(analysis, voltage=tf.get("method") == "none")],
         ["contrasts", "; ".join(f"{c['name']} ({c.get('test', '')})" for c in study.get("contrasts", []))],
         ["inference", inference_words(inference)],
         [
@@ -115,8 +113,9 @@ def study_section(run: Run, spec_text: str) -> str:
             "; ".join(named(name, entry.get("method", "")) for name, entry in correction_entries(study).items()),
         ],
     ]
+    axes = "times, channels" if tf.get("method") == "none" else "times, frequencies, channels"
     window = note(
-        "The analysis window (times, frequencies, channels) and the corrections must "
+        f"The analysis window ({axes}) and the corrections must "
         "have been chosen before looking at the data. A window picked after seeing "
         "where the effect is makes every p-value in this report too small, whatever "
         "the correction."
@@ -227,8 +226,9 @@ def correction_notes(correction: ReportedCorrection, contrast: ReportedContrast,
     elif kind == "cluster":
         text = (
             "A cluster's p-value supports a claim about the cluster as a whole (there is an "
-            "effect somewhere in it), not about its exact onset, frequency edges or channel "
-            "set (Sassenhagen &amp; Draschkow 2019)."
+            "effect somewhere in it), not about its exact onset, "
+            + ("offset" if is_voltage(contrast.freqs) else "frequency edges")
+            + " or channel set (Sassenhagen &amp; Draschkow 2019)."
         )
     elif kind == "tfce":
         text = (
@@ -297,17 +297,8 @@ def cluster_block(
         if float(row["p"]) > alpha or flat is None:
             continue
         positive = str(row.get("sign", "+")).strip().lower() not in {"-", "negative", "-1"}
-        words = (
-            f"<b>{noun.capitalize()} {esc(row['id'])}</b> ({esc(direction(spec, positive))}), p = "
-            f"{fmt(float(row['p']))}: roughly {fmt(row['time_start_ms'])} to "
-            f"{fmt(row['time_end_ms'])} ms, {fmt(row['freq_low_hz'])} to "
-            f"{fmt(row['freq_high_hz'])} Hz, {len(str(row['channels']).split(','))} channels; "
-            f"peak {figures.stat_label(contrast)} = {fmt(row['peak_stat'])} at "
-            f"{esc(row['peak_channel'])}, {fmt(row['peak_freq_hz'])} Hz, "
-            f"{fmt(row['peak_time_ms'])} ms. Left: effect over the {noun}'s channels, {noun} "
-            f"outlined; middle: scalp map at the peak; right: time course over the {noun}'s "
-            "channels and frequencies."
-        )
+        sense = direction(spec, positive)
+        words = cluster_caption(contrast, row, noun=noun, sense=sense, stat_label=figures.stat_label(contrast))
         with figure_style():
             fig = figures.cluster_figure(contrast, correction, row, flat, unit=unit)
         number = int(row["id"])
@@ -379,9 +370,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
         )
         details.append(_correction_detail(run, contrast, correction, spec, write))
     grid = (
-        f"<h3>Uncorrected and corrected, side by side</h3><p>Top: the statistic at the peak "
-        "channel, points not significant there faded, significant ones outlined. Bottom: "
-        "number of significant channels at each time and frequency.</p>"
+        f"<h3>Uncorrected and corrected, side by side</h3><p>{side_by_side_words(contrast)}</p>"
         f'<div class="grid">{"".join(cards)}</div>'
     )
     explorer = _explorer(run, contrast, spec, alpha)
@@ -402,16 +391,16 @@ def _contrast_heading(contrast: ReportedContrast, spec: dict, study: dict) -> st
         f'<p class="summary">{esc(contrast.test)}'
         + (f", {esc(heading_words(spec))}" if spec.get("conditions") else "")
         + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
-        f"{contrast.n}; {total} points ({len(contrast.channels)} channels × "
-        f"{len(contrast.freqs)} frequencies × {len(contrast.times)} times). Positive values "
+        f"{contrast.n}; {total} points ({grid_words(contrast)}). Positive values "
         f"mean {esc(direction(spec, True))}.</p>" + left_out_note(contrast) + permutation_notes(contrast, study)
     )
 
 
 def _explorer(run: Run, contrast: ReportedContrast, spec: dict, alpha: float) -> str:
-    """The contrast's interactive explorer (empty without channel positions)."""
+    """The contrast's interactive explorer of time-frequency maps (empty without channel positions, and for
+    voltage contrasts: their time courses and scalp maps are in the figures)."""
     flat = channel_flat(run, contrast)
-    if flat is None:
+    if flat is None or is_voltage(contrast.freqs):
         return ""
     data = explorer_data(
         contrast,
@@ -431,7 +420,7 @@ def _correction_detail(
 ) -> str:
     study = run.study
     entry = correction_entries(study).get(correction.name, {})
-    parameters = correction_parameters(entry, correction)
+    parameters = correction_parameters(entry, correction, voltage=is_voltage(contrast.freqs))
     listed = ", ".join(f"{k} = {fmt(v) if not isinstance(v, (list, dict)) else v}" for k, v in parameters.items())
     threshold = (
         f"; threshold ({correction.threshold_kind}) {fmt(correction.threshold)}"
@@ -466,6 +455,7 @@ def _correction_detail(
             noun=correction.table_noun,
             unit=figures.effect_unit(study),
             write=write,
+            voltage=is_voltage(contrast.freqs),
         )
     return html
 

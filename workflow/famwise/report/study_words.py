@@ -26,6 +26,8 @@ def baseline_words(baseline: dict) -> str:
         scope = "one baseline pooled over all conditions"
     else:
         scope = "each condition separately"
+    if mode == "subtract":
+        return f"mean voltage of the {_span(baseline['window_ms'], 'ms')} baseline subtracted, {scope}"
     return f"{MODE_WORDS.get(mode, mode)} from the {_span(baseline['window_ms'], 'ms')} baseline, {scope}"
 
 
@@ -33,6 +35,8 @@ def decomposition_words(tf: dict) -> str:
     """E.g. 'power from Morlet wavelets (7 cycles) at 12 log-spaced frequencies, 4 to 30 Hz'."""
     grid = tf.get("frequencies") or {}
     method = str(tf.get("method", "morlet"))
+    if method == "none":
+        return _voltage_words(tf)
     if method == "multitaper":
         how = f"DPSS multitaper ({fmt(tf.get('taper_length_ms'))} ms tapers, NW = {fmt(tf.get('nw'))})"
     elif tf.get("fwhm_ms") is not None:
@@ -46,21 +50,27 @@ def decomposition_words(tf: dict) -> str:
     )
 
 
+def _voltage_words(tf: dict) -> str:
+    """E.g. 'none: condition mean voltage (µV), zero-phase low-pass 20 Hz, one value every 20 ms by decimation'."""
+    lowpass = f"zero-phase low-pass {fmt(tf['lowpass_hz'])} Hz" if tf.get("lowpass_hz") else "no low-pass"
+    step = f"one value every {fmt(tf['time_step_ms'])} ms by decimation" if tf.get("time_step_ms") else "every sample"
+    return f"none: condition mean voltage (µV), {lowpass}, {step}"
+
+
 def _width(value) -> str:
     return f"{fmt(value[0])} rising to {fmt(value[1])}" if isinstance(value, (list, tuple)) else fmt(value)
 
 
-def window_words(analysis: dict) -> str:
-    """E.g. '0 to 800 ms, 4 to 30 Hz, every channel'."""
+def window_words(analysis: dict, *, voltage: bool = False) -> str:
+    """E.g. '0 to 800 ms, 4 to 30 Hz, every channel' (voltage maps: no frequency)."""
     time = analysis.get("time_ms")
     band = analysis.get("freq_hz")
     channels = analysis.get("channels")
+    whole = "from the event to the end of the epoch" if voltage else "the widest time window free of edge effects"
     return ", ".join(
-        [
-            _span(time, "ms") if time else "the widest time window free of edge effects",
-            _span(band, "Hz") if band else "every frequency",
-            f"channels {', '.join(channels)}" if channels else "every channel",
-        ]
+        [_span(time, "ms") if time else whole]
+        + ([] if voltage else [_span(band, "Hz") if band else "every frequency"])
+        + [f"channels {', '.join(channels)}" if channels else "every channel"]
     )
 
 

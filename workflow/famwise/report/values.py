@@ -96,8 +96,11 @@ def strip_figure(columns: list[str], clusters: dict[str, list[dict]], *, noun: s
     return figure
 
 
-def values_block(folder: Path, stem: str, *, noun: str, unit: str, write) -> str:
-    """The per-subject values of one correction (figure, link to the TSV, caveat); "" when none."""
+def values_block(folder: Path, stem: str, *, noun: str, unit: str, write, voltage: bool = False) -> str:
+    """The per-subject values of one correction (figure, link to the TSV, caveat); "" when none.
+
+    ``voltage``: the contrast's maps are voltage maps, whose planned regions have no frequency band.
+    """
     columns, clusters = read_values(folder)
     if not clusters:
         return ""
@@ -112,7 +115,12 @@ def values_block(folder: Path, stem: str, *, noun: str, unit: str, write) -> str
     )
     return (
         f"<h4>Per-subject values of the significant {noun}s</h4>"
-        + note(CAVEAT, warning=True)
+        + note(
+            CAVEAT.replace("channels, a frequency band, a time window", "channels and a time window")
+            if voltage
+            else CAVEAT,
+            warning=True,
+        )
         + write(fig, stem, caption=caption, alt=f"per-subject values of each {noun}")
     )
 

@@ -1,8 +1,9 @@
 """The study spec: one pydantic model tree, the single source of truth.
 
 Choice types first, then one model per concern, then the root ``Study``;
-the inference section's models live in ``famwise.spec.inference``, the
-building blocks in ``famwise.spec.base``.
+the decomposition section's models live in ``famwise.spec.decomposition``,
+the inference section's in ``famwise.spec.inference``, the regions in
+``famwise.spec.region``, the building blocks in ``famwise.spec.base``.
 Every model rejects unknown keys and is frozen; every field has a
 description. Checks across sections live in ``Study``'s after-validators and
 raise ``LocatedError`` so that the message names the offending key.
@@ -22,6 +23,7 @@ from famwise.spec.base import (
     did_you_mean,
 )
 from famwise.spec.contrast_design import check_contrast_design
+from famwise.spec.decomposition import Baseline, Decomposition, FrequencyGrid  # noqa: F401  (re-exported)
 from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's models in one namespace)
     ClusterCorrection,
     Correction,
@@ -40,8 +42,6 @@ SubjectSource = Literal["epochs", "maps", "bids"]
 TestName = Literal[
     "one-sample", "paired", "weighted", "two-sample", "between-groups", "repeated-measures", "correlation", "regression"
 ]
-BaselineMode = Literal["db", "percent", "zscore", "ratio", "none"]
-Measure = Literal["power", "induced", "itpc"]
 
 
 class Subjects(SpecModel):
@@ -129,137 +129,6 @@ class EpochWindow(SpecModel):
     @classmethod
     def _ordered(cls, value):
         return check_window(value, "ms")
-
-
-class FrequencyGrid(SpecModel):
-    """Frequencies of the decomposition."""
-
-    lowest_hz: float = Field(default=4.0, gt=0, description="Lowest frequency in Hz.")
-    highest_hz: float = Field(default=40.0, gt=0, description="Highest frequency in Hz.")
-    count: int = Field(default=20, ge=1, description="Number of frequencies.")
-    spacing: Literal["linear", "log"] = Field(default="log", description="Linear or logarithmic spacing.")
-
-    @model_validator(mode="after")
-    def _ordered(self) -> "FrequencyGrid":
-        if self.highest_hz < self.lowest_hz:
-            raise LocatedError(
-                ("highest_hz",), f"must be at least lowest_hz ({self.lowest_hz} Hz), got {self.highest_hz} Hz"
-            )
-        return self
-
-
-class Baseline(SpecModel):
-    """Baseline normalisation of time-frequency maps."""
-
-    mode: BaselineMode = Field(
-        default="db", description="'db' (10 log10 of the ratio), 'percent' change, 'zscore', 'ratio' or 'none'."
-    )
-    window_ms: tuple[float, float] | None = Field(
-        default=(-400.0, -100.0), description="Baseline window [start, end] in ms relative to the event."
-    )
-    pooled: bool = Field(
-        default=False, description="Baseline from all conditions together instead of each condition's own."
-    )
-    single_epoch: bool = Field(default=False, description="Normalise every epoch before averaging.")
-
-    @field_validator("window_ms")
-    @classmethod
-    def _ordered(cls, value):
-        return check_window(value, "ms")
-
-    @model_validator(mode="after")
-    def _window_needed(self) -> "Baseline":
-        if self.mode != "none" and self.window_ms is None:
-            raise LocatedError(("window_ms",), f"baseline mode '{self.mode}' needs a window_ms")
-        return self
-
-
-class Decomposition(SpecModel):
-    """Per-subject time-frequency decomposition."""
-
-    method: Literal["morlet", "multitaper"] = Field(
-        default="morlet", description="Complex Morlet wavelets or DPSS multitaper."
-    )
-    frequencies: FrequencyGrid = Field(default_factory=FrequencyGrid, description="Frequency grid.")
-    cycles: float | tuple[float, float] | None = Field(
-        default=7.0,
-        description="Morlet width in cycles: a number, or [at lowest, at highest] frequency growing "
-        "log-linearly. The default of 7 cycles is long-standing practice (Tallon-Baudry et al. 1997, J Neurosci) "
-        "and applies to method 'morlet' when fwhm_ms is not given.",
-    )
-    fwhm_ms: float | tuple[float, float] | None = Field(
-        default=None,
-        description="Morlet width as temporal full width at half maximum in ms (a number or [at lowest, at highest]).",
-    )
-    taper_length_ms: float | None = Field(
-        default=None, gt=0, description="Multitaper taper length in ms (one window of the DPSS tapers)."
-    )
-    nw: float | None = Field(
-        default=None,
-        gt=0,
-        description="Multitaper time-half-bandwidth product NW (Percival & Walden 1993); 2NW - 1 tapers.",
-    )
-    measure: Measure = Field(
-        default="power",
-        description="'power' (total), 'induced' (the condition's average response removed first) or 'itpc' (inter-trial phase coherence).",
-    )
-    time_step_ms: float | None = Field(
-        default=20.0, gt=0, description="Output time step in ms (decimation after convolution); omit for every sample."
-    )
-    average: Literal["mean", "trimmed"] = Field(
-        default="mean", description="Average over epochs: mean or trimmed mean."
-    )
-    trim: float = Field(default=0.2, ge=0, lt=0.5, description="Proportion trimmed from each end for the trimmed mean.")
-    baseline: Baseline = Field(default_factory=Baseline, description="Baseline normalisation.")
-
-    @field_validator("cycles", "fwhm_ms")
-    @classmethod
-    def _positive_width(cls, value):
-        if value is not None and any(v <= 0 for v in (value if isinstance(value, tuple) else (value,))):
-            raise ValueError(
-                f"a wavelet width must be positive, got {list(value) if isinstance(value, tuple) else value}"
-            )
-        return value
-
-    @model_validator(mode="before")
-    @classmethod
-    def _cycles_default_only_for_morlet(cls, data):
-        """The cycles default does not apply when the width is given otherwise (fwhm_ms, multitaper)."""
-        if (
-            isinstance(data, dict)
-            and "cycles" not in data
-            and (data.get("fwhm_ms") is not None or data.get("method") == "multitaper")
-        ):
-            return {**data, "cycles": None}
-        return data
-
-    @model_validator(mode="after")
-    def _width(self) -> "Decomposition":
-        if self.method == "morlet":
-            if self.cycles is not None and self.fwhm_ms is not None:
-                raise LocatedError(("fwhm_ms",), "give either cycles or fwhm_ms, not both")
-            for key in ("taper_length_ms", "nw"):
-                if getattr(self, key) is not None:
-                    raise LocatedError((key,), "only used with method 'multitaper'")
-        else:
-            for key in ("taper_length_ms", "nw"):
-                if getattr(self, key) is None:
-                    raise LocatedError((key,), "method 'multitaper' needs taper_length_ms and nw")
-            for key in ("cycles", "fwhm_ms"):
-                if getattr(self, key) is not None:
-                    raise LocatedError((key,), "only used with method 'morlet'")
-        if self.measure == "itpc":
-            if self.method != "morlet":
-                raise LocatedError(("measure",), "'itpc' needs method 'morlet' (phase from a single wavelet)")
-            if self.baseline.mode != "none":
-                raise LocatedError(("baseline", "mode"), "'itpc' is a consistency in [0, 1]; use baseline mode 'none'")
-            if self.average != "mean":
-                raise LocatedError(("average",), "'itpc' averages unit phase vectors; use average 'mean'")
-        if self.baseline.pooled and self.baseline.single_epoch:
-            raise LocatedError(
-                ("baseline", "single_epoch"), "a pooled baseline cannot also be applied epoch by epoch; choose one"
-            )
-        return self
 
 
 class Neighbors(SpecModel):
@@ -515,4 +384,17 @@ class Study(SpecModel):
                     ("analysis", "freq_hz"),
                     f"band [{band[0]}, {band[1]}] Hz lies outside the decomposed frequencies [{grid.lowest_hz}, {grid.highest_hz}] Hz",
                 )
+        return self
+
+    @model_validator(mode="after")
+    def _no_frequency_for_voltage(self) -> "Study":
+        """Voltage maps (decomposition.method 'none') have no frequency axis to restrict."""
+        if self.decomposition.method != "none":
+            return self
+        message = "voltage maps (decomposition.method 'none') have no frequency axis; leave freq_hz out"
+        if self.analysis.freq_hz is not None:
+            raise LocatedError(("analysis", "freq_hz"), message)
+        for index, region in enumerate(self.planned_regions):
+            if region.freq_hz is not None:
+                raise LocatedError(("planned_regions", index, "freq_hz"), message)
         return self

@@ -38,7 +38,9 @@ class PlannedRegion(SpecModel):
 
     name: str = Field(pattern=r"^[A-Za-z0-9_.-]+$", description="Region name (letters, digits, '-', '_', '.').")
     channels: list[str] = Field(min_length=1, description="Channels averaged over.")
-    freq_hz: tuple[float, float] = Field(description="Frequency band [low, high] in Hz.")
+    freq_hz: tuple[float, float] | None = Field(
+        default=None, description="Frequency band [low, high] in Hz; omit for all frequencies (voltage maps have none)."
+    )
     time_ms: tuple[float, float] = Field(description="Time window [start, end] in ms.")
 
     @field_validator("time_ms")
