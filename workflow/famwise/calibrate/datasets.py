@@ -132,7 +132,8 @@ def calibration_chunk(
         folder = Path(scratch) / "contrasts" / name
         for row, index in enumerate(range(start, stop)):
             x = null_dataset(data, dataset_rng(settings["seed"], name, index))
-            counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings)
+            masks = correction_masks(x, data, table, graph, graph_file, folder, settings)
+            counts[row] = [int(np.count_nonzero(mask)) for mask in masks]
             if progress:
                 progress(f"calibration {name}: chunk {chunk}: {row + 1}/{stop - start} datasets")
     return {
@@ -145,8 +146,31 @@ def calibration_chunk(
     }
 
 
-def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: dict) -> list[int]:
-    """Significant points of one null dataset: uncorrected, then each correction."""
+def correction_masks(x, data, table, graph, graph_file, folder: Path, settings: dict) -> list[np.ndarray]:
+    """Significant points of one dataset: uncorrected (parametric p <= alpha), then each correction.
+
+    Parameters
+    ----------
+    x : ndarray, shape of ``data.x``
+        The dataset's subject maps.
+    data : ContrastData
+        The design (test, groups, covariate, points) ``x`` belongs to.
+    table : PermutationTable or None
+        The table the permutation corrections use (None when none does).
+    graph : tuple of ndarray
+        CSR neighbor arrays (`load_graph_arrays`).
+    graph_file : path or None
+        ``channels/graph.npz``, for the cluster and TFCE corrections.
+    folder : path
+        Scratch ``contrasts/<c>`` folder the stage files are written to.
+    settings : dict
+        ``alpha``, ``contrast``, ``collectors``, ``corrections`` and the
+        statistic settings (as in :func:`calibration_settings`).
+
+    Returns
+    -------
+    list of ndarray of bool, each (P,)
+    """
     statistic = {key: settings[key] for key in ("statistic", "trim", "equal_var")}
     result = compute(x.astype(np.float64), test=data.test, groups=data.groups, covariate=data.covariate,
                      tail=settings["tail"], **statistic)
@@ -168,11 +192,11 @@ def _dataset_counts(x, data, table, graph, graph_file, folder: Path, settings: d
         arrays["n_rows.total"] = np.array(table.n_rows)
         inputs.append(folder / "nulls" / "shard-0.npz")
         save_npz(inputs[1], **arrays)
-    counts = [int(np.count_nonzero(result.p <= settings["alpha"]))]
+    masks = [np.asarray(result.p <= settings["alpha"]).reshape(-1)]
     for correction in settings["corrections"]:
         files = list(inputs)
         if correction["correction"]["method"] in ("cluster", "tfce") and graph_file is not None:
             files.append(Path(graph_file))
         outcome, _ = apply_correction(files, contrast=settings["contrast"], settings=correction)
-        counts.append(outcome.n_significant)
-    return counts
+        masks.append(np.asarray(outcome.mask, dtype=bool).reshape(-1))
+    return masks

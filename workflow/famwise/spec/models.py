@@ -12,6 +12,8 @@ from typing import Annotated, Literal, Union
 
 from pydantic import BaseModel, ConfigDict, Field, field_validator, model_validator
 
+from famwise.spec.power import PowerSettings
+
 SubjectSource = Literal["epochs", "timefreq", "bids"]
 TestName = Literal["one-sample", "paired", "two-sample", "repeated-measures", "correlation"]
 Tail = Literal["two-sided", "greater", "less"]
@@ -468,6 +470,7 @@ class Study(SpecModel):
     channels: Channels = Field(default_factory=Channels, description="Electrode positions and neighbor graph (cluster and TFCE corrections).")
     contrasts: list[Contrast] = Field(min_length=1, description="Group-level contrasts.")
     inference: Inference = Field(description="Statistics, resampling and corrections.")
+    power: PowerSettings | None = Field(default=None, description="Sample-size planning by simulation from this study's maps (`famwise power`); omit when not planning.")
 
     @field_validator("output")
     @classmethod
