@@ -17,6 +17,7 @@ include: "nulls.smk"
 include: "correct.smk"
 include: "report.smk"
 include: "calibrate.smk"
+include: "power.smk"
 
 
 rule all:

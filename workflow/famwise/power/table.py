@@ -179,7 +179,11 @@ def summarize(chunk_files: list[Path], out: Path, *, settings: dict) -> list[dic
             raise UserError(f"{path} was computed with other power settings; delete it and rerun")
         grouped.setdefault(key, []).append(arrays)
     rows, regions = [], {}
-    for key, chunk in settings["chunk_settings"].items():
+    order = sorted(
+        settings["chunk_settings"], key=lambda k: (settings["effects"].index(k.split("/")[0]), int(k.split("/")[1]))
+    )
+    for key in order:
+        chunk = settings["chunk_settings"][key]
         parts = grouped.get(key)
         if not parts:
             raise UserError(f"power: no chunk files for {key}")

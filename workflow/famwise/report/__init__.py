@@ -15,6 +15,7 @@ from famwise.report.sections import (FigureWriter, contrast_section, graph_secti
                                      provenance_section, study_section, subjects_section)
 from famwise.report.style import write_atomic
 from famwise.calibrate.table import calibration_section_html
+from famwise.power.text import power_section_html
 
 __all__ = ["build_report", "methods_text", "write_provenance"]
 
@@ -64,6 +65,9 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
                                                         for c in run.contrasts})
     if calibration:
         body.append(calibration)
+    power = power_section_html(output_dir)
+    if power:
+        body.append(power)
     methods = methods_from_run(run)
     write_atomic(folder / "methods.md", methods.encode("utf-8"))
     record = write_provenance(folder / "provenance.json", spec_text=spec_text, study=run.study,
@@ -76,6 +80,8 @@ def build_report(output_dir: Path, *, spec_text: str, spec_path: Path, input_fil
     nav += [(anchor("contrast", c.name), f"Contrast {c.name}") for c in run.contrasts]
     if calibration:
         nav.append(("calibration", "Calibration"))
+    if power:
+        nav.append(("power", "Power"))
     nav += [("methods", "Methods"), ("provenance", "Provenance")]
     title = f"famwise report: {run.study.get('name', output_dir.name)}"
     subtitle = (f"{len(run.contrasts)} contrasts, "
