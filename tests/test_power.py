@@ -225,3 +225,38 @@ def test_table_smallest_n_and_methods_sentence(tmp_path):
     text = methods_sentences(rows, info, pilot_n=20)
     assert f"with N = {found['n_target']}, bonferroni detected the effect in" in text
     assert "inflated by selection" in text
+
+
+def test_curtailed_null_gives_the_full_tables_masks(tmp_path):
+    """Stopping a correction's null once more than alpha R rows reach the identity's largest value leaves every
+    mask as the full table's (the decision cannot change: counts only grow; Besag & Clifford 1991), and does stop."""
+    from famwise.calibrate.datasets import correction_masks
+    from famwise.nulls.engine import run_shard
+    from famwise.nulls.shard import table_for
+    from famwise.power.chunk import simulated_design
+    from famwise.power.sequential import SettledRunner
+
+    corrections = (
+        "- method: max-stat\n- method: max-stat\n  step_down: true\n  name: step-down\n- method: cluster\n"
+        "  forming_p: 0.05\n  dims: [freq, time]\n- method: tfce\n  dims: [freq, time]\n"
+        "- method: holm\n  pvalues: permutation\n"
+    )
+    plan = _plan(tmp_path, corrections=corrections, power="sample_sizes: [10]\n", permutations=199)
+    settings = json.loads(chunk_settings(plan, power_spec(plan), "c1", "pilot-x1", 10))
+    rng = np.random.default_rng(8)
+    shape = (2, 4, 8)
+    graph = (np.zeros(3, np.int32), np.zeros(0, np.int32))
+    curtailed = 0
+    for index in range(24):
+        x = gaussian_filter(rng.normal(size=(10, *shape)), sigma=(0, 0, 0.7, 1.0)).reshape(10, -1)
+        x[:, :8] += 0.25 * (index % 4)  # from no effect to a clear one
+        design = simulated_design(_pilot(tmp_path, x, shape)[0], x.astype(np.float32), None, None)
+        table = table_for(design, settings={**settings, "seed": index})
+        folder = tmp_path / "scratch" / "contrasts" / "c1"
+        full = correction_masks(x, design, table, graph, None, folder, settings, runner=run_shard)
+        runner = SettledRunner(settings["alpha"])
+        short = correction_masks(x, design, table, graph, None, folder, settings, runner=runner)
+        for a, b in zip(full, short):
+            np.testing.assert_array_equal(a, b)
+        curtailed += sum(used < table.n_rows for used in runner.rows_used.values())
+    assert curtailed > 10

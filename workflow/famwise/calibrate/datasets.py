@@ -146,7 +146,7 @@ def calibration_chunk(
     }
 
 
-def correction_masks(x, data, table, graph, graph_file, folder: Path, settings: dict) -> list[np.ndarray]:
+def correction_masks(x, data, table, graph, graph_file, folder: Path, settings: dict, *, runner=run_shard) -> list[np.ndarray]:
     """Significant points of one dataset: uncorrected (parametric p <= alpha), then each correction.
 
     Parameters
@@ -166,6 +166,9 @@ def correction_masks(x, data, table, graph, graph_file, folder: Path, settings: 
     settings : dict
         ``alpha``, ``contrast``, ``collectors``, ``corrections`` and the
         statistic settings (as in :func:`calibration_settings`).
+    runner : callable
+        Runs the table's rows through the collectors, with the signature of
+        `famwise.nulls.engine.run_shard` (the default).
 
     Returns
     -------
@@ -186,7 +189,7 @@ def correction_masks(x, data, table, graph, graph_file, folder: Path, settings: 
     save_npz(inputs[0], **observed)
     if table is not None:
         collectors = make_collectors(settings["collectors"], observed=observed, shape=shape, graph=graph)
-        arrays = run_shard(x, table.rows, collectors=collectors, test=data.test, groups=data.groups,
+        arrays = runner(x, table.rows, collectors=collectors, test=data.test, groups=data.groups,
                            covariate=data.covariate, **statistic)
         arrays["rows"] = np.array([0, table.n_rows])
         arrays["n_rows.total"] = np.array(table.n_rows)

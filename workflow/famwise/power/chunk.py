@@ -7,7 +7,8 @@ study is tested with its own permutation table of the study's kind and size
 (seeded from the study's stream: one table shared by all studies would make
 their error rates depend on that one table), and goes through the same
 machinery as the calibration (`famwise.calibrate.datasets.correction_masks`): the statistic,
-the null collectors, and each correction's own function.
+the null collectors (curtailed per correction once its decision at alpha is
+settled, `famwise.power.sequential`), and each correction's own function.
 
 Per study and correction the chunk keeps: whether any point of the effect
 region is significant (a detection), the share of the region's points that
@@ -28,6 +29,7 @@ from famwise.calibrate.settings import UNCORRECTED
 from famwise.design import ContrastData, load_contrast
 from famwise.nulls.shard import load_graph_arrays, table_for
 from famwise.nulls.tables import shard_bounds
+from famwise.power.sequential import SettledRunner
 from famwise.power.simulate import effect_map, pilot_from, region_mask, simulate_study
 
 STREAM = 0x9043
@@ -97,7 +99,10 @@ def power_chunk(
         region's points significant; ``outside`` float64 (s, c), 1 when a
         point outside the region is significant (NaN when the region is the
         whole map); ``region_points``, ``points``; ``table_rows`` (identity
-        included; 0 without a table); ``settings`` as JSON text.
+        included; 0 without a table); ``rows_used`` int64 (s, c), table rows
+        each max-type correction's null was computed on (fewer only once its
+        decision was settled, see `famwise.power.sequential`; 0 for
+        corrections without a max-type null); ``settings`` as JSON text.
     """
     data = load_contrast(Path(subjects_file))
     effect_spec = settings["effect"]
@@ -111,6 +116,7 @@ def power_chunk(
     labels = [UNCORRECTED] + [c["correction"]["label"] for c in settings["corrections"]]
     graph = load_graph_arrays(graph_file, len(data.channels))
     outcomes = np.zeros((stop - start, len(labels), 3))
+    rows_used = np.zeros((stop - start, len(labels)), dtype=np.int64)
     table = None
     with tempfile.TemporaryDirectory(prefix="famwise-power-") as scratch:
         folder = Path(scratch) / "contrasts" / name
@@ -120,8 +126,10 @@ def power_chunk(
             design = simulated_design(data, x, groups, covariate)
             if settings["collectors"]:  # each study its own random table, as each real study has
                 table = table_for(design, settings={**settings, "seed": int(rng.integers(2**63 - 1))})
-            masks = correction_masks(x, design, table, graph, graph_file, folder, settings)
+            runner = SettledRunner(settings["alpha"])
+            masks = correction_masks(x, design, table, graph, graph_file, folder, settings, runner=runner)
             outcomes[row] = study_outcomes(masks, region)
+            rows_used[row] = [runner.rows_used.get(label, 0) for label in labels]
             if progress:
                 progress(f"power {name}: {tag}: n {n}: chunk {chunk}: {row + 1}/{stop - start} studies")
     return {
@@ -133,5 +141,6 @@ def power_chunk(
         "region_points": np.array(int(np.count_nonzero(region))),
         "points": np.array(int(region.size)),
         "table_rows": np.array(0 if table is None else table.n_rows),
+        "rows_used": rows_used,
         "settings": np.array(json.dumps(settings, sort_keys=True)),
     }

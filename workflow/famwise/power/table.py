@@ -49,6 +49,7 @@ COLUMNS = (
     "false_positive_ci_low",
     "false_positive_ci_high",
     "permutations",
+    "permutations_computed",
 )
 SIDECAR = {
     "effect": {
@@ -84,6 +85,12 @@ SIDECAR = {
         "Description": "Random permutations each simulated study was tested with (all of them when the "
         "table is exact); n/a for corrections on parametric p-values."
     },
+    "permutations_computed": {
+        "Description": "Mean permutations actually computed per study for a max-statistic, cluster or TFCE "
+        "correction: a study's null stops once more than alpha of the table reaches the observed largest value, "
+        "when no point can be significant whatever the rest holds, so the decision is the full table's "
+        "(famwise.power.sequential); n/a for the other corrections."
+    },
 }
 
 
@@ -96,7 +103,10 @@ def merge_chunks(chunks: list[dict], *, studies: int) -> dict[str, np.ndarray]:
             f"power: the chunk files hold {indices.size} studies, expected studies 0 to {studies - 1} once "
             "each; delete the power folder and rerun"
         )
-    return {key: np.concatenate([c[key] for c in chunks])[order] for key in ("detected", "recovered", "outside")}
+    return {
+        key: np.concatenate([c[key] for c in chunks])[order]
+        for key in ("detected", "recovered", "outside", "rows_used")
+    }
 
 
 def recovered_interval(values: np.ndarray) -> tuple[float, float]:
@@ -131,7 +141,11 @@ def power_rows(merged: dict, *, effect: str, n: int, labels: list[str], settings
             "power_ci_high": high,
             "recovered": float(recovered.mean()),
             "permutations": table_rows - 1 if uses_null and table_rows else None,
+            "permutations_computed": None,
         }
+        used = merged["rows_used"][:, column]
+        if used.any():
+            row["permutations_computed"] = float(used.mean()) - 1
         row["recovered_ci_low"], row["recovered_ci_high"] = recovered_interval(recovered)
         if np.isnan(outside).all():
             row.update(
