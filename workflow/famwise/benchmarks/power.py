@@ -17,7 +17,7 @@ def bench_power(quick: bool) -> BenchRow:
 
     The demo data are written and the pilot's contrast data and channel graph
     are built first, untimed; the row times the simulation itself: 6 sample
-    sizes (8 to 48) x 200 simulated studies x 1,000 permutations, each study
+    sizes (8 to 20) x 200 simulated studies x 1,000 permutations, each study
     through the example's six corrections, on every core of the machine.
     There is no reference implementation: the target is absolute.
     """
