@@ -23,7 +23,7 @@ def power_figure(rows: list[dict], *, contrast: str, target: float, folder: Path
 
     effects = list(dict.fromkeys(r["effect"] for r in rows))
     corrections = [c for c in dict.fromkeys(r["correction"] for r in rows) if c != UNCORRECTED]
-    shades = DIVERGING(np.linspace(0.0, 1.0, max(len(corrections), 2)))
+    shades = DIVERGING(_ends(len(corrections)))
     with figure_style():
         figure, axes = plt.subplots(
             1, len(effects), figsize=(3.4 * len(effects) + 1.6, 3.1), sharey=True, squeeze=False
@@ -70,3 +70,9 @@ def power_figure(rows: list[dict], *, contrast: str, target: float, folder: Path
             fontsize=9,
         )
         return save_figure(figure, folder, stem)
+
+
+def _ends(k: int) -> np.ndarray:
+    """k positions on the diverging map away from its near-white centre (half from each end)."""
+    cool, warm = -(-k // 2), k // 2
+    return np.concatenate([np.linspace(0.0, 0.3, cool), np.linspace(0.7, 1.0, warm)])
