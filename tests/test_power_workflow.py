@@ -21,7 +21,9 @@ power:
 @pytest.fixture(scope="module")
 def planned(tmp_path_factory):
     root = tmp_path_factory.mktemp("power")
-    spec = write_tiny_study(root / "study", n_subjects=6, permutations=31, corrections="- method: bonferroni\n- method: max-stat\n")
+    spec = write_tiny_study(
+        root / "study", n_subjects=6, permutations=31, corrections="- method: bonferroni\n- method: max-stat\n"
+    )
     spec.write_text(spec.read_text() + POWER)
     return spec
 
