@@ -49,6 +49,7 @@ def pipeline_noop(quick: bool) -> BenchRow:
 def _rows(quick: bool):
     from famwise.benchmarks.clusters import bench_clusters
     from famwise.benchmarks.decomposition import bench_decomposition
+    from famwise.benchmarks.power import bench_power
     from famwise.benchmarks.stats import bench_maxt_null
     from famwise.benchmarks.stepdown import bench_stepdown
 
@@ -57,6 +58,7 @@ def _rows(quick: bool):
     yield bench_stepdown(quick)
     yield from bench_clusters(quick)
     yield pipeline_noop(quick)
+    yield bench_power(quick)
 
 
 def format_row(row: BenchRow) -> str:

@@ -33,6 +33,7 @@ from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's mod
     Tail,
     TFCECorrection,
 )
+from famwise.spec.power import PowerSettings, check_power_contrasts
 from famwise.spec.region import Analysis, PlannedRegion
 
 SubjectSource = Literal["epochs", "maps", "bids"]
@@ -383,6 +384,10 @@ class Study(SpecModel):
         description="Regions named before looking at the data; the report gives each subject's mean over each, "
         "per condition and contrast: unbiased values, unlike those of a significant cluster.",
     )
+    power: PowerSettings | None = Field(
+        default=None,
+        description="Sample-size planning by simulation from this study's maps (`famwise power`); omit when not planning.",
+    )
 
     @field_validator("output")
     @classmethod
@@ -466,4 +471,9 @@ class Study(SpecModel):
                     ("analysis", "freq_hz"),
                     f"band [{band[0]}, {band[1]}] Hz lies outside the decomposed frequencies [{grid.lowest_hz}, {grid.highest_hz}] Hz",
                 )
+        return self
+
+    @model_validator(mode="after")
+    def _power_contrasts_known(self) -> "Study":
+        check_power_contrasts(self.power, [c.name for c in self.contrasts])
         return self

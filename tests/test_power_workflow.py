@@ -1,0 +1,65 @@
+"""famwise power through Snakemake: shards as jobs, only new sample sizes rerun, the command's output, the report."""
+
+import pytest
+
+import famwise.cli
+from famwise.power.table import read_table
+
+from conftest import write_tiny_study
+
+pytestmark = pytest.mark.workflow
+
+POWER = """
+power:
+  sample_sizes: [6, 10]
+  studies: 4
+  shards: 2
+  effect: {source: specified, d: [1.5], channels: [Fz], time_ms: [0, 400]}
+"""
+
+
+@pytest.fixture(scope="module")
+def planned(tmp_path_factory):
+    root = tmp_path_factory.mktemp("power")
+    spec = write_tiny_study(
+        root / "study", n_subjects=6, permutations=31, corrections="- method: bonferroni\n- method: max-stat\n"
+    )
+    spec.write_text(spec.read_text() + POWER)
+    return spec
+
+
+def test_power_writes_table_figure_methods_and_reruns_only_new_sizes(planned, capsys):
+    spec = planned
+    assert famwise.cli.main(["power", str(spec), "--cores", "2"]) == 0
+    out, err = capsys.readouterr()
+    folder = spec.parent / "results" / "power"
+    rows = read_table(folder / "high-vs-low.tsv")
+    assert [(r["n"], r["correction"]) for r in rows][:3] == [(6, "uncorrected"), (6, "bonferroni"), (6, "max-stat")]
+    assert {r["n"] for r in rows} == {6, 10} and all(r["studies"] == 4 for r in rows)
+    for stem in ("high-vs-low.json", "high-vs-low.png", "high-vs-low.svg", "high-vs-low.md"):
+        assert (folder / stem).is_file()
+    methods = (folder / "high-vs-low.md").read_text()
+    assert "detected the effect in" in methods or "did not reach" in methods
+    assert "power: 0/8 simulated studies done" in err and "power: 8/8 simulated studies done" in err
+    assert (spec.parent / "results" / "logs" / "power_shard" / "high-vs-low-d-1.5-n6-0.benchmark.tsv").is_file()
+    shards = folder / "high-vs-low" / "d-1.5"
+    before = {p: p.stat().st_mtime_ns for p in shards.rglob("shard-*.npz")}
+    assert famwise.cli.main(["power", str(spec), "--sizes", "6,10,14", "--cores", "2"]) == 0
+    out, err = capsys.readouterr()
+    assert out.count("power_shard") == 2 and "size=14" in out  # only the new size's two shards ran
+    assert "power: 8/12 simulated studies done" in err and "power: 12/12 simulated studies done" in err
+    assert all(p.stat().st_mtime_ns == t for p, t in before.items())
+    assert {r["n"] for r in read_table(folder / "high-vs-low.tsv")} == {6, 10, 14}
+
+
+def test_report_shows_the_power_section(planned):
+    spec = planned
+    assert famwise.cli.main(["run", str(spec), "--cores", "2"]) == 0
+    text = (spec.parent / "results" / "report" / "index.html").read_text()
+    assert "Power for planning a study" in text and "inflated by selection" in text
+
+
+def test_missing_power_section_is_one_clear_error(tmp_path, capsys):
+    spec = write_tiny_study(tmp_path / "study", n_subjects=4)
+    assert famwise.cli.main(["power", str(spec)]) == 2
+    assert "no 'power' section" in capsys.readouterr().err
