@@ -19,6 +19,7 @@ from famwise.power.shard import power_shard
 from famwise.power.simulate import effect_map, pilot_from, region_mask, simulate_study
 from famwise.power.table import merge_shards, smallest_n, summarize
 from famwise.power.text import methods_sentences
+from famwise.report.power import power_section_html
 from famwise.spec import load_study
 
 SPEC = """\
@@ -210,15 +211,25 @@ def test_table_smallest_n_and_methods_sentence(tmp_path):
         settings = power_shard_settings(plan, spec, "c1", effect, size)
         files.append(tmp_path / path)
         save_npz(files[-1], **power_shard(subjects, None, shard=shard, settings=settings))
-    rows = summarize(files, tmp_path / "c1.tsv", settings=power_table_settings(plan, spec, "c1"))
+    table = tmp_path / "power" / "c1.tsv"
+    table_settings = power_table_settings(plan, spec, "c1")
+    rows = summarize(files, table, settings=table_settings, subjects=subjects)
     found = smallest_n(rows, target=0.5)["pilot-x1"]["bonferroni"]
     powers = {r["n"]: r["power"] for r in rows if r["correction"] == "bonferroni"}
     assert powers[6] < 0.5 <= powers[60]
     assert found["n_target"] == 60
-    info = json.loads((tmp_path / "c1.json").read_text())["Power"]
+    info = json.loads((tmp_path / "power" / "c1.json").read_text())["Power"]
     text = methods_sentences(rows, info, pilot_n=20)
     assert f"with N = {found['n_target']}, bonferroni detected the effect in" in text
     assert "inflated by selection" in text
+    # The report section warns only when the pilot's maps or the corrections changed since the table.
+    (tmp_path / "contrasts" / "c1").mkdir(parents=True)
+    subjects.rename(tmp_path / "contrasts" / "c1" / "subjects.npz")
+    records = [c.record() for c in table_settings.levels[0].corrections]
+    stale = "computed before the latest change"
+    assert stale not in power_section_html(tmp_path, {"c1": records})
+    changed = [records[0] | {"alpha": 0.01}]
+    assert stale in power_section_html(tmp_path, {"c1": changed})
 
 
 def test_curtailed_null_gives_the_full_tables_masks(tmp_path):

@@ -329,7 +329,7 @@ def run_power_table(args, settings: types.PowerTableSettings) -> None:
     from famwise.power.text import format_rows, methods_sentences
 
     out = Path(args.out)
-    summarize([Path(p) for p in args.inputs], out, settings=settings)
+    summarize([Path(p) for p in args.inputs], out, settings=settings, subjects=Path(args.subjects))
     rows = read_table(out)
     info = json.loads(out.with_suffix(".json").read_text(encoding="utf-8"))["Power"]
     power_figure(rows, contrast=settings.contrast, target=settings.target, folder=out.parent, stem=out.stem)

@@ -28,7 +28,7 @@ import numpy as np
 
 from famwise.atomic import write_json, write_text
 from famwise.calibrate.settings import UNCORRECTED
-from famwise.calibrate.table import fwer_interval
+from famwise.calibrate.table import calibration_basis, fwer_interval
 from famwise.errors import UserError
 from famwise.settings import PowerShardSettings, PowerTableSettings
 from famwise.settings_codec import to_json, to_plain
@@ -184,8 +184,23 @@ def smallest_n(rows: list[dict], *, target: float) -> dict[str, dict[str, dict]]
     return found
 
 
-def summarize(shard_files: list[Path], out: Path, *, settings: PowerTableSettings) -> list[dict]:
-    """Merge a contrast's shards; write ``<contrast>.tsv`` and ``.json`` beside ``out``; return the rows."""
+def power_basis(contrast_folder: Path, corrections: list[dict]) -> dict:
+    """What a power table describes: the pilot's subject maps and each correction's settings.
+
+    As `famwise.calibrate.table.calibration_basis`, without the observed map,
+    which the simulation does not read. ``corrections`` are the settings
+    records of the corrections (``CorrectionSettings.record()``).
+    """
+    basis = calibration_basis(Path(contrast_folder), corrections)
+    del basis["observed_sha256"]
+    return basis
+
+
+def summarize(shard_files: list[Path], out: Path, *, settings: PowerTableSettings, subjects: Path) -> list[dict]:
+    """Merge a contrast's shards; write ``<contrast>.tsv`` and ``.json`` beside ``out``; return the rows.
+
+    ``subjects`` is the pilot's ``contrasts/<c>/subjects.npz`` (hashed into the sidecar's ``basis``).
+    """
     expected = {(level.effect.tag, level.n): level for level in settings.levels}
     grouped: dict[tuple[str, int], list[dict]] = {}
     for path in shard_files:
@@ -205,12 +220,13 @@ def summarize(shard_files: list[Path], out: Path, *, settings: PowerTableSetting
         labels = [str(x) for x in parts[0]["labels"]]
         rows += power_rows(merged, labels=labels, settings=level, table_rows=int(parts[0]["table_rows"]))
         regions[level.effect.tag] = (int(parts[0]["region_points"]), int(parts[0]["points"]))
-    write_table(Path(out), rows, settings=settings, regions=regions)
+    basis = power_basis(Path(subjects).parent, [c.record() for c in settings.levels[0].corrections])
+    write_table(Path(out), rows, settings=settings, regions=regions, basis=basis)
     return rows
 
 
-def write_table(path: Path, rows: list[dict], *, settings: PowerTableSettings, regions: dict) -> None:
-    """The TSV and its JSON sidecar (columns, the simulation's settings, the smallest n per correction)."""
+def write_table(path: Path, rows: list[dict], *, settings: PowerTableSettings, regions: dict, basis: dict) -> None:
+    """The TSV and its JSON sidecar (columns, the simulation's settings, the smallest n per correction, its basis)."""
     lines = ["\t".join(COLUMNS)]
     for row in rows:
         values = [row[c] for c in COLUMNS]
@@ -236,6 +252,7 @@ def write_table(path: Path, rows: list[dict], *, settings: PowerTableSettings, r
         "their covariate values), plus the effect inside the region, zero outside",
         "intervals": "power, false_positive_rate: exact binomial (Clopper-Pearson 1934) 95%; recovered: mean +- 1.96 SE",
         "assumptions": ASSUMPTIONS,
+        "basis": basis,
     }
     write_json(path.with_suffix(".json"), sidecar)
 

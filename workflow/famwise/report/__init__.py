@@ -79,7 +79,7 @@ def build_report(
     )
     if calibration:
         body.append(calibration)
-    power = power_section_html(output_dir)
+    power = power_section_html(output_dir, {c.name: [x.settings for x in c.corrections] for c in run.contrasts})
     if power:
         body.append(power)
     methods = methods_from_run(run)

@@ -3,13 +3,18 @@
 import json
 from pathlib import Path
 
-from famwise.power.table import COLUMNS, SIDECAR, read_table
+from famwise.power.table import COLUMNS, SIDECAR, power_basis, read_table
 from famwise.power.text import methods_sentences
 from famwise.report.html import anchor, esc, figure, note, table
 
 
-def power_section_html(output_dir: Path) -> str | None:
-    """Report section: every contrast's power table, figure, assumptions and methods sentence; None when none ran."""
+def power_section_html(output_dir: Path, corrections: dict[str, list[dict]]) -> str | None:
+    """Report section: every contrast's power table, figure, assumptions and methods sentence; None when none ran.
+
+    ``corrections`` maps each contrast to the settings of its current
+    correction results; a table whose ``basis`` differs from the current one
+    (other pilot maps or corrections) gets a warning.
+    """
     folder = Path(output_dir) / "power"
     files = sorted(folder.glob("*.tsv")) if folder.is_dir() else []
     if not files:
@@ -31,6 +36,14 @@ def power_section_html(output_dir: Path) -> str | None:
         rows = read_table(path)
         parts.append(f'<h3 id="{anchor("power", contrast)}">{esc(contrast)}</h3>')
         parts.append(note("Assumptions: " + " ".join(info["assumptions"]), warning=True))
+        if info.get("basis") != power_basis(Path(output_dir) / "contrasts" / contrast, corrections.get(contrast, [])):
+            parts.append(
+                note(
+                    "This power table was computed before the latest change to this contrast's data or "
+                    "corrections: run famwise power again.",
+                    warning=True,
+                )
+            )
         if info["permutations"] < info["study_permutations"]:
             parts.append(
                 note(
