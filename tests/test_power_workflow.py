@@ -60,6 +60,11 @@ def test_report_shows_the_power_section(planned):
     assert "This power table was computed before" not in text  # same pilot maps and corrections
 
 
+def test_missing_profile_folder_is_one_clear_error(planned, tmp_path, capsys):
+    assert famwise.cli.main(["power", str(planned), "--profile", str(tmp_path / "nowhere")]) == 2
+    assert "--profile" in capsys.readouterr().err
+
+
 def test_missing_power_section_is_one_clear_error(tmp_path, capsys):
     spec = write_tiny_study(tmp_path / "study", n_subjects=4)
     assert famwise.cli.main(["power", str(spec)]) == 2

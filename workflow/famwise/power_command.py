@@ -1,6 +1,6 @@
 """The ``famwise power`` subcommand: simulate studies from the spec's data and print each correction's power.
 
-``famwise power SPEC [--sizes 12,20,28] [--studies N] [--cores N]`` asks
+``famwise power SPEC [--sizes 12,20,28] [--studies N] [--cores N] [--profile DIR]`` asks
 Snakemake for ``power/<contrast>.tsv`` of every contrast the spec's
 ``power`` section names (building the contrast data first when needed).
 Shards of simulated studies are jobs: finished shards are kept, so an
@@ -35,6 +35,9 @@ def add_parser(commands) -> None:
     parser.add_argument("--sizes", help="sample sizes, comma-separated (default: power.sample_sizes of the spec)")
     parser.add_argument("--studies", type=int, help="simulated studies per size and effect (default: power.studies)")
     parser.add_argument("--cores", type=int, default=os.cpu_count() or 1, help="cores to use (default: all)")
+    parser.add_argument(
+        "--profile", type=Path, metavar="DIR", help="Snakemake profile folder, e.g. configs/profiles/slurm"
+    )
     parser.set_defaults(handler=command_power)
 
 
@@ -59,6 +62,11 @@ def command_power(args) -> int:
     spec = power_spec(plan, sizes=_sizes(args.sizes), studies=args.studies)
     preflight(plan)  # the mistakes `run` catches before its first job
     contrasts = power_contrasts(plan, spec)
+    options = ["--cores", str(args.cores)]
+    if args.profile:
+        if not args.profile.is_dir():
+            raise UserError(f"--profile {args.profile}: no such profile folder")
+        options += ["--profile", str(args.profile.resolve())]
     config = {"power_sizes": ",".join(str(n) for n in spec.sample_sizes), "power_studies": spec.studies}
     levels = len(effect_levels(spec))
     total = spec.studies * len(spec.sample_sizes) * levels * len(contrasts)
@@ -79,7 +87,7 @@ def command_power(args) -> int:
     watcher.start()
     try:
         targets = [layout.power_files(name)["table"] for name in contrasts]
-        code, _ = run_snakemake(plan, ["--cores", str(args.cores), *targets], capture=False, config=config)
+        code, _ = run_snakemake(plan, [*options, *targets], capture=False, config=config)
     finally:
         watcher.stop()
     if code != 0:
@@ -96,7 +104,7 @@ def command_power(args) -> int:
         print(f"\n{name} ({files['table']}):")
         print(format_rows(read_table(files["table"]), info))
         print(f"  for a proposal: {files['methods']}")
-    _update_report(plan, args, config, started)
+    _update_report(plan, args, options, config, started)
     print(f"famwise: done in {time.time() - started:.1f} s")
     return 0
 
@@ -129,14 +137,14 @@ def _studies_in(path: Path, wanted: str) -> int:
         return 0
 
 
-def _update_report(plan, args, config: dict, started: float) -> None:
+def _update_report(plan, args, options: list[str], config: dict, started: float) -> None:
     """Rebuild an existing report, whose rule now declares the power files as inputs."""
     report = plan.loaded.output / layout.REPORT_PAGE
     if not report.is_file():
         print(f"\nfamwise: `famwise run {args.spec}` builds the report, which will include the power section")
         return
     print("\nfamwise: updating the report with the power section")
-    code, _ = run_snakemake(plan, ["--cores", str(args.cores), layout.REPORT_PAGE], capture=False, config=config)
+    code, _ = run_snakemake(plan, [*options, layout.REPORT_PAGE], capture=False, config=config)
     if code != 0:
         raise UserError(
             job_error(plan, started)

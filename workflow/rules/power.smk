@@ -14,12 +14,24 @@ def _power():
                        studies=int(config["power_studies"]))
 
 
+def _shard(wildcards):
+    return _power_shard_settings(PLAN, _power(), wildcards.contrast, wildcards.effect, int(wildcards.size))
+
+
 def power_shard_settings(wildcards):
-    return to_json(_power_shard_settings(PLAN, _power(), wildcards.contrast, wildcards.effect, int(wildcards.size)))
+    return to_json(_shard(wildcards))
 
 
 def power_table_settings(wildcards):
     return to_json(_power_table_settings(PLAN, _power(), wildcards.contrast))
+
+
+def power_shard_mem_mb(wildcards, attempt):
+    return sizing.power_shard_mem_mb(PLAN, _shard(wildcards)) * attempt
+
+
+def power_shard_runtime(wildcards, attempt):
+    return sizing.power_shard_runtime_min(PLAN, _shard(wildcards)) * attempt
 
 
 def power_shard_inputs(wildcards):
@@ -43,6 +55,9 @@ rule power_shard:
         size="[0-9]+",
         shard="[0-9]+",
     threads: 1
+    resources:
+        mem_mb=power_shard_mem_mb,
+        runtime=power_shard_runtime,
     shell:
         "{JOB} power-shard --settings {params.settings:q} --shard {wildcards.shard} "
         "--subjects {input.subjects} --graph '{input.graph}' --out {output} > {log} 2>&1"
@@ -60,6 +75,9 @@ rule power_table:
         layout.job_benchmark("power_table", "{contrast}"),
     params:
         settings=power_table_settings,
+    resources:
+        mem_mb=report_mem_mb,
+        runtime=report_runtime,
     shell:
         "{JOB} power-table --settings {params.settings:q} --subjects {input.subjects} "
         "--out {output.table} {input.shards} > {log} 2>&1"

@@ -59,5 +59,5 @@ def bench_power(quick: bool) -> BenchRow:
         0.0,
         "< 20 min",
         seconds < _TARGET_S,
-        note="absolute target; every study uses all its permutations (none is cut short)",
+        note="absolute target; a study stops a correction's permutations only once its decision at alpha is settled",
     )
