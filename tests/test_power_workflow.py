@@ -65,6 +65,15 @@ def test_missing_profile_folder_is_one_clear_error(planned, tmp_path, capsys):
     assert "--profile" in capsys.readouterr().err
 
 
+def test_unknown_effect_channel_is_one_clear_error_before_any_job(tmp_path, capsys):
+    spec = write_tiny_study(tmp_path / "study", n_subjects=4)
+    spec.write_text(spec.read_text() + POWER.replace("channels: [Fz]", "channels: [Fz, Fzz]"))
+    assert famwise.cli.main(["power", str(spec)]) == 2
+    err = capsys.readouterr().err
+    assert "study.yaml:" in err and "power.effect.channels[1]: 'Fzz' is not an analysed channel" in err
+    assert not (tmp_path / "study" / "results" / "logs").exists()
+
+
 def test_missing_power_section_is_one_clear_error(tmp_path, capsys):
     spec = write_tiny_study(tmp_path / "study", n_subjects=4)
     assert famwise.cli.main(["power", str(spec)]) == 2
