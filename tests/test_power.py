@@ -18,7 +18,7 @@ from famwise.power.settings import effect_levels, power_shard_settings, power_sp
 from famwise.power.shard import power_shard
 from famwise.power.simulate import effect_map, pilot_from, region_mask, simulate_study
 from famwise.power.table import merge_shards, smallest_n, summarize
-from famwise.power.text import methods_sentences
+from famwise.power.text import methods_sentences, whole_percent
 from famwise.report.power import power_section_html
 from famwise.spec import load_study
 
@@ -266,3 +266,8 @@ def test_curtailed_null_gives_the_full_tables_masks(tmp_path):
             np.testing.assert_array_equal(a, b)
         curtailed += sum(used < table.n_rows for used in runner.rows_used.values())
     assert curtailed > 10
+
+
+def test_whole_percent_rounds_halves_up_as_the_table_reads():
+    """161 of 200 studies: the table's 0.805 reads 0.81, so the sentence says 81% (not the half-to-even 80%)."""
+    assert [whole_percent(x) for x in (161 / 200, 0.8049, 0.0, 1.0, 0.125)] == [81, 80, 0, 100, 13]

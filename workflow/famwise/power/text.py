@@ -1,5 +1,7 @@
 """Words about a power table: the methods sentence for a proposal and the console table."""
 
+import math
+
 from famwise.calibrate.settings import UNCORRECTED
 
 
@@ -23,8 +25,14 @@ def effect_words(tag: str, source: str) -> str:
     return f"a standardised effect of {size}"
 
 
+def whole_percent(share: float) -> int:
+    """A share in [0, 1] as a whole percentage, halves rounded up (0.805 -> 81, as the table's 0.81 reads)."""
+    return math.floor(100 * share + 0.5 + 1e-9)
+
+
 def _percent(row: dict) -> str:
-    return f"{100 * row['power']:.0f}% [{100 * row['power_ci_low']:.0f}, {100 * row['power_ci_high']:.0f}]"
+    low, high = whole_percent(row["power_ci_low"]), whole_percent(row["power_ci_high"])
+    return f"{whole_percent(row['power'])}% [{low}, {high}]"
 
 
 def methods_sentences(rows: list[dict], info: dict, *, pilot_n: int | None = None) -> str:
