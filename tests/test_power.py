@@ -271,3 +271,16 @@ def test_curtailed_null_gives_the_full_tables_masks(tmp_path):
 def test_whole_percent_rounds_halves_up_as_the_table_reads():
     """161 of 200 studies: the table's 0.805 reads 0.81, so the sentence says 81% (not the half-to-even 80%)."""
     assert [whole_percent(x) for x in (161 / 200, 0.8049, 0.0, 1.0, 0.125)] == [81, 80, 0, 100, 13]
+
+
+def test_a_design_the_simulation_does_not_know_is_one_clear_error():
+    data = ContrastData(
+        x=np.zeros((6, 2)),
+        test="interaction",
+        subjects=tuple("abcdef"),
+        channels=("a",),
+        freqs=np.array([6.0]),
+        times=np.array([0.0, 0.1]),
+    )  # a test name this module does not handle: no silent fall-through to another design's residuals
+    with pytest.raises(UserError, match="test 'interaction' cannot be simulated"):
+        pilot_from(data)

@@ -90,6 +90,10 @@ def pilot_from(data: ContrastData) -> Pilot:
         slope = cc @ xc / (cc @ cc)
         residuals = (xc - np.outer(cc, slope)) * np.sqrt(n / (n - 2))
         return Pilot(data.test, residuals, slope, residuals.std(axis=0, ddof=0), covariate=c)
+    if data.test != "repeated-measures":
+        raise UserError(
+            f"power: contrasts with test '{data.test}' cannot be simulated yet; list the others in power.contrasts"
+        )
     means = x.mean(axis=0)
     residuals = (x - means) * np.sqrt(n / (n - 1))
     return Pilot(data.test, residuals, means - means.mean(axis=0), residuals.std(axis=(0, 1), ddof=0))
