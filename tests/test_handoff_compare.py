@@ -82,6 +82,7 @@ def test_identical_records():
 def test_same_inputs_and_settings_but_other_numbers_is_a_reproducibility_failure():
     second = _base()
     second["spec_settings"]["inference.shards"] = 4  # results do not depend on the shard count
+    second["spec_settings"]["power.studies"] = 400  # nor on the planning section
     second["packages"]["matplotlib"] = "3.11.0"  # nor on the plotting library
     second["results"]["b"]["corrections"]["clusters"]["arrays"]["null"] = "other"
     outcomes, text = _text(_base(), second)
@@ -91,7 +92,7 @@ def test_same_inputs_and_settings_but_other_numbers_is_a_reproducibility_failure
         "b/clusters: different (mask identical; null differ): DIFFERENT NUMBERS from the same inputs, settings, "
         "seed, permutations and library versions: a reproducibility failure"
     ) in text
-    assert "note: inference.shards 2 -> 4 (results do not depend on these)" in text
+    assert "note: inference.shards 2 -> 4; power.studies (unset) -> 400 (results do not depend on these)" in text
     assert text.endswith("1 of 6 results differ; 1 of them a REPRODUCIBILITY FAILURE")
 
 

@@ -159,3 +159,20 @@ def test_cluster_and_tfce_corrections_ask_more_than_point_corrections(tiny_study
     tiny_study.write_text(yaml.safe_dump(study, sort_keys=False))
     plan = Plan.from_spec(tiny_study)
     assert sizing.correct_mem_mb(plan, "tfce") > sizing.correct_mem_mb(plan, "holm")
+
+
+def test_power_shard_resources_grow_with_sample_size_and_studies(tiny_study):
+    """A power shard asks for more time with more participants, studies per shard or permutations."""
+    from dataclasses import replace
+
+    from famwise.power.settings import power_shard_settings, power_spec
+
+    spec = tiny_study
+    spec.write_text(spec.read_text() + "power: {sample_sizes: [10, 40], studies: 40, shards: 2}\n")
+    plan = Plan.from_spec(spec)
+    small, large = (power_shard_settings(plan, power_spec(plan), "high-vs-low", "pilot-x1", n) for n in (10, 40))
+    minutes = sizing.power_shard_runtime_min
+    assert minutes(plan, small) <= minutes(plan, large)
+    many = replace(large, studies=4000, nulls=replace(large.nulls, permutations=9999))
+    assert minutes(plan, many) > minutes(plan, large) >= sizing.MIN_RUNTIME_MIN
+    assert sizing.power_shard_mem_mb(plan, small) <= sizing.power_shard_mem_mb(plan, large)

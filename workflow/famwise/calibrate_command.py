@@ -78,7 +78,7 @@ def command_calibrate(args) -> int:
         )
     )
     started = time.time()
-    watcher = _ProgressWatcher(
+    watcher = ProgressWatcher(
         plan.loaded.output / "logs" / "calibrate_shard",
         total=args.datasets * len(contrasts),
         kept=_kept_datasets(plan.loaded.output / "calibration", settings),
@@ -170,11 +170,24 @@ def _kept_datasets(folder: Path, settings: dict[str, str]) -> int:
     return kept
 
 
-class _ProgressWatcher:
+class ProgressWatcher:
     """Prints 'null datasets done / total' on stderr from the shard jobs' logs, every few seconds."""
 
-    def __init__(self, logs: Path, *, total: int, kept: int, since: float, every: float = 3.0):
+    def __init__(
+        self,
+        logs: Path,
+        *,
+        total: int,
+        kept: int,
+        since: float,
+        every: float = 3.0,
+        label: str = "calibration",
+        unit: str = "null datasets",
+        pattern: re.Pattern = _PROGRESS,
+    ):
+        """``pattern`` finds a job's progress lines; its second-to-last group is the count done."""
         self._logs, self._total, self._kept, self._since, self._every = logs, total, kept, since, every
+        self._label, self._unit, self._pattern = label, unit, pattern
         self._stop = threading.Event()
         self._thread = threading.Thread(target=self._run, daemon=True)
         self._last = -1
@@ -196,7 +209,7 @@ class _ProgressWatcher:
         done = self._kept + self.done()
         if done != self._last:
             self._last = done
-            print(f"    calibration: {done}/{self._total} null datasets done", file=sys.stderr, flush=True)
+            print(f"    {self._label}: {done}/{self._total} {self._unit} done", file=sys.stderr, flush=True)
 
     def done(self) -> int:
         """Datasets finished by shard jobs of this run (their logs' last progress lines)."""
@@ -205,9 +218,9 @@ class _ProgressWatcher:
             try:
                 if log.stat().st_mtime < self._since - 1:
                     continue
-                found = _PROGRESS.findall(log.read_text(errors="replace"))
+                found = self._pattern.findall(log.read_text(errors="replace"))
             except OSError:
                 continue
             if found:
-                done += int(found[-1][2])
+                done += int(found[-1][-2])
         return done

@@ -1,4 +1,4 @@
-"""The ``famwise`` command: init, check, run, calibrate, compare, pack, demo, bench.
+"""The ``famwise`` command: init, check, run, calibrate, power, compare, pack, demo, bench.
 
 Exit status: 0 on success, 2 on a user error (one clear message, no
 traceback; ``--debug`` shows it), 130 when interrupted (Ctrl-C), 141 when
@@ -106,6 +106,10 @@ def _parser() -> argparse.ArgumentParser:
     from famwise.calibrate_command import add_parser as add_calibrate_parser
 
     add_calibrate_parser(commands)
+
+    from famwise.power_command import add_parser as add_power_parser
+
+    add_power_parser(commands)
 
     from famwise.handoff.commands import add_parsers as add_handoff_parsers
 

@@ -337,6 +337,34 @@ def run_calibrate_table(args, settings: types.CalibrationSettings) -> None:
         )
 
 
+def run_power_shard(args, settings: types.PowerShardSettings) -> None:
+    """The pilot's contrast data -> ``power/<c>/<effect>/n<N>/shard-<k>.npz`` (simulated studies through every correction)."""
+    from famwise.power.shard import power_shard
+
+    graph = Path(args.graph) if args.graph.strip() else None
+    save_npz(
+        Path(args.out),
+        **power_shard(Path(args.subjects), graph, shard=args.shard, settings=settings, progress=_say),
+    )
+
+
+def run_power_table(args, settings: types.PowerTableSettings) -> None:
+    """Shards -> ``power/<c>.tsv`` (+ .json, .png, .svg, and .md: the paragraph for a proposal)."""
+    from famwise.design import load_contrast
+    from famwise.power.curves import power_figure
+    from famwise.power.table import read_table, summarize
+    from famwise.power.text import format_rows, methods_sentences
+
+    out = Path(args.out)
+    summarize([Path(p) for p in args.inputs], out, settings=settings, subjects=Path(args.subjects))
+    rows = read_table(out)
+    info = json.loads(out.with_suffix(".json").read_text(encoding="utf-8"))["Power"]
+    power_figure(rows, contrast=settings.contrast, target=settings.target, folder=out.parent, stem=out.stem)
+    pilot_n = len(load_contrast(Path(args.subjects)).subjects)
+    write_text(out.with_suffix(".md"), methods_sentences(rows, info, pilot_n=pilot_n) + "\n")
+    _say(f"{settings.contrast}:\n{format_rows(rows, info)}")
+
+
 STAGES = {
     "decompose": (run_decompose, types.DecomposeSettings),
     "subjects-table": (run_subjects_table, types.SubjectsTableSettings),
@@ -353,6 +381,8 @@ STAGES = {
     "report": (run_report, types.ReportSettings),
     "calibrate-shard": (run_calibrate_shard, types.CalibrationSettings),
     "calibrate-table": (run_calibrate_table, types.CalibrationSettings),
+    "power-shard": (run_power_shard, types.PowerShardSettings),
+    "power-table": (run_power_table, types.PowerTableSettings),
 }
 """Stage name -> (entry, settings type)."""
 

@@ -92,6 +92,25 @@ def calibration_files(contrast: str) -> dict[str, str]:
     }
 
 
+def power_shard(contrast: str, effect: str, n, shard) -> str:
+    """Simulated studies of one contrast, effect level (its tag) and sample size, one shard of them."""
+    return f"power/{contrast}/{effect}/n{n}/shard-{shard}.npz"
+
+
+def power_files(contrast: str) -> dict[str, str]:
+    """The power table of one contrast, its sidecar, its figure (PNG, SVG) and its methods paragraph."""
+    return {
+        kind: f"power/{contrast}.{suffix}"
+        for kind, suffix in (
+            ("table", "tsv"),
+            ("sidecar", "json"),
+            ("figure", "png"),
+            ("vector", "svg"),
+            ("methods", "md"),
+        )
+    }
+
+
 def log(rule: str, name: str) -> str:
     return f"logs/{rule}/{name}.log"
 

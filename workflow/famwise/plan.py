@@ -454,10 +454,10 @@ class Plan:
         return [c.label for c in self.study.inference.corrections if c.method in ("cluster", "tfce")]
 
     def report_inputs(self) -> list[str]:
-        """Every file the report reads (the spec, whose text it shows, included), and the calibration files when they exist.
+        """Every file the report reads (the spec, whose text it shows, included), and the calibration and power files when they exist.
 
-        ``famwise calibrate`` plans the workflow again after the calibration, so
-        the report then reruns because its inputs changed.
+        ``famwise calibrate`` and ``famwise power`` plan the workflow again
+        afterwards, so the report then reruns because its inputs changed.
         """
         report = self.report_settings()
         files = [
@@ -484,6 +484,9 @@ class Plan:
             calibration = layout.calibration_files(contrast.name)
             if (self.loaded.output / calibration["table"]).is_file():
                 files += [*calibration.values(), layout.contrast_data(contrast.name)]
+            power = layout.power_files(contrast.name)
+            if (self.loaded.output / power["table"]).is_file():
+                files += power.values()
         return files
 
     def final_files(self) -> list[str]:

@@ -366,3 +366,29 @@ def small_mem_mb(plan) -> int:
 def small_runtime_min(plan) -> int:
     """Wall time (minutes) of the bookkeeping jobs: the minimum."""
     return MIN_RUNTIME_MIN
+
+
+# ---- power simulation (famwise power) --------------------------------------------------
+
+
+def power_shard_mem_mb(plan, settings) -> int:
+    """Memory (MB) of one power shard: the pilot's data 3 times, a simulated study's 3 times, the null's working set.
+
+    ``settings`` is the shard's `famwise.settings.PowerShardSettings`.
+    """
+    sizes = study_sizes(plan)
+    study = settings.n * sizes.n_conditions * sizes.n_points * 4
+    return _mem(3 * _contrast_bytes(sizes) + 3 * study + NULL_BYTES_PER_POINT * sizes.n_points)
+
+
+def power_shard_runtime_min(plan, settings) -> int:
+    """Wall time (minutes) of one power shard: each of its studies runs a whole permutation table of n subjects.
+
+    As :func:`null_shard_runtime_min` per row, with every row computed (an upper
+    bound: a correction's null may stop early, `famwise.power.sequential`).
+    """
+    sizes = study_sizes(plan)
+    collectors = sum({"cluster": 50, "tfce": 100}.get(c.method, 2) for c in plan.study.inference.corrections)
+    studies = -(-settings.studies // settings.shards)
+    per_row = sizes.n_points * (settings.n * sizes.n_conditions + collectors)
+    return _minutes(studies * (settings.nulls.permutations + 1) * per_row, NULL_RATE)

@@ -370,3 +370,57 @@ class CalibrationSettings:
     observed: ObservedSettings
     nulls: NullSettings
     corrections: tuple[CorrectionSettings, ...]
+
+
+# ---- power (famwise power) ------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class PowerEffectSettings:
+    """One effect level of ``power.effect``: its folder tag, its size and its region.
+
+    ``size`` is the factor on the pilot's observed effect (``source`` "pilot")
+    or the standardised size d, Pearson's r for correlation ("specified").
+    The region's parts are None where the spec leaves them out (all points).
+    """
+
+    tag: str
+    source: str
+    size: float
+    channels: tuple[str, ...] | None
+    freq_hz: tuple[float, float] | None
+    time_ms: tuple[float, float] | None
+
+
+@dataclass(frozen=True)
+class PowerShardSettings:
+    """Simulated studies of one contrast, effect level and sample size -> ``power/<c>/<effect>/n<N>/shard-<k>.npz``.
+
+    ``nulls`` is the study's null settings with ``permutations`` as asked for
+    the simulation (``study_permutations`` keeps the study's number); each
+    simulated study draws its own table from it.
+    """
+
+    contrast: str
+    effect: PowerEffectSettings
+    n: int
+    studies: int
+    shards: int
+    study_permutations: int
+    alpha: float
+    observed: ObservedSettings
+    nulls: NullSettings
+    corrections: tuple[CorrectionSettings, ...]
+
+
+@dataclass(frozen=True)
+class PowerTableSettings:
+    """Every shard of one contrast -> ``power/<c>.tsv`` (+ .json, .png, .svg, .md).
+
+    ``levels`` holds the shard settings of each effect level and sample size,
+    effect levels in spec order, sizes ascending within each.
+    """
+
+    contrast: str
+    target: float
+    levels: tuple[PowerShardSettings, ...]

@@ -22,6 +22,10 @@ include: "report.smk"
 if "calibrate_datasets" in config:
 
     include: "calibrate.smk"
+# Likewise the power rules, only when `famwise power` asks for them.
+if "power_studies" in config:
+
+    include: "power.smk"
 
 
 rule all:

@@ -59,6 +59,7 @@ def _rows(quick: bool):
     from famwise.benchmarks.clusters import bench_clusters
     from famwise.benchmarks.decomposition import bench_decomposition
     from famwise.benchmarks.designs import bench_between_groups_null
+    from famwise.benchmarks.power import bench_power
     from famwise.benchmarks.regression import bench_regression_null
     from famwise.benchmarks.stats import bench_maxt_null
     from famwise.benchmarks.stepdown import bench_stepdown
@@ -72,6 +73,7 @@ def _rows(quick: bool):
     yield bench_stepdown(quick)
     yield from bench_clusters(quick)
     yield pipeline_noop(quick)
+    yield bench_power(quick)
 
 
 def format_row(row: BenchRow) -> str:

@@ -147,7 +147,8 @@ def calibration_shard(
         folder = Path(scratch) / "contrasts" / name
         for row, index in enumerate(range(start, stop)):
             x = null_dataset(data, dataset_rng(settings.nulls.seed, name, index))
-            counts[row] = _dataset_counts(x, data, table, graph, graph_file, folder, settings, study_left_out)
+            masks = correction_masks(x, data, table, graph, graph_file, folder, settings, study_left_out)
+            counts[row] = [int(np.count_nonzero(mask)) for mask in masks]
             if progress:
                 progress(f"calibration {name}: shard {shard}: {row + 1}/{stop - start} datasets")
     return {
@@ -160,10 +161,46 @@ def calibration_shard(
     }
 
 
-def _dataset_counts(
-    x, data, table, graph, graph_file, folder: Path, settings: CalibrationSettings, study_left_out: np.ndarray
-) -> list[int]:
-    """Significant points of one null dataset: uncorrected, then each correction."""
+def correction_masks(
+    x: np.ndarray,
+    data: ContrastData,
+    table,
+    graph,
+    graph_file: Path | None,
+    folder: Path,
+    settings,
+    study_left_out: np.ndarray,
+    *,
+    runner: Callable = run_shard,
+) -> list[np.ndarray]:
+    """Significant points of one dataset: uncorrected (parametric p <= alpha), then each correction.
+
+    Parameters
+    ----------
+    x : ndarray, shape of ``data.x``
+        The dataset's subject maps.
+    data : ContrastData
+        The design (test, groups, covariate, points) ``x`` belongs to.
+    table : PermutationTable or None
+        The table the permutation corrections use (None when none does).
+    graph : tuple of ndarray
+        CSR neighbor arrays (`famwise.nulls.shard.load_graph_arrays`).
+    graph_file : path or None
+        ``channels/graph.npz``, for the cluster and TFCE corrections.
+    folder : path
+        Scratch ``contrasts/<c>`` folder the stage files are written to.
+    settings : CalibrationSettings or PowerShardSettings
+        Its ``contrast``, ``alpha``, ``observed``, ``nulls`` and ``corrections``.
+    study_left_out : ndarray of bool, (P,)
+        Points the study's observed stage leaves out (left out here too).
+    runner : callable
+        Runs the table's rows through the collectors, with the signature of
+        `famwise.nulls.engine.run_shard` (the default).
+
+    Returns
+    -------
+    list of ndarray of bool, each (P,)
+    """
     # The observed stage's own record (forming thresholds, points left out): the study's left-out points
     # and the null dataset's own degenerate points are left out.
     observed = observed_arrays(data, x, replace(settings.observed, degenerate_points="leave-out"), study_left_out)
@@ -177,7 +214,7 @@ def _dataset_counts(
             "trim": settings.nulls.trim,
             "equal_var": settings.nulls.equal_var,
         }
-        arrays = run_shard(
+        arrays = runner(
             blank(x, left_out),
             table.rows,
             collectors=collectors,
@@ -192,11 +229,11 @@ def _dataset_counts(
         arrays["n_rows.total"] = np.array(table.n_rows)
         inputs.append(folder / "nulls" / "shard-0.npz")
         save_npz(inputs[1], **arrays)
-    counts = [int(np.count_nonzero(observed["p"] <= settings.alpha))]  # NaN p (left out) is never <= alpha
+    masks = [np.asarray(observed["p"] <= settings.alpha).reshape(-1)]  # NaN p (left out) is never <= alpha
     for correction in settings.corrections:
         files = list(inputs)
         if correction.correction.method in ("cluster", "tfce") and graph_file is not None:
             files.append(Path(graph_file))
         outcome, _ = apply_correction(files, contrast=settings.contrast, settings=correction)
-        counts.append(outcome.n_significant)
-    return counts
+        masks.append(np.asarray(outcome.mask, dtype=bool).reshape(-1))
+    return masks

@@ -16,6 +16,12 @@ RESULT_PACKAGES = ("famwise", "numpy", "scipy", "numba")
 NEUTRAL_SETTINGS = frozenset({"name", "output", "inference.shards"})
 """Settings results do not depend on (the study's title, its output folder, how the permutations are split)."""
 
+
+def _neutral(key: str) -> bool:
+    """Whether no result depends on setting ``key``: :data:`NEUTRAL_SETTINGS` and the ``power`` section (planning only)."""
+    return key in NEUTRAL_SETTINGS or key == "power" or key.startswith("power.")
+
+
 NULL_METHODS = frozenset({"max-stat", "cluster", "tfce"})
 """Correction methods that read the permutation null."""
 
@@ -147,7 +153,7 @@ class _Result:
 
 def _relevant(key: str, result: _Result) -> bool:
     """Whether setting ``key`` can change ``result``."""
-    if key in NEUTRAL_SETTINGS:
+    if _neutral(key):
         return False
     if key.startswith("inference.corrections["):
         return key.startswith(f"inference.corrections[{result.name}].")
@@ -271,7 +277,7 @@ def comparison_text(
         if same:
             lines.append(f"{contrast}: {', '.join(same)}: identical")
         lines += [_line(o) for o in outcomes if o.contrast == contrast and o.status != "identical"]
-    neutral = [f"{key} {_show(a)} -> {_show(b)}" for key, (a, b) in found.settings.items() if key in NEUTRAL_SETTINGS]
+    neutral = [f"{key} {_show(a)} -> {_show(b)}" for key, (a, b) in found.settings.items() if _neutral(key)]
     if neutral:
         lines.append(f"note: {'; '.join(neutral)} (results do not depend on these)")
     differ = sum(o.status != "identical" for o in outcomes)

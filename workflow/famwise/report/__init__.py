@@ -12,6 +12,7 @@ from famwise.report.calibration import calibration_section_html
 from famwise.report.explorer import assets as explorer_assets
 from famwise.report.html import anchor, markdown, page
 from famwise.report.methods import methods_from_run, methods_text
+from famwise.report.power import power_section_html
 from famwise.report.provenance import write_provenance
 from famwise.report.results import read_run
 from famwise.report.sections import (
@@ -78,6 +79,9 @@ def build_report(
     )
     if calibration:
         body.append(calibration)
+    power = power_section_html(output_dir, {c.name: [x.settings for x in c.corrections] for c in run.contrasts})
+    if power:
+        body.append(power)
     methods = methods_from_run(run)
     write_atomic(folder / "methods.md", methods.encode("utf-8"))
     record = write_provenance(
@@ -98,6 +102,8 @@ def build_report(
     nav += [(anchor("contrast", c.name), f"Contrast {c.name}") for c in run.contrasts]
     if calibration:
         nav.append(("calibration", "Calibration"))
+    if power:
+        nav.append(("power", "Power"))
     nav += [("methods", "Methods"), ("provenance", "Provenance")]
     title = f"famwise report: {run.study.get('name', output_dir.name)}"
     subtitle = (

@@ -36,6 +36,7 @@ from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's mod
     Tail,
     TFCECorrection,
 )
+from famwise.spec.power import PowerSettings, check_power_contrasts
 from famwise.spec.region import Analysis, PlannedRegion
 
 SubjectSource = Literal["epochs", "maps", "bids"]
@@ -297,6 +298,10 @@ class Study(SpecModel):
         description="Regions named before looking at the data; the report gives each subject's mean over each, "
         "per condition and contrast: unbiased values, unlike those of a significant cluster.",
     )
+    power: PowerSettings | None = Field(
+        default=None,
+        description="Sample-size planning by simulation from this study's maps (`famwise power`); omit when not planning.",
+    )
 
     @field_validator("output")
     @classmethod
@@ -397,4 +402,9 @@ class Study(SpecModel):
         for index, region in enumerate(self.planned_regions):
             if region.freq_hz is not None:
                 raise LocatedError(("planned_regions", index, "freq_hz"), message)
+        return self
+
+    @model_validator(mode="after")
+    def _power_contrasts_known(self) -> "Study":
+        check_power_contrasts(self.power, [c.name for c in self.contrasts])
         return self
