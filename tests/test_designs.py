@@ -398,3 +398,19 @@ def test_every_renaming_of_equal_size_groups_ties_bit_for_bit():
     assert len(partitions) == 2520 // 24 and all(len(rows) == 24 for rows in partitions.values())
     for rows in partitions.values():  # F does not depend on which label a group carries (from memory)
         assert all(null[r].tobytes() == null[rows[0]].tobytes() for r in rows)
+
+
+def test_methods_state_the_repeated_measures_f_and_its_within_subject_permutations():
+    from types import SimpleNamespace
+
+    from famwise.report.methods import _contrast, kinds_used
+
+    spec = {"name": "load", "test": "repeated-measures", "conditions": ["low", "mid", "high"]}
+    contrast = SimpleNamespace(name="load", test="repeated-measures", statistic="t", n=12, tail="greater")
+    text = _contrast(contrast, spec, {"inference": {}})
+    assert "t test" not in text
+    # df k - 1 and (n - 1)(k - 1) of the one-way repeated-measures F (Fisher 1925)
+    assert "one-way repeated-measures F test (df 2 and 22; Fisher 1925), upper tail, across n = 12" in text
+    assert "permuted the condition labels within each participant" in text
+    run = SimpleNamespace(study={"decomposition": {"method": "none"}, "contrasts": [spec]}, contrasts=[])
+    assert {"anova", "permutation"} <= set(kinds_used(run))

@@ -12,9 +12,11 @@ DESIGN_REFERENCES = {
 
 
 def is_design(spec: dict) -> bool:
-    """Whether a spec contrast is one of the designs this module words (weighted, interaction, k groups)."""
+    """Whether a spec contrast is one of the designs this module words (weighted, interaction, F designs)."""
     test = spec.get("test")
-    return test in ("weighted", "between-groups") or (test == "two-sample" and len(spec.get("conditions") or []) > 1)
+    return test in ("weighted", "between-groups", "repeated-measures") or (
+        test == "two-sample" and len(spec.get("conditions") or []) > 1
+    )
 
 
 def design_sentence(name: str, spec: dict, *, n: int, tail: str, test_words: str) -> str:
@@ -24,6 +26,8 @@ def design_sentence(name: str, spec: dict, *, n: int, tail: str, test_words: str
     """
     test = spec["test"]
     conditions = [str(c) for c in spec.get("conditions") or []]
+    if test == "repeated-measures":
+        return repeated_measures_sentence(name, conditions, n=n)
     weights = contrast_weights(test, len(conditions), spec.get("weights"))
     value = weighted_formula(conditions, weights)
     listed = ", ".join(f"{w:g} x {c}" for c, w in zip(conditions, weights))
@@ -57,11 +61,23 @@ def design_sentence(name: str, spec: dict, *, n: int, tail: str, test_words: str
     )
 
 
+def repeated_measures_sentence(name: str, conditions: list[str], *, n: int) -> str:
+    """The design sentence of a one-way repeated-measures F over ``conditions`` (k >= 3) in ``n`` participants."""
+    k = len(conditions)
+    return (
+        f"Contrast {name} ({design_words('repeated-measures', conditions)}): each participant's maps of the {k} "
+        f"conditions ({', '.join(conditions)}) were compared at each point with a one-way repeated-measures F test "
+        f"(df {k - 1} and {(n - 1) * (k - 1)}; Fisher 1925), upper tail, across n = {n} participants, and the "
+        "permutation null permuted the condition labels within each participant (under the null hypothesis "
+        "each participant's condition maps are exchangeable; Nichols & Holmes 2002)."
+    )
+
+
 def design_reference_keys(specs) -> list[str]:
     """Keys of `DESIGN_REFERENCES` the spec's contrasts use, in a stable order."""
     designs = [s for s in specs if is_design(s)]
     keys = []
-    if any(s.get("test") == "between-groups" for s in designs):
+    if any(s.get("test") in ("between-groups", "repeated-measures") for s in designs):
         keys.append("anova")
     if designs:
         keys.append("permutation")
