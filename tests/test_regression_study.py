@@ -68,6 +68,17 @@ def test_spec_errors_name_the_key_and_the_subject(tmp_path):
         load_study(spec)
 
 
+def test_check_refuses_yuen_for_a_regression_at_the_statistic_key(tmp_path, capsys):
+    spec = _regression_study(tmp_path)
+    spec.write_text(spec.read_text().replace("inference:\n", "inference:\n  statistic: yuen\n"))
+    line = spec.read_text().splitlines().index("  statistic: yuen") + 1
+    assert main(["check", str(spec)]) == 2
+    err = capsys.readouterr().err
+    assert f"study.yaml:{line} inference.statistic: 'yuen'" in err
+    assert "not for contrast age-effect's 'regression'" in err and "Traceback" not in err
+    assert not (tmp_path / "results").exists()
+
+
 @pytest.mark.workflow
 def test_regression_runs_end_to_end(tmp_path):
     spec = _regression_study(tmp_path)
