@@ -328,6 +328,12 @@ def test_designs_in_words():
     assert design_words("weighted", ["x", "y"], weights=[1, -1]) == "x minus y against zero"
     assert design_words("two-sample", ["x"], groups=["p", "c"]) == "group difference: p minus c on x"
     assert heading_words({"test": "paired", "conditions": ["x", "y"]}) == "x − y"
+    assert (
+        heading_words({"test": "repeated-measures", "conditions": ["x", "y", "z"]}) == "conditions x, y, z differ (F)"
+    )
+    regression = {"test": "regression", "conditions": ["x", "y"], "covariate": "age", "nuisance": ["sex"]}
+    assert heading_words(regression) == "(x - y) ~ age + sex, testing age"
+    assert heading_words(regression | {"conditions": ["x"], "nuisance": None}) == "x ~ age, testing age"
     assert resampling_words("label", 9, group_sizes=[3, 3, 3]) == "9! / (3! 3! 3!) group relabellings"
 
 

@@ -112,11 +112,17 @@ def contrast_line(contrast, *, n_subjects: int, table=None, group_sizes=None) ->
 def heading_words(spec: dict) -> str:
     """The conditions of a spec contrast as the report's contrast heading shows them.
 
-    ``A − B`` (the conditions joined) for one-sample, paired, repeated measures and
-    correlation; the design in words for weighted, interaction and between-groups contrasts.
+    ``A − B`` (the conditions joined) for one-sample, paired and correlation; the design
+    in words for weighted, interaction, between-groups and repeated-measures contrasts;
+    the model, e.g. ``"(A - B) ~ age + sex, testing age"``, for a regression.
     """
     conditions = [str(c) for c in spec.get("conditions") or []]
     test = spec.get("test", "")
-    if test in ("weighted", "between-groups") or (test == "two-sample" and len(conditions) > 1):
+    if test in ("weighted", "between-groups", "repeated-measures") or (test == "two-sample" and len(conditions) > 1):
         return design_words(test, conditions, groups=spec.get("groups"), weights=spec.get("weights"))
+    if test == "regression":
+        value = weighted_formula(conditions, contrast_weights(test, len(conditions), spec.get("weights")))
+        value = value if value == conditions[0] else f"({value.replace(' minus ', ' - ')})"
+        terms = " + ".join([str(spec["covariate"]), *map(str, spec.get("nuisance") or [])])
+        return f"{value} ~ {terms}, testing {spec['covariate']}"
     return " − ".join(conditions)
