@@ -168,6 +168,8 @@ def test_check_describes_a_voltage_study_without_frequencies(tmp_path):
     )
     region = next(line for line in text.splitlines() if line.startswith("Analysis region:"))
     assert "frequency" not in region and "the epoch's end" not in region
+    cluster = next(line for line in text.splitlines() if line.startswith("  - cluster: cluster"))
+    assert "dims=['channel', 'time']" in cluster
 
 
 @pytest.mark.workflow

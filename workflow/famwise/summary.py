@@ -81,6 +81,8 @@ def describe_plan(plan: Plan) -> str:
     lines.append("Corrections:")
     for c in i.corrections:
         settings = c.model_dump(exclude={"name", "method"}, exclude_none=True)
+        if voltage and "dims" in settings:  # voltage maps have no frequency axis to connect over
+            settings["dims"] = [d for d in settings["dims"] if d != "freq"]
         lines.append(
             f"  - {c.label}: {c.method}"
             + (f" ({', '.join(f'{k}={v}' for k, v in settings.items())})" if settings else "")
