@@ -123,3 +123,17 @@ def test_init_offers_a_regression_on_numeric_participant_columns(tmp_path):
     settings = plan.contrast_settings("age-effect")
     assert settings.covariate == tuple(float(a) for a in AGES[:6])
     assert settings.nuisance_columns == ("sex=M",)  # handedness is the same for everyone: not offered
+
+
+def test_methods_name_one_or_several_nuisance_covariates_grammatically():
+    from types import SimpleNamespace
+
+    from famwise.report.regression_methods import regression_sentence
+
+    contrast = SimpleNamespace(name="c", design_terms=["age (numeric)"], df=np.array(5.0), tail="two-sided", n=8)
+    spec = {"conditions": ["high"], "covariate": "age", "nuisance": ["sex"]}
+    text = regression_sentence(contrast, spec, {})
+    assert "coefficient in a model with an intercept and sex as nuisance covariate (age" in text
+    text = regression_sentence(contrast, spec | {"nuisance": ["sex", "site"]}, {})
+    assert "an intercept and sex, site as nuisance covariates (" in text
+    assert "an intercept (" in regression_sentence(contrast, spec | {"nuisance": None}, {})

@@ -35,7 +35,9 @@ def regression_sentence(contrast: ReportedContrast, spec: dict, study: dict) -> 
     )
     coding = "; ".join(contrast.design_terms)
     df = float(contrast.df) if contrast.df.size == 1 else float("nan")
-    nuisance_words = f" with {', '.join(nuisance)} as nuisance covariates" if nuisance else ""
+    nuisance_words = (
+        f" and {', '.join(nuisance)} as nuisance covariate{'s' if len(nuisance) > 1 else ''}" if nuisance else ""
+    )
     return (
         f"Contrast {contrast.name} (regression: {formula}) was tested at each point by ordinary least squares: "
         f"the t statistic of the {tested} coefficient in a model with an intercept{nuisance_words} "
