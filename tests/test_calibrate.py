@@ -391,3 +391,27 @@ def test_calibrate_warns_when_the_interval_is_too_wide_for_a_conclusion():
     # 4 * 1.96^2 * (1 - 0.05) / 0.05 = 291.9 datasets (normal approximation, common practice)
     assert "correction holm: the 95% interval [0.067, 0.652]" in message and "--datasets 292 (now 10)" in message
     assert wide_interval_warnings([many]) == [] and wide_interval_warnings([tight]) == []
+
+
+@pytest.mark.parametrize("profile", ["slurm", "local"])
+def test_calibrate_passes_the_profile_to_snakemake(tmp_path, monkeypatch, capsys, profile):
+    # as `famwise run` and `famwise power` do: the resolved profile folder reaches Snakemake's options
+    from pathlib import Path
+
+    import famwise.calibrate_command
+    from famwise.cli import main
+
+    from conftest import write_tiny_study
+
+    spec = write_tiny_study(tmp_path)
+    calls = []
+    monkeypatch.setattr(
+        famwise.calibrate_command, "run_snakemake", lambda plan, options, **kw: calls.append(options) or (1, [])
+    )
+    monkeypatch.setattr(famwise.calibrate_command, "job_error", lambda plan, started: None)
+    folder = Path(__file__).resolve().parents[1] / "configs" / "profiles" / profile
+    assert main(["calibrate", str(spec), "--datasets", "4", "--cores", "3", "--profile", str(folder)]) == 1
+    assert calls[0][:4] == ["--cores", "3", "--profile", str(folder)]
+    assert calls[0][4:] and all(target.startswith("calibration/") for target in calls[0][4:])
+    assert main(["calibrate", str(spec), "--profile", str(tmp_path / "nowhere")]) == 2
+    assert f"--profile {tmp_path / 'nowhere'}: no such profile folder" in capsys.readouterr().err

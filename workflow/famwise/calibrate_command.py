@@ -1,6 +1,6 @@
 """The ``famwise calibrate`` subcommand: run the calibration rules and print the tables.
 
-``famwise calibrate SPEC [--datasets N] [--permutations M] [--shards K] [--cores N]``
+``famwise calibrate SPEC [--datasets N] [--permutations M] [--shards K] [--cores N] [--profile DIR]``
 asks Snakemake for ``calibration/<contrast>.tsv`` of every contrast (building
 the contrast data first when needed). Finished shards are kept, so a run that
 was interrupted resumes where it stopped. While it runs, the number of null
@@ -20,7 +20,7 @@ from pathlib import Path
 
 from famwise import layout
 from famwise.errors import UserError
-from famwise.launch import job_error, run_snakemake
+from famwise.launch import job_error, profile_options, run_snakemake
 from famwise.settings_codec import to_json
 
 _PROGRESS = re.compile(r"calibration (\S+): shard (\d+): (\d+)/(\d+) datasets")
@@ -42,6 +42,9 @@ def add_parser(commands) -> None:
         help="pieces the datasets are computed in, one job and one file each (default: min(10, datasets))",
     )
     parser.add_argument("--cores", type=int, default=os.cpu_count() or 1, help="cores to use (default: all)")
+    parser.add_argument(
+        "--profile", type=Path, metavar="DIR", help="Snakemake profile folder, e.g. configs/profiles/slurm"
+    )
     parser.set_defaults(handler=command_calibrate)
 
 
@@ -55,6 +58,7 @@ def command_calibrate(args) -> int:
     from famwise.preflight import preflight
 
     preflight(plan)  # the mistakes `run` catches before its first job
+    options = ["--cores", str(args.cores), *profile_options(args.profile)]
     shards = args.shards if args.shards is not None else min(10, max(args.datasets, 1))
     contrasts = [c.name for c in plan.study.contrasts]
     settings = {  # checks the options here, before Snakemake sees them
@@ -86,7 +90,7 @@ def command_calibrate(args) -> int:
     )
     watcher.start()
     try:
-        code, _ = run_snakemake(plan, ["--cores", str(args.cores), *targets], capture=False, config=config)
+        code, _ = run_snakemake(plan, [*options, *targets], capture=False, config=config)
     finally:
         watcher.stop()
     if code != 0:
@@ -105,7 +109,7 @@ def command_calibrate(args) -> int:
     report = plan.loaded.output / "report" / "index.html"
     if report.is_file():
         print("\nfamwise: updating the report with the calibration")
-        code, _ = run_snakemake(plan, ["--cores", str(args.cores), layout.REPORT_PAGE], capture=False, config=config)
+        code, _ = run_snakemake(plan, [*options, layout.REPORT_PAGE], capture=False, config=config)
         if code != 0:
             raise UserError(
                 job_error(plan, started)

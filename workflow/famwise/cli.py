@@ -17,7 +17,7 @@ from pathlib import Path
 
 from famwise import __version__
 from famwise.errors import UserError
-from famwise.launch import job_error, run_snakemake
+from famwise.launch import job_error, profile_options, run_snakemake
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -234,11 +234,7 @@ def command_run(args) -> int:
     plan = Plan.from_spec(args.spec)
     upfront = preflight(plan) + attainability_warnings(plan)
     _warn(upfront)
-    options = ["--cores", str(args.cores)]
-    if args.profile:
-        if not args.profile.is_dir():
-            raise UserError(f"--profile {args.profile}: no such profile folder")
-        options += ["--profile", str(args.profile.resolve())]
+    options = ["--cores", str(args.cores), *profile_options(args.profile)]
     config = {}
     if not args.profile or args.profile.resolve().name == "local":  # cluster jobs keep one thread each
         config["null_threads"] = max(1, args.cores // plan.study.inference.shards)

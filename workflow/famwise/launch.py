@@ -20,6 +20,21 @@ def workflow_entry() -> Path:
     return Path(str(resources.files("famwise.rules") / "main.smk"))
 
 
+def profile_options(profile: Path | None) -> list[str]:
+    """Snakemake's ``--profile DIR`` options for a profile folder (e.g. ``configs/profiles/slurm``); none without one.
+
+    Raises
+    ------
+    UserError
+        The folder does not exist.
+    """
+    if profile is None:
+        return []
+    if not profile.is_dir():
+        raise UserError(f"--profile {profile}: no such profile folder")
+    return ["--profile", str(profile.resolve())]
+
+
 def run_snakemake(plan, options: list[str], *, capture: bool, config: dict | None = None) -> tuple[int, list[str]]:
     """Run Snakemake in a subprocess; Ctrl-C reaches it as SIGINT and we wait for it.
 

@@ -20,7 +20,7 @@ from pathlib import Path
 from famwise import layout
 from famwise.calibrate_command import ProgressWatcher
 from famwise.errors import UserError
-from famwise.launch import job_error, run_snakemake
+from famwise.launch import job_error, profile_options, run_snakemake
 from famwise.settings_codec import to_json
 
 _PROGRESS = re.compile(r"power \S+: \S+: n \d+: shard \d+: (\d+)/(\d+) studies")
@@ -64,11 +64,7 @@ def command_power(args) -> int:
     preflight(plan)  # the mistakes `run` catches before its first job
     check_power_channels(plan, spec, plan.first_subject_channels(), Where(plan.loaded))
     contrasts = power_contrasts(plan, spec)
-    options = ["--cores", str(args.cores)]
-    if args.profile:
-        if not args.profile.is_dir():
-            raise UserError(f"--profile {args.profile}: no such profile folder")
-        options += ["--profile", str(args.profile.resolve())]
+    options = ["--cores", str(args.cores), *profile_options(args.profile)]
     config = {"power_sizes": ",".join(str(n) for n in spec.sample_sizes), "power_studies": spec.studies}
     levels = len(effect_levels(spec))
     total = spec.studies * len(spec.sample_sizes) * levels * len(contrasts)
