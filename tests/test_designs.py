@@ -420,3 +420,15 @@ def test_methods_state_the_repeated_measures_f_and_its_within_subject_permutatio
     assert "permuted the condition labels within each participant" in text
     run = SimpleNamespace(study={"decomposition": {"method": "none"}, "contrasts": [spec]}, contrasts=[])
     assert {"anova", "permutation"} <= set(kinds_used(run))
+
+
+def test_report_heading_words_an_f_by_its_size_not_its_sign():
+    from types import SimpleNamespace
+
+    from famwise.report.sections import _sign_words
+
+    spec = {"test": "between-groups", "conditions": ["a"], "groups": ["x", "y", "z"]}
+    f = SimpleNamespace(test="between-groups", statistic="t")
+    assert _sign_words(f, spec) == "Larger values mean larger differences among groups x, y, z"
+    paired = SimpleNamespace(test="paired", statistic="t")
+    assert _sign_words(paired, {"test": "paired", "conditions": ["a", "b"]}) == "Positive values mean a &gt; b"

@@ -29,3 +29,14 @@ def test_two_sample_strips_split_by_group():
     strips = categories(["a", "contrast"], _rows(["a", "contrast"], groups=["old", "young"]))
     assert [s["label"] for s in strips] == ["a (old)", "a (young)"]
     assert strips[0]["subjects"] == ["00", "02"] and strips[1]["values"] == [1.0, 3.0]
+
+
+def test_caption_names_the_strips_of_each_design():
+    from famwise.report.values import _column_words
+
+    assert _column_words(["a", "b", "contrast"], _rows(["a", "b", "contrast"])) == (
+        "columns are the conditions and the tested contrast"
+    )
+    assert _column_words(["a", "b", "c"], _rows(["a", "b", "c"])) == "columns are the conditions"  # repeated measures
+    grouped = _rows(["a", "contrast"], groups=["old", "young"])
+    assert _column_words(["a", "contrast"], grouped) == "columns are the condition, per group"

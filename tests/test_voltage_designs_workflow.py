@@ -172,6 +172,11 @@ def test_report_and_methods_state_each_design_without_frequencies(study):
         "regression, (a-hi - a-lo) ~ age + sex, testing age, t statistic",
     ):
         assert heading in html
+    assert (
+        "F statistic, greater, n = 9; 328 points (8 channels × 41 times). Larger values mean larger differences" in html
+    )
+    assert "columns are the conditions and the tested contrast. Every value is in interaction/cluster/" in html
+    assert "columns are the condition, per group. Every value is in three-groups/cluster/" in html
     for name in ("interaction", "group-by-load", "three-groups", "age-effect"):
         header = (out / "contrasts" / name / "cluster" / "clusters.tsv").read_text().splitlines()[0]
         assert "time_start_ms" in header and "freq" not in header

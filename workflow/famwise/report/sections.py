@@ -391,9 +391,17 @@ def _contrast_heading(contrast: ReportedContrast, spec: dict, study: dict) -> st
         f'<p class="summary">{esc(contrast.test)}'
         + (f", {esc(heading_words(spec))}" if spec.get("conditions") else "")
         + f", {esc(figures.stat_label(contrast))} statistic, {esc(contrast.tail)}, n = "
-        f"{contrast.n}; {total} points ({grid_words(contrast)}). Positive values "
-        f"mean {esc(direction(spec, True))}.</p>" + left_out_note(contrast) + permutation_notes(contrast, study)
+        f"{contrast.n}; {total} points ({grid_words(contrast)}). {_sign_words(contrast, spec)}.</p>"
+        + left_out_note(contrast)
+        + permutation_notes(contrast, study)
     )
+
+
+def _sign_words(contrast: ReportedContrast, spec: dict) -> str:
+    """What large values mean: an F is never negative, so it has no sign to explain."""
+    if figures.stat_label(contrast) == "F":
+        return f"Larger values mean larger {esc(direction(spec, True))}"
+    return f"Positive values mean {esc(direction(spec, True))}"
 
 
 def _explorer(run: Run, contrast: ReportedContrast, spec: dict, alpha: float) -> str:

@@ -65,6 +65,16 @@ def categories(columns: list[str], rows: list[dict]) -> list[dict]:
     return out
 
 
+def _column_words(columns: list[str], rows: list[dict]) -> str:
+    """What the strips of a cluster are, e.g. "columns are the conditions and the tested contrast, per group"."""
+    labels = [strip["label"] for strip in categories(columns, rows)]
+    shown = list(dict.fromkeys(label.split(" (")[0] for label in labels))
+    conditions = [name for name in shown if name != "contrast"]
+    words = "the condition" if len(conditions) == 1 else "the conditions"
+    words += " and the tested contrast" if "contrast" in shown else ""
+    return f"columns are {words}" + (", per group" if any(r.get("group") for r in rows) else "")
+
+
 def strip_figure(columns: list[str], clusters: dict[str, list[dict]], *, noun: str, unit: str):
     """Small multiples: per cluster, each subject's value per strip as dots, the group mean as a bar."""
     shown = list(clusters.items())[:_MOST]
@@ -109,9 +119,9 @@ def values_block(folder: Path, stem: str, *, noun: str, unit: str, write, voltag
     more = len(clusters) - _MOST
     caption = (
         f"<b>Per-subject values</b>: each subject's mean over the points of each significant {noun} "
-        f"(dots), the group mean (bar); columns are the conditions and the tested contrast. "
-        + (f"The first {_MOST} of {len(clusters)} {noun}s are drawn; " if more > 0 else "")
-        + f"every value is in {esc(Path(folder).parent.name)}/{esc(Path(folder).name)}/subject_values.tsv."
+        f"(dots), the group mean (bar); {_column_words(columns, next(iter(clusters.values())))}. "
+        + (f"The first {_MOST} of {len(clusters)} {noun}s are drawn; every" if more > 0 else "Every")
+        + f" value is in {esc(Path(folder).parent.name)}/{esc(Path(folder).name)}/subject_values.tsv."
     )
     return (
         f"<h4>Per-subject values of the significant {noun}s</h4>"
