@@ -15,9 +15,9 @@ from famwise.report.methods import methods_from_run, methods_text
 from famwise.report.power import power_section_html
 from famwise.report.provenance import write_provenance
 from famwise.report.results import read_run
-from famwise.report.sections import (
+from famwise.report.sections import contrast_section
+from famwise.report.study_sections import (
     FigureWriter,
-    contrast_section,
     graph_section,
     provenance_section,
     study_section,

@@ -1,43 +1,29 @@
-"""The report's sections: study, subjects, channel graph, one per contrast, provenance.
+"""The report's contrast sections: per contrast its heading, figures, corrections and cluster tables.
 
 Each function returns HTML; figures are written as PNG and SVG on the way.
 Plain-language summaries describe stored masks and cluster rows only.
 """
-
-from pathlib import Path
 
 import numpy as np
 
 from famwise.axes import is_voltage
 from famwise.contrast_words import design_direction, heading_words
 from famwise.degenerate import location
-from famwise.figure_style import figure_style, save_figure
+from famwise.figure_style import figure_style
 from famwise.report import figures
 from famwise.report.explorer import explorer_block, explorer_data
-from famwise.report.html import anchor, esc, figure, note, table
+from famwise.report.html import anchor, esc, note, table
 from famwise.report.methods import correction_parameters, fmt, method_kind
 from famwise.report.point_words import cluster_caption, extent_words, grid_words, point_place, side_by_side_words
 from famwise.report.results import ReportedContrast, ReportedCorrection, Run, correction_entries
 from famwise.report.scalp import project
-from famwise.report.study_words import baseline_words, decomposition_words, inference_words, named, window_words
+from famwise.report.study_sections import FigureWriter
+from famwise.report.study_words import named
 from famwise.report.values import planned_block, values_block
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
 _OTHER_CLUSTERS = 10
 """Clusters with p above alpha shown in a table (the largest ones); the TSV has all."""
-
-
-class FigureWriter:
-    """Saves figures under one folder and remembers their stems."""
-
-    def __init__(self, folder: Path):
-        self.folder = Path(folder)
-        self.stems: list[str] = []
-
-    def __call__(self, fig, stem: str, *, caption: str, alt: str) -> str:
-        png = save_figure(fig, self.folder, stem)
-        self.stems.append(stem)
-        return figure(png, caption=caption, alt=alt, link=f"figures/{stem}.svg")
 
 
 def alpha_of(study: dict) -> float:
@@ -90,87 +76,6 @@ def describe_mask(contrast: ReportedContrast, mask: np.ndarray, spec: dict) -> s
         f"channel{'s' if len(order) != 1 else ''} ({esc(listed)}); "
         f"{'; '.join(signs)}. Strongest: {figures.stat_label(contrast)} = "
         f"{contrast.stat[c, f, t]:.3g} at {point_place(contrast, c, f, t)}."
-    )
-
-
-def study_section(run: Run, spec_text: str) -> str:
-    """Spec summary and the full spec text."""
-    study = run.study
-    tf = study.get("decomposition") or {}
-    analysis = study.get("analysis") or {}
-    inference = study.get("inference") or {}
-    rows = [
-        ["study", study.get("name", "")],
-        ["seed", study.get("seed", "")],
-        ["conditions", "; ".join(f"{k}: {', '.join(map(str, v))}" for k, v in (study.get("conditions") or {}).items())],
-        ["decomposition", decomposition_words(tf)],
-        ["baseline", baseline_words(tf.get("baseline") or {})],
-        ["analysis window", window_words(analysis, voltage=tf.get("method") == "none")],
-        ["contrasts", "; ".join(f"{c['name']} ({c.get('test', '')})" for c in study.get("contrasts", []))],
-        ["inference", inference_words(inference)],
-        [
-            "corrections",
-            "; ".join(named(name, entry.get("method", "")) for name, entry in correction_entries(study).items()),
-        ],
-    ]
-    axes = "times, channels" if tf.get("method") == "none" else "times, frequencies, channels"
-    window = note(
-        f"The analysis window ({axes}) and the corrections must "
-        "have been chosen before looking at the data. A window picked after seeing "
-        "where the effect is makes every p-value in this report too small, whatever "
-        "the correction."
-    )
-    if run.warnings:
-        window += note(
-            "Warnings raised while the subjects were decomposed: "
-            + "; ".join(esc(line) for line in run.warnings)
-            + ".",
-            warning=True,
-        )
-    return (
-        f'<h2 id="study">Study</h2>{table(["setting", "value"], rows)}{window}'
-        f"<details><summary>Full spec as written</summary><pre>{esc(spec_text)}</pre></details>"
-    )
-
-
-def subjects_section(run: Run) -> str:
-    """Included and excluded subjects with epochs per condition."""
-    if not run.subjects:
-        return '<h2 id="subjects">Subjects</h2><p>No subjects table was found for this run.</p>'
-    columns = list(run.subjects[0].keys())
-    counted = [c for c in columns if c.startswith(("n_", "rejected_"))]
-    rows = [[_cell(r.get(c, "")) if c in counted else r.get(c, "") for c in columns] for r in run.subjects]
-    classes = ["excluded" if r.get("status") == "excluded" else "" for r in run.subjects]
-    included = sum(r.get("status", "included") == "included" for r in run.subjects)
-    return (
-        f'<h2 id="subjects">Subjects</h2><p class="summary">{included} included, '
-        f"{len(run.subjects) - included} excluded. Columns n_&lt;condition&gt; give the epochs "
-        f"kept after rejection, rejected_&lt;condition&gt; the epochs rejected.</p>"
-        + table(columns, rows, row_classes=classes)
-    )
-
-
-def _cell(value: str):
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        return value
-    return int(number) if number.is_integer() else number
-
-
-def graph_section(run: Run, write: FigureWriter) -> str:
-    """The channel neighbor graph figure."""
-    if run.graph is None:
-        return '<h2 id="channels">Channel graph</h2><p>No channel graph was found for this run.</p>'
-    with figure_style():
-        fig = figures.graph_figure(run.graph, run.positions)
-    caption = (
-        f"<b>Channel neighbor graph.</b> {len(run.graph.channels)} channels, "
-        f"{run.graph.n_edges} neighbor pairs; seen from above, nose up. Clusters grow "
-        "only along these links."
-    )
-    return '<h2 id="channels">Channel graph</h2>' + write(
-        fig, "channel_graph", caption=caption, alt="channel neighbor graph"
     )
 
 
@@ -465,35 +370,4 @@ def _correction_detail(
             write=write,
             voltage=is_voltage(contrast.freqs),
         )
-    return html
-
-
-def provenance_section(record: dict) -> str:
-    """Fingerprints, versions, result and input hashes."""
-    rows = [
-        ["results fingerprint (SHA-256)", record.get("results_fingerprint")],
-        ["spec fingerprint (SHA-256)", record["spec_fingerprint"]],
-        ["seed", record.get("seed")],
-        ["permutations", record.get("permutations")],
-        ["started", record.get("started")],
-        ["finished", record.get("finished")],
-    ]
-    rows += [[f"package {k}", v] for k, v in record["packages"].items()]
-    files = [[name, info["bytes"], info["sha256"]] for name, info in record["input_files"].items()]
-    masks = [
-        [f"{contrast}/{name}", info["n_significant"], info["arrays"]["mask"]]
-        for contrast, entry in record.get("results", {}).items()
-        for name, info in entry["corrections"].items()
-    ]
-    html = (
-        '<h2 id="provenance">Provenance</h2><p>A rerun of the same spec on the same inputs '
-        "gives the same provenance.json apart from the start and end times. Two runs with the "
-        "same results fingerprint have identical statistics, corrected p-values, masks and "
-        "cluster tables; <code>famwise compare</code> names what differs.</p>"
-        + table(["item", "value"], [[k, "" if v is None else v] for k, v in rows])
-    )
-    if masks:
-        html += "<h4>Significance masks</h4>" + table(["contrast/correction", "points", "SHA-256"], masks)
-    if files:
-        html += "<h4>Input files</h4>" + table(["file", "bytes", "SHA-256"], files)
     return html
