@@ -16,8 +16,8 @@ shows a channel x time map and the selected channels' time course instead of
 a time-frequency map.
 
 The scripts (``explorer.js`` and ``explorer_voltage.js`` beside this module,
-plain JavaScript, no network) inflate them with the browser's own ``DecompressionStream`` and
-draws on canvases. Without JavaScript the section shows a short
+plain JavaScript, no network) inflate them with the browser's own
+``DecompressionStream`` and draw on canvases. Without JavaScript the section shows a short
 note and the static figures above it carry the results.
 """
 
