@@ -1,14 +1,17 @@
 """A tiny voltage study (decomposition.method 'none') run end to end: maps, t, clusters, report without frequency."""
 
 import json
+import re
 
 import numpy as np
 import pytest
 import scipy.signal
 import scipy.stats
+from test_report_explorer import _click_at, _driver, _errors, _pixel
 
 import famwise.io
 from famwise.cli import main
+from famwise.report.explorer import STAT_STEPS, colour_table
 
 from conftest import TINY_CHANNELS
 
@@ -124,7 +127,13 @@ def test_voltage_clusters_and_report_show_no_frequency(voltage_run):
     assert len(table) > 1 and "Pz" in table[1]
     sidecar = json.loads((result / "cluster" / "clusters.json").read_text())
     assert not any("freq" in key for key in sidecar)
-    html = (voltage_run / "results" / "report" / "index.html").read_text()
+    page = (voltage_run / "results" / "report" / "index.html").read_text()
+    # what the reader sees: the page without its scripts (the explorer's shared script draws time-frequency
+    # contrasts too; its data names no frequency, checked below and in the browser test)
+    html = re.sub(r"<script.*?</script>", "", page, flags=re.S)
+    payload = re.search(r'<script type="application/json" class="xp-data">(.*?)</script>', page, re.S).group(1)
+    assert json.loads(payload)["voltage"] is True and json.loads(payload)["freqs"] == []
+    assert "freq_" not in payload and "Hz" not in payload
     methods = (voltage_run / "results" / "report" / "methods.md").read_text()
     assert "Hz" not in methods.replace("20 Hz", "").replace("100 Hz", "").replace("50 Hz", "")
     assert "low-pass" in methods and "decimat" in methods
@@ -180,3 +189,75 @@ def test_calibration_runs_on_voltage_maps(voltage_run):
     corrections = [row.split("\t")[0] for row in rows[1:]]
     assert corrections == ["uncorrected", "max-stat", "cluster", "tfce"]
     assert all(row.split("\t")[2] == "8" for row in rows[1:])
+
+
+@pytest.mark.workflow
+def test_voltage_explorer_in_a_real_browser(voltage_run):
+    from selenium.webdriver.support.ui import Select, WebDriverWait
+
+    result = voltage_run / "results"
+    with np.load(result / "contrasts" / "late-positive" / "observed.npz") as observed:
+        stat, times_ms = observed["stat"][:, 0], observed["times"] * 1000
+    with np.load(result / "contrasts" / "late-positive" / "cluster" / "result.npz") as found:
+        mask = found["mask"][:, 0]
+    rows = [
+        line.split("\t")
+        for line in (result / "contrasts" / "late-positive" / "cluster" / "clusters.tsv").read_text().splitlines()
+    ]
+    first = dict(zip(rows[0], rows[1]))
+    C, T = stat.shape
+    browser = _driver()
+    try:
+        browser.get((result / "report" / "index.html").as_uri())
+        root = browser.find_element("css selector", ".explorer")
+        browser.execute_script("arguments[0].scrollIntoView()", root)
+        WebDriverWait(browser, 20).until(lambda _: "xp-ready" in root.get_attribute("class"))
+        peak_c, peak_t = np.unravel_index(np.argmax(np.abs(stat)), stat.shape)
+        assert root.get_attribute("data-selected") == TINY_CHANNELS[peak_c]
+        assert root.get_attribute("data-cursor") == f"{times_ms[peak_t]:.0f} ms"
+        grid = root.find_element("css selector", ".xp-tf")
+        course = root.find_element("css selector", ".xp-course")
+        left, top, width, height = (float(grid.get_attribute(f"data-{k}")) for k in ("left", "top", "width", "height"))
+
+        def cell(c, t):
+            return left + (t + 0.5) * width / T, top + (c + 0.5) * height / C
+
+        # a cell away from the cursor has the colour of its channel and time (rows: channels, first on top)
+        t0 = 0 if peak_t else 1
+        limit = float(np.nanmax(np.abs(stat)))
+        index = round((np.round(stat[0, t0] / limit * STAT_STEPS) / STAT_STEPS + 1) / 2 * 63)
+        expected = [int(colour_table()[index][k : k + 2], 16) for k in (1, 3, 5)]
+        drawn = _pixel(browser, grid, *cell(0, t0))
+        assert np.abs(np.array(drawn[:3]) - expected).max() <= 2, (drawn, expected)
+
+        Select(root.find_element("css selector", ".xp-correction")).select_by_visible_text("cluster")
+        cz, pz, fz = (TINY_CHANNELS.index(name) for name in ("Cz", "Pz", "Fz"))
+        _click_at(browser, grid, *cell(fz, 2))
+        assert root.get_attribute("data-selected") == "Fz"
+        assert root.get_attribute("data-cursor") == f"{times_ms[2]:.0f} ms"
+        _click_at(browser, grid, *cell(pz, 3), shift=True)
+        assert root.get_attribute("data-selected") == "Fz,Pz"
+        caption = root.find_element("css selector", ".xp-course-caption").text
+        assert "mean over 2 channels (Fz, Pz)" in caption
+        # the time course's bars: orange under times significant at Fz or Pz, blank elsewhere
+        c_left, c_top, c_width, c_height = (
+            float(course.get_attribute(f"data-{k}")) for k in ("left", "top", "width", "height")
+        )
+        significant = mask[[fz, pz]].any(axis=0)
+        assert significant.any() and not significant.all()
+        for t in (int(np.flatnonzero(significant)[0]), int(np.flatnonzero(~significant)[0])):
+            colour = _pixel(browser, course, c_left + (t + 0.5) * c_width / T, c_top + c_height + 5)
+            assert colour == [199, 119, 0, 255] if significant[t] else colour[3] == 0, (t, colour)
+
+        rows_shown = root.find_elements("css selector", ".xp-clusters tr[data-id]")
+        rows_shown[0].click()
+        assert root.get_attribute("data-cluster") == first["id"]
+        assert root.get_attribute("data-selected") == first["channels"]
+        assert root.get_attribute("data-cursor") == f"{float(first['peak_time_ms']):.0f} ms"
+        header = root.find_element("css selector", ".xp-clusters thead").text
+        assert "time" in header and "frequency" not in header
+        text = root.text
+        assert "Hz" not in text and "frequenc" not in text.lower()
+        assert _errors(browser) == []
+    finally:
+        browser.quit()

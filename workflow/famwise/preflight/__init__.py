@@ -11,6 +11,7 @@ from famwise.errors import UserError
 from famwise.preflight.data_checks import check_consistent, check_epoch_counts, check_labels, check_windows_fit
 from famwise.preflight.graph_check import check_channels
 from famwise.preflight.headers import SubjectHeader, bids_header, npz_epochs_header
+from famwise.preflight.report_check import check_report_channels
 from famwise.preflight.spec_checks import check_exclusions, check_group_sizes, check_shards, check_statistic
 from famwise.preflight.timing import check_timing
 from famwise.preflight.where import Where
@@ -41,6 +42,7 @@ def preflight(plan) -> list[str]:
         found += check_timing(plan, headers, where)
     first = next(iter(headers.values())).channels if headers else None
     first = first if first is not None else plan.first_subject_channels()
+    check_report_channels(plan, first, where)
     found += check_channels(plan, first, where)
     return found
 

@@ -72,19 +72,22 @@
     });
     var peak = 0;
     for (i = 0; i < stat.length; i++) if (Math.abs(stat[i]) > Math.abs(stat[peak]) || isNaN(stat[peak])) peak = i;
-    var state = {sel: [Math.floor(peak / FT)], corr: 0, f: Math.floor(peak / T) % F, t: peak % T, cluster: null};
+    var start = d.start && d.start.length ? d.start.slice() : [Math.floor(peak / FT)];
+    var state = {sel: start.slice(), corr: 0, f: Math.floor(peak / T) % F, t: peak % T, cluster: null};
     var head = root.querySelector(".xp-head"), tf = root.querySelector(".xp-tf");
     var select = root.querySelector(".xp-correction"), readout = root.querySelector(".xp-readout");
     var list = root.querySelector(".xp-list"), detail = root.querySelector(".xp-detail");
     var ratio = window.devicePixelRatio || 1;
-    [head, tf].forEach(function (canvas) {
+    /* A canvas drawn in CSS pixels at the screen's resolution. */
+    function prepare(canvas) {
       canvas.style.width = canvas.width + "px";
       canvas.style.height = canvas.height + "px";
       canvas.dataset.w = canvas.width;
       canvas.dataset.h = canvas.height;
       canvas.width = canvas.width * ratio;
       canvas.height = canvas.height * ratio;
-    });
+    }
+    [head, tf].forEach(prepare);
     var extent = 1;
     d.xy.forEach(function (xy) { extent = Math.max(extent, 1.02 * Math.hypot(xy[0], xy[1])); });
     var HEAD = {cx: 160, cy: 178, r: 128 / extent};
@@ -122,16 +125,21 @@
       var w = TF.width / T, h = TF.height / F;
       return [TF.left + t * w, TF.top + (F - 1 - f) * h, w, h];
     }
+    /* The cursor's place in words: "10 Hz, 350 ms" (voltage: "350 ms"), parts joined by `sep`. */
+    function where(f, t, sep) {
+      return (d.voltage ? "" : fmt(d.freqs[f]) + " Hz" + sep) + fmt(d.times[t]) + " ms";
+    }
     function nearest(axis, value) {
       var best = 0;
       axis.forEach(function (x, k) { if (Math.abs(x - value) < Math.abs(axis[best] - value)) best = k; });
       return best;
     }
 
-    return {root: root, d: d, C: C, F: F, T: T, FT: FT, stat: stat, p: p, corrections: corrections, peak: peak,
+    return {root: root, d: d, C: C, F: F, T: T, FT: FT, stat: stat, p: p, corrections: corrections, start: start,
             state: state, head: head, tf: tf, select: select, readout: readout, list: list, detail: detail,
             extent: extent, HEAD: HEAD, TF: TF, colour: colour, correction: correction, meanAt: meanAt,
-            anySelected: anySelected, channelXY: channelXY, context: context, cellRect: cellRect, nearest: nearest};
+            anySelected: anySelected, channelXY: channelXY, context: context, cellRect: cellRect, nearest: nearest,
+            prepare: prepare, where: where};
   }
 
   /* The head: interpolated statistic at the cursor, channels, significant rings, selection. */
@@ -139,6 +147,7 @@
     var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
     var root = v.root, colour = v.colour, correction = v.correction;
     var extent = v.extent, stat = v.stat, channelXY = v.channelXY, context = v.context, head = v.head;
+    var where = v.where;
 
     function drawHead() {
       var g = context(head), cor = correction(), step = 3, base = state.f * T + state.t;
@@ -192,8 +201,8 @@
         g.fillStyle = picked ? INK : SOFT;
         g.fillText(d.channels[c3], at[0], at[1] - (picked ? 12 : 8));
       }
-      root.querySelector(".xp-head-caption").innerHTML = "<b>" + esc(d.statLabel) + " at " + fmt(d.freqs[state.f]) +
-        " Hz, " + fmt(d.times[state.t]) + " ms</b> (the cursor), on the map's colour scale. Rings: channels significant there after " +
+      root.querySelector(".xp-head-caption").innerHTML = "<b>" + esc(d.statLabel) + " at " + where(state.f, state.t, ", ") +
+        "</b> (the cursor), on the map's colour scale. Rings: channels significant there after " +
         esc(cor.info.name) + ". Orange: selected. Click a channel to select it, shift-click to add.";
     }
     return drawHead;
@@ -204,7 +213,7 @@
     var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
     var root = v.root, colour = v.colour, correction = v.correction;
     var cellRect = v.cellRect, context = v.context, meanAt = v.meanAt, anySelected = v.anySelected, tf = v.tf;
-    var frame = framePainter(v);
+    var frame = v.frame;
 
     function outlineCells(g, inside, colourName, width) {
       var w = TF.width / T, h = TF.height / F;
@@ -324,7 +333,7 @@
         return lo === hi ? fmtP(lo) : fmtP(lo) + " to " + fmtP(hi);
       };
       var label = channels.length === 1 ? d.channels[channels[0]] : "mean of " + channels.length + " channels";
-      var text = "<b>" + esc(label) + "</b> · " + fmt(d.freqs[f]) + " Hz · " + fmt(d.times[t]) + " ms · " +
+      var text = "<b>" + esc(label) + "</b> · " + v.where(f, t, " · ") + " · " +
         esc(d.statLabel) + " = " + fmt(n ? s / n : NaN) + " · p = " + range(ps) + " (uncorrected" +
         (channels.length > 1 ? ", per channel" : "") + ") · corrected p = " + range(qs) + " (" + esc(cor.info.name) + ")";
       if (channels.length === 1 && clusterAt(channels[0], f, t)) {
@@ -349,12 +358,13 @@
         return "<tr data-id=\"" + row.id + "\"" + chosen + "><td>" + row.id + "</td><td>" +
           esc(/^(-|negative|-1)$/i.test(String(row.sign)) ? d.negative : d.positive) + "</td><td class=\"num\">" + fmtP(row.p) +
           "</td><td class=\"num\">" + row.n_points + "</td><td class=\"num\">" + String(row.channels).split(",").length +
-          "</td><td>" + fmt(row.time_start_ms) + " to " + fmt(row.time_end_ms) + " ms</td><td>" +
-          fmt(row.freq_low_hz) + " to " + fmt(row.freq_high_hz) + " Hz</td></tr>";
+          "</td><td>" + fmt(row.time_start_ms) + " to " + fmt(row.time_end_ms) + " ms</td>" +
+          (d.voltage ? "" : "<td>" + fmt(row.freq_low_hz) + " to " + fmt(row.freq_high_hz) + " Hz</td>") + "</tr>";
       });
       list.innerHTML = "<h4>Significant " + esc(info.noun) + "s of " + esc(info.name) + " (click one)</h4>" +
         "<table class=\"xp-clusters\"><thead><tr><th>id</th><th>direction</th><th>p</th><th>points</th>" +
-        "<th>channels</th><th>time</th><th>frequency</th></tr></thead><tbody>" + rows.join("") + "</tbody></table>";
+        "<th>channels</th><th>time</th>" + (d.voltage ? "" : "<th>frequency</th>") + "</tr></thead><tbody>" +
+        rows.join("") + "</tbody></table>";
       list.querySelectorAll("tr[data-id]").forEach(function (tr) {
         tr.addEventListener("click", function () { chooseCluster(Number(tr.dataset.id)); });
       });
@@ -366,7 +376,7 @@
       state.cluster = id;
       var names = String(row.channels).split(",");
       state.sel = names.map(function (n) { return d.channels.indexOf(n); }).filter(function (c) { return c >= 0; });
-      state.f = nearest(d.freqs, row.peak_freq_hz);
+      state.f = d.voltage ? 0 : nearest(d.freqs, row.peak_freq_hz);
       state.t = nearest(d.times, row.peak_time_ms);
       v.redraw();
     }
@@ -441,60 +451,77 @@
     v.readout.innerHTML = v.panels.describePoint(v.state.sel, v.state.f, v.state.t);
     v.root.dataset.selected = v.state.sel.map(function (c) { return v.d.channels[c]; }).join(",");
     v.root.dataset.correction = v.correction().info.name;
-    v.root.dataset.cursor = fmt(v.d.freqs[v.state.f]) + " Hz," + fmt(v.d.times[v.state.t]) + " ms";
+    v.root.dataset.cursor = v.where(v.state.f, v.state.t, ",");
     v.root.dataset.cluster = v.state.cluster === null ? "" : String(v.state.cluster);
     v.root.querySelector(".xp-selection").textContent = "selected: " +
       v.state.sel.map(function (c) { return v.d.channels[c]; }).join(", ");
   }
 
-  /* Clicks, shift-clicks, hover, cursor moves, keys, the correction selector and the reset. */
-  function bind(v) {
-    var d = v.d, C = v.C, F = v.F, T = v.T, FT = v.FT, state = v.state, HEAD = v.HEAD, TF = v.TF;
-    var root = v.root, colour = v.colour, correction = v.correction;
-    var head = v.head, tf = v.tf, select = v.select, readout = v.readout, channelXY = v.channelXY, peak = v.peak;
+  function position(canvas, event) {
+    var box = canvas.getBoundingClientRect();
+    return [(event.clientX - box.left) * Number(canvas.dataset.w) / box.width,
+            (event.clientY - box.top) * Number(canvas.dataset.h) / box.height];
+  }
 
-    function position(canvas, event) {
-      var box = canvas.getBoundingClientRect();
-      return [(event.clientX - box.left) * Number(canvas.dataset.w) / box.width,
-              (event.clientY - box.top) * Number(canvas.dataset.h) / box.height];
-    }
+  /* Channel clicks and hover on the head, the correction selector and the reset. */
+  function bind(v) {
+    var C = v.C, state = v.state, root = v.root, head = v.head, select = v.select, readout = v.readout;
+
     function channelNear(event) {
       var xy = position(head, event), best = -1, bestDistance = 12;
       for (var c = 0; c < C; c++) {
-        var at = channelXY(c), distance = Math.hypot(at[0] - xy[0], at[1] - xy[1]);
+        var at = v.channelXY(c), distance = Math.hypot(at[0] - xy[0], at[1] - xy[1]);
         if (distance < bestDistance) { best = c; bestDistance = distance; }
       }
       return best;
     }
-    function cellNear(event) {
-      var xy = position(tf, event);
-      var t = Math.floor((xy[0] - TF.left) / TF.width * T), f = F - 1 - Math.floor((xy[1] - TF.top) / TF.height * F);
-      return t >= 0 && t < T && f >= 0 && f < F ? [f, t] : null;
-    }
-
-    head.addEventListener("click", function (event) {
-      var c = channelNear(event);
-      if (c < 0) return;
+    /* Select channel c (shift: add it, or drop it if selected and not the last). */
+    v.choose = function (c, shift) {
       state.cluster = null;
-      if (event.shiftKey) {
+      if (shift) {
         var at = state.sel.indexOf(c);
         if (at < 0) state.sel.push(c); else if (state.sel.length > 1) state.sel.splice(at, 1);
       } else {
         state.sel = [c];
       }
       v.redraw();
+    };
+    head.addEventListener("click", function (event) {
+      var c = channelNear(event);
+      if (c >= 0) v.choose(c, event.shiftKey);
     });
     head.addEventListener("mousemove", function (event) {
       var c = channelNear(event);
       head.style.cursor = c < 0 ? "default" : "pointer";
       if (c >= 0) readout.innerHTML = v.describePoint([c], state.f, state.t);
     });
+    select.addEventListener("change", function () {
+      state.corr = Number(select.value);
+      state.cluster = null;
+      v.redraw();
+    });
+    root.querySelector(".xp-clear").addEventListener("click", function () {
+      state.sel = v.start.slice();
+      state.cluster = null;
+      v.redraw();
+    });
+  }
+
+  /* Clicks, drags and keys on the time-frequency map. */
+  function bindMap(v) {
+    var F = v.F, T = v.T, state = v.state, TF = v.TF, root = v.root, tf = v.tf, readout = v.readout;
+
+    function cellNear(event) {
+      var xy = position(tf, event);
+      var t = Math.floor((xy[0] - TF.left) / TF.width * T), f = F - 1 - Math.floor((xy[1] - TF.top) / TF.height * F);
+      return t >= 0 && t < T && f >= 0 && f < F ? [f, t] : null;
+    }
     function moveCursor(event) {
       var cell = cellNear(event);
       if (!cell) return;
       state.f = cell[0]; state.t = cell[1];
       v.drawHead(); v.drawMap();
-      root.dataset.cursor = fmt(d.freqs[state.f]) + " Hz," + fmt(d.times[state.t]) + " ms";
+      root.dataset.cursor = v.where(state.f, state.t, ",");
     }
     tf.addEventListener("click", moveCursor);
     tf.addEventListener("mousemove", function (event) {
@@ -512,16 +539,6 @@
       readout.innerHTML = v.describePoint(state.sel, state.f, state.t);
       v.redraw();
     });
-    select.addEventListener("change", function () {
-      state.corr = Number(select.value);
-      state.cluster = null;
-      v.redraw();
-    });
-    root.querySelector(".xp-clear").addEventListener("click", function () {
-      state.sel = [Math.floor(peak / FT)];
-      state.cluster = null;
-      v.redraw();
-    });
   }
 
   function Explorer(root) {
@@ -534,11 +551,20 @@
     unpack(d).then(function (raw) {
       var v = model(root, d, raw);
       v.drawHead = headPainter(v);
-      v.drawMap = mapPainter(v);
+      v.frame = framePainter(v);
       v.panels = panels(v);
       v.describePoint = v.panels.describePoint;
       v.redraw = function () { redraw(v); };
       bind(v);
+      if (d.voltage) {
+        var views = famwiseVoltageViews(v, {INK: INK, SOFT: SOFT, HIGHLIGHT: HIGHLIGHT, fmt: fmt, esc: esc,
+                                            niceStep: niceStep});
+        v.drawMap = views.draw;
+        views.bind();
+      } else {
+        v.drawMap = mapPainter(v);
+        bindMap(v);
+      }
       v.redraw();
       root.classList.add("xp-ready");
     });

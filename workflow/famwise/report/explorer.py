@@ -9,9 +9,15 @@ base64 (flattened in (channel, frequency, time) order):
 - masks: one bit per point (``numpy.packbits``, big-endian bit order);
 - cluster or region labels: int16.
 
-The script (``explorer.js`` beside this module, plain JavaScript, no
-network) inflates them with the browser's own ``DecompressionStream`` and
-draws on canvases. Without JavaScript the section shows a short
+A voltage contrast (`famwise.axes.is_voltage`) packs the same arrays (its
+one frequency entry makes them (channel, time)), gives ``freqs`` empty and
+``voltage`` true, and its clusters carry no frequency columns; the page then
+shows a channel x time map and the selected channels' time course instead of
+a time-frequency map.
+
+The scripts (``explorer.js`` and ``explorer_voltage.js`` beside this module,
+plain JavaScript, no network) inflate them with the browser's own
+``DecompressionStream`` and draw on canvases. Without JavaScript the section shows a short
 note and the static figures above it carry the results.
 """
 
@@ -23,13 +29,16 @@ from pathlib import Path
 
 import numpy as np
 
+from famwise.axes import FREQUENCY_COLUMNS, is_voltage
 from famwise.correct.clusters import CLUSTER_COLUMNS
 from famwise.figure_style import DIVERGING, symmetric_limit
 from famwise.report.html import anchor, esc, note
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.study_words import named
-from famwise.report.values import CAVEAT, categories, read_values
+from famwise.report.values import categories, caveat, read_values
 
+SCRIPTS = ("explorer_voltage.js", "explorer.js")
+"""The explorer's scripts, in page order (the first defines what the second calls for voltage contrasts)."""
 P_SCALE = 1000.0
 """Quantisation steps per decade of p."""
 STAT_STEPS = 32767
@@ -72,7 +81,7 @@ def colour_table(steps: int = 64) -> list[str]:
     return ["#" + "".join(f"{round(v * 255):02x}" for v in colour) for colour in rgb]
 
 
-def _correction_data(correction: ReportedCorrection, alpha: float, folder: Path) -> dict:
+def _correction_data(correction: ReportedCorrection, alpha: float, folder: Path, *, voltage: bool) -> dict:
     data = {
         "name": correction.name,
         "method": correction.method,
@@ -86,7 +95,8 @@ def _correction_data(correction: ReportedCorrection, alpha: float, folder: Path)
     if correction.cluster_id is not None:
         data["ids"] = _b64(np.asarray(correction.cluster_id).astype("<i2").ravel())
         significant = [row for row in correction.clusters if float(row["p"]) <= alpha]
-        data["clusters"] = [{k: row.get(k) for k in CLUSTER_COLUMNS} for row in significant]
+        columns = [k for k in CLUSTER_COLUMNS if not (voltage and k in FREQUENCY_COLUMNS)]
+        data["clusters"] = [{k: row.get(k) for k in columns} for row in significant]
         columns, values = read_values(folder / correction.name)
         data["values"] = {ident: _strips(columns, rows) for ident, rows in values.items()}
     return data
@@ -106,6 +116,7 @@ def explorer_data(
     unit: str,
     positive: str,
     negative: str,
+    start: list[str] | None = None,
 ) -> dict:
     """Everything the script draws for one contrast, as JSON-ready values.
 
@@ -124,7 +135,11 @@ def explorer_data(
         Name of the statistic and unit of the subject values.
     positive, negative : str
         Plain words for the two signs of the statistic.
+    start : list of str, optional
+        Channels selected when the page opens (and after a reset); default
+        the peak channel.
     """
+    voltage = bool(is_voltage(contrast.freqs))
     limit = symmetric_limit(contrast.stat)
     stat = contrast.stat if contrast.left_out is None else np.where(contrast.left_out, np.nan, contrast.stat)
     return {
@@ -132,7 +147,8 @@ def explorer_data(
         "shape": list(contrast.stat.shape),
         "channels": list(contrast.channels),
         "xy": np.round(np.asarray(flat, dtype=float), 4).tolist(),
-        "freqs": [round(float(f), 4) for f in contrast.freqs],
+        "voltage": voltage,
+        "freqs": [] if voltage else [round(float(f), 4) for f in contrast.freqs],
         "times": [round(float(t) * 1000.0, 3) for t in contrast.times],
         "limit": limit,
         "stat": pack_stat(stat, limit),
@@ -143,13 +159,15 @@ def explorer_data(
         "positive": positive,
         "negative": negative,
         "colours": colour_table(),
-        "corrections": [_correction_data(c, alpha, Path(folder)) for c in contrast.corrections],
+        "start": [list(contrast.channels).index(name) for name in start or []],
+        "corrections": [_correction_data(c, alpha, Path(folder), voltage=voltage) for c in contrast.corrections],
     }
 
 
 def assets() -> str:
     """The explorer's style sheet and script (once per page, after the last explorer)."""
-    code = resources.files("famwise.report").joinpath("explorer.js").read_text(encoding="utf-8")
+    folder = resources.files("famwise.report")
+    code = "\n".join(folder.joinpath(name).read_text(encoding="utf-8") for name in SCRIPTS)
     return f"<style>{CSS}</style><script>{code}</script>"
 
 
@@ -160,27 +178,45 @@ def explorer_block(data: dict) -> str:
     options = "".join(
         f'<option value="{k}">{esc(named(c["name"], c["method"]))}</option>' for k, c in enumerate(data["corrections"])
     )
-    caveat = note(CAVEAT, warning=True)
+    voltage = bool(data.get("voltage"))
+    views = _VOLTAGE_VIEWS if voltage else _TF_VIEWS
     return (
         f'<h3 id="{ident}" class="xp-title">Explore {esc(data["contrast"])}</h3>'
         f'<div class="explorer" data-explorer="{ident}">'
         '<p class="xp-nojs">The explorer needs JavaScript; the figures above show the same results.</p>'
-        '<p class="xp-intro">Pick a correction, click channels on the head (shift-click adds more) to see '
-        "their mean statistic over time and frequency, and click the map to see the scalp at that point. "
-        "Selecting a cluster or region below shows its channels, its extent, its row of the table and each "
-        "subject's value.</p>"
+        f'<p class="xp-intro">{views[0]} Selecting a cluster or region below shows its channels, its extent, '
+        "its row of the table and each subject's value.</p>"
         '<div class="xp-bar"><label>correction <select class="xp-correction">'
         f'{options}</select></label><span class="xp-selection"></span>'
         '<button type="button" class="xp-clear">clear selection</button></div>'
-        '<div class="xp-views"><figure class="xp-head-fig"><canvas class="xp-head" width="320" height="340">'
-        '</canvas><figcaption class="xp-head-caption"></figcaption></figure>'
-        '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="345"></canvas>'
-        '<figcaption class="xp-tf-caption"></figcaption></figure></div>'
+        f"{views[1]}</div>"
         '<div class="xp-readout" aria-live="polite">Hover over the map or a channel.</div>'
         '<div class="xp-lower"><div class="xp-list"></div><div class="xp-detail"></div></div>'
-        f'<div class="xp-caveat">{caveat}</div>'
+        f'<div class="xp-caveat">{note(caveat(voltage=voltage), warning=True)}</div>'
         f'<script type="application/json" class="xp-data">{payload}</script></div>'
     )
+
+
+_HEAD_VIEW = (
+    '<div class="xp-views"><figure class="xp-head-fig"><canvas class="xp-head" width="320" height="340">'
+    '</canvas><figcaption class="xp-head-caption"></figcaption></figure>'
+)
+_TF_VIEWS = (
+    "Pick a correction, click channels on the head (shift-click adds more) to see their mean statistic over time "
+    "and frequency, and click the map to see the scalp at that point.",
+    _HEAD_VIEW + '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="345"></canvas>'
+    '<figcaption class="xp-tf-caption"></figcaption></figure>',
+)
+"""Intro sentence and canvases of a time-frequency contrast: the head and the map of the selected channels."""
+_VOLTAGE_VIEWS = (
+    "Pick a correction, click channels on the head or rows of the channel x time map (shift-click adds more) to "
+    "see their mean statistic over time, and click a time to see the scalp at that time.",
+    _HEAD_VIEW + '<figure class="xp-tf-fig"><canvas class="xp-tf" width="620" height="345"></canvas>'
+    '<figcaption class="xp-tf-caption"></figcaption></figure>'
+    '<figure class="xp-course-fig"><canvas class="xp-course" width="620" height="215"></canvas>'
+    '<figcaption class="xp-course-caption"></figcaption></figure>',
+)
+"""Intro sentence and canvases of a voltage contrast: the head, the channel x time map and the time course."""
 
 
 CSS = """
@@ -193,7 +229,7 @@ CSS = """
 .explorer canvas { display: block; cursor: crosshair; }
 .explorer figure { margin: 0; }
 .explorer .xp-head-fig { width: 320px; }
-.explorer .xp-tf-fig { width: 620px; }
+.explorer .xp-tf-fig, .explorer .xp-course-fig { width: 620px; }
 .explorer .xp-readout { font-size: 13px; font-variant-numeric: tabular-nums; background: var(--band);
                         padding: 5px 9px; margin: 8px 0; min-height: 1.6em; }
 .explorer .xp-list table { cursor: pointer; }

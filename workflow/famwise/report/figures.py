@@ -167,7 +167,15 @@ def peak_channel(contrast: ReportedContrast) -> int:
     return int(np.unravel_index(np.argmax(stat), stat.shape)[0])
 
 
-def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int, title: str, subtitle: str):
+def map_figure(
+    contrast: ReportedContrast,
+    mask: np.ndarray,
+    *,
+    count_limit: int,
+    title: str,
+    subtitle: str,
+    course: list[str] | None = None,
+):
     """A correction's (or the uncorrected) significant points on one contrast.
 
     Top: the statistic at the peak channel, points not significant there
@@ -182,11 +190,14 @@ def map_figure(contrast: ReportedContrast, mask: np.ndarray, *, count_limit: int
         Top of the channel-count colour scale (shared by the panels of a
         contrast; larger counts show in the top colour).
     title, subtitle : str
+    course : list of str, optional
+        Voltage contrasts: the channels of the time course (the spec's
+        ``report.time_course_channels``); None for the peak channel.
     """
     if is_voltage(contrast.freqs):
         from famwise.report.voltage_figures import voltage_map_figure
 
-        return voltage_map_figure(contrast, mask, title=title, subtitle=subtitle)
+        return voltage_map_figure(contrast, mask, title=title, subtitle=subtitle, course=course)
     times_ms = contrast.times * 1000.0
     channel = peak_channel(contrast)
     limit = symmetric_limit(contrast.stat)

@@ -56,11 +56,20 @@ def cluster_caption(contrast: ReportedContrast, row: dict, *, noun: str, sense: 
     )
 
 
-def side_by_side_words(contrast: ReportedContrast) -> str:
-    """What the uncorrected and corrected map figures show."""
+def side_by_side_words(contrast: ReportedContrast, course: list[str] | None = None) -> str:
+    """What the uncorrected and corrected map figures show (``course``: the chosen time-course channels)."""
     if is_voltage(contrast.freqs):
+        if not course:
+            top = "at the peak channel, a bar under the axis where it is significant"
+        elif len(course) == 1:
+            top = f"at {course[0]} (report.time_course_channels), a bar under the axis where it is significant"
+        else:
+            top = (
+                f"averaged over {', '.join(course)} (report.time_course_channels), a bar under the axis where it "
+                "is significant at any of them"
+            )
         return (
-            "Top: the statistic's time course at the peak channel, a bar under the axis where it is significant. "
+            f"Top: the statistic's time course {top}. "
             "Bottom: the statistic over channels and times, points not significant faded."
         )
     return (

@@ -20,6 +20,7 @@ from famwise.report.scalp import project
 from famwise.report.study_sections import FigureWriter
 from famwise.report.study_words import named
 from famwise.report.values import planned_block, values_block
+from famwise.report.voltage_figures import time_course_channels
 
 _FWER_P = {"bonferroni", "sidak", "holm", "hochberg"}
 _OTHER_CLUSTERS = 10
@@ -236,6 +237,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
     uncorrected = contrast.p <= alpha
     base = anchor(contrast.name)
     counts = max([1] + [int(c.mask.sum(axis=0).max()) for c in contrast.corrections])
+    course = time_course_channels(study) if is_voltage(contrast.freqs) else None
     cards = []
     with figure_style():
         fig = figures.map_figure(
@@ -244,6 +246,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
             count_limit=counts,
             title="uncorrected",
             subtitle=f"{int(uncorrected.sum())} of {total} points p ≤ {fmt(alpha)}",
+            course=course,
         )
     cards.append(
         write(
@@ -263,6 +266,7 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
                 count_limit=counts,
                 title=correction.name,
                 subtitle=f"{correction.method}: {correction.n_significant} of {total} points",
+                course=course,
             )
         cards.append(
             write(
@@ -275,10 +279,10 @@ def contrast_section(run: Run, contrast: ReportedContrast, write: FigureWriter) 
         )
         details.append(_correction_detail(run, contrast, correction, spec, write))
     grid = (
-        f"<h3>Uncorrected and corrected, side by side</h3><p>{side_by_side_words(contrast)}</p>"
+        f"<h3>Uncorrected and corrected, side by side</h3><p>{side_by_side_words(contrast, course)}</p>"
         f'<div class="grid">{"".join(cards)}</div>'
     )
-    explorer = _explorer(run, contrast, spec, alpha)
+    explorer = _explorer(run, contrast, spec, alpha, course)
     planned = planned_block(
         run.output_dir / "contrasts" / contrast.name,
         f"{base}__planned__values",
@@ -309,11 +313,10 @@ def _sign_words(contrast: ReportedContrast, spec: dict) -> str:
     return f"Positive values mean {esc(direction(spec, True))}"
 
 
-def _explorer(run: Run, contrast: ReportedContrast, spec: dict, alpha: float) -> str:
-    """The contrast's interactive explorer of time-frequency maps (empty without channel positions, and for
-    voltage contrasts: their time courses and scalp maps are in the figures)."""
+def _explorer(run: Run, contrast: ReportedContrast, spec: dict, alpha: float, course: list[str] | None) -> str:
+    """The contrast's interactive explorer (empty without channel positions); ``course`` channels start selected."""
     flat = channel_flat(run, contrast)
-    if flat is None or is_voltage(contrast.freqs):
+    if flat is None:
         return ""
     data = explorer_data(
         contrast,
@@ -324,6 +327,7 @@ def _explorer(run: Run, contrast: ReportedContrast, spec: dict, alpha: float) ->
         unit=figures.effect_unit(run.study),
         positive=direction(spec, True),
         negative=direction(spec, False),
+        start=course,
     )
     return explorer_block(data)
 

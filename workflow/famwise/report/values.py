@@ -26,6 +26,13 @@ CAVEAT = (
 )
 
 
+def caveat(*, voltage: bool) -> str:
+    """The circular-analysis note; voltage maps' planned regions have no frequency band."""
+    return (
+        CAVEAT.replace("channels, a frequency band, a time window", "channels and a time window") if voltage else CAVEAT
+    )
+
+
 def read_values(folder: Path, name: str = "subject_values.tsv") -> tuple[list[str], dict[str, list[dict]]]:
     """Value columns and rows by cluster id (or region name) of ``<folder>/<name>`` (empty when absent)."""
     path = Path(folder) / name
@@ -126,9 +133,7 @@ def values_block(folder: Path, stem: str, *, noun: str, unit: str, write, voltag
     return (
         f"<h4>Per-subject values of the significant {noun}s</h4>"
         + note(
-            CAVEAT.replace("channels, a frequency band, a time window", "channels and a time window")
-            if voltage
-            else CAVEAT,
+            caveat(voltage=voltage),
             warning=True,
         )
         + write(fig, stem, caption=caption, alt=f"per-subject values of each {noun}")

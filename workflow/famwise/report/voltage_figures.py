@@ -8,12 +8,38 @@ these figures draw time courses and scalp maps and never show a frequency.
 import matplotlib.pyplot as plt
 import numpy as np
 
+from famwise.errors import UserError
 from famwise.figure_style import ACCENT, DIVERGING, MUTED, symmetric_limit
 from famwise.report.figures import hatch_left_out, peak_channel, stat_label
 from famwise.report.results import ReportedContrast, ReportedCorrection
 from famwise.report.scalp import topography
 
 _PEAK_COLOR = "#2a4d9b"
+
+
+def time_course_channels(study: dict) -> list[str] | None:
+    """The spec's ``report.time_course_channels`` (study as JSON), or None for each contrast's peak channel."""
+    return (study.get("report") or {}).get("time_course_channels") or None
+
+
+def _course(contrast: ReportedContrast, stat: np.ndarray, shown: np.ndarray, course: list[str] | None):
+    """The time course (T,), its significant points (T,) and its title: at the peak or the chosen channels."""
+    label = stat_label(contrast)
+    if not course:
+        channel = peak_channel(contrast)
+        return stat[channel], shown[channel], f"{label} at {contrast.channels[channel]} (peak channel)"
+    missing = [name for name in course if name not in contrast.channels]
+    if missing:
+        raise UserError(
+            f"report.time_course_channels: {', '.join(missing)} not among contrast {contrast.name}'s channels"
+        )
+    rows = [contrast.channels.index(name) for name in course]
+    if len(rows) == 1:
+        return stat[rows[0]], shown[rows[0]], f"{label} at {course[0]} (chosen channel)"
+    title = (
+        f"{label}, mean over {', '.join(course)}" if len(course) <= 4 else f"{label}, mean of {len(course)} channels"
+    )
+    return stat[rows].mean(axis=0), shown[rows].any(axis=0), title + "\n(bar: significant at any of them)"
 
 
 def significant_runs(significant: np.ndarray) -> list[tuple[int, int]]:
@@ -55,11 +81,14 @@ def _channel_image(ax, values: np.ndarray, channels, times_ms: np.ndarray, *, li
     return shown
 
 
-def voltage_map_figure(contrast: ReportedContrast, mask: np.ndarray, *, title: str, subtitle: str):
+def voltage_map_figure(
+    contrast: ReportedContrast, mask: np.ndarray, *, title: str, subtitle: str, course: list[str] | None = None
+):
     """A correction's (or the uncorrected) significant points on one voltage contrast.
 
-    Top: the statistic's time course at the peak channel, a bar under the axis
-    over each span significant there. Bottom: the statistic over channels x
+    Top: the statistic's time course at the peak channel (or at the
+    ``course`` channels, averaged), a bar under the axis over each span
+    significant there (at any of them). Bottom: the statistic over channels x
     time, points not significant faded, points left out hatched.
 
     Parameters
@@ -68,19 +97,21 @@ def voltage_map_figure(contrast: ReportedContrast, mask: np.ndarray, *, title: s
         Maps of shape (C, 1, T).
     mask : ndarray of bool, shape (C, 1, T)
     title, subtitle : str
+    course : list of str, optional
+        The spec's ``report.time_course_channels``; None for the peak channel.
     """
     times_ms = contrast.times * 1000.0
     stat, shown = contrast.stat[:, 0], mask[:, 0]
-    channel = peak_channel(contrast)
+    trace, spans, course_title = _course(contrast, stat, shown, course)
     label = stat_label(contrast)
     figure, (top, bottom) = plt.subplots(
         2, 1, figsize=(3.5, 4.9), sharex=True, layout="constrained", height_ratios=[1.0, 1.4]
     )
     figure.suptitle(f"{title}\n{subtitle}", x=0.02, ha="left", fontsize=9)
     top.axhline(0, color=MUTED, lw=0.6)
-    top.plot(times_ms, stat[channel], color=ACCENT, lw=1.3)
-    _span_bars(top, significant_runs(shown[channel]), times_ms)
-    top.set_title(f"{label} at {contrast.channels[channel]} (peak channel)", fontsize=8, fontweight="normal")
+    top.plot(times_ms, trace, color=ACCENT, lw=1.3)
+    _span_bars(top, significant_runs(spans), times_ms)
+    top.set_title(course_title, fontsize=8, fontweight="normal")
     top.set_ylabel(label)
     image = _channel_image(bottom, stat, contrast.channels, times_ms, limit=symmetric_limit(stat), fade=~shown)
     left_out = contrast.left_out is not None and contrast.left_out.any()

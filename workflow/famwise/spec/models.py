@@ -38,6 +38,7 @@ from famwise.spec.inference import (  # noqa: F401  (re-exported: the spec's mod
 )
 from famwise.spec.power import PowerSettings, check_power_contrasts
 from famwise.spec.region import Analysis, PlannedRegion
+from famwise.spec.report_options import ReportOptions, check_report_options
 
 SubjectSource = Literal["epochs", "maps", "bids"]
 TestName = Literal[
@@ -302,6 +303,9 @@ class Study(SpecModel):
         default=None,
         description="Sample-size planning by simulation from this study's maps (`famwise power`); omit when not planning.",
     )
+    report: ReportOptions | None = Field(
+        default=None, description="What the report draws (never what is tested); omit for the defaults."
+    )
 
     @field_validator("output")
     @classmethod
@@ -407,4 +411,9 @@ class Study(SpecModel):
     @model_validator(mode="after")
     def _power_contrasts_known(self) -> "Study":
         check_power_contrasts(self.power, [c.name for c in self.contrasts])
+        return self
+
+    @model_validator(mode="after")
+    def _report_fits_the_study(self) -> "Study":
+        check_report_options(self.report, voltage=self.decomposition.method == "none", analysed=self.analysis.channels)
         return self
