@@ -23,14 +23,17 @@ class PowerEffect(SpecModel):
     d: list[float] | None = Field(
         default=None,
         min_length=1,
-        description="Standardised effect sizes (source 'specified'): Cohen's d (d_z for one-sample and paired, "
-        "d over the pooled SD for two-sample) or Pearson's r (correlation); one power curve each.",
+        description="Standardised effect sizes (source 'specified'): Cohen's d (d_z for one-sample, paired and "
+        "weighted, d over the pooled SD for two-sample), Cohen's f (between-groups: group means equally spaced in "
+        "the listed order), Pearson's r (correlation) or the partial r of the tested covariate given the nuisance "
+        "covariates (regression); one power curve each.",
     )
     channels: list[str] | None = Field(
         default=None, description="Channels of the effect region; omit for all analysed channels."
     )
     freq_hz: tuple[float, float] | None = Field(
-        default=None, description="Frequency band [low, high] of the effect region in Hz; omit for all."
+        default=None,
+        description="Frequency band [low, high] of the effect region in Hz; omit for all (voltage maps have none).",
     )
     time_ms: tuple[float, float] | None = Field(
         default=None, description="Time window [start, end] of the effect region in ms; omit for all."
