@@ -14,6 +14,7 @@ from famwise.plan import Plan
 from famwise.power.settings import power_shard_settings, power_spec
 from famwise.power.shard import power_shard
 from famwise.power.simulate import effect_map, group_sizes, pilot_from, region_mask, simulate_study
+from famwise.power.text import methods_sentences
 from famwise.spec import load_study
 
 SPEC = """\
@@ -245,3 +246,22 @@ def test_voltage_pilot_effect_region_has_channels_and_time_but_no_band(tmp_path)
     )
     detected, _ = _detected(plan, data, tmp_path / "subjects.npz", "d-1.5", 20, "max-stat")
     assert detected.mean() >= 0.8  # d_z = 1.5 with 20 subjects over 30 points: nearly always found
+
+
+def test_methods_sentence_names_the_maps_the_resampling_and_the_size():
+    rows = [
+        dict(effect="d-0.3", correction="max-stat", n=20, power=0.85, power_ci_low=0.8, power_ci_high=0.9, studies=200)
+    ]
+    info = dict(
+        contrast="age",
+        effect=dict(source="specified", channels=["Pz"], time_ms=[300, 600]),
+        alpha=0.05,
+        target=0.8,
+        test="regression",
+        maps="voltage",
+    )
+    text = methods_sentences(rows, info, pilot_n=30)
+    assert "resampled the residual voltage maps of the 30 pilot participants with replacement, together with" in text
+    assert "(channel Pz; 300-600 ms)" in text and "a standardised effect of partial r = 0.3:" in text
+    info.update(test="between-groups", maps="time-frequency")
+    assert "within each group" in methods_sentences(rows, info) and "Cohen's f = 0.3" in methods_sentences(rows, info)

@@ -80,7 +80,7 @@ class PowerSettings(SpecModel):
     sample_sizes: list[int] = Field(
         default_factory=lambda: [12, 20, 28, 36, 44, 60],
         min_length=1,
-        description="Numbers of participants to simulate (two-sample: in total, split as in the pilot).",
+        description="Numbers of participants to simulate (two-sample, between-groups: in total, split as in the pilot).",
     )
     studies: int = Field(default=200, ge=1, description="Simulated studies per sample size and effect.")
     target: float = Field(
