@@ -15,6 +15,8 @@ from famwise.power.settings import power_shard_settings, power_spec
 from famwise.power.shard import power_shard
 from famwise.power.simulate import effect_map, group_sizes, pilot_from, region_mask, simulate_study
 from famwise.power.text import methods_sentences
+from famwise.preflight import Where
+from famwise.preflight.power_check import check_power_sizes
 from famwise.spec import load_study
 
 SPEC = """\
@@ -265,3 +267,16 @@ def test_methods_sentence_names_the_maps_the_resampling_and_the_size():
     assert "(channel Pz; 300-600 ms)" in text and "a standardised effect of partial r = 0.3:" in text
     info.update(test="between-groups", maps="time-frequency")
     assert "within each group" in methods_sentences(rows, info) and "Cohen's f = 0.3" in methods_sentences(rows, info)
+
+
+def test_sample_sizes_too_small_for_the_groups_stop_before_any_job(tmp_path):
+    spec = tmp_path / "study.yaml"
+    spec.write_text(
+        "version: 1\nname: groups\nsubjects:\n  source: epochs\n  path: data/sub-{subject}.npz\n"
+        "  groups: {'01': young, '02': middle, '03': old}\nconditions: {a: [a]}\ncontrasts:\n"
+        "  - {name: c, test: between-groups, conditions: [a], groups: [young, middle, old]}\n"
+        "inference:\n  corrections:\n    - method: holm\npower:\n  sample_sizes: [12, 5]\n"
+    )
+    plan = Plan(load_study(spec))
+    with pytest.raises(UserError, match=r"study.yaml:\d+ power.sample_sizes\[0\]: N = 5 is too small for contrast c: "):
+        check_power_sizes(plan, power_spec(plan), ["c"], Where(plan.loaded))
