@@ -16,7 +16,7 @@ from famwise.errors import UserError
 from famwise.plan import Plan
 from famwise.power.settings import effect_levels, power_shard_settings, power_spec, power_table_settings, shard_files
 from famwise.power.shard import power_shard
-from famwise.power.simulate import effect_map, pilot_from, region_mask, simulate_study
+from famwise.power.simulate import SimulatedStudy, effect_map, pilot_from, region_mask, simulate_study
 from famwise.power.table import merge_shards, smallest_n, summarize
 from famwise.power.text import methods_sentences, whole_percent
 from famwise.report.power import power_section_html
@@ -184,12 +184,13 @@ def test_two_sample_and_correlation_designs():
         subjects=tuple(map(str, range(20))), channels=("a",), freqs=np.array([6.0]), times=np.array([0.0, 0.1, 0.2])
     )
     pilot = pilot_from(ContrastData(x=x, test="two-sample", groups=groups, **base))
-    sim, sim_groups, _ = simulate_study(pilot, np.ones(3), 50, rng)
+    sim_groups = simulate_study(pilot, np.ones(3), 50, rng).groups
     assert sim_groups.tolist() == [0] * 20 + [1] * 30  # the pilot's 8:12 split
     covariate = rng.normal(size=20)
     pilot = pilot_from(ContrastData(x=x, test="correlation", covariate=covariate, **base))
     slope = effect_map(pilot, source="specified", size=0.6, region=np.ones(3, bool))
-    big, _, c = simulate_study(pilot, slope, 20000, np.random.default_rng(6))
+    big = simulate_study(pilot, slope, 20000, np.random.default_rng(6))
+    big, c = big.x, big.covariate
     r = [scipy.stats.pearsonr(c, big[:, p]).statistic for p in range(3)]  # `scipy.stats.pearsonr`
     np.testing.assert_allclose(r, 0.6, atol=0.02)
 
@@ -255,7 +256,7 @@ def test_curtailed_null_gives_the_full_tables_masks(tmp_path):
     for index in range(24):
         x = gaussian_filter(rng.normal(size=(10, *shape)), sigma=(0, 0, 0.7, 1.0)).reshape(10, -1)
         x[:, :8] += 0.25 * (index % 4)  # from no effect to a clear one
-        design = simulated_design(_pilot(tmp_path, x, shape)[0], x.astype(np.float32), None, None)
+        design = simulated_design(_pilot(tmp_path, x, shape)[0], SimulatedStudy(x.astype(np.float32)))
         table = table_for(design, settings=replace(settings.nulls, seed=index))
         folder = tmp_path / "scratch" / "contrasts" / "c1"
         kept = np.zeros(x.shape[1], dtype=bool)

@@ -91,6 +91,10 @@ def test_voltage_options_reach_the_decompose_settings(tmp_path):
             ),
             "planned_regions[0].freq_hz: voltage maps",
         ),
+        (
+            ("inference:", "power:\n  effect: {source: specified, d: [0.5], freq_hz: [4, 8]}\ninference:"),
+            "power.effect.freq_hz: voltage maps",
+        ),
     ],
 )
 def test_voltage_rejects_decomposition_keys(tmp_path, edit, message):

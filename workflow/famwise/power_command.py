@@ -57,13 +57,14 @@ def command_power(args) -> int:
     from famwise.power.table import read_table
     from famwise.power.text import format_rows
     from famwise.preflight import Where, preflight
-    from famwise.preflight.power_check import check_power_channels
+    from famwise.preflight.power_check import check_power_channels, check_power_sizes
 
     plan = Plan.from_spec(args.spec)
     spec = power_spec(plan, sizes=_sizes(args.sizes), studies=args.studies)
     preflight(plan)  # the mistakes `run` catches before its first job
     check_power_channels(plan, spec, plan.first_subject_channels(), Where(plan.loaded))
     contrasts = power_contrasts(plan, spec)
+    check_power_sizes(plan, spec, contrasts, Where(plan.loaded))
     options = ["--cores", str(args.cores), *profile_options(args.profile)]
     config = {"power_sizes": ",".join(str(n) for n in spec.sample_sizes), "power_studies": spec.studies}
     levels = len(effect_levels(spec))

@@ -31,7 +31,7 @@ from famwise.nulls.shard import load_graph_arrays, table_for
 from famwise.nulls.tables import shard_bounds
 from famwise.observed import left_out_points, observed_arrays
 from famwise.power.sequential import SettledRunner
-from famwise.power.simulate import effect_map, pilot_from, region_mask, simulate_study
+from famwise.power.simulate import SimulatedStudy, effect_map, pilot_from, region_mask, simulate_study
 from famwise.settings import PowerShardSettings
 from famwise.settings_codec import to_json
 
@@ -45,18 +45,16 @@ def study_rng(seed: int, contrast: str, effect: str, n: int, index: int) -> np.r
     return np.random.default_rng(np.random.SeedSequence(key))
 
 
-def simulated_design(data: ContrastData, x: np.ndarray, groups, covariate) -> ContrastData:
-    """The design of one simulated study: the pilot's points, n new subjects."""
-    names = tuple(f"sim{i + 1}" for i in range(x.shape[0]))
-    return ContrastData(
-        x=x,
-        test=data.test,
+def simulated_design(data: ContrastData, study: SimulatedStudy) -> ContrastData:
+    """The design of one simulated study: the pilot's points and covariate coding, n new subjects."""
+    names = tuple(f"sim{i + 1}" for i in range(study.x.shape[0]))
+    return replace(
+        data,
+        x=study.x,
         subjects=names,
-        channels=data.channels,
-        freqs=data.freqs,
-        times=data.times,
-        groups=groups,
-        covariate=covariate,
+        groups=study.groups,
+        covariate=study.covariate,
+        nuisance=study.nuisance,
     )
 
 
@@ -125,13 +123,13 @@ def power_shard(
         folder = Path(scratch) / "contrasts" / name
         for row, index in enumerate(range(start, stop)):
             rng = study_rng(settings.nulls.seed, name, tag, n, index)
-            x, groups, covariate = simulate_study(pilot, effect, n, rng)
-            design = simulated_design(data, x, groups, covariate)
+            study = simulate_study(pilot, effect, n, rng)
+            design = simulated_design(data, study)
             if settings.nulls.collectors:  # each study its own random table, as each real study has
                 table = table_for(design, settings=replace(settings.nulls, seed=int(rng.integers(2**63 - 1))))
             runner = SettledRunner(settings.alpha)
             masks = correction_masks(
-                x, design, table, graph, graph_file, folder, settings, pilot_left_out, runner=runner
+                study.x, design, table, graph, graph_file, folder, settings, pilot_left_out, runner=runner
             )
             outcomes[row] = study_outcomes(masks, region)
             rows_used[row] = [runner.rows_used.get(label, 0) for label in labels]

@@ -27,6 +27,7 @@ from pathlib import Path
 import numpy as np
 
 from famwise.atomic import write_json, write_text
+from famwise.axes import is_voltage
 from famwise.calibrate.settings import UNCORRECTED
 from famwise.calibrate.table import calibration_basis, fwer_interval
 from famwise.errors import UserError
@@ -56,9 +57,12 @@ COLUMNS = (
 SIDECAR = {
     "effect": {
         "Description": "Effect level: 'pilot-x<f>' is the pilot's observed effect times f inside the effect region; "
-        "'d-<d>' a standardised size d (Pearson's r for correlation) inside it. Zero outside the region."
+        "'d-<d>' a standardised size d (Cohen's f for between-groups, Pearson's r for correlation, partial r for "
+        "regression) inside it. Zero outside the region."
     },
-    "n": {"Description": "Participants per simulated study (two-sample: in total, split as in the pilot)."},
+    "n": {
+        "Description": "Participants per simulated study (two-sample, between-groups: in total, split as in the pilot)."
+    },
     "correction": {
         "Description": "Correction name as in the study spec; 'uncorrected' is the reference row: parametric "
         "p <= alpha at a point, no correction."
@@ -221,12 +225,23 @@ def summarize(shard_files: list[Path], out: Path, *, settings: PowerTableSetting
         rows += power_rows(merged, labels=labels, settings=level, table_rows=int(parts[0]["table_rows"]))
         regions[level.effect.tag] = (int(parts[0]["region_points"]), int(parts[0]["points"]))
     basis = power_basis(Path(subjects).parent, [c.record() for c in settings.levels[0].corrections])
-    write_table(Path(out), rows, settings=settings, regions=regions, basis=basis)
+    write_table(Path(out), rows, settings=settings, regions=regions, basis=basis, design=pilot_design(Path(subjects)))
     return rows
 
 
-def write_table(path: Path, rows: list[dict], *, settings: PowerTableSettings, regions: dict, basis: dict) -> None:
-    """The TSV and its JSON sidecar (columns, the simulation's settings, the smallest n per correction, its basis)."""
+def pilot_design(subjects: Path) -> dict:
+    """The pilot's test and map kind (``"voltage"`` or ``"time-frequency"``), for the sidecar and the methods text."""
+    with np.load(subjects, allow_pickle=False) as archive:
+        return {"test": str(archive["test"]), "maps": "voltage" if is_voltage(archive["freqs"]) else "time-frequency"}
+
+
+def write_table(
+    path: Path, rows: list[dict], *, settings: PowerTableSettings, regions: dict, basis: dict, design: dict
+) -> None:
+    """The TSV and its JSON sidecar (columns, the simulation's settings, the smallest n per correction, its basis).
+
+    ``design`` is `pilot_design`'s test and map kind.
+    """
     lines = ["\t".join(COLUMNS)]
     for row in rows:
         values = [row[c] for c in COLUMNS]
@@ -237,6 +252,7 @@ def write_table(path: Path, rows: list[dict], *, settings: PowerTableSettings, r
     sidecar = dict(SIDECAR)
     sidecar["Power"] = {
         "contrast": settings.contrast,
+        **design,
         "target": settings.target,
         "smallest_n": smallest_n(rows, target=settings.target),
         "effect": effect,
@@ -248,8 +264,9 @@ def write_table(path: Path, rows: list[dict], *, settings: PowerTableSettings, r
         "seed": first.nulls.seed,
         "random_stream": "numpy SeedSequence([seed, 0x9043, crc32(contrast), crc32(effect), n, study index])",
         "simulation": "residual maps of the pilot (subject minus the design's fit, scaled by sqrt(n / (n - q))) drawn "
-        "with replacement (two-sample: within each group, n split as in the pilot; correlation: with "
-        "their covariate values), plus the effect inside the region, zero outside",
+        "with replacement (two-sample, between-groups: within each group, n split as in the pilot; correlation, "
+        "regression: with their covariate rows, regression redrawn while rank-deficient; one-sample, paired, "
+        "weighted, between-groups, regression: with a random sign), plus the effect inside the region, zero outside",
         "intervals": "power, false_positive_rate: exact binomial (Clopper-Pearson 1934) 95%; recovered: mean +- 1.96 SE",
         "assumptions": ASSUMPTIONS,
         "basis": basis,

@@ -17,12 +17,34 @@ def region_words(effect: dict) -> str:
     return "; ".join(parts) if parts else "the whole analysed map"
 
 
-def effect_words(tag: str, source: str) -> str:
-    """'0.5 times the pilot's observed effect' or 'a standardised effect of d = 0.5'."""
+SIZE_NAMES = {
+    "one-sample": "d_z",
+    "paired": "d_z",
+    "weighted": "d_z",
+    "two-sample": "d",
+    "between-groups": "Cohen's f",
+    "correlation": "r",
+    "regression": "partial r",
+}
+"""The name of the specified standardised size per test (`famwise.power.simulate.effect_map`)."""
+
+
+def effect_words(tag: str, source: str, test: str | None = None) -> str:
+    """'0.5 times the pilot's observed effect' or 'a standardised effect of d_z = 0.5' (the size named by test)."""
     size = tag.split("-", 1)[1].removeprefix("x")
     if source == "pilot":
         return f"{size} times the pilot's observed effect"
-    return f"a standardised effect of {size}"
+    name = SIZE_NAMES.get(test)
+    return f"a standardised effect of {name} = {size}" if name else f"a standardised effect of {size}"
+
+
+RESAMPLED = {
+    "two-sample": "within each group, ",
+    "between-groups": "within each group, ",
+    "correlation": "together with each subject's covariate value, ",
+    "regression": "together with each subject's covariate values (nuisance covariates included), ",
+}
+"""How the residual maps were drawn, where the design resamples more than the maps."""
 
 
 def whole_percent(share: float) -> int:
@@ -46,7 +68,8 @@ def methods_sentences(rows: list[dict], info: dict, *, pilot_n: int | None = Non
     pilot = f"the {pilot_n} pilot participants" if pilot_n else "the pilot participants"
     text = [
         f"Statistical power was estimated by simulation (famwise power) for contrast {info['contrast']}: each simulated "
-        f"study resampled the residual time-frequency maps of {pilot} with replacement, added the effect inside "
+        f"study resampled the residual {info.get('maps', 'time-frequency')} maps of {pilot} with replacement, "
+        f"{RESAMPLED.get(info.get('test'), '')}added the effect inside "
         f"the region ({region_words(effect)}) and none outside, and applied every planned correction at "
         f"alpha = {info['alpha']:g}"
         + (f" with {info['permutations']} permutations" if info.get("permutations") else "")
@@ -70,7 +93,7 @@ def methods_sentences(rows: list[dict], info: dict, *, pilot_n: int | None = Non
                     f"{correction} did not reach {100 * target:.0f}% up to N = {int(last['n'])} "
                     f"({_percent(last)} of {int(last['studies']):,} simulated studies)"
                 )
-        text.append(f"For {effect_words(tag, effect['source'])}: " + "; ".join(parts) + ".")
+        text.append(f"For {effect_words(tag, effect['source'], info.get('test'))}: " + "; ".join(parts) + ".")
     text.append(
         "Intervals are exact binomial 95% Monte Carlo intervals. The simulation takes the pilot's noise "
         "structure as representative and the effect as stated; a pilot's observed effect is inflated by "

@@ -406,6 +406,8 @@ class Study(SpecModel):
         for index, region in enumerate(self.planned_regions):
             if region.freq_hz is not None:
                 raise LocatedError(("planned_regions", index, "freq_hz"), message)
+        if self.power is not None and self.power.effect.freq_hz is not None:
+            raise LocatedError(("power", "effect", "freq_hz"), message)
         return self
 
     @model_validator(mode="after")

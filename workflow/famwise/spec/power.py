@@ -23,14 +23,17 @@ class PowerEffect(SpecModel):
     d: list[float] | None = Field(
         default=None,
         min_length=1,
-        description="Standardised effect sizes (source 'specified'): Cohen's d (d_z for one-sample and paired, "
-        "d over the pooled SD for two-sample) or Pearson's r (correlation); one power curve each.",
+        description="Standardised effect sizes (source 'specified'): Cohen's d (d_z for one-sample, paired and "
+        "weighted, d over the pooled SD for two-sample), Cohen's f (between-groups: group means equally spaced in "
+        "the listed order), Pearson's r (correlation) or the partial r of the tested covariate given the nuisance "
+        "covariates (regression); one power curve each.",
     )
     channels: list[str] | None = Field(
         default=None, description="Channels of the effect region; omit for all analysed channels."
     )
     freq_hz: tuple[float, float] | None = Field(
-        default=None, description="Frequency band [low, high] of the effect region in Hz; omit for all."
+        default=None,
+        description="Frequency band [low, high] of the effect region in Hz; omit for all (voltage maps have none).",
     )
     time_ms: tuple[float, float] | None = Field(
         default=None, description="Time window [start, end] of the effect region in ms; omit for all."
@@ -77,7 +80,7 @@ class PowerSettings(SpecModel):
     sample_sizes: list[int] = Field(
         default_factory=lambda: [12, 20, 28, 36, 44, 60],
         min_length=1,
-        description="Numbers of participants to simulate (two-sample: in total, split as in the pilot).",
+        description="Numbers of participants to simulate (two-sample, between-groups: in total, split as in the pilot).",
     )
     studies: int = Field(default=200, ge=1, description="Simulated studies per sample size and effect.")
     target: float = Field(
