@@ -301,10 +301,11 @@ def _check_fits(kernels: _Kernels, freqs, valid, all_times, *, subject) -> None:
         )
 
 
-def _baseline_points(times, all_times, valid, freqs, mode, window_ms, *, subject) -> np.ndarray:
-    """Output time points inside the baseline window (all False without a baseline)."""
-    if mode == "none":
-        return np.zeros(times.size, dtype=bool)
+def baseline_window(times, all_times, window_ms, *, subject) -> np.ndarray:
+    """Output time points inside ``window_ms`` [start, end] (ms), which must lie inside the epoch.
+
+    ``times`` (output grid) and ``all_times`` (every sample) in s; bool (n_times,).
+    """
     start, stop = window_ms
     tol_ms = 1e-6
     first, last = all_times[0] * 1000.0, all_times[-1] * 1000.0
@@ -314,7 +315,15 @@ def _baseline_points(times, all_times, valid, freqs, mode, window_ms, *, subject
             f"outside the epoch ({first:g} to {last:g} ms)"
         )
     ms = times * 1000.0
-    inside = (ms >= start - tol_ms) & (ms <= stop + tol_ms)
+    return (ms >= start - tol_ms) & (ms <= stop + tol_ms)
+
+
+def _baseline_points(times, all_times, valid, freqs, mode, window_ms, *, subject) -> np.ndarray:
+    """Output time points inside the baseline window (all False without a baseline)."""
+    if mode == "none":
+        return np.zeros(times.size, dtype=bool)
+    start, stop = window_ms
+    inside = baseline_window(times, all_times, window_ms, subject=subject)
     needed = 2 if mode == "zscore" else 1
     if inside.sum() < needed:
         raise UserError(

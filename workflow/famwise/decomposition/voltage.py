@@ -19,7 +19,7 @@ from scipy.stats import trim_mean
 
 from famwise.axes import VOLTAGE_FREQ_HZ
 from famwise.decomposition.checks import check_finite, select_epochs
-from famwise.decomposition.decompose import _output_samples
+from famwise.decomposition.decompose import _output_samples, baseline_window
 from famwise.decomposition.maps import TimeFreqMaps
 from famwise.epochs import Epochs
 from famwise.errors import UserError
@@ -207,16 +207,8 @@ def baseline_samples(times, all_times, mode, window_ms, *, subject) -> np.ndarra
     """
     if mode == "none":
         return np.zeros(times.size, dtype=bool)
-    start, stop = window_ms
-    tol_ms = 1e-6
-    first, last = all_times[0] * 1000.0, all_times[-1] * 1000.0
-    if not (start < stop and start >= first - tol_ms and stop <= last + tol_ms):
-        raise UserError(
-            f"subject {subject}: baseline window {start:g} to {stop:g} ms lies "
-            f"outside the epoch ({first:g} to {last:g} ms)"
-        )
-    ms = times * 1000.0
-    inside = (ms >= start - tol_ms) & (ms <= stop + tol_ms)
+    inside = baseline_window(times, all_times, window_ms, subject=subject)
     if not inside.any():
+        start, stop = window_ms
         raise UserError(f"subject {subject}: baseline window {start:g} to {stop:g} ms holds no output time point")
     return inside
