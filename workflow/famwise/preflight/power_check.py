@@ -1,8 +1,8 @@
 """The ``power`` section's effect region, checked on the first subject's channels before any power job runs."""
 
 from famwise.errors import UserError
+from famwise.preflight.report_check import check_analysed_channels
 from famwise.preflight.where import Where
-from famwise.spec.base import did_you_mean
 
 
 def check_power_channels(plan, spec, channels: list[str] | None, where: Where) -> None:
@@ -10,18 +10,7 @@ def check_power_channels(plan, spec, channels: list[str] | None, where: Where) -
 
     ``spec`` is the power section (`famwise.power.settings.power_spec`).
     """
-    wanted = spec.effect.channels
-    if not wanted or channels is None:
-        return
-    analysed = {name.lower() for name in plan.study.analysis.channels or []}
-    if analysed:
-        channels = [c for c in channels if c.lower() in analysed]
-    for index, name in enumerate(wanted):
-        if name not in channels:
-            raise UserError(
-                f"{where('power', 'effect', 'channels', index)}: '{name}' is not an analysed channel"
-                f"{did_you_mean(name, channels)} (analysed: {', '.join(channels)})"
-            )
+    check_analysed_channels(plan, spec.effect.channels, channels, where, ("power", "effect", "channels"))
 
 
 def check_power_sizes(plan, spec, contrasts: list[str], where: Where) -> None:
