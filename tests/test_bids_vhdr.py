@@ -3,8 +3,8 @@
 import csv
 
 import numpy as np
-import pybv
 import pytest
+from vhdr_writer import write_with_pybv
 
 from famwise import bids, bids_notes, bids_writing
 from famwise.errors import FamwiseWarning, UserError
@@ -102,14 +102,14 @@ def test_header_units_give_volts(tmp_path):
     data = _recording()[:4]
     stem = _write(tmp_path, "vhdr", data=np.vstack([data, _recording()[4:]]))
     _set_channels(stem, types=NON_EEG, units={name: "n/a" for name in CHANNELS})
-    # Source: pybv.write_brainvision (general-purpose writer) storing each channel in its own unit.
+    # Source: pybv (a maintained general-purpose writer) storing each channel in its own unit.
     with pytest.warns(UserWarning):
-        pybv.write_brainvision(
-            data=data,
-            sfreq=FS,
-            ch_names=CHANNELS[:4],
-            fname_base=stem.name + "eeg",
-            folder_out=stem.parent,
+        write_with_pybv(
+            stem.parent,
+            stem.name + "eeg",
+            data,
+            FS,
+            CHANNELS[:4],
             overwrite=True,
             unit=["µV", "nV", "V", "mV"],
             resolution=np.array([0.5, 1.0, 1e-7, 1e-4]),

@@ -1,8 +1,8 @@
 """The `.vhdr` reader: files from a general-purpose writer, hand-built files of each variant, bad files."""
 
 import numpy as np
-import pybv
 import pytest
+from vhdr_writer import write_with_pybv
 
 from famwise import vhdr
 from famwise.errors import UserError
@@ -69,13 +69,13 @@ def _hand_built(
 def test_reads_files_of_a_general_purpose_writer(tmp_path, fmt, resolution, tolerance_uv):
     rng = np.random.default_rng(3)
     data = rng.normal(scale=40e-6, size=(3, 1000))  # volts
-    # Source: pybv.write_brainvision (a maintained general-purpose writer), multiplexed.
-    pybv.write_brainvision(
-        data=data,
-        sfreq=500.0,
-        ch_names=NAMES,
-        fname_base="rec",
-        folder_out=tmp_path,
+    # Source: pybv (a maintained general-purpose writer), multiplexed.
+    write_with_pybv(
+        tmp_path,
+        "rec",
+        data,
+        500.0,
+        NAMES,
         fmt=fmt,
         resolution=resolution,
         unit="µV",
@@ -94,14 +94,14 @@ def test_reads_files_of_a_general_purpose_writer(tmp_path, fmt, resolution, tole
 
 def test_reads_per_channel_units_and_resolutions_of_a_general_purpose_writer(tmp_path):
     data = np.array([[1e-6, -2e-6, 3e-6], [4e-9, 5e-9, -6e-9], [0.5, -0.25, 0.125]])
-    # Source: pybv.write_brainvision with one unit and resolution per channel.
+    # Source: pybv (a maintained general-purpose writer) with one unit and resolution per channel.
     with pytest.warns(UserWarning):  # the writer notes that units other than µV are rarely read
-        pybv.write_brainvision(
-            data=data,
-            sfreq=250.0,
-            ch_names=NAMES,
-            fname_base="rec",
-            folder_out=tmp_path,
+        write_with_pybv(
+            tmp_path,
+            "rec",
+            data,
+            250.0,
+            NAMES,
             unit=["µV", "nV", "V"],
             resolution=np.array([0.5, 0.25, 1.0]),
         )
