@@ -24,7 +24,7 @@ def bench_power(quick: bool) -> BenchRow:
     task = "power curve of the example study"
     if quick:
         return BenchRow(
-            task, "skipped with --quick", 0.0, 0.0, "< 20 min", True, note="run `famwise bench` without --quick"
+            task, "skipped with --quick", 0.0, 0.0, "< 20 min", None, note="run `famwise bench` without --quick"
         )
     from famwise import layout
     from famwise.demo import write_demo
