@@ -74,7 +74,7 @@ def describe_plan(plan: Plan) -> str:
     lines.append("Contrasts:")
     lines += [f"  - {line}" for line in contrast_lines(plan)]
     lines.append(
-        f"Inference: {i.statistic} statistic, {i.tail}, alpha {i.alpha:g}, family {i.family}, "
+        f"Inference: {_statistic_words(plan)}, alpha {i.alpha:g}, family {i.family}, "
         f"degenerate points: {i.degenerate_points}"
         + (f"; {i.permutations} permutations in {i.shards} shard(s), seed {s.seed}" if i.needs_null else "")
     )
@@ -156,3 +156,15 @@ def _graph_summary(plan: Plan) -> str:
     for warning in caught:
         text += f"\n  warning: {warning.message}"
     return text
+
+
+def _statistic_words(plan: Plan) -> str:
+    """E.g. "t statistic, two-sided"; F contrasts (always their upper tail) are named apart."""
+    from famwise.stats import F_TESTS
+
+    i = plan.study.inference
+    f_contrasts = [c.name for c in plan.study.contrasts if c.test in F_TESTS]
+    if len(f_contrasts) == len(plan.study.contrasts):
+        return "F statistic, upper tail"
+    words = f"{i.statistic} statistic, {i.tail}"
+    return words + (f" (F, upper tail: {', '.join(f_contrasts)})" if f_contrasts else "")
