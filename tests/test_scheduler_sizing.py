@@ -176,3 +176,17 @@ def test_power_shard_resources_grow_with_sample_size_and_studies(tiny_study):
     many = replace(large, studies=4000, nulls=replace(large.nulls, permutations=9999))
     assert minutes(plan, many) > minutes(plan, large) >= sizing.MIN_RUNTIME_MIN
     assert sizing.power_shard_mem_mb(plan, small) <= sizing.power_shard_mem_mb(plan, large)
+
+
+def test_calibrate_shard_time_follows_datasets_per_shard_and_permutations(tiny_study):
+    """A calibration shard asks for more time with more datasets per shard or more permutations, not memory."""
+    from dataclasses import replace
+
+    from famwise.calibrate.settings import calibration_settings
+
+    plan = Plan.from_spec(tiny_study)
+    few = calibration_settings(plan, "high-vs-low", datasets=10, permutations=None, shards=10)
+    minutes = sizing.calibrate_shard_runtime_min
+    many = replace(few, datasets=10_000, nulls=replace(few.nulls, permutations=9999))
+    assert minutes(plan, many) > minutes(plan, few) >= sizing.MIN_RUNTIME_MIN
+    assert sizing.calibrate_shard_mem_mb(plan, many) == sizing.calibrate_shard_mem_mb(plan, few) > 0

@@ -368,6 +368,26 @@ def small_runtime_min(plan) -> int:
     return MIN_RUNTIME_MIN
 
 
+# ---- calibration (famwise calibrate) ---------------------------------------------------
+
+
+def calibrate_shard_mem_mb(plan, settings) -> int:
+    """Memory (MB) of one calibration shard: the contrast's data 3 times (kept, one null dataset, its
+    statistic) and the null's working set. ``settings`` is the `famwise.settings.CalibrationSettings`."""
+    sizes = study_sizes(plan)
+    return _mem(3 * _contrast_bytes(sizes) + NULL_BYTES_PER_POINT * sizes.n_points)
+
+
+def calibrate_shard_runtime_min(plan, settings) -> int:
+    """Wall time (minutes) of one calibration shard: each of its datasets runs the whole permutation table,
+    every row through every correction's collector (as :func:`power_shard_runtime_min`)."""
+    sizes = study_sizes(plan)
+    collectors = sum({"cluster": 50, "tfce": 100}.get(c.method, 2) for c in plan.study.inference.corrections)
+    datasets = -(-settings.datasets // settings.shards)
+    per_row = sizes.n_points * (sizes.n_subjects * sizes.n_conditions + collectors)
+    return _minutes(datasets * (settings.nulls.permutations + 1) * per_row, NULL_RATE)
+
+
 # ---- power simulation (famwise power) --------------------------------------------------
 
 

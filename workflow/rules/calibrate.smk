@@ -8,10 +8,22 @@ CALIBRATE_SHARDS = int(config.get("calibrate_shards", min(10, CALIBRATE_DATASETS
 CALIBRATE_PERMUTATIONS = config.get("calibrate_permutations")  # None: the study's own number
 
 
+def _calibration(wildcards):
+    return _calibration_settings(PLAN, wildcards.contrast, datasets=CALIBRATE_DATASETS,
+                                 permutations=None if CALIBRATE_PERMUTATIONS is None else int(CALIBRATE_PERMUTATIONS),
+                                 shards=CALIBRATE_SHARDS)
+
+
 def calibration_settings(wildcards):
-    return to_json(_calibration_settings(PLAN, wildcards.contrast, datasets=CALIBRATE_DATASETS,
-                                         permutations=None if CALIBRATE_PERMUTATIONS is None else int(CALIBRATE_PERMUTATIONS),
-                                         shards=CALIBRATE_SHARDS))
+    return to_json(_calibration(wildcards))
+
+
+def calibrate_shard_mem_mb(wildcards, attempt):
+    return sizing.calibrate_shard_mem_mb(PLAN, _calibration(wildcards)) * attempt
+
+
+def calibrate_shard_runtime(wildcards, attempt):
+    return sizing.calibrate_shard_runtime_min(PLAN, _calibration(wildcards)) * attempt
 
 
 def calibration_shard_files(wildcards):
@@ -33,6 +45,9 @@ rule calibrate_shard:
     wildcard_constraints:
         shard="[0-9]+",
     threads: 1
+    resources:
+        mem_mb=calibrate_shard_mem_mb,
+        runtime=calibrate_shard_runtime,
     shell:
         "{JOB} calibrate-shard --settings {params.settings:q} --shard {wildcards.shard} "
         "--subjects {input.subjects} --graph '{input.graph}' --out {output} > {log} 2>&1"
